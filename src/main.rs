@@ -1,0 +1,2 @@
+//! The spurline command: parse arguments, run the library, map the outcome to an exit code.
+fn main() {}
