@@ -22,9 +22,13 @@
 mod error;
 mod record;
 
+pub mod analysis;
+
 pub mod fit;
 pub mod ingest;
 pub mod plan;
+pub mod report;
+
 pub mod spectrum;
 pub mod synth;
 

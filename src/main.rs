@@ -1,2 +1,10 @@
 //! The spurline command: parse arguments, run the library, map the outcome to an exit code.
-fn main() {}
+
+mod cli;
+
+use clap::Parser;
+
+fn main() {
+    let args = cli::Cli::parse();
+    std::process::exit(cli::run(args));
+}

@@ -1,1 +1,184 @@
-//! placeholder
+//! Sine fits (IEEE Std 1241 / IEEE Std 1057): three-parameter at a known frequency, four-parameter when
+//! the frequency must be found. Both work on a centred time index in f64.
+
+mod four_param;
+mod start;
+mod sums;
+mod three_param;
+
+pub use four_param::{fit_four, FourParamOptions};
+pub use start::estimate_frequency;
+pub use three_param::fit_three;
+
+use serde::Serialize;
+use std::f64::consts::{PI, TAU};
+
+/// Which least-squares fit produced a result.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FitMethod {
+    /// Three parameters (cosine, sine, offset) at a known frequency.
+    ThreeParameter,
+    /// Four parameters: the three above plus the frequency.
+    FourParameter,
+}
+
+/// The fitted sine y(t) = A·cos(2π·f·t + φ) + C, with t = n / fs.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SineFit {
+    /// The fit used.
+    pub method: FitMethod,
+    /// Fitted (or given) frequency in hertz.
+    pub frequency_hz: f64,
+    /// Peak amplitude A in codes.
+    pub amplitude_codes: f64,
+    /// Amplitude relative to a full-scale sine (2^(N-1) codes).
+    pub amplitude_dbfs: f64,
+    /// Phase φ at sample 0, in (−π, π].
+    pub phase_rad: f64,
+    /// Offset C in codes.
+    pub offset_codes: f64,
+    /// Rms of the residual (record minus fitted sine), in codes.
+    pub residual_rms_codes: f64,
+    /// SINAD from the fit: 20·log10((A/√2) / residual rms). `None` when the residual is zero.
+    pub sinad_db: Option<f64>,
+    /// ENOB in the IEEE 1241 fit form: N − log2(residual rms / (q/√12)). `None` when the residual is zero.
+    pub enob_bits: Option<f64>,
+    /// Cycles of the fitted sine in the record: f·N/fs.
+    pub cycles: f64,
+    /// One-sigma uncertainty of `cycles` from the residual (Cramér-Rao form for a sine in white noise).
+    pub cycles_std: f64,
+    /// Gauss-Newton iterations taken (0 for the three-parameter fit).
+    pub iterations: u32,
+    /// Whether the fit met its stop rule (always true for the three-parameter fit).
+    pub converged: bool,
+}
+
+impl SineFit {
+    /// The IEEE 1057 coefficients (A0, B0) of y = A0·cos(ωt) + B0·sin(ωt) + C0, time origin at sample 0.
+    pub fn cos_sin_coefficients(&self) -> (f64, f64) {
+        (
+            self.amplitude_codes * self.phase_rad.cos(),
+            -self.amplitude_codes * self.phase_rad.sin(),
+        )
+    }
+}
+
+/// A fit together with its residual (kept for the report stage) and its warnings.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FitOutput {
+    /// The fitted figures.
+    pub fit: SineFit,
+    /// Record minus fitted sine, per sample, in codes.
+    pub residual: Vec<f64>,
+    /// Things the user should know about the fit.
+    pub warnings: Vec<String>,
+}
+
+/// Centre of the time index for n = 0..N−1; centring keeps the normal equations well conditioned.
+pub(crate) fn centre_of(samples: usize) -> f64 {
+    (samples as f64 - 1.0) / 2.0
+}
+
+/// Parameters of the model in the centred frame: a·cos(θ) + b·sin(θ) + c, θ = 2π·f_c·(n − centre).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Centred {
+    pub a: f64,
+    pub b: f64,
+    pub c: f64,
+    pub cycles_per_sample: f64,
+}
+
+/// Fills in the reported figures from centred parameters and the residual rms.
+pub(crate) fn finish(
+    p: Centred,
+    samples: usize,
+    sample_rate_hz: f64,
+    bits: u32,
+    residual_rms: f64,
+    method: FitMethod,
+    iterations: u32,
+    converged: bool,
+) -> SineFit {
+    let amplitude = p.a.hypot(p.b);
+    // In the centred frame the phase is atan2(−b, a); move the origin back to n = 0.
+    let centred_phase = (-p.b).atan2(p.a);
+    let shift = sums::reduced_product(p.cycles_per_sample, centre_of(samples));
+    let mut phase = centred_phase - TAU * shift;
+    phase = phase.rem_euclid(TAU);
+    if phase > PI {
+        phase -= TAU;
+    }
+    let fs_amp = crate::full_scale_amplitude_codes(bits);
+    let (sinad_db, enob_bits) = if residual_rms > 0.0 && amplitude > 0.0 {
+        let sinad = 20.0 * ((amplitude / 2f64.sqrt()) / residual_rms).log10();
+        let enob = bits as f64 - (residual_rms / (1.0 / 12f64.sqrt())).log2();
+        (Some(sinad), Some(enob))
+    } else {
+        (None, None)
+    };
+    let cycles = p.cycles_per_sample * samples as f64;
+    SineFit {
+        method,
+        frequency_hz: p.cycles_per_sample * sample_rate_hz,
+        amplitude_codes: amplitude,
+        amplitude_dbfs: 20.0 * (amplitude / fs_amp).log10(),
+        phase_rad: phase,
+        offset_codes: p.c,
+        residual_rms_codes: residual_rms,
+        sinad_db,
+        enob_bits,
+        cycles,
+        cycles_std: cycles_std(amplitude, residual_rms, samples),
+        iterations,
+        converged,
+    }
+}
+
+/// One-sigma uncertainty of the cycle count of a sine of amplitude A in white noise of rms σ over N
+/// samples: var(ω) = 12σ² / (A²·N·(N²−1)) rad²/sample² (Rife & Boorstyn 1974), times N/(2π).
+pub fn cycles_std(amplitude: f64, noise_rms: f64, samples: usize) -> f64 {
+    let n = samples as f64;
+    if amplitude <= 0.0 || n < 2.0 {
+        return f64::INFINITY;
+    }
+    let var_omega = 12.0 * noise_rms * noise_rms / (amplitude * amplitude * n * (n * n - 1.0));
+    var_omega.sqrt() * n / TAU
+}
+
+/// Computes the residual of the centred model, and its rms.
+pub(crate) fn residual_of(y: &[f64], p: Centred) -> (Vec<f64>, f64) {
+    let phasor = sums::Phasor {
+        cycles_per_sample: p.cycles_per_sample,
+        centre: centre_of(y.len()),
+    };
+    let mut out = vec![0.0; y.len()];
+    let mut sum_sq = 0.0;
+    for_each_cos_sin(y.len(), phasor, |n, c, s| {
+        let r = y[n] - (p.a * c + p.b * s + p.c);
+        out[n] = r;
+        sum_sq += r * r;
+    });
+    let rms = (sum_sq / y.len() as f64).sqrt();
+    (out, rms)
+}
+
+/// Visits every sample in order with the model's cos/sin (recurrence re-seeded every 1024 samples).
+pub(crate) fn for_each_cos_sin(samples: usize, phasor: sums::Phasor, mut f: impl FnMut(usize, f64, f64)) {
+    let step = {
+        let (s, c) = (TAU * phasor.cycles_per_sample.fract()).sin_cos();
+        (c, s)
+    };
+    let mut n = 0;
+    while n < samples {
+        let end = (n + 1024).min(samples);
+        let (mut c, mut s) = phasor.cos_sin_at(n);
+        for k in n..end {
+            f(k, c, s);
+            let c2 = c * step.0 - s * step.1;
+            s = s * step.0 + c * step.1;
+            c = c2;
+        }
+        n = end;
+    }
+}

@@ -1,0 +1,56 @@
+//! Benchmarks: fit plus spectrum of 2^16 and 2^20 records beside one bare real FFT of the same length
+//! (target: analysis ≤ 3× the FFT), and text parsing of 2^20 codes (target: < 30 ms).
+
+use criterion::{criterion_group, criterion_main, Criterion};
+use spurline::analysis::{analyze, AnalysisSettings};
+use spurline::synth::{synthesize, SynthFrequency, SynthSettings};
+
+fn record(samples: usize, coherent: bool) -> spurline::Record {
+    synthesize(&SynthSettings {
+        bits: 16,
+        samples,
+        noise_rms_codes: 2.0,
+        frequency: if coherent {
+            SynthFrequency::NearestCoherent(10.1e6)
+        } else {
+            SynthFrequency::Hz(10.1234567e6)
+        },
+        harmonics_dbc: vec![(2, -80.0), (3, -85.0)],
+        ..SynthSettings::default()
+    })
+    .unwrap()
+    .record
+}
+
+fn bench(c: &mut Criterion) {
+    let mut g = c.benchmark_group("analysis");
+    g.sample_size(10);
+    for log2 in [16u32, 20] {
+        let n = 1usize << log2;
+        let data: Vec<f64> = (0..n).map(|i| (i as f64 * 0.1).sin()).collect();
+        g.bench_function(format!("real_fft_2^{log2}"), |b| {
+            let mut buf = data.clone();
+            b.iter(|| {
+                buf.copy_from_slice(&data);
+                spurline::spectrum::fft::real_fft(&mut buf)
+            })
+        });
+        for coherent in [true, false] {
+            let rec = record(n, coherent);
+            let name = format!(
+                "fit_and_spectrum_2^{log2}_{}",
+                if coherent { "coherent" } else { "windowed" }
+            );
+            g.bench_function(name, |b| b.iter(|| analyze(&rec, &AnalysisSettings::default()).unwrap()));
+        }
+    }
+    let rec = record(1 << 20, true);
+    let text: String = rec.codes.iter().map(|c| format!("{c}\n")).collect();
+    g.bench_function("parse_text_2^20", |b| {
+        b.iter(|| spurline::ingest::parse_text(text.as_bytes(), "bench", 16).unwrap())
+    });
+    g.finish();
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);

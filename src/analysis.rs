@@ -1,0 +1,235 @@
+//! The analysis pipeline of one record (or several averaged records of one condition): sine fit, then
+//! spectrum, then one result record that every output format is made from.
+
+use crate::fit::{self, FitOutput, FourParamOptions, SineFit};
+use crate::spectrum::{self, tones::Owner, Spectrum, SpectrumSettings};
+use crate::{Error, ErrorKind, Location, Record, Result};
+use serde::Serialize;
+
+/// Which sine fit to run.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum FitChoice {
+    /// Four-parameter fit (the frequency is found); the record's frequency hint, if any, guides the start.
+    #[default]
+    Four,
+    /// Three-parameter fit at the record's known frequency (`fin_hint_hz`, required).
+    Three,
+}
+
+/// Settings of the whole analysis.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct AnalysisSettings {
+    /// The fit.
+    pub fit: FitChoice,
+    /// The spectral stage.
+    pub spectrum: SpectrumSettings,
+    /// Minimum record length accepted (0: 64 samples).
+    pub min_samples: usize,
+}
+
+/// An error of one record, as it appears in the outputs.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ErrorReport {
+    /// The class of error.
+    pub kind: ErrorKind,
+    /// The whole message: file, place, expected, found.
+    pub message: String,
+}
+
+impl From<&Error> for ErrorReport {
+    fn from(e: &Error) -> Self {
+        ErrorReport {
+            kind: e.kind,
+            message: e.to_string(),
+        }
+    }
+}
+
+/// The result record of one analysis: every output (text, JSON, CSV, HTML) is made from this.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Analysis {
+    /// Where the record came from (the first one, when several were averaged).
+    pub source: String,
+    /// Samples per record.
+    pub samples: usize,
+    /// Sample rate, hertz.
+    pub sample_rate_hz: f64,
+    /// Resolution N, bits.
+    pub bits: u32,
+    /// Full-scale range when known, volts peak-to-peak.
+    pub full_scale_vpp: Option<f64>,
+    /// The sine fit (of the first record when several were averaged).
+    pub fit: Option<SineFit>,
+    /// The spectral figures.
+    pub spectrum: Option<Spectrum>,
+    /// Everything the user should know about this record, each with its count or value.
+    pub warnings: Vec<String>,
+    /// Set when the record failed; the figures are then absent.
+    pub error: Option<ErrorReport>,
+}
+
+impl Analysis {
+    /// The result record of a record that could not be analysed.
+    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> Analysis {
+        Analysis {
+            source: source.to_string(),
+            samples: 0,
+            sample_rate_hz: 0.0,
+            bits: 0,
+            full_scale_vpp: None,
+            fit: None,
+            spectrum: None,
+            warnings,
+            error: Some(error.into()),
+        }
+    }
+}
+
+/// Per-sample and per-bin data behind an analysis, kept for the plots and not serialised.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Traces {
+    /// Residual of the sine fit (first record), codes.
+    pub residual: Vec<f64>,
+    /// Averaged bin powers, codes² (see [`spectrum::fft::power_spectrum`]).
+    pub powers: Vec<f64>,
+    /// Owner of each bin.
+    pub owner: Vec<Owner>,
+    /// Count per code of the first record, index 0 = lowest code −2^(N−1) (empty above 24 bits).
+    pub histogram: Vec<u64>,
+}
+
+/// Both halves of an analysis.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Measured {
+    /// The result record.
+    pub analysis: Analysis,
+    /// The data for plots.
+    pub traces: Traces,
+}
+
+/// Analyses one record.
+pub fn analyze(record: &Record, settings: &AnalysisSettings) -> Result<Measured> {
+    analyze_averaged(std::slice::from_ref(record), settings)
+}
+
+/// Analyses several records of one condition: each is fitted, their power spectra are averaged.
+pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Result<Measured> {
+    let first = records.first().ok_or_else(|| {
+        Error::new(ErrorKind::Empty, "", Location::Whole, "at least one record", "none")
+    })?;
+    let src = first.source.clone();
+    let min = if settings.min_samples == 0 { 64 } else { settings.min_samples };
+    for r in records {
+        if r.len() < min {
+            return Err(Error::new(
+                ErrorKind::TooFewSamples,
+                &r.source,
+                Location::Whole,
+                format!("at least {min} samples for the analysis"),
+                format!("{} samples", r.len()),
+            ));
+        }
+        if r.len() != first.len() || r.sample_rate_hz != first.sample_rate_hz || r.bits != first.bits {
+            return Err(Error::new(
+                ErrorKind::BadSetting,
+                &r.source,
+                Location::Whole,
+                format!(
+                    "the same length, rate and resolution as {} ({} samples, {} Hz, {} bits) to average",
+                    first.source, first.len(), first.sample_rate_hz, first.bits
+                ),
+                format!("{} samples, {} Hz, {} bits", r.len(), r.sample_rate_hz, r.bits),
+            ));
+        }
+    }
+    let data: Vec<Vec<f64>> = records
+        .iter()
+        .map(|r| r.codes.iter().map(|&c| c as f64).collect())
+        .collect();
+    let mut warnings = Vec::new();
+    let mut fits = Vec::with_capacity(records.len());
+    for (r, y) in records.iter().zip(&data) {
+        let out = run_fit(r, y, settings).map_err(|e| e.with_path(&r.source))?;
+        fits.push(out);
+    }
+    let FitOutput {
+        fit,
+        residual,
+        warnings: fit_warnings,
+    } = fits.swap_remove(0);
+    warnings.extend(fit_warnings);
+    for (r, other) in records.iter().skip(1).zip(&fits) {
+        if (other.fit.cycles - fit.cycles).abs() > 0.5 {
+            warnings.push(format!(
+                "{} has its tone at {:.3} cycles, {:.3} cycles from the first record: averaging smears it",
+                r.source,
+                other.fit.cycles,
+                other.fit.cycles - fit.cycles
+            ));
+        }
+    }
+    let views: Vec<&[f64]> = data.iter().map(|v| v.as_slice()).collect();
+    let spec = spectrum::measure(&views, &fit, first.sample_rate_hz, first.bits, &settings.spectrum)
+        .map_err(|e| e.with_path(&src))?;
+    warnings.extend(spec.warnings);
+    let histogram = histogram_of(&first.codes, first.bits);
+    Ok(Measured {
+        analysis: Analysis {
+            source: src,
+            samples: first.len(),
+            sample_rate_hz: first.sample_rate_hz,
+            bits: first.bits,
+            full_scale_vpp: first.full_scale_vpp,
+            fit: Some(fit),
+            spectrum: Some(spec.spectrum),
+            warnings,
+            error: None,
+        },
+        traces: Traces {
+            residual,
+            powers: spec.powers,
+            owner: spec.owner,
+            histogram,
+        },
+    })
+}
+
+fn run_fit(r: &Record, y: &[f64], settings: &AnalysisSettings) -> Result<FitOutput> {
+    match settings.fit {
+        FitChoice::Three => {
+            let f = r.fin_hint_hz.ok_or_else(|| {
+                Error::setting(
+                    "fin",
+                    "an input frequency (--fin or the sidecar's fin_hz) for the three-parameter fit",
+                    "none",
+                )
+            })?;
+            fit::fit_three(y, r.sample_rate_hz, f, r.bits)
+        }
+        FitChoice::Four => fit::fit_four(
+            y,
+            r.sample_rate_hz,
+            r.bits,
+            FourParamOptions {
+                hint_hz: r.fin_hint_hz,
+                ..FourParamOptions::default()
+            },
+        ),
+    }
+}
+
+/// Count per code, lowest code first; empty above 24 bits where a full table would not fit the plots.
+pub fn histogram_of(codes: &[i32], bits: u32) -> Vec<u64> {
+    if bits > 24 {
+        return Vec::new();
+    }
+    let lo = crate::min_code(bits);
+    let mut h = vec![0u64; 1usize << bits];
+    for &c in codes {
+        let i = (c as i64 - lo) as usize;
+        if let Some(slot) = h.get_mut(i) {
+            *slot += 1;
+        }
+    }
+    h
+}

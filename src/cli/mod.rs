@@ -1,0 +1,210 @@
+//! Command-line definitions (clap) and their conversion into validated library settings.
+
+mod analyze;
+mod demo;
+mod synth;
+
+use clap::{Args, Parser, Subcommand};
+
+/// Exit status: all records analysed and every limit passed.
+pub const EXIT_OK: i32 = 0;
+/// Exit status: some limit failed.
+pub const EXIT_FAIL: i32 = 1;
+/// Exit status: an error (bad input, bad settings, an unreadable or unanalysable record).
+pub const EXIT_ERROR: i32 = 2;
+
+/// spurline: dynamic performance of analog-to-digital converters from captured output codes,
+/// by the methods of IEEE Std 1241.
+#[derive(Debug, Parser)]
+#[command(
+    name = "spurline",
+    version,
+    after_help = "Exit status: 0 all records analysed (and all limits passed), 1 some limit failed, 2 an error."
+)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands: verbs for what the user wants done.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Analyse captured records: sine fit and spectral figures, one table (or JSON object) per record.
+    Analyze(analyze::AnalyzeArgs),
+    /// Write records from a simulated N-bit converter (for demos and tests).
+    Synth(synth::SynthArgs),
+    /// Run the main job on built-in generated data and write a report into reports/demo/.
+    Demo(demo::DemoArgs),
+}
+
+/// Runs a parsed command line and returns the exit status.
+pub fn run(cli: Cli) -> i32 {
+    match cli.command {
+        Command::Analyze(a) => analyze::run(a),
+        Command::Synth(a) => synth::run(a),
+        Command::Demo(a) => demo::run(a),
+    }
+}
+
+/// Prints an error the same way everywhere and returns the error exit status.
+pub(crate) fn fail(e: &spurline::Error) -> i32 {
+    eprintln!("spurline: error: {e}");
+    EXIT_ERROR
+}
+
+/// Parses a frequency or other quantity with an optional SI prefix ("100M", "1.5 kHz", "1e6").
+pub(crate) fn si_value(s: &str) -> Result<f64, String> {
+    spurline::report::units::parse_si(s)
+        .ok_or_else(|| format!("expected a number with an optional SI prefix (100e6, 100M, 1.5k), found '{s}'"))
+}
+
+/// Options that say how to read records, shared by the commands that read them.
+#[derive(Debug, Clone, Args)]
+pub struct ReadArgs {
+    /// Sample rate in hertz (SI prefixes allowed: 100M). Overrides the sidecar.
+    #[arg(long, value_parser = si_value)]
+    pub fs: Option<f64>,
+    /// Converter resolution N in bits (1..=32). Overrides the sidecar.
+    #[arg(long)]
+    pub bits: Option<u32>,
+    /// Expected input frequency in hertz: guides the four-parameter fit, required by --fit three.
+    #[arg(long, value_parser = si_value)]
+    pub fin: Option<f64>,
+    /// Full-scale range in volts peak-to-peak (reported only).
+    #[arg(long)]
+    pub full_scale_vpp: Option<f64>,
+    /// Record format: text, csv, or a binary word layout i8, u8, i16le, i16be, u16le, u16be, i32le,
+    /// i32be, u32le, u32be (signed words hold two's complement, unsigned offset binary, unless --coding).
+    #[arg(long)]
+    pub format: Option<String>,
+    /// Code format in binary words: twos or offset.
+    #[arg(long, value_parser = ["twos", "offset"])]
+    pub coding: Option<String>,
+    /// Where the N significant bits sit in a binary word: right (LSB-aligned) or left (MSB-aligned).
+    #[arg(long, value_parser = ["right", "left"])]
+    pub justify: Option<String>,
+    /// Header bytes to skip at the start of a binary file.
+    #[arg(long)]
+    pub skip_bytes: Option<u64>,
+    /// Interleaved channels: take channel K of M (1-based), e.g. 2/4.
+    #[arg(long)]
+    pub channel: Option<String>,
+    /// CSV column: a header name or a 0-based index.
+    #[arg(long)]
+    pub column: Option<String>,
+    /// CSV delimiter (one character; "tab" for a tab). Detected when absent.
+    #[arg(long)]
+    pub delimiter: Option<String>,
+}
+
+impl ReadArgs {
+    /// Converts into ingest settings, validating what can be validated before any file is read.
+    pub fn settings(&self) -> Result<spurline::ingest::IngestSettings, spurline::Error> {
+        use spurline::ingest::{ColumnSel, Format, IngestSettings, Justify, Metadata};
+        use spurline::Error;
+        let format = match self.format.as_deref() {
+            None => None,
+            Some("text") | Some("txt") => Some(Format::Text),
+            Some("csv") => Some(Format::Csv {
+                column: ColumnSel::Index(0),
+                delimiter: None,
+            }),
+            Some(word) => Some(Format::Binary(Format::parse_word(word)?)),
+        };
+        let column = self.column.as_ref().map(|c| match c.parse::<usize>() {
+            Ok(i) => ColumnSel::Index(i),
+            Err(_) => ColumnSel::Name(c.clone()),
+        });
+        let delimiter = match self.delimiter.as_deref() {
+            None => None,
+            Some("tab") | Some("\\t") => Some(b'\t'),
+            Some(d) if d.len() == 1 => Some(d.as_bytes()[0]),
+            Some(d) => {
+                return Err(Error::setting(
+                    "delimiter",
+                    "one ASCII character or 'tab'",
+                    format!("'{d}'"),
+                ))
+            }
+        };
+        Ok(IngestSettings {
+            format,
+            meta: Metadata {
+                sample_rate_hz: self.fs,
+                bits: self.bits,
+                fin_hz: self.fin,
+                full_scale_vpp: self.full_scale_vpp,
+            },
+            coding: self.coding.as_deref().map(|c| match c {
+                "offset" => spurline::Coding::OffsetBinary,
+                _ => spurline::Coding::TwosComplement,
+            }),
+            justify: self.justify.as_deref().map(|j| match j {
+                "left" => Justify::Left,
+                _ => Justify::Right,
+            }),
+            skip_bytes: self.skip_bytes,
+            channel: self
+                .channel
+                .as_deref()
+                .map(spurline::ingest::parse_channel)
+                .transpose()?,
+            column,
+            delimiter,
+            min_samples: 0,
+        })
+    }
+}
+
+/// Options of the analysis itself.
+#[derive(Debug, Clone, Args)]
+pub struct AnalysisArgs {
+    /// Sine fit: four (the frequency is found) or three (at --fin).
+    #[arg(long, default_value = "four", value_parser = ["four", "three"])]
+    pub fit: String,
+    /// Window: auto, or one of rectangular, hann, blackman-harris-4, blackman-harris-7, hft90d,
+    /// hft116d, hft144d, hft169d, flattop, kaiser(BETA).
+    #[arg(long, default_value = "auto")]
+    pub window: String,
+    /// Highest harmonic order claimed (2..=H).
+    #[arg(long, default_value_t = 10)]
+    pub harmonics: u32,
+    /// Extra bins on each side of every tone span beyond the window's main lobe (default: 0 coherent,
+    /// 1 non-coherent).
+    #[arg(long)]
+    pub span_guard: Option<usize>,
+}
+
+impl AnalysisArgs {
+    /// Converts into analysis settings.
+    pub fn settings(&self) -> Result<spurline::analysis::AnalysisSettings, spurline::Error> {
+        use spurline::analysis::{AnalysisSettings, FitChoice};
+        use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
+        let window = if self.window.eq_ignore_ascii_case("auto") {
+            WindowChoice::Auto
+        } else {
+            WindowChoice::Fixed(Window::parse(&self.window)?)
+        };
+        if !(1..=100).contains(&self.harmonics) {
+            return Err(spurline::Error::setting(
+                "harmonics",
+                "a highest harmonic order in 1..=100",
+                self.harmonics.to_string(),
+            ));
+        }
+        Ok(AnalysisSettings {
+            fit: if self.fit == "three" {
+                FitChoice::Three
+            } else {
+                FitChoice::Four
+            },
+            spectrum: SpectrumSettings {
+                window,
+                harmonics: self.harmonics,
+                span_guard_bins: self.span_guard,
+            },
+            min_samples: 0,
+        })
+    }
+}

@@ -1,0 +1,119 @@
+//! The readable per-record table that `analyze` prints.
+
+use super::units::{fixed, si};
+use crate::analysis::Analysis;
+use std::fmt::Write;
+
+/// Renders one result record as a block of labelled lines.
+pub fn render(a: &Analysis) -> String {
+    let mut s = String::new();
+    let rule = "─".repeat(72usize.saturating_sub(a.source.chars().count() + 4));
+    let _ = writeln!(s, "── {} {rule}", a.source);
+    if let Some(e) = &a.error {
+        let _ = writeln!(s, "  error      {}", e.message);
+        for w in &a.warnings {
+            let _ = writeln!(s, "  warning    {w}");
+        }
+        return s;
+    }
+    let _ = writeln!(
+        s,
+        "  record     {} samples · {} bits · fs {}",
+        a.samples,
+        a.bits,
+        si(a.sample_rate_hz, "Hz", 6)
+    );
+    if let Some(f) = &a.fit {
+        let method = match f.method {
+            crate::fit::FitMethod::ThreeParameter => "three-parameter",
+            crate::fit::FitMethod::FourParameter => "four-parameter",
+        };
+        let _ = writeln!(
+            s,
+            "  sine fit   {method} · {} · {:.3} dBFS ({:.2} codes) · offset {:.3} codes · {:.4} cycles",
+            si(f.frequency_hz, "Hz", 9),
+            f.amplitude_dbfs,
+            f.amplitude_codes,
+            f.offset_codes,
+            f.cycles
+        );
+        let _ = writeln!(
+            s,
+            "             residual {:.4} codes rms · SINAD {} dB · ENOB {} bits (fit form) · {} iterations{}",
+            f.residual_rms_codes,
+            fixed(f.sinad_db, 2),
+            fixed(f.enob_bits, 3),
+            f.iterations,
+            if f.converged { "" } else { " (NOT converged)" }
+        );
+    }
+    if let Some(sp) = &a.spectrum {
+        let _ = writeln!(
+            s,
+            "  spectrum   window {} ({}) · {} record(s) averaged · bin {}",
+            sp.window,
+            if sp.coherent { "coherent" } else { "non-coherent" },
+            sp.records_averaged,
+            si(sp.bin_width_hz, "Hz", 4)
+        );
+        let _ = writeln!(
+            s,
+            "             fundamental {} dBFS · SNR {} dB · SINAD {} dB · THD {} dBc",
+            fixed(sp.fundamental_dbfs, 2),
+            fixed(sp.snr_db, 2),
+            fixed(sp.sinad_db, 2),
+            fixed(sp.thd_db, 2)
+        );
+        let spur = sp.worst_spur.as_ref().map_or("—".to_string(), |w| {
+            format!(
+                "{} ({})",
+                si(w.frequency_hz, "Hz", 6),
+                w.harmonic.map_or("not a harmonic".to_string(), |h| format!("H{h}"))
+            )
+        });
+        let _ = writeln!(
+            s,
+            "             SFDR {} dBc / {} dBFS, worst spur at {spur}",
+            fixed(sp.sfdr_dbc, 2),
+            fixed(sp.sfdr_dbfs, 2)
+        );
+        let _ = writeln!(
+            s,
+            "             ENOB {} bits (spectral) · {} bits (full-scale referred)",
+            fixed(sp.enob_bits, 3),
+            fixed(sp.enob_fs_bits, 3)
+        );
+        let _ = writeln!(
+            s,
+            "             noise floor {} dBFS per bin · NSD {} dBFS/Hz",
+            fixed(sp.noise_floor_dbfs, 2),
+            fixed(sp.nsd_dbfs_per_hz, 2)
+        );
+        let _ = writeln!(
+            s,
+            "  leakage    {:+.3} bins off-centre · outside span {} dBc · SNR bias ≤ {:.3} dB · SFDR bias ≤ {:.3} dB",
+            sp.leakage.offset_bins,
+            fixed(sp.leakage.outside_span_dbc, 1),
+            sp.leakage.snr_bias_db,
+            sp.leakage.sfdr_bias_db
+        );
+        let _ = write!(s, "  harmonics ");
+        for (i, h) in sp.harmonics.iter().enumerate() {
+            if i > 0 && i % 3 == 0 {
+                let _ = write!(s, "\n            ");
+            }
+            let level = match (&h.masked_by, h.dbc) {
+                (Some(by), _) => format!("masked by {by}"),
+                (None, Some(d)) if h.at_floor => format!("≤{d:.1} dBc (floor)"),
+                (None, Some(d)) => format!("{d:.1} dBc"),
+                _ => "—".to_string(),
+            };
+            let _ = write!(s, " H{:<2} {:>12} {:<20}", h.order, si(h.frequency_hz, "Hz", 5), level);
+        }
+        let _ = writeln!(s);
+    }
+    for w in &a.warnings {
+        let _ = writeln!(s, "  warning    {w}");
+    }
+    s
+}

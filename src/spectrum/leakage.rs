@@ -1,0 +1,113 @@
+//! Leakage diagnosis: how much the record's own spectral leakage, at its actual fractional-bin offset
+//! and under the chosen window, can bias SNR and SFDR, and what would fix it.
+
+use super::metrics::Figures;
+use super::{half_span, Coherence, Window, AUTO_LADDER, BIAS_WARN_DB};
+use crate::fit::SineFit;
+use serde::Serialize;
+
+/// The leakage figures of one analysis (`spectrum.leakage` in the JSON).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LeakageDiagnosis {
+    /// Tone offset from its centre bin, in bins (−0.5..0.5).
+    pub offset_bins: f64,
+    /// Fundamental power that falls outside its span, relative to the fundamental (from the window's
+    /// known spectrum at this offset); `None` when below the rounding floor.
+    pub outside_span_dbc: Option<f64>,
+    /// The largest single leaked bin outside the span, dBc.
+    pub worst_bin_dbc: Option<f64>,
+    /// Loss of the peak bin against a bin-centred tone at this offset (scalloping), dB.
+    pub scalloping_loss_db: f64,
+    /// Upper bound on the SNR bias the leakage causes, dB (leaked power counted as noise).
+    pub snr_bias_db: f64,
+    /// Upper bound on the SFDR bias (leaked bin read as the worst spur), dB.
+    pub sfdr_bias_db: f64,
+    /// True when either bias exceeds 0.1 dB.
+    pub significant: bool,
+    /// What would fix it, when significant.
+    pub advice: Option<String>,
+}
+
+/// Bias, in dB, of a measured power `measured` that contains an unwanted share `unwanted`.
+fn bias_db(measured: f64, unwanted: f64) -> f64 {
+    if unwanted <= 0.0 || measured <= 0.0 {
+        return 0.0;
+    }
+    let clean = (measured - unwanted).max(measured * 1e-10);
+    (10.0 * (measured / clean).log10()).min(100.0)
+}
+
+fn biases(window: Window, half: usize, offset: f64, figs: &Figures) -> (f64, f64, super::Leakage) {
+    let leak = window.leakage(offset, half);
+    let to_power = |dbc: Option<f64>| dbc.map_or(0.0, |d| figs.fundamental_power * 10f64.powf(d / 10.0));
+    let snr_bias = bias_db(figs.noise_power, to_power(leak.outside_span_dbc));
+    let spur = figs
+        .worst_spur
+        .as_ref()
+        .map_or(0.0, |s| figs.fundamental_power * 10f64.powf(s.dbc / 10.0));
+    let sfdr_bias = bias_db(spur, to_power(leak.worst_bin_outside_dbc));
+    (snr_bias, sfdr_bias, leak)
+}
+
+/// Diagnoses the leakage of one analysis and appends warnings with their fix.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn diagnose(
+    window: Window,
+    half: usize,
+    coherence: &Coherence,
+    figs: &Figures,
+    samples: usize,
+    sample_rate_hz: f64,
+    fit: &SineFit,
+    warnings: &mut Vec<String>,
+) -> LeakageDiagnosis {
+    let offset = coherence.offset_cycles;
+    let (snr_bias, sfdr_bias, leak) = biases(window, half, offset, figs);
+    let significant = snr_bias > BIAS_WARN_DB || sfdr_bias > BIAS_WARN_DB;
+    let mut advice = None;
+    if significant {
+        let mut fixes = Vec::new();
+        if let Some(w) = AUTO_LADDER.iter().chain(&[Window::Hft144d]).find(|w| {
+            **w != window && {
+                let (s, f, _) = biases(**w, half_span(**w, false, None), offset, figs);
+                s <= BIAS_WARN_DB && f <= BIAS_WARN_DB
+            }
+        }) {
+            fixes.push(format!("the {} window", w.name()));
+        }
+        if let Some(s) = (half + 1..=half + 40).find(|s| {
+            let (a, b, _) = biases(window, *s, offset, figs);
+            a <= BIAS_WARN_DB && b <= BIAS_WARN_DB
+        }) {
+            fixes.push(format!("a span of ±{s} bins (--span-guard {})", s.saturating_sub(half_span(window, coherence.coherent, Some(0)))));
+        }
+        if let Ok(c) = crate::plan::nearest_coherent(sample_rate_hz, samples, fit.frequency_hz, false) {
+            fixes.push(format!(
+                "a coherent input: J = {} cycles, {:.6} Hz for N = {samples} at {sample_rate_hz} Hz",
+                c.cycles, c.frequency_hz
+            ));
+        }
+        let text = fixes.join("; or ");
+        warnings.push(format!(
+            "leakage of the {} window at {offset:+.3} bins off-centre can bias SNR by {snr_bias:.2} dB and SFDR by {sfdr_bias:.2} dB (limit {BIAS_WARN_DB} dB); fix: {text}",
+            window.name()
+        ));
+        advice = Some(text);
+    }
+    if !coherence.coherent && window == Window::Rectangular {
+        warnings.push(format!(
+            "non-coherent record ({:.4} cycles) analysed without a window: the tone leaks across the spectrum and the peak bin loses {:.2} dB (scalloping)",
+            coherence.cycles, leak.peak_bin_loss_db
+        ));
+    }
+    LeakageDiagnosis {
+        offset_bins: offset,
+        outside_span_dbc: leak.outside_span_dbc,
+        worst_bin_dbc: leak.worst_bin_outside_dbc,
+        scalloping_loss_db: leak.peak_bin_loss_db,
+        snr_bias_db: snr_bias,
+        sfdr_bias_db: sfdr_bias,
+        significant,
+        advice,
+    }
+}

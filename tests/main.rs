@@ -1,0 +1,5 @@
+//! Integration tests, one binary with a module per topic. Every check names its source beside it.
+
+mod cli;
+mod pipeline;
+mod tolerances;
