@@ -285,7 +285,7 @@ pub fn measure(
     }
     if coherence.coherent {
         let j = coherence.cycles.round() as u64;
-        let g = gcd(j, n as u64);
+        let g = crate::plan::gcd(j, n as u64);
         if g != 1 || j % 2 == 0 {
             warnings.push(format!(
                 "coherent with J = {j} cycles, which {}: the record samples only {} distinct phases, so quantisation error piles into harmonics; prefer an odd J coprime with N",
@@ -334,11 +334,4 @@ pub fn measure(
         owner: claims.owner,
         warnings,
     })
-}
-
-fn gcd(mut a: u64, mut b: u64) -> u64 {
-    while b != 0 {
-        (a, b) = (b, a % b);
-    }
-    a
 }

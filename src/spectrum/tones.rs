@@ -1,6 +1,7 @@
 //! Bin claiming: who owns each bin of the one-sided spectrum (DC, the fundamental, a harmonic, or noise),
 //! with harmonics folded into the first Nyquist zone.
 
+use crate::plan::fold_bin;
 use serde::Serialize;
 
 /// Owner of a spectrum bin.
@@ -41,17 +42,6 @@ pub struct Claims {
     pub fundamental_bin: usize,
     /// Harmonics 2..=H in order.
     pub harmonics: Vec<HarmonicSlot>,
-}
-
-/// Folds a (fractional) bin into the first Nyquist zone 0..=N/2 of an N-point DFT.
-pub fn fold_bin(bin: f64, samples: usize) -> f64 {
-    let n = samples as f64;
-    let b = bin.rem_euclid(n);
-    if b > n / 2.0 {
-        n - b
-    } else {
-        b
-    }
 }
 
 /// Claims bins in the order DC, fundamental, harmonics 2..=`harmonics`; a bin is never claimed twice.
@@ -109,16 +99,6 @@ pub fn claim_bins(samples: usize, tone_bin: f64, harmonics: u32, half_span: usiz
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    // Folding into the first Nyquist zone: f → |f − fs·round(f/fs)| (common practice, no source).
-    #[test]
-    fn folds_into_first_zone() {
-        assert_eq!(fold_bin(300.0, 1000), 300.0);
-        assert_eq!(fold_bin(700.0, 1000), 300.0);
-        assert_eq!(fold_bin(1300.0, 1000), 300.0);
-        assert_eq!(fold_bin(1000.0, 1000), 0.0);
-        assert_eq!(fold_bin(500.0, 1000), 500.0);
-    }
 
     // fin = fs/4: H2 lands on Nyquist, H3 folds onto the fundamental, H4 onto DC (common practice).
     #[test]
