@@ -1,0 +1,524 @@
+//! Raw binary records: 8-, 16- or 32-bit words in either byte order, two's complement or offset binary,
+//! N significant bits right- or left-justified, an optional header to skip and interleaved channels.
+
+use super::checks::{check_bits, no_samples, range_text};
+use super::{BinaryLayout, Justify};
+use crate::{Coding, Error, ErrorKind, Location, Result};
+
+/// Decodes one word into a signed, centred N-bit code.
+#[derive(Debug, Clone, Copy)]
+struct Decoder {
+    word_bits: u32,
+    bits: u32,
+    coding: Coding,
+    justify: Justify,
+}
+
+/// Sign-extends the low `width` bits of `raw` (1 <= width <= 32).
+#[inline]
+fn sign_extend(raw: u32, width: u32) -> i64 {
+    let shift = 64 - width;
+    ((i64::from(raw)) << shift) >> shift
+}
+
+impl Decoder {
+    /// The code for a word, or None when the word holds no valid N-bit code.
+    #[inline]
+    fn decode(&self, raw: u32) -> Option<i64> {
+        let pad = self.word_bits - self.bits;
+        let half = 1i64 << (self.bits - 1);
+        match (self.justify, self.coding) {
+            // Left-justified: the code is the top N bits; the padding below is ignored.
+            (Justify::Left, Coding::TwosComplement) => {
+                Some(sign_extend(raw, self.word_bits) >> pad)
+            }
+            (Justify::Left, Coding::OffsetBinary) => Some((i64::from(raw) >> pad) - half),
+            (Justify::Right, Coding::OffsetBinary) => {
+                let v = i64::from(raw);
+                (v < 2 * half).then_some(v - half)
+            }
+            (Justify::Right, Coding::TwosComplement) => {
+                // Either the word is already sign-extended, or the bits above N are zero and the
+                // N-bit field carries the sign.
+                let s = sign_extend(raw, self.word_bits);
+                if (-half..half).contains(&s) {
+                    Some(s)
+                } else if u64::from(raw) >> self.bits == 0 {
+                    Some(sign_extend(raw, self.bits))
+                } else {
+                    None
+                }
+            }
+        }
+    }
+
+    /// What a valid word looks like, for the error message.
+    fn expected(&self) -> String {
+        let (n, w) = (self.bits, self.word_bits);
+        match self.coding {
+            Coding::TwosComplement => format!(
+                "{} in the low {n} bits of a {w}-bit word, the top {} bits copies of the sign bit or zero",
+                range_text(n),
+                w - n
+            ),
+            Coding::OffsetBinary => format!(
+                "0..={} ({n}-bit offset binary) right-justified in a {w}-bit word",
+                (1u64 << n) - 1
+            ),
+        }
+    }
+}
+
+/// Reads one word of 1, 2 or 4 bytes.
+#[inline]
+fn read_word(b: &[u8], big_endian: bool) -> u32 {
+    match (b.len(), big_endian) {
+        (1, _) => u32::from(b[0]),
+        (2, false) => u32::from(u16::from_le_bytes([b[0], b[1]])),
+        (2, true) => u32::from(u16::from_be_bytes([b[0], b[1]])),
+        (_, false) => u32::from_le_bytes([b[0], b[1], b[2], b[3]]),
+        (_, true) => u32::from_be_bytes([b[0], b[1], b[2], b[3]]),
+    }
+}
+
+/// Parses raw binary words into N-bit signed codes, one channel of `layout.channels`.
+///
+/// After `skip_bytes` of header the data must be a whole number of frames (`channels` words of
+/// `word_bytes` each), else [`ErrorKind::PartialWord`] at the byte offset of the trailing partial word
+/// (or frame). The coding defaults to two's complement for signed words and offset binary for unsigned
+/// ones. Left-justified codes are the top N bits (padding below ignored). Right-justified offset binary
+/// must be below 2^N; right-justified two's complement must have the bits above N either a copy of the
+/// sign bit or all zero (the N-bit field then carries the sign). Other words are
+/// [`ErrorKind::CodeOutOfRange`] at their byte offset.
+pub fn parse_binary(
+    bytes: &[u8],
+    path: &str,
+    bits: u32,
+    layout: &BinaryLayout,
+) -> Result<Vec<i32>> {
+    check_bits(bits).map_err(|e| e.with_path(path))?;
+    let w = layout.word_bytes;
+    if !matches!(w, 1 | 2 | 4) {
+        return Err(
+            Error::setting("format", "words of 1, 2 or 4 bytes", format!("{w} bytes"))
+                .with_path(path),
+        );
+    }
+    let word_bits = 8 * w as u32;
+    if bits > word_bits {
+        return Err(Error::setting(
+            "bits",
+            format!("at most {word_bits} bits in {word_bits}-bit words"),
+            bits.to_string(),
+        )
+        .with_path(path));
+    }
+    if layout.channels == 0 || layout.channel >= layout.channels {
+        return Err(Error::setting(
+            "channel",
+            "a channel K of M interleaved channels with 1 <= K <= M",
+            format!("channel {} of {}", layout.channel + 1, layout.channels),
+        )
+        .with_path(path));
+    }
+    if bytes.is_empty() {
+        return Err(no_samples(path, "an empty file"));
+    }
+    let len = bytes.len() as u64;
+    if layout.skip_bytes >= len {
+        return Err(Error::new(
+            ErrorKind::Empty,
+            path,
+            Location::Whole,
+            format!("data after the {} header bytes skipped", layout.skip_bytes),
+            format!("a file of {len} bytes"),
+        ));
+    }
+    let skip = layout.skip_bytes;
+    let data = &bytes[skip as usize..];
+    let after_header = if skip == 0 {
+        String::new()
+    } else {
+        format!(" after the {skip} header bytes")
+    };
+    let words_end = data.len() / w * w;
+    if words_end != data.len() {
+        return Err(Error::new(
+            ErrorKind::PartialWord,
+            path,
+            Location::Byte(skip + words_end as u64),
+            format!("a multiple of {w} bytes{after_header}"),
+            format!("{} bytes", data.len()),
+        ));
+    }
+    let frame = w * layout.channels;
+    let frames_end = data.len() / frame * frame;
+    if frames_end != data.len() {
+        return Err(Error::new(
+            ErrorKind::PartialWord,
+            path,
+            Location::Byte(skip + frames_end as u64),
+            format!(
+                "a multiple of {frame} bytes{after_header} (frames of {} channels of {w} bytes)",
+                layout.channels
+            ),
+            format!("{} bytes", data.len()),
+        ));
+    }
+    let decoder = Decoder {
+        word_bits,
+        bits,
+        coding: layout.coding.unwrap_or(if layout.signed {
+            Coding::TwosComplement
+        } else {
+            Coding::OffsetBinary
+        }),
+        justify: layout.justify,
+    };
+    let first = layout.channel * w;
+    let mut codes = Vec::with_capacity(data.len() / frame);
+    for (k, f) in data.chunks_exact(frame).enumerate() {
+        let raw = read_word(&f[first..first + w], layout.big_endian);
+        match decoder.decode(raw) {
+            // Every decoded value lies in the N-bit range, N <= 32, so it fits an i32.
+            Some(v) => codes.push(v as i32),
+            None => {
+                return Err(Error::new(
+                    ErrorKind::CodeOutOfRange,
+                    path,
+                    Location::Byte(skip + (k * frame + first) as u64),
+                    decoder.expected(),
+                    format!("word 0x{raw:0digits$x} ({raw})", digits = 2 * w),
+                ))
+            }
+        }
+    }
+    Ok(codes)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Sources: byte order, two's complement, offset binary (code = word - 2^(N-1)) and left/right
+    // justification of N bits in a wider word are common practice, no source. Byte offsets are
+    // counted by hand from the test layouts.
+
+    fn layout(word: &str) -> BinaryLayout {
+        super::super::Format::parse_word(word).unwrap()
+    }
+
+    fn le16(v: &[u16]) -> Vec<u8> {
+        v.iter().flat_map(|x| x.to_le_bytes()).collect()
+    }
+
+    fn be16(v: &[u16]) -> Vec<u8> {
+        v.iter().flat_map(|x| x.to_be_bytes()).collect()
+    }
+
+    #[test]
+    fn i16_both_byte_orders() {
+        // 0xFFFE is -2 in 16-bit two's complement (common practice, no source).
+        let words = [0x0001u16, 0xFFFE, 0x7FFF, 0x8000];
+        let want = vec![1, -2, 32767, -32768];
+        assert_eq!(
+            parse_binary(&le16(&words), "r.bin", 16, &layout("i16le")).unwrap(),
+            want
+        );
+        assert_eq!(
+            parse_binary(&be16(&words), "r.bin", 16, &layout("i16be")).unwrap(),
+            want
+        );
+        // The same bytes read in the wrong order give different codes.
+        assert_ne!(
+            parse_binary(&le16(&words), "r.bin", 16, &layout("i16be")).unwrap(),
+            want
+        );
+    }
+
+    #[test]
+    fn u16_offset_binary_is_centred() {
+        // Offset binary: code = word - 2^(N-1) (common practice, no source).
+        let words = [0u16, 2048, 4095, 1000];
+        let got = parse_binary(&le16(&words), "r.bin", 12, &layout("u16le")).unwrap();
+        assert_eq!(got, vec![-2048, 0, 2047, 1000 - 2048]);
+        let got = parse_binary(&be16(&words), "r.bin", 12, &layout("u16be")).unwrap();
+        assert_eq!(got, vec![-2048, 0, 2047, 1000 - 2048]);
+    }
+
+    #[test]
+    fn eight_bit_words() {
+        let bytes = [0x00u8, 0x7F, 0x80, 0xFF];
+        assert_eq!(
+            parse_binary(&bytes, "r.bin", 8, &layout("i8")).unwrap(),
+            vec![0, 127, -128, -1]
+        );
+        assert_eq!(
+            parse_binary(&bytes, "r.bin", 8, &layout("u8")).unwrap(),
+            vec![-128, -1, 0, 127]
+        );
+    }
+
+    #[test]
+    fn thirty_two_bit_words() {
+        let vals = [i32::MIN, -1, 0, i32::MAX];
+        let le: Vec<u8> = vals.iter().flat_map(|v| v.to_le_bytes()).collect();
+        let be: Vec<u8> = vals.iter().flat_map(|v| v.to_be_bytes()).collect();
+        assert_eq!(
+            parse_binary(&le, "r.bin", 32, &layout("i32le")).unwrap(),
+            vals
+        );
+        assert_eq!(
+            parse_binary(&be, "r.bin", 32, &layout("i32be")).unwrap(),
+            vals
+        );
+        // u32 offset binary: 0 -> -2^31, 2^31 -> 0, 2^32-1 -> 2^31-1.
+        let words = [0u32, 1 << 31, u32::MAX];
+        let le: Vec<u8> = words.iter().flat_map(|v| v.to_le_bytes()).collect();
+        let be: Vec<u8> = words.iter().flat_map(|v| v.to_be_bytes()).collect();
+        let want = vec![i32::MIN, 0, i32::MAX];
+        assert_eq!(
+            parse_binary(&le, "r.bin", 32, &layout("u32le")).unwrap(),
+            want
+        );
+        assert_eq!(
+            parse_binary(&be, "r.bin", 32, &layout("u32be")).unwrap(),
+            want
+        );
+        // 24-bit codes right-justified in 32-bit words, sign-extended.
+        let v24 = [-(1i32 << 23), (1 << 23) - 1, -5];
+        let le: Vec<u8> = v24.iter().flat_map(|v| v.to_le_bytes()).collect();
+        assert_eq!(
+            parse_binary(&le, "r.bin", 24, &layout("i32le")).unwrap(),
+            v24
+        );
+    }
+
+    #[test]
+    fn left_justified_twos_complement() {
+        // 12-bit codes in the top of 16-bit words: code << 4, low 4 bits padding (common practice,
+        // no source). Nonzero padding is not an error.
+        let codes = [-2048i32, -1, 0, 2047, 100];
+        let words: Vec<u16> = codes
+            .iter()
+            .enumerate()
+            .map(|(i, &c)| ((c << 4) as u16) | (i as u16 & 0xF))
+            .collect();
+        let mut l = layout("i16le");
+        l.justify = Justify::Left;
+        assert_eq!(parse_binary(&le16(&words), "r.bin", 12, &l).unwrap(), codes);
+    }
+
+    #[test]
+    fn left_justified_offset_binary() {
+        let codes = [-2048i32, -1, 0, 2047];
+        let words: Vec<u16> = codes
+            .iter()
+            .map(|&c| (((c + 2048) as u16) << 4) | 0xA)
+            .collect();
+        let mut l = layout("u16be");
+        l.justify = Justify::Left;
+        assert_eq!(parse_binary(&be16(&words), "r.bin", 12, &l).unwrap(), codes);
+    }
+
+    #[test]
+    fn right_justified_twos_complement_accepts_sign_extension_or_zero_padding() {
+        // -5 as 12 bits: 0xFFB; sign-extended to 16 bits: 0xFFFB. Both decode to -5.
+        let words = [0xFFFBu16, 0x0FFB, 0x07FF, 0x0800, 0xF800];
+        assert_eq!(
+            parse_binary(&le16(&words), "r.bin", 12, &layout("i16le")).unwrap(),
+            vec![-5, -5, 2047, -2048, -2048]
+        );
+    }
+
+    #[test]
+    fn right_justified_twos_complement_rejects_other_padding() {
+        // 0x1800: the top 4 bits are 0001, neither a sign extension of bit 11 nor zero.
+        let words = [0x0001u16, 0x0002, 0x1800];
+        let e = parse_binary(&le16(&words), "r.bin", 12, &layout("i16le")).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::CodeOutOfRange);
+        assert_eq!(e.location, Location::Byte(4));
+        assert_eq!(e.found, "word 0x1800 (6144)");
+        assert!(
+            e.expected
+                .starts_with("-2048..=2047 (12-bit two's complement) in the low 12 bits"),
+            "{}",
+            e.expected
+        );
+        // 0x7000 sign-extends to 28672: outside 12 bits and the top bits are not zero.
+        let e = parse_binary(&le16(&[0x7000]), "r.bin", 12, &layout("i16le")).unwrap_err();
+        assert_eq!(e.location, Location::Byte(0));
+    }
+
+    #[test]
+    fn right_justified_offset_binary_rejects_values_from_2_pow_n() {
+        let words = [4095u16, 4096];
+        let e = parse_binary(&be16(&words), "r.bin", 12, &layout("u16be")).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::CodeOutOfRange);
+        assert_eq!(e.location, Location::Byte(2));
+        assert_eq!(
+            e.expected,
+            "0..=4095 (12-bit offset binary) right-justified in a 16-bit word"
+        );
+        assert_eq!(e.found, "word 0x1000 (4096)");
+    }
+
+    #[test]
+    fn coding_override_beats_word_signedness() {
+        // u16 words read as two's complement, i16 words read as offset binary.
+        let words = [0xFFFFu16, 0x0000];
+        let mut l = layout("u16le");
+        l.coding = Some(Coding::TwosComplement);
+        assert_eq!(
+            parse_binary(&le16(&words), "r.bin", 16, &l).unwrap(),
+            vec![-1, 0]
+        );
+        let mut l = layout("i16le");
+        l.coding = Some(Coding::OffsetBinary);
+        assert_eq!(
+            parse_binary(&le16(&words), "r.bin", 16, &l).unwrap(),
+            vec![32767, -32768]
+        );
+    }
+
+    #[test]
+    fn header_bytes_are_skipped() {
+        let mut bytes = b"HDR!xyz".to_vec();
+        bytes.extend(le16(&[3, 0xFFFD]));
+        let mut l = layout("i16le");
+        l.skip_bytes = 7;
+        assert_eq!(parse_binary(&bytes, "r.bin", 16, &l).unwrap(), vec![3, -3]);
+        // Offsets in errors count from the start of the file.
+        let mut l12 = l.clone();
+        l12.skip_bytes = 7;
+        let mut bad = b"HDR!xyz".to_vec();
+        bad.extend(le16(&[3, 0x1800]));
+        let e = parse_binary(&bad, "r.bin", 12, &l12).unwrap_err();
+        assert_eq!(e.location, Location::Byte(9));
+    }
+
+    #[test]
+    fn interleaved_channels() {
+        // Frames of 3 channels: (ch0, ch1, ch2) = (k, 100 + k, -k).
+        let mut words = Vec::new();
+        for k in 0..4i16 {
+            words.extend([k as u16, (100 + k) as u16, (-k) as u16]);
+        }
+        for (ch, want) in [
+            (0, vec![0, 1, 2, 3]),
+            (1, vec![100, 101, 102, 103]),
+            (2, vec![0, -1, -2, -3]),
+        ] {
+            let mut l = layout("i16be");
+            l.channel = ch;
+            l.channels = 3;
+            assert_eq!(parse_binary(&be16(&words), "r.bin", 16, &l).unwrap(), want);
+        }
+        // The byte offset of a bad word in channel 1 of frame 2: 2*6 + 2 = 14.
+        words[7] = 0x1800;
+        let mut l = layout("i16be");
+        l.channel = 1;
+        l.channels = 3;
+        let e = parse_binary(&be16(&words), "r.bin", 12, &l).unwrap_err();
+        assert_eq!(e.location, Location::Byte(14));
+    }
+
+    #[test]
+    fn partial_word_and_frame() {
+        let mut bytes = le16(&[1, 2, 3]);
+        bytes.push(0xAA);
+        let e = parse_binary(&bytes, "r.bin", 16, &layout("i16le")).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::PartialWord);
+        assert_eq!(e.path, "r.bin");
+        assert_eq!(e.location, Location::Byte(6));
+        assert_eq!(e.expected, "a multiple of 2 bytes");
+        assert_eq!(e.found, "7 bytes");
+        // With a 2-byte header, 5 data bytes: the trailing partial word starts at 2 + 4 = 6.
+        let mut l = layout("i16le");
+        l.skip_bytes = 2;
+        let e = parse_binary(&bytes, "r.bin", 16, &l).unwrap_err();
+        assert_eq!(e.location, Location::Byte(2 + 4));
+        assert_eq!(e.expected, "a multiple of 2 bytes after the 2 header bytes");
+        assert_eq!(e.found, "5 bytes");
+        // With a 3-byte header the 4 data bytes are whole words.
+        l.skip_bytes = 3;
+        assert_eq!(parse_binary(&bytes, "r.bin", 16, &l).unwrap().len(), 2);
+        let e = parse_binary(&[0u8; 9], "r.bin", 16, &{
+            let mut l = layout("i32le");
+            l.skip_bytes = 2;
+            l
+        })
+        .unwrap_err();
+        assert_eq!(e.location, Location::Byte(2 + 4));
+        assert_eq!(e.expected, "a multiple of 4 bytes after the 2 header bytes");
+        assert_eq!(e.found, "7 bytes");
+        // Whole words but a partial frame of 2 channels.
+        let mut l = layout("i16le");
+        l.channels = 2;
+        let e = parse_binary(&le16(&[1, 2, 3]), "r.bin", 16, &l).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::PartialWord);
+        assert_eq!(e.location, Location::Byte(4));
+        assert!(
+            e.expected.starts_with("a multiple of 4 bytes"),
+            "{}",
+            e.expected
+        );
+        assert_eq!(e.found, "6 bytes");
+    }
+
+    #[test]
+    fn skip_to_or_beyond_the_end() {
+        for skip in [4, 5, 100] {
+            let mut l = layout("i16le");
+            l.skip_bytes = skip;
+            let e = parse_binary(&le16(&[1, 2]), "r.bin", 16, &l).unwrap_err();
+            assert_eq!(e.kind, ErrorKind::Empty);
+            assert_eq!(e.found, "a file of 4 bytes");
+            assert!(e.expected.contains(&skip.to_string()));
+        }
+        let e = parse_binary(&[], "r.bin", 16, &layout("i16le")).unwrap_err();
+        assert_eq!((e.kind, e.location), (ErrorKind::Empty, Location::Whole));
+    }
+
+    #[test]
+    fn bad_layouts_are_settings_errors() {
+        let e = parse_binary(&[0; 4], "r.bin", 12, &layout("i8")).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::BadSetting);
+        assert_eq!(e.location, Location::Key("bits".into()));
+        assert_eq!(e.expected, "at most 8 bits in 8-bit words");
+        assert_eq!(e.found, "12");
+        for bits in [0, 33] {
+            let e = parse_binary(&[0; 4], "r.bin", bits, &layout("i32le")).unwrap_err();
+            assert_eq!(e.location, Location::Key("bits".into()));
+        }
+        let mut l = layout("i16le");
+        l.word_bytes = 3;
+        let e = parse_binary(&[0; 6], "r.bin", 12, &l).unwrap_err();
+        assert_eq!(e.location, Location::Key("format".into()));
+        let mut l = layout("i16le");
+        l.channel = 2;
+        l.channels = 2;
+        let e = parse_binary(&[0; 8], "r.bin", 12, &l).unwrap_err();
+        assert_eq!(e.location, Location::Key("channel".into()));
+        assert_eq!(e.found, "channel 3 of 2");
+        l.channels = 0;
+        l.channel = 0;
+        assert_eq!(
+            parse_binary(&[0; 8], "r.bin", 12, &l).unwrap_err().kind,
+            ErrorKind::BadSetting
+        );
+    }
+
+    #[test]
+    fn one_bit_codes() {
+        // 1-bit two's complement: -1..=0; offset binary 0 -> -1, 1 -> 0.
+        assert_eq!(
+            parse_binary(&[0x00, 0xFF, 0x01], "r.bin", 1, &layout("i8")).unwrap(),
+            vec![0, -1, -1]
+        );
+        assert_eq!(
+            parse_binary(&[0x00, 0x01], "r.bin", 1, &layout("u8")).unwrap(),
+            vec![-1, 0]
+        );
+    }
+}
