@@ -41,7 +41,9 @@ fn bench(c: &mut Criterion) {
                 "fit_and_spectrum_2^{log2}_{}",
                 if coherent { "coherent" } else { "windowed" }
             );
-            g.bench_function(name, |b| b.iter(|| analyze(&rec, &AnalysisSettings::default()).unwrap()));
+            g.bench_function(name, |b| {
+                b.iter(|| analyze(&rec, &AnalysisSettings::default()).unwrap())
+            });
         }
     }
     let rec = record(1 << 20, true);

@@ -115,10 +115,20 @@ pub fn analyze(record: &Record, settings: &AnalysisSettings) -> Result<Measured>
 /// Analyses several records of one condition: each is fitted, their power spectra are averaged.
 pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Result<Measured> {
     let first = records.first().ok_or_else(|| {
-        Error::new(ErrorKind::Empty, "", Location::Whole, "at least one record", "none")
+        Error::new(
+            ErrorKind::Empty,
+            "",
+            Location::Whole,
+            "at least one record",
+            "none",
+        )
     })?;
     let src = first.source.clone();
-    let min = if settings.min_samples == 0 { 64 } else { settings.min_samples };
+    let min = if settings.min_samples == 0 {
+        64
+    } else {
+        settings.min_samples
+    };
     for r in records {
         if r.len() < min {
             return Err(Error::new(
@@ -129,7 +139,10 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
                 format!("{} samples", r.len()),
             ));
         }
-        if r.len() != first.len() || r.sample_rate_hz != first.sample_rate_hz || r.bits != first.bits {
+        if r.len() != first.len()
+            || r.sample_rate_hz != first.sample_rate_hz
+            || r.bits != first.bits
+        {
             return Err(Error::new(
                 ErrorKind::BadSetting,
                 &r.source,
@@ -169,8 +182,14 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
         }
     }
     let views: Vec<&[f64]> = data.iter().map(|v| v.as_slice()).collect();
-    let spec = spectrum::measure(&views, &fit, first.sample_rate_hz, first.bits, &settings.spectrum)
-        .map_err(|e| e.with_path(&src))?;
+    let spec = spectrum::measure(
+        &views,
+        &fit,
+        first.sample_rate_hz,
+        first.bits,
+        &settings.spectrum,
+    )
+    .map_err(|e| e.with_path(&src))?;
     warnings.extend(spec.warnings);
     let histogram = histogram_of(&first.codes, first.bits);
     Ok(Measured {

@@ -33,4 +33,6 @@ pub mod spectrum;
 pub mod synth;
 
 pub use error::{Error, ErrorKind, Location, Result};
-pub use record::{full_scale_amplitude_codes, full_scale_power, max_code, min_code, Coding, Record};
+pub use record::{
+    full_scale_amplitude_codes, full_scale_power, max_code, min_code, Coding, Record,
+};

@@ -18,7 +18,12 @@ fn synth(dir: &Path, name: &str, extra: &[&str]) -> std::path::PathBuf {
 }
 
 fn run_err(args: &[&str], path: &Path) -> (i32, String) {
-    let out = spurline().arg("analyze").arg(path).args(args).output().unwrap();
+    let out = spurline()
+        .arg("analyze")
+        .arg(path)
+        .args(args)
+        .output()
+        .unwrap();
     let stderr = String::from_utf8_lossy(&out.stderr).to_string();
     assert!(!stderr.contains("panicked"), "panic: {stderr}");
     (out.status.code().unwrap_or(-1), stderr)
@@ -27,32 +32,85 @@ fn run_err(args: &[&str], path: &Path) -> (i32, String) {
 #[test]
 fn analyzes_text_record_with_sidecar() {
     let dir = tempfile::tempdir().unwrap();
-    let p = synth(dir.path(), "a.txt", &["--bits", "12", "--noise-rms", "0.5", "--harmonic", "3:-75"]);
-    let out = spurline().arg("analyze").arg(&p).arg("--json").output().unwrap();
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let p = synth(
+        dir.path(),
+        "a.txt",
+        &["--bits", "12", "--noise-rms", "0.5", "--harmonic", "3:-75"],
+    );
+    let out = spurline()
+        .arg("analyze")
+        .arg(&p)
+        .arg("--json")
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let r = &v[0];
     // The JSON contract (README): these keys are always there.
-    for key in ["source", "samples", "sample_rate_hz", "bits", "fit", "spectrum", "warnings", "error"] {
+    for key in [
+        "source",
+        "samples",
+        "sample_rate_hz",
+        "bits",
+        "fit",
+        "spectrum",
+        "warnings",
+        "error",
+    ] {
         assert!(r.get(key).is_some(), "missing {key}");
     }
     for key in [
-        "method", "frequency_hz", "amplitude_codes", "amplitude_dbfs", "phase_rad", "offset_codes",
-        "residual_rms_codes", "sinad_db", "enob_bits", "iterations", "converged",
+        "method",
+        "frequency_hz",
+        "amplitude_codes",
+        "amplitude_dbfs",
+        "phase_rad",
+        "offset_codes",
+        "residual_rms_codes",
+        "sinad_db",
+        "enob_bits",
+        "iterations",
+        "converged",
     ] {
         assert!(r["fit"].get(key).is_some(), "missing fit.{key}");
     }
     for key in [
-        "window", "coherent", "records_averaged", "fundamental_hz", "fundamental_dbfs", "snr_db", "sinad_db",
-        "thd_db", "sfdr_dbc", "sfdr_dbfs", "enob_bits", "enob_fs_bits", "noise_floor_dbfs", "nsd_dbfs_per_hz",
-        "worst_spur", "harmonics", "leakage",
+        "window",
+        "coherent",
+        "records_averaged",
+        "fundamental_hz",
+        "fundamental_dbfs",
+        "snr_db",
+        "sinad_db",
+        "thd_db",
+        "sfdr_dbc",
+        "sfdr_dbfs",
+        "enob_bits",
+        "enob_fs_bits",
+        "noise_floor_dbfs",
+        "nsd_dbfs_per_hz",
+        "worst_spur",
+        "harmonics",
+        "leakage",
     ] {
         assert!(r["spectrum"].get(key).is_some(), "missing spectrum.{key}");
     }
     for key in ["frequency_hz", "dbc", "harmonic"] {
-        assert!(r["spectrum"]["worst_spur"].get(key).is_some(), "missing worst_spur.{key}");
+        assert!(
+            r["spectrum"]["worst_spur"].get(key).is_some(),
+            "missing worst_spur.{key}"
+        );
     }
-    let h3 = r["spectrum"]["harmonics"].as_array().unwrap().iter().find(|h| h["order"] == 3).unwrap();
+    let h3 = r["spectrum"]["harmonics"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|h| h["order"] == 3)
+        .unwrap();
     assert!((h3["dbc"].as_f64().unwrap() + 75.0).abs() < 0.5);
     assert_eq!(r["bits"], 12);
     assert!(r["error"].is_null());
@@ -62,12 +120,28 @@ fn analyzes_text_record_with_sidecar() {
 fn analyzes_binary_layouts() {
     let dir = tempfile::tempdir().unwrap();
     for layout in ["i16le", "u16be", "i32le"] {
-        let p = synth(dir.path(), &format!("b_{layout}.bin"), &["--bits", "14", "--layout", layout]);
+        let p = synth(
+            dir.path(),
+            &format!("b_{layout}.bin"),
+            &["--bits", "14", "--layout", layout],
+        );
         // The sidecar carries the layout; the command line can also give it.
-        let out = spurline().arg("analyze").arg(&p).args(["--format", layout, "--json"]).output().unwrap();
-        assert!(out.status.success(), "{layout}: {}", String::from_utf8_lossy(&out.stderr));
+        let out = spurline()
+            .arg("analyze")
+            .arg(&p)
+            .args(["--format", layout, "--json"])
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{layout}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
         let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
-        assert!(v[0]["spectrum"]["sinad_db"].as_f64().unwrap() > 80.0, "{layout}");
+        assert!(
+            v[0]["spectrum"]["sinad_db"].as_f64().unwrap() > 80.0,
+            "{layout}"
+        );
     }
 }
 
@@ -78,7 +152,16 @@ fn prints_a_readable_table() {
     let out = spurline().arg("analyze").arg(&p).output().unwrap();
     assert!(out.status.success());
     let text = String::from_utf8_lossy(&out.stdout);
-    for label in ["SNR", "SINAD", "THD", "SFDR", "ENOB", "noise floor", "fit form", "full-scale referred"] {
+    for label in [
+        "SNR",
+        "SINAD",
+        "THD",
+        "SFDR",
+        "ENOB",
+        "noise floor",
+        "fit form",
+        "full-scale referred",
+    ] {
         assert!(text.contains(label), "missing {label} in\n{text}");
     }
 }
@@ -98,7 +181,10 @@ fn one_bad_file_does_not_stop_the_others() {
     assert_eq!(out.status.code(), Some(2));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v.as_array().unwrap().len(), 2);
-    assert!(v[0]["error"]["message"].as_str().unwrap().contains("missing.txt"));
+    assert!(v[0]["error"]["message"]
+        .as_str()
+        .unwrap()
+        .contains("missing.txt"));
     assert!(v[1]["spectrum"]["snr_db"].as_f64().is_some());
 }
 
@@ -116,45 +202,110 @@ fn bad_inputs_are_reported_with_their_place() {
     let cases: Vec<(std::path::PathBuf, Vec<&str>, Vec<&str>)> = vec![
         (d.join("nope.txt"), meta.to_vec(), vec!["nope.txt"]),
         (write("empty.txt", b""), meta.to_vec(), vec!["empty.txt"]),
-        (write("short.txt", b"1\n2\n3\n"), meta.to_vec(), vec!["short.txt", "samples"]),
-        (write("token.txt", b"1\n2\nx7\n4\n"), meta.to_vec(), vec!["token.txt", "line 3", "x7"]),
-        (write("range.txt", b"1\n2\n5000\n"), meta.to_vec(), vec!["range.txt", "line 3", "5000"]),
-        (write("odd.bin", &[0u8; 7]), vec!["--fs", "1M", "--bits", "12", "--format", "i16le"], vec!["odd.bin", "byte offset 6"]),
-        (write("bits.txt", b"1\n"), vec!["--fs", "1M", "--bits", "33"], vec!["bits"]),
-        (write("fs.txt", b"1\n"), vec!["--fs", "-5", "--bits", "12"], vec!["sample_rate"]),
+        (
+            write("short.txt", b"1\n2\n3\n"),
+            meta.to_vec(),
+            vec!["short.txt", "samples"],
+        ),
+        (
+            write("token.txt", b"1\n2\nx7\n4\n"),
+            meta.to_vec(),
+            vec!["token.txt", "line 3", "x7"],
+        ),
+        (
+            write("range.txt", b"1\n2\n5000\n"),
+            meta.to_vec(),
+            vec!["range.txt", "line 3", "5000"],
+        ),
+        (
+            write("odd.bin", &[0u8; 7]),
+            vec!["--fs", "1M", "--bits", "12", "--format", "i16le"],
+            vec!["odd.bin", "byte offset 6"],
+        ),
+        (
+            write("bits.txt", b"1\n"),
+            vec!["--fs", "1M", "--bits", "33"],
+            vec!["bits"],
+        ),
+        (
+            write("fs.txt", b"1\n"),
+            vec!["--fs", "-5", "--bits", "12"],
+            vec!["sample_rate"],
+        ),
         (write("nofs.txt", b"1\n"), vec!["--bits", "12"], vec!["fs"]),
     ];
     for (path, args, needles) in cases {
         let (code, stderr) = run_err(&args, &path);
         assert_eq!(code, 2, "{}: {stderr}", path.display());
         for n in needles {
-            assert!(stderr.contains(n), "{}: '{n}' not in: {stderr}", path.display());
+            assert!(
+                stderr.contains(n),
+                "{}: '{n}' not in: {stderr}",
+                path.display()
+            );
         }
     }
     // A record with no tone in it: white noise only.
-    let noise = synth(d, "noise.txt", &["--bits", "12", "--amplitude-dbfs", "-200", "--noise-rms", "50"]);
+    let noise = synth(
+        d,
+        "noise.txt",
+        &[
+            "--bits",
+            "12",
+            "--amplitude-dbfs",
+            "-200",
+            "--noise-rms",
+            "50",
+        ],
+    );
     let (code, stderr) = run_err(&[], &noise);
     assert_eq!(code, 2, "{stderr}");
-    assert!(stderr.contains("noise.txt") && stderr.contains("tone"), "{stderr}");
+    assert!(
+        stderr.contains("noise.txt") && stderr.contains("tone"),
+        "{stderr}"
+    );
 }
 
 #[test]
 fn clipping_is_warned_with_its_count() {
     let dir = tempfile::tempdir().unwrap();
-    let p = synth(dir.path(), "clip.txt", &["--bits", "12", "--amplitude-dbfs", "1.0"]);
-    let out = spurline().arg("analyze").arg(&p).arg("--json").output().unwrap();
+    let p = synth(
+        dir.path(),
+        "clip.txt",
+        &["--bits", "12", "--amplitude-dbfs", "1.0"],
+    );
+    let out = spurline()
+        .arg("analyze")
+        .arg(&p)
+        .arg("--json")
+        .output()
+        .unwrap();
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let warnings = v[0]["warnings"].as_array().unwrap();
-    assert!(warnings.iter().any(|w| w.as_str().unwrap().contains("end codes")), "{warnings:?}");
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.as_str().unwrap().contains("end codes")),
+        "{warnings:?}"
+    );
 }
 
 #[test]
 fn demo_runs_and_writes_summaries() {
     let dir = tempfile::tempdir().unwrap();
-    let out = spurline().args(["demo", "--out"]).arg(dir.path()).output().unwrap();
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let out = spurline()
+        .args(["demo", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     assert!(dir.path().join("summary.csv").exists());
     let json: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(dir.path().join("results.json")).unwrap()).unwrap();
+        serde_json::from_str(&std::fs::read_to_string(dir.path().join("results.json")).unwrap())
+            .unwrap();
     assert_eq!(json.as_array().unwrap().len(), 6);
 }

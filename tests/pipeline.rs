@@ -38,9 +38,15 @@ fn ideal_quantiser_sinad_is_602n_plus_176() {
         let sp = m.analysis.spectrum.unwrap();
         let expected = 20.0 * (2f64.powi(bits as i32 - 1) * 6f64.sqrt()).log10() - 0.1;
         let got = sp.sinad_db.unwrap();
-        assert!((got - expected).abs() < HANDBOOK_DB, "{bits} bits: SINAD {got} vs {expected}");
+        assert!(
+            (got - expected).abs() < HANDBOOK_DB,
+            "{bits} bits: SINAD {got} vs {expected}"
+        );
         // Full-scale-referred ENOB recovers N (handbook: ENOB = (SINAD − 1.76)/6.02).
-        assert!((sp.enob_fs_bits.unwrap() - bits as f64).abs() < HANDBOOK_BITS, "{bits}");
+        assert!(
+            (sp.enob_fs_bits.unwrap() - bits as f64).abs() < HANDBOOK_BITS,
+            "{bits}"
+        );
         assert_eq!(sp.window, "rectangular");
         assert!(sp.coherent);
     }
@@ -63,7 +69,11 @@ fn spectral_sinad_matches_time_domain_error() {
     let sig = fit.amplitude_codes.powi(2) / 2.0;
     let time_sinad = 10.0 * (sig / err_power).log10();
     let sp = m.analysis.spectrum.unwrap();
-    assert!((sp.sinad_db.unwrap() - time_sinad).abs() < SELF_CONSISTENCY_DB, "{} vs {time_sinad}", sp.sinad_db.unwrap());
+    assert!(
+        (sp.sinad_db.unwrap() - time_sinad).abs() < SELF_CONSISTENCY_DB,
+        "{} vs {time_sinad}",
+        sp.sinad_db.unwrap()
+    );
     // And the fit's own SINAD is the same quantity (IEEE 1241 fit form).
     assert!((fit.sinad_db.unwrap() - time_sinad).abs() < 1e-9);
 }
@@ -73,10 +83,17 @@ fn spectral_sinad_matches_time_domain_error() {
 #[test]
 fn ideal_12_bit_noise_floor() {
     let s = ideal(12, 4096, -0.05, 10.1e6);
-    let sp = run(&s, &AnalysisSettings::default()).analysis.spectrum.unwrap();
+    let sp = run(&s, &AnalysisSettings::default())
+        .analysis
+        .spectrum
+        .unwrap();
     let expected = -(6.02 * 12.0 + 1.76) - 10.0 * 2048f64.log10();
     assert!((expected + 107.1).abs() < 0.05);
-    assert!((sp.noise_floor_dbfs.unwrap() - expected).abs() < HANDBOOK_DB, "{:?}", sp.noise_floor_dbfs);
+    assert!(
+        (sp.noise_floor_dbfs.unwrap() - expected).abs() < HANDBOOK_DB,
+        "{:?}",
+        sp.noise_floor_dbfs
+    );
 }
 
 /// Ideal 12-bit converter at −6.02 dBFS: spectral ENOB 11.0, full-scale-referred 12.0, fit ENOB 12.0
@@ -87,9 +104,21 @@ fn enob_forms_at_half_scale() {
     let a = run(&s, &AnalysisSettings::default()).analysis;
     let sp = a.spectrum.unwrap();
     let fit = a.fit.unwrap();
-    assert!((sp.enob_bits.unwrap() - 11.0).abs() < HANDBOOK_BITS, "{:?}", sp.enob_bits);
-    assert!((sp.enob_fs_bits.unwrap() - 12.0).abs() < HANDBOOK_BITS, "{:?}", sp.enob_fs_bits);
-    assert!((fit.enob_bits.unwrap() - 12.0).abs() < HANDBOOK_BITS, "{:?}", fit.enob_bits);
+    assert!(
+        (sp.enob_bits.unwrap() - 11.0).abs() < HANDBOOK_BITS,
+        "{:?}",
+        sp.enob_bits
+    );
+    assert!(
+        (sp.enob_fs_bits.unwrap() - 12.0).abs() < HANDBOOK_BITS,
+        "{:?}",
+        sp.enob_fs_bits
+    );
+    assert!(
+        (fit.enob_bits.unwrap() - 12.0).abs() < HANDBOOK_BITS,
+        "{:?}",
+        fit.enob_bits
+    );
 }
 
 /// Harmonics put in by the simulated converter come back at their level (coherent, 16 bits), folded
@@ -105,16 +134,32 @@ fn harmonics_are_recovered_and_folded() {
     let sp = a.spectrum.unwrap();
     for (order, level) in [(2u32, -70.0), (3, -80.0), (5, -90.0)] {
         let h = sp.harmonics.iter().find(|h| h.order == order).unwrap();
-        assert!((h.dbc.unwrap() - level).abs() < HARMONIC_DB, "H{order}: {:?}", h.dbc);
+        assert!(
+            (h.dbc.unwrap() - level).abs() < HARMONIC_DB,
+            "H{order}: {:?}",
+            h.dbc
+        );
         let folded = {
             let f = (order as f64 * fin) % 100e6;
-            if f > 50e6 { 100e6 - f } else { f }
+            if f > 50e6 {
+                100e6 - f
+            } else {
+                f
+            }
         };
-        assert!((h.frequency_hz - folded).abs() < 1e-3, "H{order} at {}", h.frequency_hz);
+        assert!(
+            (h.frequency_hz - folded).abs() < 1e-3,
+            "H{order} at {}",
+            h.frequency_hz
+        );
     }
     // THD is the power sum of the harmonics (handbook definition).
     let thd = 10.0 * (10f64.powf(-7.0) + 10f64.powf(-8.0) + 10f64.powf(-9.0)).log10();
-    assert!((sp.thd_db.unwrap() - thd).abs() < HARMONIC_DB, "{:?}", sp.thd_db);
+    assert!(
+        (sp.thd_db.unwrap() - thd).abs() < HARMONIC_DB,
+        "{:?}",
+        sp.thd_db
+    );
     // The worst spur is H2, and SFDR is its level.
     let spur = sp.worst_spur.unwrap();
     assert_eq!(spur.harmonic, Some(2));
@@ -130,7 +175,10 @@ fn non_coherent_auto_window_agrees_with_coherent() {
         harmonics_dbc: vec![(3, -78.0)],
         ..ideal(12, 8192, -1.0, 10.0e6)
     };
-    let coh = run(&base, &AnalysisSettings::default()).analysis.spectrum.unwrap();
+    let coh = run(&base, &AnalysisSettings::default())
+        .analysis
+        .spectrum
+        .unwrap();
     let non = SynthSettings {
         frequency: SynthFrequency::Hz(10.0123e6),
         seed: 12,
@@ -140,8 +188,20 @@ fn non_coherent_auto_window_agrees_with_coherent() {
     let sp = a.spectrum.unwrap();
     assert!(!sp.coherent);
     assert_ne!(sp.window, "rectangular");
-    assert!((sp.snr_db.unwrap() - coh.snr_db.unwrap()).abs() < WINDOWED_DB, "{:?} vs {:?}", sp.snr_db, coh.snr_db);
-    let h3 = |s: &spurline::spectrum::Spectrum| s.harmonics.iter().find(|h| h.order == 3).unwrap().dbc.unwrap();
+    assert!(
+        (sp.snr_db.unwrap() - coh.snr_db.unwrap()).abs() < WINDOWED_DB,
+        "{:?} vs {:?}",
+        sp.snr_db,
+        coh.snr_db
+    );
+    let h3 = |s: &spurline::spectrum::Spectrum| {
+        s.harmonics
+            .iter()
+            .find(|h| h.order == 3)
+            .unwrap()
+            .dbc
+            .unwrap()
+    };
     assert!((h3(&sp) - h3(&coh)).abs() < WINDOWED_DB);
     assert!(!sp.leakage.significant, "{:?}", sp.leakage);
 }
@@ -162,8 +222,16 @@ fn non_coherent_rectangular_warns() {
         ..Default::default()
     };
     let a = run(&s, &settings).analysis;
-    assert!(a.warnings.iter().any(|w| w.contains("scalloping")), "{:?}", a.warnings);
-    assert!(a.warnings.iter().any(|w| w.contains("leakage")), "{:?}", a.warnings);
+    assert!(
+        a.warnings.iter().any(|w| w.contains("scalloping")),
+        "{:?}",
+        a.warnings
+    );
+    assert!(
+        a.warnings.iter().any(|w| w.contains("leakage")),
+        "{:?}",
+        a.warnings
+    );
     assert!(a.spectrum.unwrap().leakage.significant);
 }
 
@@ -185,12 +253,22 @@ fn jitter_limited_snr() {
 /// The three-parameter fit at the known frequency and the four-parameter fit agree on a coherent record.
 #[test]
 fn three_and_four_parameter_fits_agree() {
-    let s = SynthSettings { noise_rms_codes: 0.7, ..ideal(14, 4096, -2.0, 3.3e6) };
+    let s = SynthSettings {
+        noise_rms_codes: 0.7,
+        ..ideal(14, 4096, -2.0, 3.3e6)
+    };
     let made = synthesize(&s).unwrap();
-    let four = analyze(&made.record, &AnalysisSettings::default()).unwrap().analysis.fit.unwrap();
+    let four = analyze(&made.record, &AnalysisSettings::default())
+        .unwrap()
+        .analysis
+        .fit
+        .unwrap();
     let three = analyze(
         &made.record,
-        &AnalysisSettings { fit: FitChoice::Three, ..Default::default() },
+        &AnalysisSettings {
+            fit: FitChoice::Three,
+            ..Default::default()
+        },
     )
     .unwrap()
     .analysis
@@ -206,13 +284,25 @@ fn three_and_four_parameter_fits_agree() {
 fn averaging_counts_records() {
     let recs: Vec<_> = (0..4)
         .map(|k| {
-            synthesize(&SynthSettings { noise_rms_codes: 1.0, seed: 50 + k, ..ideal(12, 4096, -1.0, 9.1e6) })
-                .unwrap()
-                .record
+            synthesize(&SynthSettings {
+                noise_rms_codes: 1.0,
+                seed: 50 + k,
+                ..ideal(12, 4096, -1.0, 9.1e6)
+            })
+            .unwrap()
+            .record
         })
         .collect();
-    let one = analyze(&recs[0], &AnalysisSettings::default()).unwrap().analysis.spectrum.unwrap();
-    let avg = analyze_averaged(&recs, &AnalysisSettings::default()).unwrap().analysis.spectrum.unwrap();
+    let one = analyze(&recs[0], &AnalysisSettings::default())
+        .unwrap()
+        .analysis
+        .spectrum
+        .unwrap();
+    let avg = analyze_averaged(&recs, &AnalysisSettings::default())
+        .unwrap()
+        .analysis
+        .spectrum
+        .unwrap();
     assert_eq!(avg.records_averaged, 4);
     assert!((avg.snr_db.unwrap() - one.snr_db.unwrap()).abs() < HANDBOOK_DB);
 }

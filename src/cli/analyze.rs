@@ -42,7 +42,11 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             Ok(ing) => loaded.push(ing),
             Err(e) => {
                 any_error = true;
-                results.push(Analysis::failed(&path.display().to_string(), &e, Vec::new()));
+                results.push(Analysis::failed(
+                    &path.display().to_string(),
+                    &e,
+                    Vec::new(),
+                ));
             }
         }
     }

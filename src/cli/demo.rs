@@ -136,7 +136,8 @@ pub fn go(out: &Path) -> Result<Vec<Analysis>, Error> {
         }
     }
     let json_path = out.join("results.json");
-    std::fs::write(&json_path, spurline::report::json::to_json(&results)).map_err(|e| out_err(&json_path, e))?;
+    std::fs::write(&json_path, spurline::report::json::to_json(&results))
+        .map_err(|e| out_err(&json_path, e))?;
     let csv_path = out.join("summary.csv");
     std::fs::write(
         &csv_path,

@@ -55,8 +55,9 @@ pub(crate) fn fail(e: &spurline::Error) -> i32 {
 
 /// Parses a frequency or other quantity with an optional SI prefix ("100M", "1.5 kHz", "1e6").
 pub(crate) fn si_value(s: &str) -> Result<f64, String> {
-    spurline::report::units::parse_si(s)
-        .ok_or_else(|| format!("expected a number with an optional SI prefix (100e6, 100M, 1.5k), found '{s}'"))
+    spurline::report::units::parse_si(s).ok_or_else(|| {
+        format!("expected a number with an optional SI prefix (100e6, 100M, 1.5k), found '{s}'")
+    })
 }
 
 /// Options that say how to read records, shared by the commands that read them.

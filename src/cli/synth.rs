@@ -87,7 +87,11 @@ fn go(args: &SynthArgs) -> Result<String, Error> {
     let mut harmonics_dbc = Vec::new();
     for &(order, dbc) in &args.harmonics {
         if order < 2.0 || order.fract() != 0.0 || order > 1000.0 {
-            return Err(Error::setting("harmonic", "an integer order 2..=1000", order.to_string()));
+            return Err(Error::setting(
+                "harmonic",
+                "an integer order 2..=1000",
+                order.to_string(),
+            ));
         }
         harmonics_dbc.push((order as u32, dbc));
     }
@@ -145,6 +149,6 @@ fn go(args: &SynthArgs) -> Result<String, Error> {
         args.bits,
         out.frequency_hz,
         out.clipped_samples,
-        spurline::ingest::sidecar_path(&args.output).display()
+        spurline::ingest::sidecar_path(&args.output)?.display()
     ))
 }

@@ -267,7 +267,15 @@ mod tests {
     use rand::SeedableRng;
     use rand_distr::{Distribution, Normal};
 
-    fn make(n: usize, cycles: f64, amp: f64, phase: f64, offset: f64, noise: f64, seed: u64) -> Vec<f64> {
+    fn make(
+        n: usize,
+        cycles: f64,
+        amp: f64,
+        phase: f64,
+        offset: f64,
+        noise: f64,
+        seed: u64,
+    ) -> Vec<f64> {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
         let g = Normal::new(0.0, noise.max(1e-300)).unwrap();
         (0..n)
@@ -285,7 +293,11 @@ mod tests {
         let y = make(5000, 123.4567, 1500.0, -2.0, 12.5, 0.0, 1);
         let out = fit_four(&y, 1.0e6, 12, FourParamOptions::default()).unwrap();
         assert!(out.fit.converged);
-        assert!((out.fit.cycles - 123.4567).abs() < 1e-9, "{}", out.fit.cycles);
+        assert!(
+            (out.fit.cycles - 123.4567).abs() < 1e-9,
+            "{}",
+            out.fit.cycles
+        );
         assert!((out.fit.amplitude_codes - 1500.0).abs() < 1e-7);
         assert!((out.fit.phase_rad + 2.0).abs() < 1e-9);
         assert!((out.fit.offset_codes - 12.5).abs() < 1e-8);
@@ -307,7 +319,10 @@ mod tests {
     fn fewer_than_one_cycle_is_an_error() {
         let y = make(1000, 0.6, 1000.0, 0.0, 0.0, 0.0, 1);
         let err = fit_four(&y, 1.0e3, 12, FourParamOptions::default()).unwrap_err();
-        assert!(matches!(err.kind, ErrorKind::DegenerateFit | ErrorKind::NoTone), "{err}");
+        assert!(
+            matches!(err.kind, ErrorKind::DegenerateFit | ErrorKind::NoTone),
+            "{err}"
+        );
     }
 
     proptest! {

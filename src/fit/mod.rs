@@ -164,7 +164,11 @@ pub(crate) fn residual_of(y: &[f64], p: Centred) -> (Vec<f64>, f64) {
 }
 
 /// Visits every sample in order with the model's cos/sin (recurrence re-seeded every 1024 samples).
-pub(crate) fn for_each_cos_sin(samples: usize, phasor: sums::Phasor, mut f: impl FnMut(usize, f64, f64)) {
+pub(crate) fn for_each_cos_sin(
+    samples: usize,
+    phasor: sums::Phasor,
+    mut f: impl FnMut(usize, f64, f64),
+) {
     let step = {
         let (s, c) = (TAU * phasor.cycles_per_sample.fract()).sin_cos();
         (c, s)

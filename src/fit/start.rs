@@ -41,7 +41,10 @@ pub fn estimate_frequency(y: &[f64], hint_cycles_per_sample: Option<f64>) -> Res
         Some(h) => {
             let k = (h * n as f64).round() as isize;
             let reach = 4isize.max((n as isize) / 1000);
-            (((k - reach).max(1)) as usize, ((k + reach).min(last as isize)) as usize)
+            (
+                ((k - reach).max(1)) as usize,
+                ((k + reach).min(last as isize)) as usize,
+            )
         }
         None => (1usize.min(last), last),
     };
@@ -101,6 +104,9 @@ mod tests {
     #[test]
     fn constant_record_has_no_tone() {
         let y = vec![5.0; 1024];
-        assert_eq!(estimate_frequency(&y, None).unwrap_err().kind, ErrorKind::NoTone);
+        assert_eq!(
+            estimate_frequency(&y, None).unwrap_err().kind,
+            ErrorKind::NoTone
+        );
     }
 }

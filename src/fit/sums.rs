@@ -107,7 +107,10 @@ mod tests {
         fn add(&mut self, t: f64, _y: f64, c: f64, s: f64) {
             let (f, centre) = PH.with(|p| p.get());
             let n = t + centre;
-            let ph = Phasor { cycles_per_sample: f, centre };
+            let ph = Phasor {
+                cycles_per_sample: f,
+                centre,
+            };
             let (c0, s0) = ph.cos_sin_at(n as usize);
             self.worst = self.worst.max((c - c0).abs()).max((s - s0).abs());
             self.count += 1;

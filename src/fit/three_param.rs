@@ -71,7 +71,12 @@ pub(crate) fn solve_three(y: &[f64], cycles_per_sample: f64) -> Result<Centred> 
 }
 
 /// Three-parameter fit of `y` at the known frequency `frequency_hz`.
-pub fn fit_three(y: &[f64], sample_rate_hz: f64, frequency_hz: f64, bits: u32) -> Result<FitOutput> {
+pub fn fit_three(
+    y: &[f64],
+    sample_rate_hz: f64,
+    frequency_hz: f64,
+    bits: u32,
+) -> Result<FitOutput> {
     if y.len() < 4 {
         return Err(Error::new(
             ErrorKind::TooFewSamples,
@@ -84,7 +89,10 @@ pub fn fit_three(y: &[f64], sample_rate_hz: f64, frequency_hz: f64, bits: u32) -
     if !(frequency_hz.is_finite() && frequency_hz > 0.0 && frequency_hz < sample_rate_hz / 2.0) {
         return Err(Error::setting(
             "fin",
-            format!("a frequency in (0, fs/2) = (0, {} Hz)", sample_rate_hz / 2.0),
+            format!(
+                "a frequency in (0, fs/2) = (0, {} Hz)",
+                sample_rate_hz / 2.0
+            ),
             format!("{frequency_hz} Hz"),
         ));
     }
@@ -155,7 +163,10 @@ mod tests {
         }
         let yv = nalgebra::DVector::from_vec(y.clone());
         let qr = d.clone().qr();
-        let x = qr.r().solve_upper_triangular(&(qr.q().transpose() * &yv)).unwrap();
+        let x = qr
+            .r()
+            .solve_upper_triangular(&(qr.q().transpose() * &yv))
+            .unwrap();
         let (a0, b0) = out.fit.cos_sin_coefficients();
         assert!((a0 - x[0]).abs() < 1e-8 * 700.0, "{a0} vs {}", x[0]);
         assert!((b0 - x[1]).abs() < 1e-8 * 700.0, "{b0} vs {}", x[1]);

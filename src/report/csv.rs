@@ -27,7 +27,9 @@ fn walk(prefix: &str, value: &Value, out: &mut Vec<(String, String)>) {
                 walk(&key(k), v, out);
             }
         }
-        Value::Array(items) if items.iter().all(|i| i.get("order").is_some()) && !items.is_empty() => {
+        Value::Array(items)
+            if items.iter().all(|i| i.get("order").is_some()) && !items.is_empty() =>
+        {
             for item in items {
                 let order = item.get("order").map(scalar).unwrap_or_default();
                 walk(&key(&format!("h{order}")), item, out);
@@ -101,13 +103,23 @@ pub fn write_rows<W: std::io::Write>(
 ) -> Result<()> {
     let mut w = ::csv::WriterBuilder::new().from_writer(out);
     let io = |e: ::csv::Error| {
-        Error::new(ErrorKind::Output, "", Location::Whole, "a writable CSV output", e.to_string())
+        Error::new(
+            ErrorKind::Output,
+            "",
+            Location::Whole,
+            "a writable CSV output",
+            e.to_string(),
+        )
     };
     let lead: Vec<String> = rows
         .first()
         .map(|(extra, _)| extra.iter().map(|(k, _)| k.clone()).collect())
         .unwrap_or_default();
-    let header: Vec<&str> = lead.iter().map(|s| s.as_str()).chain(columns.iter().map(|s| s.as_str())).collect();
+    let header: Vec<&str> = lead
+        .iter()
+        .map(|s| s.as_str())
+        .chain(columns.iter().map(|s| s.as_str()))
+        .collect();
     w.write_record(&header).map_err(io)?;
     for (extra, a) in rows {
         let flat: std::collections::HashMap<String, String> =
@@ -121,7 +133,13 @@ pub fn write_rows<W: std::io::Write>(
         w.write_record(&record).map_err(io)?;
     }
     w.flush().map_err(|e| {
-        Error::new(ErrorKind::Output, "", Location::Whole, "a writable CSV output", e.to_string())
+        Error::new(
+            ErrorKind::Output,
+            "",
+            Location::Whole,
+            "a writable CSV output",
+            e.to_string(),
+        )
     })?;
     Ok(())
 }
@@ -129,7 +147,8 @@ pub fn write_rows<W: std::io::Write>(
 /// CSV text of results, one row per record.
 pub fn to_csv(results: &[Analysis], harmonics: u32) -> String {
     let cols = columns(harmonics);
-    let rows: Vec<(Vec<(String, String)>, &Analysis)> = results.iter().map(|a| (Vec::new(), a)).collect();
+    let rows: Vec<(Vec<(String, String)>, &Analysis)> =
+        results.iter().map(|a| (Vec::new(), a)).collect();
     let mut buf = Vec::new();
     write_rows(&mut buf, &cols, &rows).expect("writing to memory cannot fail");
     String::from_utf8(buf).expect("CSV of UTF-8 strings is UTF-8")

@@ -52,7 +52,11 @@ pub fn render(a: &Analysis) -> String {
             s,
             "  spectrum   window {} ({}) · {} record(s) averaged · bin {}",
             sp.window,
-            if sp.coherent { "coherent" } else { "non-coherent" },
+            if sp.coherent {
+                "coherent"
+            } else {
+                "non-coherent"
+            },
             sp.records_averaged,
             si(sp.bin_width_hz, "Hz", 4)
         );
@@ -68,7 +72,8 @@ pub fn render(a: &Analysis) -> String {
             format!(
                 "{} ({})",
                 si(w.frequency_hz, "Hz", 6),
-                w.harmonic.map_or("not a harmonic".to_string(), |h| format!("H{h}"))
+                w.harmonic
+                    .map_or("not a harmonic".to_string(), |h| format!("H{h}"))
             )
         });
         let _ = writeln!(
@@ -108,7 +113,13 @@ pub fn render(a: &Analysis) -> String {
                 (None, Some(d)) => format!("{d:.1} dBc"),
                 _ => "—".to_string(),
             };
-            let _ = write!(s, " H{:<2} {:>12} {:<20}", h.order, si(h.frequency_hz, "Hz", 5), level);
+            let _ = write!(
+                s,
+                " H{:<2} {:>12} {:<20}",
+                h.order,
+                si(h.frequency_hz, "Hz", 5),
+                level
+            );
         }
         let _ = writeln!(s);
     }

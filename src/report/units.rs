@@ -23,7 +23,11 @@ pub fn si(value: f64, unit: &str, significant: usize) -> String {
         .find(|(s, _)| mag >= *s * 0.999_999_5)
         .unwrap_or((1e-15, "f"));
     let v = if value == 0.0 { 0.0 } else { value / scale };
-    let int_digits = if v.abs() < 1.0 { 1 } else { v.abs().log10().floor() as usize + 1 };
+    let int_digits = if v.abs() < 1.0 {
+        1
+    } else {
+        v.abs().log10().floor() as usize + 1
+    };
     let decimals = significant.saturating_sub(int_digits);
     format!("{v:.decimals$} {prefix}{unit}")
 }

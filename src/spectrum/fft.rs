@@ -62,7 +62,10 @@ mod tests {
                 re += v * th.cos();
                 im += v * th.sin();
             }
-            assert!((g.re - re).abs() < 1e-9 && (g.im - im).abs() < 1e-9, "bin {k}");
+            assert!(
+                (g.re - re).abs() < 1e-9 && (g.im - im).abs() < 1e-9,
+                "bin {k}"
+            );
         }
     }
 

@@ -39,7 +39,8 @@ fn bias_db(measured: f64, unwanted: f64) -> f64 {
 
 fn biases(window: Window, half: usize, offset: f64, figs: &Figures) -> (f64, f64, super::Leakage) {
     let leak = window.leakage(offset, half);
-    let to_power = |dbc: Option<f64>| dbc.map_or(0.0, |d| figs.fundamental_power * 10f64.powf(d / 10.0));
+    let to_power =
+        |dbc: Option<f64>| dbc.map_or(0.0, |d| figs.fundamental_power * 10f64.powf(d / 10.0));
     let snr_bias = bias_db(figs.noise_power, to_power(leak.outside_span_dbc));
     let spur = figs
         .worst_spur
@@ -79,9 +80,14 @@ pub(crate) fn diagnose(
             let (a, b, _) = biases(window, *s, offset, figs);
             a <= BIAS_WARN_DB && b <= BIAS_WARN_DB
         }) {
-            fixes.push(format!("a span of ±{s} bins (--span-guard {})", s.saturating_sub(half_span(window, coherence.coherent, Some(0)))));
+            fixes.push(format!(
+                "a span of ±{s} bins (--span-guard {})",
+                s.saturating_sub(half_span(window, coherence.coherent, Some(0)))
+            ));
         }
-        if let Ok(c) = crate::plan::nearest_coherent(sample_rate_hz, samples, fit.frequency_hz, false) {
+        if let Ok(c) =
+            crate::plan::nearest_coherent(sample_rate_hz, samples, fit.frequency_hz, false)
+        {
             fixes.push(format!(
                 "a coherent input: J = {} cycles, {:.6} Hz for N = {samples} at {sample_rate_hz} Hz",
                 c.cycles, c.frequency_hz

@@ -104,7 +104,13 @@ fn db(x: f64) -> Option<f64> {
 }
 
 /// Computes the figures from bin powers (scaled as in [`crate::spectrum::fft::power_spectrum`]).
-pub fn figures(powers: &[f64], claims: &Claims, samples: usize, sample_rate_hz: f64, bits: u32) -> Figures {
+pub fn figures(
+    powers: &[f64],
+    claims: &Claims,
+    samples: usize,
+    sample_rate_hz: f64,
+    bits: u32,
+) -> Figures {
     let pfs = full_scale_power(bits);
     let bin_hz = sample_rate_hz / samples as f64;
     let weight = |k: usize| bin_weight(k, samples);
@@ -117,15 +123,18 @@ pub fn figures(powers: &[f64], claims: &Claims, samples: usize, sample_rate_hz: 
             noise_bins += 1;
         }
     }
-    let noise_per_bin = if noise_w > 0.0 { noise_sum / noise_w } else { 0.0 };
+    let noise_per_bin = if noise_w > 0.0 {
+        noise_sum / noise_w
+    } else {
+        0.0
+    };
     let noise_power = noise_per_bin * samples as f64 / 2.0;
 
     let span_power = |set: &mut dyn Iterator<Item = usize>| -> (f64, f64) {
         set.fold((0.0, 0.0), |(p, w), k| (p + powers[k], w + weight(k)))
     };
-    let (f_raw, f_w) = span_power(
-        &mut (0..powers.len()).filter(|&k| claims.owner[k] == Owner::Fundamental),
-    );
+    let (f_raw, f_w) =
+        span_power(&mut (0..powers.len()).filter(|&k| claims.owner[k] == Owner::Fundamental));
     let fundamental_power = (f_raw - noise_per_bin * f_w).max(0.0);
     let fundamental_dbfs = db(fundamental_power / pfs).unwrap_or(f64::NEG_INFINITY);
 

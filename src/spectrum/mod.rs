@@ -227,7 +227,10 @@ pub fn measure(
             "",
             Location::Whole,
             "records of one equal length of at least 8 samples",
-            format!("lengths {:?}", records.iter().map(|r| r.len()).collect::<Vec<_>>()),
+            format!(
+                "lengths {:?}",
+                records.iter().map(|r| r.len()).collect::<Vec<_>>()
+            ),
         ));
     }
     let coherence = coherence_of(fit);
@@ -265,7 +268,8 @@ pub fn measure(
             "a tone at least 10 dB above the noise at the fitted frequency",
             format!(
                 "SNR {}",
-                figs.snr_db.map_or("undefined".to_string(), |s| format!("{s:.1} dB"))
+                figs.snr_db
+                    .map_or("undefined".to_string(), |s| format!("{s:.1} dB"))
             ),
         ));
     }
@@ -275,7 +279,11 @@ pub fn measure(
     let masked: Vec<String> = figs
         .harmonics
         .iter()
-        .filter_map(|h| h.masked_by.as_ref().map(|by| format!("H{} on {by}", h.order)))
+        .filter_map(|h| {
+            h.masked_by
+                .as_ref()
+                .map(|by| format!("H{} on {by}", h.order))
+        })
         .collect();
     if !masked.is_empty() {
         warnings.push(format!(
@@ -313,7 +321,10 @@ pub fn measure(
         bin_width_hz: sample_rate_hz / n as f64,
         span_halfwidth_bins: half,
         fundamental_hz: fit.frequency_hz,
-        fundamental_dbfs: figs.fundamental_dbfs.is_finite().then_some(figs.fundamental_dbfs),
+        fundamental_dbfs: figs
+            .fundamental_dbfs
+            .is_finite()
+            .then_some(figs.fundamental_dbfs),
         snr_db: figs.snr_db,
         sinad_db: figs.sinad_db,
         thd_db: figs.thd_db,
