@@ -229,7 +229,7 @@ fn bad_inputs_are_reported_with_their_place() {
         ),
         (
             write("fs.txt", b"1\n"),
-            vec!["--fs", "-5", "--bits", "12"],
+            vec!["--fs=-5", "--bits", "12"],
             vec!["sample_rate"],
         ),
         (write("nofs.txt", b"1\n"), vec!["--bits", "12"], vec!["fs"]),

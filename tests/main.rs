@@ -3,3 +3,4 @@
 mod cli;
 mod pipeline;
 mod tolerances;
+mod windows_ref;

@@ -1,8 +1,5 @@
 //! Every tolerance used by the integration tests, in one place, each with its justification.
 
-/// Agreement of two computations of the same quantity in f64 (different summation orders).
-pub const NUMERIC_REL: f64 = 1e-9;
-
 /// dB agreement between the spectral figures and the exact time-domain error power of the same record:
 /// the only differences are the noise hidden under claimed spans (estimated from the mean noise bin) and
 /// rounding, which stay well below 0.01 dB for 4096+ point records.

@@ -8,8 +8,6 @@ use clap::{Args, Parser, Subcommand};
 
 /// Exit status: all records analysed and every limit passed.
 pub const EXIT_OK: i32 = 0;
-/// Exit status: some limit failed.
-pub const EXIT_FAIL: i32 = 1;
 /// Exit status: an error (bad input, bad settings, an unreadable or unanalysable record).
 pub const EXIT_ERROR: i32 = 2;
 

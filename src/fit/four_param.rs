@@ -4,7 +4,7 @@
 use super::start::estimate_frequency;
 use super::sums::{accumulate, Accumulator, Phasor};
 use super::three_param::solve_three;
-use super::{centre_of, finish, residual_of, Centred, FitMethod, FitOutput, SineFit};
+use super::{centre_of, finish, residual_of, Centred, Ending, FitMethod, FitOutput, SineFit};
 use crate::{Error, ErrorKind, Location, Result};
 use nalgebra::{Matrix4, Vector4};
 
@@ -232,9 +232,11 @@ pub fn fit_four(
         sample_rate_hz,
         bits,
         rms,
-        FitMethod::FourParameter,
-        iterations,
-        converged,
+        Ending {
+            method: FitMethod::FourParameter,
+            iterations,
+            converged,
+        },
     );
     edge_warnings(&fit, n, &mut warnings);
     Ok(FitOutput {

@@ -89,6 +89,14 @@ pub(crate) struct Centred {
     pub cycles_per_sample: f64,
 }
 
+/// How a fit ended.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct Ending {
+    pub method: FitMethod,
+    pub iterations: u32,
+    pub converged: bool,
+}
+
 /// Fills in the reported figures from centred parameters and the residual rms.
 pub(crate) fn finish(
     p: Centred,
@@ -96,10 +104,13 @@ pub(crate) fn finish(
     sample_rate_hz: f64,
     bits: u32,
     residual_rms: f64,
-    method: FitMethod,
-    iterations: u32,
-    converged: bool,
+    ending: Ending,
 ) -> SineFit {
+    let Ending {
+        method,
+        iterations,
+        converged,
+    } = ending;
     let amplitude = p.a.hypot(p.b);
     // In the centred frame the phase is atan2(−b, a); move the origin back to n = 0.
     let centred_phase = (-p.b).atan2(p.a);

@@ -1,7 +1,7 @@
 //! Three-parameter least-squares sine fit at a known frequency (IEEE Std 1241 §4.1.3.1, IEEE Std 1057).
 
 use super::sums::{accumulate, Accumulator, Phasor};
-use super::{centre_of, finish, residual_of, Centred, FitMethod, FitOutput};
+use super::{centre_of, finish, residual_of, Centred, Ending, FitMethod, FitOutput};
 use crate::{Error, ErrorKind, Location, Result};
 use nalgebra::{Matrix3, Vector3};
 
@@ -104,9 +104,11 @@ pub fn fit_three(
         sample_rate_hz,
         bits,
         rms,
-        FitMethod::ThreeParameter,
-        0,
-        true,
+        Ending {
+            method: FitMethod::ThreeParameter,
+            iterations: 0,
+            converged: true,
+        },
     );
     let mut warnings = Vec::new();
     super::four_param::edge_warnings(&fit, y.len(), &mut warnings);

@@ -17,12 +17,16 @@ pub fn si(value: f64, unit: &str, significant: usize) -> String {
         (1e-12, "p"),
     ];
     let mag = value.abs();
-    let (scale, prefix) = PREFIXES
-        .iter()
-        .copied()
-        .find(|(s, _)| mag >= *s * 0.999_999_5)
-        .unwrap_or((1e-15, "f"));
-    let v = if value == 0.0 { 0.0 } else { value / scale };
+    let (scale, prefix) = if value == 0.0 {
+        (1.0, "")
+    } else {
+        PREFIXES
+            .iter()
+            .copied()
+            .find(|(s, _)| mag >= *s * 0.999_999_5)
+            .unwrap_or((1e-15, "f"))
+    };
+    let v = value / scale;
     let int_digits = if v.abs() < 1.0 {
         1
     } else {
@@ -49,20 +53,26 @@ pub fn parse_si(text: &str) -> Option<f64> {
         .or_else(|| t.strip_suffix('s'))
         .unwrap_or(t)
         .trim_end();
-    let (num, mult) = match t.chars().last()? {
-        'T' => (&t[..t.len() - 1], 1e12),
-        'G' => (&t[..t.len() - 1], 1e9),
-        'M' => (&t[..t.len() - 1], 1e6),
-        'k' | 'K' => (&t[..t.len() - 1], 1e3),
-        'm' => (&t[..t.len() - 1], 1e-3),
-        'u' => (&t[..t.len() - 1], 1e-6),
-        'n' => (&t[..t.len() - 1], 1e-9),
-        'p' => (&t[..t.len() - 1], 1e-12),
-        'f' => (&t[..t.len() - 1], 1e-15),
-        _ => (t, 1.0),
+    // Decimal exponent of the prefix; negative ones divide so that "3n" is exactly 3e-9.
+    let exp = match t.chars().last()? {
+        'T' => 12,
+        'G' => 9,
+        'M' => 6,
+        'k' | 'K' => 3,
+        'm' => -3,
+        'u' => -6,
+        'n' => -9,
+        'p' => -12,
+        'f' => -15,
+        _ => 0,
     };
+    let num = if exp == 0 { t } else { &t[..t.len() - 1] };
     let v: f64 = num.trim().parse().ok()?;
-    let r = v * mult;
+    let r = if exp >= 0 {
+        v * 10f64.powi(exp)
+    } else {
+        v / 10f64.powi(-exp)
+    };
     r.is_finite().then_some(r)
 }
 
