@@ -242,7 +242,7 @@ pub fn measure(
         settings.span_guard_bins,
     );
     let half = half_span(window, coherence.coherent, settings.span_guard_bins);
-    let w = window.samples(n);
+    let w = window.samples_shared(n);
     let mut powers = vec![0.0; n / 2 + 1];
     for r in records {
         for (acc, p) in powers.iter_mut().zip(fft::power_spectrum(r, &w)) {
