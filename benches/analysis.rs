@@ -2,6 +2,10 @@
 //! (target: analysis ≤ 3× the FFT), and text parsing of 2^20 codes (target: < 30 ms).
 
 use criterion::{criterion_group, criterion_main, Criterion};
+
+// The same allocator as the binary, so the figures are the tool's.
+#[global_allocator]
+static ALLOC: mimalloc::MiMalloc = mimalloc::MiMalloc;
 use spurline::analysis::{analyze, AnalysisSettings};
 use spurline::synth::{synthesize, SynthFrequency, SynthSettings};
 

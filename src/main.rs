@@ -4,6 +4,11 @@ mod cli;
 
 use clap::Parser;
 
+// mimalloc keeps freed pages for reuse: the large per-record buffers then cost no page faults, which
+// was a quarter of the analysis time of a 2^20-sample record with the system allocator.
+#[global_allocator]
+static ALLOC: mimalloc::MiMalloc = mimalloc::MiMalloc;
+
 fn main() {
     let args = cli::Cli::parse();
     std::process::exit(cli::run(args));

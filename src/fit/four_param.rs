@@ -2,7 +2,7 @@
 //! cosine and sine amplitudes, the offset and the frequency, from the FFT-peak start.
 
 use super::start::estimate_frequency;
-use super::sums::{accumulate, Accumulator, Phasor};
+use super::sums::{for_each_group, total, Phasor, LANES, LANE_OFFSETS};
 use super::three_param::solve_three;
 use super::{centre_of, finish, residual_of, Centred, Ending, FitMethod, FitOutput, SineFit};
 use crate::{Error, ErrorKind, Location, Result};
@@ -33,63 +33,72 @@ const RESIDUAL_REL_TOL: f64 = 1e-13;
 const FREQ_ULPS: f64 = 4.0;
 
 /// Gauss-Newton sums at the current parameters (a, b, c0 are the model, not sums): JᵀJ and Jᵀr for
-/// columns (cos, sin, 1, ∂/∂ω), and Σr².
+/// columns (cos, sin, 1, ∂/∂ω), and Σr², per lane.
 #[derive(Clone, Default)]
 struct SumsGn {
     a: f64,
     b: f64,
     c0: f64,
-    cc: f64,
-    ss: f64,
-    cs: f64,
-    c: f64,
-    s: f64,
-    cd: f64,
-    sd: f64,
-    d: f64,
-    dd: f64,
-    rc: f64,
-    rs: f64,
-    r: f64,
-    rd: f64,
-    rr: f64,
+    cc: [f64; LANES],
+    ss: [f64; LANES],
+    cs: [f64; LANES],
+    c: [f64; LANES],
+    s: [f64; LANES],
+    cd: [f64; LANES],
+    sd: [f64; LANES],
+    d: [f64; LANES],
+    dd: [f64; LANES],
+    rc: [f64; LANES],
+    rs: [f64; LANES],
+    r: [f64; LANES],
+    rd: [f64; LANES],
+    rr: [f64; LANES],
 }
 
-impl Accumulator for SumsGn {
+impl SumsGn {
+    /// Adds a full group of samples.
     #[inline(always)]
-    fn add(&mut self, t: f64, y: f64, c: f64, s: f64) {
+    fn add(&mut self, t0: f64, y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]) {
+        for j in 0..LANES {
+            let t = t0 + LANE_OFFSETS[j];
+            let (cj, sj) = (c[j], s[j]);
+            let r = y[j] - (self.a * cj + self.b * sj + self.c0);
+            let d = t * (self.b * cj - self.a * sj);
+            self.cc[j] += cj * cj;
+            self.ss[j] += sj * sj;
+            self.cs[j] += cj * sj;
+            self.c[j] += cj;
+            self.s[j] += sj;
+            self.cd[j] += cj * d;
+            self.sd[j] += sj * d;
+            self.d[j] += d;
+            self.dd[j] += d * d;
+            self.rc[j] += r * cj;
+            self.rs[j] += r * sj;
+            self.r[j] += r;
+            self.rd[j] += r * d;
+            self.rr[j] += r * r;
+        }
+    }
+
+    /// Adds one sample (the record's last partial group).
+    fn add_one(&mut self, t: f64, y: f64, c: f64, s: f64) {
         let r = y - (self.a * c + self.b * s + self.c0);
         let d = t * (self.b * c - self.a * s);
-        self.cc += c * c;
-        self.ss += s * s;
-        self.cs += c * s;
-        self.c += c;
-        self.s += s;
-        self.cd += c * d;
-        self.sd += s * d;
-        self.d += d;
-        self.dd += d * d;
-        self.rc += r * c;
-        self.rs += r * s;
-        self.r += r;
-        self.rd += r * d;
-        self.rr += r * r;
-    }
-    fn merge(&mut self, o: &Self) {
-        self.cc += o.cc;
-        self.ss += o.ss;
-        self.cs += o.cs;
-        self.c += o.c;
-        self.s += o.s;
-        self.cd += o.cd;
-        self.sd += o.sd;
-        self.d += o.d;
-        self.dd += o.dd;
-        self.rc += o.rc;
-        self.rs += o.rs;
-        self.r += o.r;
-        self.rd += o.rd;
-        self.rr += o.rr;
+        self.cc[0] += c * c;
+        self.ss[0] += s * s;
+        self.cs[0] += c * s;
+        self.c[0] += c;
+        self.s[0] += s;
+        self.cd[0] += c * d;
+        self.sd[0] += s * d;
+        self.d[0] += d;
+        self.dd[0] += d * d;
+        self.rc[0] += r * c;
+        self.rs[0] += r * s;
+        self.r[0] += r;
+        self.rd[0] += r * d;
+        self.rr[0] += r * r;
     }
 }
 
@@ -99,30 +108,50 @@ fn gauss_newton_pass(y: &[f64], p: Centred) -> (f64, Option<Vector4<f64>>) {
         cycles_per_sample: p.cycles_per_sample,
         centre: centre_of(y.len()),
     };
-    let template = SumsGn {
+    let mut sums = SumsGn {
         a: p.a,
         b: p.b,
         c0: p.c,
         ..SumsGn::default()
     };
-    let sums = accumulate(y, phasor, &template);
+    for_each_group(y.len(), phasor, |n0, len, c, s| {
+        let t0 = n0 as f64 - phasor.centre;
+        if len == LANES {
+            let yy: &[f64; LANES] = y[n0..n0 + LANES].try_into().expect("group of LANES");
+            sums.add(t0, yy, c, s);
+        } else {
+            for j in 0..len {
+                sums.add_one(t0 + j as f64, y[n0 + j], c[j], s[j]);
+            }
+        }
+    });
     let n = y.len() as f64;
+    let [cc, ss, cs, c, s, cd, sd, d, dd] = [
+        &sums.cc, &sums.ss, &sums.cs, &sums.c, &sums.s, &sums.cd, &sums.sd, &sums.d, &sums.dd,
+    ]
+    .map(total);
     let m = Matrix4::new(
-        sums.cc, sums.cs, sums.c, sums.cd, //
-        sums.cs, sums.ss, sums.s, sums.sd, //
-        sums.c, sums.s, n, sums.d, //
-        sums.cd, sums.sd, sums.d, sums.dd,
+        cc, cs, c, cd, //
+        cs, ss, s, sd, //
+        c, s, n, d, //
+        cd, sd, d, dd,
     );
-    let g = Vector4::new(sums.rc, sums.rs, sums.r, sums.rd);
+    let g = Vector4::new(
+        total(&sums.rc),
+        total(&sums.rs),
+        total(&sums.r),
+        total(&sums.rd),
+    );
+    let rr = total(&sums.rr);
     // Jacobi scaling keeps Cholesky accurate although the ω column is ~N·A larger than the others.
     let scale = Vector4::from_fn(|i, _| 1.0 / m[(i, i)].sqrt());
     if scale.iter().any(|v| !v.is_finite()) {
-        return (sums.rr, None);
+        return (rr, None);
     }
     let ms = Matrix4::from_fn(|i, j| m[(i, j)] * scale[i] * scale[j]);
     let gs = g.component_mul(&scale);
     let step = ms.cholesky().map(|ch| ch.solve(&gs).component_mul(&scale));
-    (sums.rr, step)
+    (rr, step)
 }
 
 /// Four-parameter fit of `y`: finds the frequency, amplitude, phase and offset.

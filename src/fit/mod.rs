@@ -163,37 +163,16 @@ pub(crate) fn residual_of(y: &[f64], p: Centred) -> (Vec<f64>, f64) {
         cycles_per_sample: p.cycles_per_sample,
         centre: centre_of(y.len()),
     };
-    let mut out = vec![0.0; y.len()];
-    let mut sum_sq = 0.0;
-    for_each_cos_sin(y.len(), phasor, |n, c, s| {
-        let r = y[n] - (p.a * c + p.b * s + p.c);
-        out[n] = r;
-        sum_sq += r * r;
-    });
-    let rms = (sum_sq / y.len() as f64).sqrt();
-    (out, rms)
-}
-
-/// Visits every sample in order with the model's cos/sin (recurrence re-seeded every 1024 samples).
-pub(crate) fn for_each_cos_sin(
-    samples: usize,
-    phasor: sums::Phasor,
-    mut f: impl FnMut(usize, f64, f64),
-) {
-    let step = {
-        let (s, c) = (TAU * phasor.cycles_per_sample.fract()).sin_cos();
-        (c, s)
-    };
-    let mut n = 0;
-    while n < samples {
-        let end = (n + 1024).min(samples);
-        let (mut c, mut s) = phasor.cos_sin_at(n);
-        for k in n..end {
-            f(k, c, s);
-            let c2 = c * step.0 - s * step.1;
-            s = s * step.0 + c * step.1;
-            c = c2;
+    // Groups arrive in sample order, so the residual is pushed (no zero-fill of a buffer first).
+    let mut out = Vec::with_capacity(y.len());
+    let mut sq = [0.0; sums::LANES];
+    sums::for_each_group(y.len(), phasor, |n0, len, c, s| {
+        for j in 0..len {
+            let r = y[n0 + j] - (p.a * c[j] + p.b * s[j] + p.c);
+            out.push(r);
+            sq[j] += r * r;
         }
-        n = end;
-    }
+    });
+    let rms = (sums::total(&sq) / y.len() as f64).sqrt();
+    (out, rms)
 }

@@ -4,10 +4,11 @@
 use crate::spectrum::fft::real_fft;
 use crate::{Error, ErrorKind, Location, Result};
 
-/// Longest stretch used to locate the tone: 2^16 samples locate it to ~1e-3 of their bin, about 0.02 bin
-/// of a 2^20 record, well inside Gauss-Newton's reach, at 1/20 of the cost of a full-length FFT. Tones
+/// Longest stretch used to locate the tone. The Hann three-bin interpolator is exact for a lone tone, so
+/// noise and neighbouring harmonics leave it within ~1e-3 of a bin of 2^14 samples, under 0.1 bin of a
+/// 2^20 record: inside Gauss-Newton's reach, at a small part of the cost of a full-length FFT. Tones
 /// within a few bins of DC in that stretch are located on the whole record instead.
-const START_LEN: usize = 1 << 16;
+const START_LEN: usize = 1 << 14;
 
 /// Tone-to-median bin power ratio below which a record is said to hold no tone (40 dB: white noise alone
 /// rarely puts a bin 12 dB over the median). Common practice, no source.

@@ -43,102 +43,98 @@ pub(crate) fn reduced_product(a: f64, b: f64) -> f64 {
     f - f.floor()
 }
 
-/// What a pass accumulates for each sample. `t` is n − centre in samples, `y` the sample value,
-/// `c`/`s` the model's cos/sin at that sample.
-pub(crate) trait Accumulator: Clone {
-    /// Adds one sample.
-    fn add(&mut self, t: f64, y: f64, c: f64, s: f64);
-    /// Adds another accumulator's sums into this one.
-    fn merge(&mut self, other: &Self);
-}
+/// Offsets of the lanes within a group, as floats.
+pub(crate) const LANE_OFFSETS: [f64; LANES] = [0.0, 1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0];
 
-/// Runs one pass over `y`, handing every sample with its cos/sin to the accumulator.
-/// Lanes are merged in a fixed order, so the result does not depend on anything but the input.
-/// Every lane starts as a clone of `template`, which may carry model parameters besides zeroed sums.
-pub(crate) fn accumulate<A: Accumulator>(y: &[f64], phasor: Phasor, template: &A) -> A {
-    let mut lanes: [A; LANES] = std::array::from_fn(|_| template.clone());
-    let step = {
-        let (s, c) = (TAU * reduced_product(phasor.cycles_per_sample, LANES as f64)).sin_cos();
-        (c, s)
-    };
-    let n_total = y.len();
+/// Visits the samples in groups of LANES consecutive samples: `f(n0, len, c, s)` gets the model's cos
+/// and sin at samples n0 + j for j < len (len < LANES only for the record's last group). The lanes are
+/// independent rotations by LANES·ω, which the compiler turns into vector code, re-seeded exactly
+/// every BLOCK samples.
+#[inline(always)]
+pub(crate) fn for_each_group(
+    samples: usize,
+    phasor: Phasor,
+    mut f: impl FnMut(usize, usize, &[f64; LANES], &[f64; LANES]),
+) {
+    let (ss, cs) = (TAU * reduced_product(phasor.cycles_per_sample, LANES as f64)).sin_cos();
     let mut block_start = 0;
-    while block_start < n_total {
-        let block_end = (block_start + BLOCK).min(n_total);
-        let mut cs: [(f64, f64); LANES] =
-            std::array::from_fn(|j| phasor.cos_sin_at(block_start + j));
-        let full = block_start + (block_end - block_start) / LANES * LANES;
+    while block_start < samples {
+        let block_end = (block_start + BLOCK).min(samples);
+        let mut c = [0.0; LANES];
+        let mut s = [0.0; LANES];
+        for j in 0..LANES {
+            (c[j], s[j]) = phasor.cos_sin_at(block_start + j);
+        }
         let mut n = block_start;
-        while n < full {
+        while n < block_end {
+            let len = (block_end - n).min(LANES);
+            f(n, len, &c, &s);
             for j in 0..LANES {
-                let (c, s) = cs[j];
-                let t = (n + j) as f64 - phasor.centre;
-                lanes[j].add(t, y[n + j], c, s);
-                cs[j] = (c * step.0 - s * step.1, s * step.0 + c * step.1);
+                let c2 = c[j] * cs - s[j] * ss;
+                s[j] = s[j] * cs + c[j] * ss;
+                c[j] = c2;
             }
             n += LANES;
         }
-        for (j, k) in (full..block_end).enumerate() {
-            let (c, s) = cs[j];
-            lanes[j].add(k as f64 - phasor.centre, y[k], c, s);
-        }
         block_start = block_end;
     }
-    let mut total = template.clone();
-    for lane in &lanes {
-        total.merge(lane);
-    }
-    total
+}
+
+/// What a pass accumulates: sums kept per lane (so they vectorise), reduced in a fixed order at the end.
+pub(crate) trait Accumulator: Clone {
+    /// Adds a full group: samples with t = t0 + j (t = n − centre), values y, model cos/sin c, s.
+    fn add(&mut self, t0: f64, y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]);
+    /// Adds a single sample (the last partial group).
+    fn add_one(&mut self, t: f64, y: f64, c: f64, s: f64);
+}
+
+/// Runs one pass over `y` with the accumulator `template` (which may carry model parameters).
+pub(crate) fn accumulate<A: Accumulator>(y: &[f64], phasor: Phasor, template: &A) -> A {
+    let mut acc = template.clone();
+    for_each_group(y.len(), phasor, |n0, len, c, s| {
+        let t0 = n0 as f64 - phasor.centre;
+        if len == LANES {
+            let yy: &[f64; LANES] = y[n0..n0 + LANES].try_into().expect("group of LANES");
+            acc.add(t0, yy, c, s);
+        } else {
+            for j in 0..len {
+                acc.add_one(t0 + j as f64, y[n0 + j], c[j], s[j]);
+            }
+        }
+    });
+    acc
+}
+
+/// Sum of the lanes in a fixed (pairwise) order: the result does not depend on anything but the input.
+#[inline]
+pub(crate) fn total(v: &[f64; LANES]) -> f64 {
+    ((v[0] + v[4]) + (v[2] + v[6])) + ((v[1] + v[5]) + (v[3] + v[7]))
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
 
-    #[derive(Clone, Default)]
-    struct MaxErr {
-        worst: f64,
-        count: usize,
-    }
-    thread_local! {
-        static PH: std::cell::Cell<(f64, f64)> = const { std::cell::Cell::new((0.0, 0.0)) };
-    }
-    impl Accumulator for MaxErr {
-        fn add(&mut self, t: f64, _y: f64, c: f64, s: f64) {
-            let (f, centre) = PH.with(|p| p.get());
-            let n = t + centre;
-            let ph = Phasor {
-                cycles_per_sample: f,
-                centre,
-            };
-            let (c0, s0) = ph.cos_sin_at(n as usize);
-            self.worst = self.worst.max((c - c0).abs()).max((s - s0).abs());
-            self.count += 1;
-        }
-        fn merge(&mut self, o: &Self) {
-            self.worst = self.worst.max(o.worst);
-            self.count += o.count;
-        }
-    }
-
-    // Slow, obvious reference: sin_cos per sample. The recurrence must agree to 1e-12 and visit
+    // Slow, obvious reference: sin_cos per sample. The grouped recurrence must agree to 1e-12 and visit
     // every sample exactly once, for lengths that are not multiples of the block or of the lanes.
     #[test]
     fn recurrence_matches_direct_evaluation() {
         for &(n, f) in &[(1000usize, 0.0123), (4099, 0.4567), (65536 + 13, 0.1234567)] {
-            let centre = (n as f64 - 1.0) / 2.0;
-            PH.with(|p| p.set((f, centre)));
-            let y = vec![0.0; n];
-            let acc = accumulate(
-                &y,
-                Phasor {
-                    cycles_per_sample: f,
-                    centre,
-                },
-                &MaxErr::default(),
-            );
-            assert_eq!(acc.count, n);
-            assert!(acc.worst < 1e-12, "n={n} worst={}", acc.worst);
+            let ph = Phasor {
+                cycles_per_sample: f,
+                centre: (n as f64 - 1.0) / 2.0,
+            };
+            let mut seen = vec![0u8; n];
+            let mut worst: f64 = 0.0;
+            for_each_group(n, ph, |n0, len, c, s| {
+                for j in 0..len {
+                    let (c0, s0) = ph.cos_sin_at(n0 + j);
+                    worst = worst.max((c[j] - c0).abs()).max((s[j] - s0).abs());
+                    seen[n0 + j] += 1;
+                }
+            });
+            assert!(seen.iter().all(|&k| k == 1), "n={n}");
+            assert!(worst < 1e-12, "n={n} worst={worst}");
         }
     }
 

@@ -1,44 +1,46 @@
 //! Three-parameter least-squares sine fit at a known frequency (IEEE Std 1241 §4.1.3.1, IEEE Std 1057).
 
-use super::sums::{accumulate, Accumulator, Phasor};
+use super::sums::{accumulate, total, Accumulator, Phasor, LANES};
 use super::{centre_of, finish, residual_of, Centred, Ending, FitMethod, FitOutput};
 use crate::{Error, ErrorKind, Location, Result};
 use nalgebra::{Matrix3, Vector3};
 
-/// Sums of the three-parameter normal equations (columns cos, sin, 1).
+/// Sums of the three-parameter normal equations (columns cos, sin, 1), per lane.
 #[derive(Clone, Default)]
 struct Sums3 {
-    cc: f64,
-    ss: f64,
-    cs: f64,
-    c: f64,
-    s: f64,
-    y: f64,
-    yc: f64,
-    ys: f64,
+    cc: [f64; LANES],
+    ss: [f64; LANES],
+    cs: [f64; LANES],
+    c: [f64; LANES],
+    s: [f64; LANES],
+    y: [f64; LANES],
+    yc: [f64; LANES],
+    ys: [f64; LANES],
 }
 
 impl Accumulator for Sums3 {
     #[inline(always)]
-    fn add(&mut self, _t: f64, y: f64, c: f64, s: f64) {
-        self.cc += c * c;
-        self.ss += s * s;
-        self.cs += c * s;
-        self.c += c;
-        self.s += s;
-        self.y += y;
-        self.yc += y * c;
-        self.ys += y * s;
+    fn add(&mut self, _t0: f64, y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]) {
+        for j in 0..LANES {
+            self.cc[j] += c[j] * c[j];
+            self.ss[j] += s[j] * s[j];
+            self.cs[j] += c[j] * s[j];
+            self.c[j] += c[j];
+            self.s[j] += s[j];
+            self.y[j] += y[j];
+            self.yc[j] += y[j] * c[j];
+            self.ys[j] += y[j] * s[j];
+        }
     }
-    fn merge(&mut self, o: &Self) {
-        self.cc += o.cc;
-        self.ss += o.ss;
-        self.cs += o.cs;
-        self.c += o.c;
-        self.s += o.s;
-        self.y += o.y;
-        self.yc += o.yc;
-        self.ys += o.ys;
+    fn add_one(&mut self, _t: f64, y: f64, c: f64, s: f64) {
+        self.cc[0] += c * c;
+        self.ss[0] += s * s;
+        self.cs[0] += c * s;
+        self.c[0] += c;
+        self.s[0] += s;
+        self.y[0] += y;
+        self.yc[0] += y * c;
+        self.ys[0] += y * s;
     }
 }
 
@@ -50,8 +52,15 @@ pub(crate) fn solve_three(y: &[f64], cycles_per_sample: f64) -> Result<Centred> 
     };
     let m = accumulate(y, phasor, &Sums3::default());
     let n = y.len() as f64;
-    let a = Matrix3::new(m.cc, m.cs, m.c, m.cs, m.ss, m.s, m.c, m.s, n);
-    let rhs = Vector3::new(m.yc, m.ys, m.y);
+    let (cc, ss, cs, c, s) = (
+        total(&m.cc),
+        total(&m.ss),
+        total(&m.cs),
+        total(&m.c),
+        total(&m.s),
+    );
+    let a = Matrix3::new(cc, cs, c, cs, ss, s, c, s, n);
+    let rhs = Vector3::new(total(&m.yc), total(&m.ys), total(&m.y));
     let chol = a.cholesky().ok_or_else(|| {
         Error::new(
             ErrorKind::DegenerateFit,

@@ -21,27 +21,30 @@ pub fn real_fft(input: &mut [f64]) -> Vec<Complex<f64>> {
 }
 
 /// One-sided power spectrum of `x` under window `w`, scaled by N·Σw² so that a tone's power summed over
-/// its bins equals A²/2 and the mean noise bin is 2σ²/N (bins 0 and N/2 are not doubled).
+/// its bins equals A²/2 and the mean noise bin is 2σ²/N (bins 0 and N/2 are not doubled). An all-ones
+/// window (rectangular) skips the multiplication.
 pub fn power_spectrum(x: &[f64], w: &[f64]) -> Vec<f64> {
     debug_assert_eq!(x.len(), w.len());
     let n = x.len();
-    let mut buf: Vec<f64> = x.iter().zip(w).map(|(a, b)| a * b).collect();
-    let sum_w2: f64 = w.iter().map(|v| v * v).sum();
+    let rectangular = w.iter().all(|&v| v == 1.0);
+    let (mut buf, sum_w2): (Vec<f64>, f64) = if rectangular {
+        (x.to_vec(), n as f64)
+    } else {
+        (
+            x.iter().zip(w).map(|(a, b)| a * b).collect(),
+            w.iter().map(|v| v * v).sum(),
+        )
+    };
     let spec = real_fft(&mut buf);
     let scale = 1.0 / (n as f64 * sum_w2);
-    let last = spec.len() - 1;
-    spec.iter()
-        .enumerate()
-        .map(|(k, z)| {
-            let p = z.norm_sqr() * scale;
-            // The Nyquist bin exists only for even N; it and DC are not mirrored.
-            if k == 0 || (k == last && n % 2 == 0) {
-                p
-            } else {
-                2.0 * p
-            }
-        })
-        .collect()
+    let mut out: Vec<f64> = spec.iter().map(|z| 2.0 * scale * z.norm_sqr()).collect();
+    // DC and (for even N) Nyquist are not mirrored.
+    out[0] *= 0.5;
+    if n % 2 == 0 {
+        let last = out.len() - 1;
+        out[last] *= 0.5;
+    }
+    out
 }
 
 #[cfg(test)]

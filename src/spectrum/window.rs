@@ -258,8 +258,9 @@ impl Window {
     /// Like [`Window::samples`], shared from a small per-thread cache: a lot of records of one length
     /// computes its window once.
     pub fn samples_shared(&self, n: usize) -> Arc<[f64]> {
+        type Entry = (Window, usize, Arc<[f64]>);
         thread_local! {
-            static CACHE: RefCell<Vec<(Window, usize, Arc<[f64]>)>> = const { RefCell::new(Vec::new()) };
+            static CACHE: RefCell<Vec<Entry>> = const { RefCell::new(Vec::new()) };
         }
         CACHE.with(|c| {
             let mut c = c.borrow_mut();
