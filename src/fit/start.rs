@@ -8,7 +8,7 @@ use crate::{Error, ErrorKind, Location, Result};
 /// noise and neighbouring harmonics leave it within ~1e-3 of a bin of 2^14 samples, under 0.1 bin of a
 /// 2^20 record: inside Gauss-Newton's reach, at a small part of the cost of a full-length FFT. Tones
 /// within a few bins of DC in that stretch are located on the whole record instead.
-const START_LEN: usize = 1 << 14;
+pub(crate) const START_LEN: usize = 1 << 14;
 
 /// Tone-to-median bin power ratio below which a record is said to hold no tone (40 dB: white noise alone
 /// rarely puts a bin 12 dB over the median). Common practice, no source.
