@@ -57,6 +57,8 @@ pub enum ErrorKind {
     NoTone,
     /// A fit that cannot be solved (degenerate normal equations, too few cycles).
     DegenerateFit,
+    /// A tone so close to DC that the window's DC span swallows it.
+    ToneAtEdge,
     /// A bench plan that does not parse or names something that does not exist.
     BadPlan,
     /// A limit table that does not parse or names something unknown.

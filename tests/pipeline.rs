@@ -330,3 +330,18 @@ fn json_has_no_nan_for_masked_harmonics() {
     assert!(sp.harmonics.iter().find(|h| h.order == 3).unwrap().masked);
     assert!(sp.harmonics.iter().find(|h| h.order == 4).unwrap().masked);
 }
+
+/// A tone inside the window's DC span cannot be separated from DC: a clear error, not a silent zero
+/// (common practice, no source).
+#[test]
+fn tone_in_the_dc_span_is_a_clear_error() {
+    let s = SynthSettings {
+        frequency: SynthFrequency::Hz(30e3),
+        noise_rms_codes: 0.5,
+        ..ideal(12, 4096, -1.0, 30e3)
+    };
+    let rec = synthesize(&s).unwrap().record;
+    let err = analyze(&rec, &AnalysisSettings::default()).unwrap_err();
+    assert_eq!(err.kind, spurline::ErrorKind::ToneAtEdge, "{err}");
+    assert!(err.to_string().contains("DC span"), "{err}");
+}

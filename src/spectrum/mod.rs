@@ -252,6 +252,21 @@ pub fn measure(
     let m = records.len() as f64;
     powers.iter_mut().for_each(|p| *p /= m);
     let claims = tones::claim_bins(n, fit.cycles, settings.harmonics.max(1), half);
+    if claims.owner[claims.fundamental_bin] == tones::Owner::Dc {
+        return Err(Error::new(
+            ErrorKind::ToneAtEdge,
+            "",
+            Location::Whole,
+            format!(
+                "a tone outside the DC span (bins 0..={half} under the {} window)",
+                window.name()
+            ),
+            format!(
+                "the fundamental at bin {:.2} ({:.1} cycles): use a longer record, a higher input frequency, or a coherent input analysed unwindowed",
+                fit.cycles, fit.cycles
+            ),
+        ));
+    }
     let figs = metrics::figures(&powers, &claims, n, sample_rate_hz, bits);
     let mut warnings = Vec::new();
     if figs.noise_bins < 8 {
