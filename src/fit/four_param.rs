@@ -201,15 +201,8 @@ pub fn fit_four(
     let n = y.len();
     let hint = options.hint_hz.map(|h| h / sample_rate_hz);
     let f0 = estimate_frequency(y, hint)?;
-    if f0 * (n as f64) < 1.0 {
-        return Err(Error::new(
-            ErrorKind::DegenerateFit,
-            "",
-            Location::Whole,
-            "at least one full cycle of the input in the record",
-            format!("about {:.2} cycles", f0 * n as f64),
-        ));
-    }
+    // The start may be rough for tones within a bin or two of DC; the cycle count is judged after the
+    // fit.
     let mut p = linear_start(y, f0)?;
     // `residual` holds the residual at `p`; trial passes write into `scratch` and swap in on acceptance,
     // so no separate residual pass is needed at the end.
