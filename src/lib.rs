@@ -23,6 +23,7 @@ mod error;
 mod record;
 
 pub mod analysis;
+pub mod compare;
 
 pub mod fit;
 pub mod ingest;
