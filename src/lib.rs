@@ -32,6 +32,7 @@ pub mod report;
 
 pub mod spectrum;
 pub mod synth;
+pub mod verify;
 
 pub use error::{Error, ErrorKind, Location, Result};
 pub use record::{

@@ -2,5 +2,6 @@
 
 mod cli;
 mod pipeline;
+mod reference;
 mod tolerances;
 mod windows_ref;

@@ -3,11 +3,14 @@
 mod analyze;
 mod demo;
 mod synth;
+mod verify;
 
 use clap::{Args, Parser, Subcommand};
 
 /// Exit status: all records analysed and every limit passed.
 pub const EXIT_OK: i32 = 0;
+/// Exit status: the run completed and something failed (a limit, or a `verify` check).
+pub const EXIT_FAIL: i32 = 1;
 /// Exit status: an error (bad input, bad settings, an unreadable or unanalysable record).
 pub const EXIT_ERROR: i32 = 2;
 
@@ -34,6 +37,8 @@ pub enum Command {
     Synth(synth::SynthArgs),
     /// Run the main job on built-in generated data and write a report into reports/demo/.
     Demo(demo::DemoArgs),
+    /// Check this build against published and analytic reference figures; exit 0 when all pass.
+    Verify(verify::VerifyArgs),
 }
 
 /// Runs a parsed command line and returns the exit status.
@@ -42,6 +47,7 @@ pub fn run(cli: Cli) -> i32 {
         Command::Analyze(a) => analyze::run(a),
         Command::Synth(a) => synth::run(a),
         Command::Demo(a) => demo::run(a),
+        Command::Verify(a) => verify::run(a),
     }
 }
 

@@ -31,9 +31,8 @@ pub fn summarize(values: &[f64]) -> Option<Summary> {
     v.sort_by(|a, b| a.total_cmp(b));
     let n = v.len();
     let mean = v.iter().sum::<f64>() / n as f64;
-    let std = (n >= 2).then(|| {
-        (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt()
-    });
+    let std = (n >= 2)
+        .then(|| (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt());
     let median = if n % 2 == 1 {
         v[n / 2]
     } else {
@@ -140,7 +139,11 @@ mod tests {
     // = 2.228, t(0.975, 30) = 2.042, t(0.995, 5) = 4.032.
     #[test]
     fn student_t_quantiles_match_tables() {
-        for (df, p, q) in [(10.0, 0.975, 2.228), (30.0, 0.975, 2.042), (5.0, 0.995, 4.032)] {
+        for (df, p, q) in [
+            (10.0, 0.975, 2.228),
+            (30.0, 0.975, 2.042),
+            (5.0, 0.995, 4.032),
+        ] {
             let t = StudentsT::new(0.0, 1.0, df).unwrap();
             assert!((t.inverse_cdf(p) - q).abs() < 5e-4, "df {df}");
         }

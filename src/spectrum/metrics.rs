@@ -161,7 +161,9 @@ pub fn figures(
         let corrected = raw - expected_noise;
         harmonic_power_signed += corrected;
         let at_floor = corrected <= expected_noise;
-        let level = if corrected > 0.0 { corrected } else { raw };
+        // At the floor the corrected power is not a measurement; the raw span power is an upper bound
+        // (and compares like for like with the raw noise bins in the worst-spur search).
+        let level = if at_floor { raw } else { corrected };
         if !at_floor {
             thd_sum += corrected;
         }
@@ -248,5 +250,40 @@ pub fn figures(
         harmonics,
         noise_bins,
         largest_noise_bin,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::spectrum::tones::claim_bins;
+
+    // White noise of 1 code² per unit weight (so ½ in the half-weight Nyquist bin), a fundamental in
+    // bin 5, H2 in bin 10 at the floor (raw 1.5 against 1.0 expected) and H3 in bin 15 well above it.
+    // Conventions of the module docs and of HarmonicFigure::at_floor: an at-floor harmonic reports its
+    // raw span power (an upper bound) and adds nothing to THD; the others report the corrected power.
+    #[test]
+    fn at_floor_harmonic_reports_its_raw_span_power() {
+        let n = 64;
+        let claims = claim_bins(n, 5.0, 3, 0);
+        let mut p = vec![1.0; n / 2 + 1];
+        p[n / 2] = 0.5;
+        p[5] = 1001.0;
+        p[10] = 1.5;
+        p[15] = 11.0;
+        let f = figures(&p, &claims, n, 1.0, 12);
+        assert!((f.noise_per_bin - 1.0).abs() < 1e-12);
+        let p1 = 1000.0;
+        assert!((f.fundamental_power - p1).abs() < 1e-9);
+        let h2 = &f.harmonics[0];
+        assert!(h2.at_floor);
+        assert!((h2.dbc.unwrap() - 10.0 * (1.5 / p1).log10()).abs() < 1e-9);
+        let h3 = &f.harmonics[1];
+        assert!(!h3.at_floor);
+        assert!((h3.dbc.unwrap() - 10.0 * (10.0 / p1).log10()).abs() < 1e-9);
+        assert!((f.thd_db.unwrap() - 10.0 * (10.0 / p1).log10()).abs() < 1e-9);
+        // SINAD counts every corrected harmonic power, the at-floor one included.
+        let sinad = 10.0 * (p1 / (32.0 + 0.5 + 10.0)).log10();
+        assert!((f.sinad_db.unwrap() - sinad).abs() < 1e-9);
     }
 }
