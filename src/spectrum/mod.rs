@@ -81,6 +81,9 @@ pub struct Coherence {
     pub offset_cycles: f64,
     /// The tolerance used: 4σ of the fitted cycle count (at least 1e-9 cycles).
     pub tolerance_cycles: f64,
+    /// How it was decided: "fit" (cycle count within tolerance, or clearly off an integer) or
+    /// "spectrum" (a fit offset below 0.01 cycles that the unwindowed spectrum shows to be a fit bias).
+    pub decided_by: &'static str,
 }
 
 /// Decides coherence from a fit.
@@ -92,7 +95,34 @@ pub fn coherence_of(fit: &SineFit) -> Coherence {
         cycles: fit.cycles,
         offset_cycles: offset,
         tolerance_cycles: tol,
+        decided_by: "fit",
     }
+}
+
+/// Fit offsets below this (cycles) are checked against the unwindowed spectrum before the record is
+/// called non-coherent: strong low-order harmonics pull a sine fit's frequency by up to ~1e-4 cycles on
+/// short records, because the frequency column of the fit is not orthogonal to them.
+pub const SPECTRAL_CHECK_CYCLES: f64 = 0.01;
+
+/// Checks a small fit offset against the unwindowed spectrum of `record`. A tone really δ cycles off an
+/// integer leaks about δ²·P into each neighbour of its bin (rectangular window, |sinc(1 ∓ δ)|²); when the
+/// neighbours hold less than a tenth of that, the offset is a fit bias and the record is coherent.
+fn spectral_coherence(record: &[f64], mut c: Coherence) -> Coherence {
+    let n = record.len();
+    let k0 = c.cycles.round() as usize;
+    if c.coherent || c.offset_cycles.abs() > SPECTRAL_CHECK_CYCLES || k0 < 2 || k0 + 2 > n / 2 {
+        return c;
+    }
+    let ones = vec![1.0; n];
+    let p = fft::power_spectrum(record, &ones);
+    let d = c.offset_cycles.abs();
+    let predicted = p[k0] * ((d / (1.0 - d)).powi(2) + (d / (1.0 + d)).powi(2));
+    let measured = p[k0 - 1] + p[k0 + 1];
+    if measured < 0.1 * predicted {
+        c.coherent = true;
+        c.decided_by = "spectrum";
+    }
+    c
 }
 
 /// Half-width of the tone spans for a window, in bins.
@@ -233,7 +263,10 @@ pub fn measure(
             ),
         ));
     }
-    let coherence = coherence_of(fit);
+    let coherence = match settings.window {
+        WindowChoice::Auto => spectral_coherence(records[0], coherence_of(fit)),
+        WindowChoice::Fixed(_) => coherence_of(fit),
+    };
     let (window, window_reason) = choose_window(
         settings.window,
         coherence.coherent,
