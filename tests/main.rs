@@ -1,6 +1,7 @@
 //! Integration tests, one binary with a module per topic. Every check names its source beside it.
 
 mod cli;
+mod compare;
 mod pipeline;
 mod reference;
 mod tolerances;
