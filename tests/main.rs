@@ -2,5 +2,6 @@
 
 mod cli;
 mod pipeline;
+mod report;
 mod tolerances;
 mod windows_ref;
