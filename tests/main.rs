@@ -4,5 +4,6 @@ mod cli;
 mod compare;
 mod pipeline;
 mod reference;
+mod report;
 mod tolerances;
 mod windows_ref;

@@ -1,10 +1,11 @@
-//! `spurline analyze`: read records, analyse each (or average them), print a table or JSON.
+//! `spurline analyze`: read records, analyse each (or average them), print a table or JSON, and with
+//! `--report DIR` write a report (page, summaries, plots) of the records analysed.
 
 use super::{AnalysisArgs, ReadArgs, EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::analysis::{analyze, analyze_averaged, Analysis};
+use spurline::analysis::{analyze, analyze_averaged, Analysis, Traces};
 use spurline::ingest::read_record;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// Arguments of `analyze`.
 #[derive(Debug, Args)]
@@ -22,6 +23,28 @@ pub struct AnalyzeArgs {
     /// Print one JSON array, one object per record in input order, instead of tables.
     #[arg(long)]
     pub json: bool,
+    /// Also write a report into DIR: index.html, summary.csv, results.json, and per device (the record
+    /// file's folder name) its summaries and each record's spectrum, residual and histogram plots.
+    #[arg(long, value_name = "DIR")]
+    pub report: Option<PathBuf>,
+    /// Draw the report's spectra on a log frequency axis.
+    #[arg(long, requires = "report")]
+    pub log_frequency: bool,
+}
+
+/// Device and record names of a record file: its folder's name (or "records") and its file stem.
+fn names_of(path: &Path) -> (String, String) {
+    let device = path
+        .parent()
+        .and_then(|p| p.file_name())
+        .map(|n| n.to_string_lossy().to_string())
+        .filter(|n| !n.is_empty())
+        .unwrap_or_else(|| "records".to_string());
+    let record = path
+        .file_stem()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_else(|| path.display().to_string());
+    (device, record)
 }
 
 /// Runs `analyze`.
@@ -34,7 +57,9 @@ pub fn run(args: AnalyzeArgs) -> i32 {
         Ok(s) => s,
         Err(e) => return super::fail(&e),
     };
-    let mut results: Vec<Analysis> = Vec::new();
+    // Traces are kept only when a report will draw them.
+    let keep = args.report.is_some();
+    let mut results: Vec<(Analysis, Option<Traces>)> = Vec::new();
     let mut any_error = false;
     let mut loaded = Vec::new();
     for path in &args.files {
@@ -42,10 +67,9 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             Ok(ing) => loaded.push(ing),
             Err(e) => {
                 any_error = true;
-                results.push(Analysis::failed(
-                    &path.display().to_string(),
-                    &e,
-                    Vec::new(),
+                results.push((
+                    Analysis::failed(&path.display().to_string(), &e, Vec::new()),
+                    None,
                 ));
             }
         }
@@ -58,11 +82,11 @@ pub fn run(args: AnalyzeArgs) -> i32 {
                 let mut a = m.analysis;
                 warnings.extend(a.warnings);
                 a.warnings = warnings;
-                results.push(a);
+                results.push((a, keep.then_some(m.traces)));
             }
             Err(e) => {
                 any_error = true;
-                results.push(Analysis::failed(&records[0].source, &e, warnings));
+                results.push((Analysis::failed(&records[0].source, &e, warnings), None));
             }
         }
     } else {
@@ -73,11 +97,11 @@ pub fn run(args: AnalyzeArgs) -> i32 {
                     let mut w = ing.warnings;
                     w.extend(a.warnings);
                     a.warnings = w;
-                    results.push(a);
+                    results.push((a, keep.then_some(m.traces)));
                 }
                 Err(e) => {
                     any_error = true;
-                    results.push(Analysis::failed(&ing.record.source, &e, ing.warnings));
+                    results.push((Analysis::failed(&ing.record.source, &e, ing.warnings), None));
                 }
             }
         }
@@ -89,18 +113,56 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             .position(|p| p.display().to_string() == a.source)
             .unwrap_or(usize::MAX)
     };
-    results.sort_by_key(order);
+    results.sort_by_key(|(a, _)| order(a));
+    let analyses: Vec<Analysis> = results.iter().map(|(a, _)| a.clone()).collect();
     if args.json {
-        print!("{}", spurline::report::json::to_json(&results));
+        print!("{}", spurline::report::json::to_json(&analyses));
     } else {
-        for a in &results {
+        for a in &analyses {
             print!("{}", spurline::report::text::render(a));
         }
     }
-    for a in &results {
+    for a in &analyses {
         if let Some(e) = &a.error {
             eprintln!("spurline: error: {}", e.message);
         }
+    }
+    if let Some(dir) = &args.report {
+        let items: Vec<(String, String, &Analysis, Option<&Traces>)> = results
+            .iter()
+            .map(|(a, t)| {
+                let path = args
+                    .files
+                    .iter()
+                    .find(|p| p.display().to_string() == a.source)
+                    .cloned()
+                    .unwrap_or_else(|| PathBuf::from(&a.source));
+                let (device, record) = names_of(&path);
+                (device, record, a, t.as_ref())
+            })
+            .collect();
+        let options = spurline::report::PlotOptions {
+            log_frequency: args.log_frequency,
+            ..Default::default()
+        };
+        let title = format!(
+            "spurline analyze · {} record{}",
+            items.len(),
+            if items.len() == 1 { "" } else { "s" }
+        );
+        if let Err(e) = spurline::report::write_run_report(
+            dir,
+            &title,
+            &items,
+            args.analysis.harmonics,
+            &options,
+        ) {
+            return super::fail(&e);
+        }
+        eprintln!(
+            "spurline: wrote report {}",
+            dir.join("index.html").display()
+        );
     }
     if any_error {
         EXIT_ERROR

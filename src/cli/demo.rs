@@ -4,9 +4,10 @@
 
 use super::{EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::analysis::{analyze, Analysis, AnalysisSettings};
+use spurline::analysis::{analyze, Analysis, AnalysisSettings, Traces};
 use spurline::ingest::{read_record, write_sidecar, IngestSettings, Sidecar};
 use spurline::report::units::{fixed, si};
+use spurline::report::{write_run_report, PlotOptions};
 use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
 use spurline::{Error, ErrorKind, Location};
 use std::path::{Path, PathBuf};
@@ -79,12 +80,15 @@ fn out_err(path: &Path, e: std::io::Error) -> Error {
     )
 }
 
-/// Generates the scenario's records under `out/records`, analyses them and writes the summaries.
+/// Generates the scenario's records under `out/records`, analyses them and writes the full report
+/// (page, summaries, plots) into `out`.
 pub fn go(out: &Path) -> Result<Vec<Analysis>, Error> {
     let records_dir = out.join("records");
     std::fs::create_dir_all(&records_dir).map_err(|e| out_err(&records_dir, e))?;
     let settings = AnalysisSettings::default();
     let mut results = Vec::new();
+    let mut traces: Vec<Option<Traces>> = Vec::new();
+    let mut names: Vec<(String, String)> = Vec::new();
     for (pi, part) in PARTS.iter().enumerate() {
         for (fi, (label, target, coherent)) in INPUTS.iter().enumerate() {
             let synth = SynthSettings {
@@ -119,33 +123,45 @@ pub fn go(out: &Path) -> Result<Vec<Analysis>, Error> {
                     ..Sidecar::default()
                 },
             )?;
-            let a = match read_record(&path, &IngestSettings::default()) {
+            let (a, t) = match read_record(&path, &IngestSettings::default()) {
                 Ok(ing) => match analyze(&ing.record, &settings) {
                     Ok(m) => {
                         let mut a = m.analysis;
                         let mut w = ing.warnings;
                         w.extend(a.warnings);
                         a.warnings = w;
-                        a
+                        (a, Some(m.traces))
                     }
-                    Err(e) => Analysis::failed(&ing.record.source, &e, ing.warnings),
+                    Err(e) => (Analysis::failed(&ing.record.source, &e, ing.warnings), None),
                 },
-                Err(e) => Analysis::failed(&path.display().to_string(), &e, Vec::new()),
+                Err(e) => (
+                    Analysis::failed(&path.display().to_string(), &e, Vec::new()),
+                    None,
+                ),
             };
             results.push(a);
+            traces.push(t);
+            names.push((part.name.to_string(), label.to_string()));
         }
     }
-    let json_path = out.join("results.json");
-    std::fs::write(&json_path, spurline::report::json::to_json(&results))
-        .map_err(|e| out_err(&json_path, e))?;
-    let csv_path = out.join("summary.csv");
-    std::fs::write(
-        &csv_path,
-        spurline::report::csv::to_csv(&results, settings.spectrum.harmonics),
-    )
-    .map_err(|e| out_err(&csv_path, e))?;
+    let items: Vec<(String, String, &Analysis, Option<&Traces>)> = names
+        .iter()
+        .zip(&results)
+        .zip(&traces)
+        .map(|(((device, record), a), t)| (device.clone(), record.clone(), a, t.as_ref()))
+        .collect();
+    write_run_report(
+        out,
+        "spurline demo · two simulated converters, three inputs each",
+        &items,
+        settings.spectrum.harmonics,
+        &PlotOptions::default(),
+    )?;
     print_summary(&results);
-    println!("\nwrote {} and {}", json_path.display(), csv_path.display());
+    println!(
+        "\nwrote {} (with summary.csv, results.json and one folder per device)",
+        out.join("index.html").display()
+    );
     Ok(results)
 }
 

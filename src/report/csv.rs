@@ -144,12 +144,45 @@ pub fn write_rows<W: std::io::Write>(
     Ok(())
 }
 
+/// The column set for these results: [`columns`] of the exemplar first, then any key that one of the
+/// results has beyond it (more harmonics than `harmonics`, say), in order of first appearance, so that no
+/// field of the JSON is ever dropped from the CSV. A part that is absent as a whole (the `fit` of a failed
+/// record, null in the JSON) is covered by the columns under it, which stay empty.
+pub fn columns_for<'a>(
+    results: impl IntoIterator<Item = &'a Analysis>,
+    harmonics: u32,
+) -> Vec<String> {
+    let mut cols = columns(harmonics);
+    let mut seen: std::collections::HashSet<String> = cols.iter().cloned().collect();
+    for a in results {
+        let value = serde_json::to_value(a).expect("plain data serialises");
+        for (k, v) in flatten(&value) {
+            if seen.contains(&k) {
+                continue;
+            }
+            let dotted = format!("{k}.");
+            if v.is_empty() && cols.iter().any(|c| c.starts_with(&dotted)) {
+                continue;
+            }
+            seen.insert(k.clone());
+            cols.push(k);
+        }
+    }
+    cols
+}
+
+/// CSV text of results, one row per record, with `lead` columns (name, value per row) before the
+/// fields of the result record.
+pub fn to_csv_with_lead(rows: &[(Vec<(String, String)>, &Analysis)], harmonics: u32) -> String {
+    let cols = columns_for(rows.iter().map(|(_, a)| *a), harmonics);
+    let mut buf = Vec::new();
+    write_rows(&mut buf, &cols, rows).expect("writing to memory cannot fail");
+    String::from_utf8(buf).expect("CSV of UTF-8 strings is UTF-8")
+}
+
 /// CSV text of results, one row per record.
 pub fn to_csv(results: &[Analysis], harmonics: u32) -> String {
-    let cols = columns(harmonics);
     let rows: Vec<(Vec<(String, String)>, &Analysis)> =
         results.iter().map(|a| (Vec::new(), a)).collect();
-    let mut buf = Vec::new();
-    write_rows(&mut buf, &cols, &rows).expect("writing to memory cannot fail");
-    String::from_utf8(buf).expect("CSV of UTF-8 strings is UTF-8")
+    to_csv_with_lead(&rows, harmonics)
 }
