@@ -85,3 +85,233 @@ fn paired_matches_scipy() {
     }
     assert_eq!(seen, 2);
 }
+
+use spurline::compare::{compare, read_run, Change, CompareSettings};
+use std::path::Path;
+
+/// Writes a minimal lot summary.csv (the columns `spurline batch` writes that compare reads).
+fn write_run(dir: &Path, rows: &[(&str, &str, f64, f64, &str)]) {
+    std::fs::create_dir_all(dir).unwrap();
+    let mut s = String::from("device,condition,verdict,reason,bits,sample_rate_hz,fit.frequency_hz,spectrum.snr_db,spectrum.thd_db,error.message\n");
+    for (dev, cond, snr, thd, err) in rows {
+        let f = if *cond == "f10" { 10.1e6 } else { 40.3e6 };
+        s.push_str(&format!(
+            "{dev},{cond},pass,,12,100000000,{f},{snr},{thd},{err}\n"
+        ));
+    }
+    std::fs::write(dir.join("summary.csv"), s).unwrap();
+}
+
+fn shifted(base: f64, shift: f64, i: usize) -> f64 {
+    // A fixed, symmetric scatter of ±0.3 dB around the mean.
+    base + shift + [-0.3, -0.1, 0.0, 0.1, 0.3, -0.2, 0.2, 0.05][i % 8]
+}
+
+#[test]
+fn verdicts_directions_and_left_out_items() {
+    let dir = tempfile::tempdir().unwrap();
+    let (ra, rb) = (dir.path().join("revA"), dir.path().join("revB"));
+    let devs = ["d1", "d2", "d3", "d4", "d5", "d6", "d7", "d8"];
+    let mut a = Vec::new();
+    let mut b = Vec::new();
+    for (i, d) in devs.iter().enumerate() {
+        // f10: SNR up by 1 dB (better), THD up (worse) by 1 dB; f40: SNR up 0.05 dB, below the 0.2 dB
+        // minimum meaningful change.
+        a.push((
+            *d,
+            "f10",
+            shifted(70.0, 0.0, i),
+            shifted(-80.0, 0.0, i + 3),
+            "",
+        ));
+        b.push((
+            *d,
+            "f10",
+            shifted(70.0, 1.0, i + 1),
+            shifted(-80.0, 1.0, i + 4),
+            "",
+        ));
+        a.push((
+            *d,
+            "f40",
+            shifted(68.0, 0.0, i),
+            -75.0 + 0.01 * i as f64,
+            "",
+        ));
+        b.push((
+            *d,
+            "f40",
+            shifted(68.0, 0.05, i),
+            -75.0 + 0.01 * i as f64,
+            "",
+        ));
+    }
+    a.push(("d9", "f90", 60.0, -70.0, ""));
+    b.push(("d9", "f10", 0.0, 0.0, "missing record"));
+    write_run(&ra, &a);
+    write_run(&rb, &b);
+    let (run_a, run_b) = (read_run(&ra).unwrap(), read_run(&rb).unwrap());
+    let c = compare(&run_a, &run_b, &CompareSettings::default());
+    let find = |cond: &str, m: &str| {
+        c.rows
+            .iter()
+            .find(|r| r.condition == cond && r.metric == m)
+            .unwrap()
+    };
+    // Higher SNR is better; higher THD is worse (the directions of the trade, common practice).
+    assert_eq!(find("f10", "spectrum.snr_db").verdict, Change::Better);
+    assert_eq!(find("f10", "spectrum.thd_db").verdict, Change::Worse);
+    assert_eq!(
+        find("f40", "spectrum.thd_db").verdict,
+        Change::NoSignificantChange
+    );
+    let tiny = find("f40", "spectrum.snr_db");
+    assert_eq!(tiny.verdict, Change::NoSignificantChange, "{}", tiny.reason);
+    // Sorted: changes first.
+    assert!(matches!(c.rows[0].verdict, Change::Better | Change::Worse));
+    // Nothing dropped silently: the condition only in A and B's error row are listed.
+    assert!(
+        c.left_out.iter().any(|l| l.contains("f90")),
+        "{:?}",
+        c.left_out
+    );
+    assert!(
+        c.left_out.iter().any(|l| l.contains("missing record")),
+        "{:?}",
+        c.left_out
+    );
+    assert!(!c.warnings.is_empty());
+    // Same devices in both runs: the paired analysis is there too.
+    assert_eq!(find("f10", "spectrum.snr_db").pairs, 8);
+    assert!(find("f10", "spectrum.snr_db").paired.is_some());
+    // No NaN reaches an output.
+    let json = serde_json::to_string(&c).unwrap();
+    assert!(!json.contains("NaN") && !json.contains("null,\"ci"));
+    let csv = spurline::compare::output::to_csv(&c);
+    assert!(!csv.contains("NaN") && !csv.to_lowercase().contains("inf"));
+}
+
+#[test]
+fn one_device_per_run_says_no_test() {
+    let dir = tempfile::tempdir().unwrap();
+    let (ra, rb) = (dir.path().join("a"), dir.path().join("b"));
+    write_run(&ra, &[("d1", "f10", 70.0, -80.0, "")]);
+    write_run(&rb, &[("d1", "f10", 71.0, -80.0, "")]);
+    let c = compare(
+        &read_run(&ra).unwrap(),
+        &read_run(&rb).unwrap(),
+        &CompareSettings::default(),
+    );
+    let r = c
+        .rows
+        .iter()
+        .find(|r| r.metric == "spectrum.snr_db")
+        .unwrap();
+    assert_eq!(r.verdict, Change::NoTest);
+    assert!(r.reason.contains("at least two"), "{}", r.reason);
+}
+
+#[test]
+fn zero_variance_is_said_plainly() {
+    let dir = tempfile::tempdir().unwrap();
+    let (ra, rb) = (dir.path().join("a"), dir.path().join("b"));
+    write_run(
+        &ra,
+        &[
+            ("d1", "f10", 70.0, -80.0, ""),
+            ("d2", "f10", 70.0, -80.0, ""),
+        ],
+    );
+    write_run(
+        &rb,
+        &[
+            ("d1", "f10", 70.0, -81.0, ""),
+            ("d2", "f10", 70.0, -81.0, ""),
+        ],
+    );
+    let c = compare(
+        &read_run(&ra).unwrap(),
+        &read_run(&rb).unwrap(),
+        &CompareSettings::default(),
+    );
+    let snr = c
+        .rows
+        .iter()
+        .find(|r| r.metric == "spectrum.snr_db")
+        .unwrap();
+    assert_eq!(snr.verdict, Change::NoSignificantChange);
+    let thd = c
+        .rows
+        .iter()
+        .find(|r| r.metric == "spectrum.thd_db")
+        .unwrap();
+    assert_eq!(thd.verdict, Change::NoTest);
+    assert!(thd.reason.contains("zero spread"), "{}", thd.reason);
+}
+
+#[test]
+fn compare_command_writes_its_outputs_escaped() {
+    let dir = tempfile::tempdir().unwrap();
+    let (ra, rb) = (dir.path().join("a"), dir.path().join("b"));
+    let evil = "<script>alert(1)</script>";
+    let rows_a: Vec<_> = (0..4)
+        .map(|i| {
+            (
+                ["d1", "d2", "d3", "d4"][i],
+                "f10",
+                shifted(70.0, 0.0, i),
+                -80.0,
+                "",
+            )
+        })
+        .collect();
+    let rows_b: Vec<_> = (0..4)
+        .map(|i| {
+            (
+                ["d1", "d2", "d3", "d4"][i],
+                "f10",
+                shifted(70.0, 0.5, i + 1),
+                -80.0,
+                "",
+            )
+        })
+        .collect();
+    write_run(&ra, &rows_a);
+    write_run(&rb, &rows_b);
+    // A condition name that must show as text.
+    for p in [&ra, &rb] {
+        let s = std::fs::read_to_string(p.join("summary.csv"))
+            .unwrap()
+            .replace(",f10,", &format!(",{evil},"));
+        std::fs::write(p.join("summary.csv"), s).unwrap();
+    }
+    let out = dir.path().join("cmp");
+    let st = assert_cmd::Command::new(assert_cmd::cargo::cargo_bin!("spurline"))
+        .arg("compare")
+        .arg(&ra)
+        .arg(&rb)
+        .args(["--paired", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        st.status.success(),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    for f in ["comparison.csv", "comparison.json", "comparison.html"] {
+        assert!(out.join(f).exists(), "{f}");
+    }
+    let html = std::fs::read_to_string(out.join("comparison.html")).unwrap();
+    assert!(!html.contains(evil) && html.contains("&lt;script&gt;"));
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("comparison.json")).unwrap())
+            .unwrap();
+    let snr = json["rows"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["metric"] == "spectrum.snr_db")
+        .unwrap();
+    assert_eq!(snr["decided_by"], "paired", "{snr}");
+}

@@ -1,6 +1,7 @@
 //! Command-line definitions (clap) and their conversion into validated library settings.
 
 mod analyze;
+mod compare;
 mod demo;
 mod synth;
 mod verify;
@@ -33,6 +34,8 @@ pub struct Cli {
 pub enum Command {
     /// Analyse captured records: sine fit and spectral figures, one table (or JSON object) per record.
     Analyze(analyze::AnalyzeArgs),
+    /// Compare two lot runs (board revisions): per condition and metric, statistics and a verdict.
+    Compare(compare::CompareArgs),
     /// Write records from a simulated N-bit converter (for demos and tests).
     Synth(synth::SynthArgs),
     /// Run the main job on built-in generated data and write a report into reports/demo/.
@@ -46,6 +49,7 @@ pub fn run(cli: Cli) -> i32 {
     match cli.command {
         Command::Analyze(a) => analyze::run(a),
         Command::Synth(a) => synth::run(a),
+        Command::Compare(a) => compare::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Verify(a) => verify::run(a),
     }

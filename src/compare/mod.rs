@@ -1,3 +1,431 @@
-//! Board-revision comparison: per condition and metric, the statistics of two lot runs and a verdict.
+//! Board-revision comparison: reads two lot runs (their `summary.csv`), and per condition and metric
+//! gives each run's statistics, the difference of means with its confidence interval and Welch's t test,
+//! the paired test when the same devices appear in both, and a verdict: better, worse, or no significant
+//! change. A minimum meaningful change keeps a tiny but significant shift from being reported as news.
 
+pub mod output;
+pub mod plots;
 pub mod stats;
+
+use crate::{Error, ErrorKind, Location, Result};
+use serde::Serialize;
+use stats::{NoTest, Summary, TTest};
+use std::collections::{BTreeMap, BTreeSet};
+use std::path::Path;
+
+/// Which way a metric improves.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Better {
+    /// Higher is better (SNR, SINAD, SFDR, ENOB).
+    Higher,
+    /// Lower is better (THD, harmonics, spurs, noise floor).
+    Lower,
+}
+
+/// The better direction of a metric column, or `None` when it is not a figure of merit.
+pub fn better_direction(metric: &str) -> Option<Better> {
+    const HIGHER: [&str; 8] = [
+        "spectrum.snr_db",
+        "spectrum.sinad_db",
+        "spectrum.sfdr_dbc",
+        "spectrum.sfdr_dbfs",
+        "spectrum.enob_bits",
+        "spectrum.enob_fs_bits",
+        "fit.enob_bits",
+        "fit.sinad_db",
+    ];
+    const LOWER: [&str; 4] = [
+        "spectrum.thd_db",
+        "spectrum.noise_floor_dbfs",
+        "spectrum.nsd_dbfs_per_hz",
+        "spectrum.worst_spur.dbc",
+    ];
+    if HIGHER.contains(&metric) {
+        Some(Better::Higher)
+    } else if LOWER.contains(&metric)
+        || (metric.starts_with("spectrum.harmonics.h") && metric.ends_with(".dbc"))
+    {
+        Some(Better::Lower)
+    } else {
+        None
+    }
+}
+
+/// One lot run, as read from its `summary.csv`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Run {
+    /// The run's folder.
+    pub name: String,
+    /// (device, condition) → metric → value, for rows without an error.
+    pub values: BTreeMap<(String, String), BTreeMap<String, f64>>,
+    /// Condition → (bits, sample rate) seen in the run.
+    pub setup: BTreeMap<String, BTreeSet<(String, String)>>,
+    /// Condition → input frequencies seen (fit.frequency_hz), for plots against frequency.
+    pub frequency_hz: BTreeMap<String, Vec<f64>>,
+    /// Rows that were errors in the run, left out: "device / condition: reason".
+    pub error_rows: Vec<String>,
+}
+
+/// Reads a lot run folder (its `summary.csv`, as `spurline batch` writes it).
+pub fn read_run(dir: &Path) -> Result<Run> {
+    let path = dir.join("summary.csv");
+    let shown = path.display().to_string();
+    let text = std::fs::read_to_string(&path).map_err(|e| {
+        Error::new(
+            ErrorKind::Io,
+            &shown,
+            Location::Whole,
+            "a readable lot summary.csv",
+            e.to_string(),
+        )
+    })?;
+    let mut rd = ::csv::ReaderBuilder::new().from_reader(text.as_bytes());
+    let header: Vec<String> = rd
+        .headers()
+        .map_err(|e| {
+            Error::new(
+                ErrorKind::BadMetadata,
+                &shown,
+                Location::Row(1),
+                "a CSV header",
+                e.to_string(),
+            )
+        })?
+        .iter()
+        .map(str::to_string)
+        .collect();
+    let col = |name: &str| header.iter().position(|h| h == name);
+    let (Some(dev), Some(cond)) = (col("device"), col("condition")) else {
+        return Err(Error::new(
+            ErrorKind::BadMetadata,
+            &shown,
+            Location::Row(1),
+            "columns 'device' and 'condition' (a lot summary written by spurline batch)",
+            header.join(","),
+        ));
+    };
+    let error_col = col("error.message");
+    let (bits, fs, fin) = (col("bits"), col("sample_rate_hz"), col("fit.frequency_hz"));
+    let metrics: Vec<(usize, &String)> = header
+        .iter()
+        .enumerate()
+        .filter(|(_, h)| better_direction(h).is_some())
+        .collect();
+    let mut run = Run {
+        name: dir.display().to_string(),
+        values: BTreeMap::new(),
+        setup: BTreeMap::new(),
+        frequency_hz: BTreeMap::new(),
+        error_rows: Vec::new(),
+    };
+    for (i, rec) in rd.records().enumerate() {
+        let rec = rec.map_err(|e| {
+            Error::new(
+                ErrorKind::BadMetadata,
+                &shown,
+                Location::Row(i + 2),
+                "a CSV row",
+                e.to_string(),
+            )
+        })?;
+        let get = |k: Option<usize>| k.and_then(|k| rec.get(k)).unwrap_or("").to_string();
+        let (d, c) = (get(Some(dev)), get(Some(cond)));
+        let err = get(error_col);
+        if !err.is_empty() {
+            run.error_rows.push(format!("{d} / {c}: {err}"));
+            continue;
+        }
+        let mut vals = BTreeMap::new();
+        for (k, name) in &metrics {
+            if let Some(v) = rec.get(*k).and_then(|s| s.trim().parse::<f64>().ok()) {
+                if v.is_finite() {
+                    vals.insert((*name).clone(), v);
+                }
+            }
+        }
+        run.setup
+            .entry(c.clone())
+            .or_default()
+            .insert((get(bits), get(fs)));
+        if let Ok(f) = get(fin).parse::<f64>() {
+            run.frequency_hz.entry(c.clone()).or_default().push(f);
+        }
+        run.values.insert((d, c), vals);
+    }
+    Ok(run)
+}
+
+/// Settings of a comparison.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CompareSettings {
+    /// Base the verdict on the paired test when the same devices appear in both runs.
+    pub paired: bool,
+    /// Minimum meaningful change per metric (in the metric's unit); metrics not listed use `default_min_change`.
+    pub min_change: BTreeMap<String, f64>,
+    /// Minimum meaningful change for metrics not listed.
+    pub default_min_change: f64,
+    /// Confidence of the intervals (0.95).
+    pub confidence: f64,
+}
+
+impl Default for CompareSettings {
+    fn default() -> Self {
+        CompareSettings {
+            paired: false,
+            min_change: BTreeMap::new(),
+            default_min_change: 0.2,
+            confidence: 0.95,
+        }
+    }
+}
+
+/// The verdict on one metric.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, PartialOrd, Ord)]
+#[serde(rename_all = "snake_case")]
+pub enum Change {
+    /// B is significantly and meaningfully better.
+    Better,
+    /// B is significantly and meaningfully worse.
+    Worse,
+    /// No significant change, or one smaller than the minimum meaningful change.
+    NoSignificantChange,
+    /// Not enough data to test.
+    NoTest,
+}
+
+/// One condition and metric, compared.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MetricComparison {
+    /// Condition name.
+    pub condition: String,
+    /// Metric (the result record's column name).
+    pub metric: String,
+    /// Which way is better.
+    pub better: Better,
+    /// Run A's statistics.
+    pub a: Option<Summary>,
+    /// Run B's statistics.
+    pub b: Option<Summary>,
+    /// Welch's unequal-variance t test of B against A.
+    pub welch: Option<TTest>,
+    /// Devices present in both runs for this condition.
+    pub pairs: usize,
+    /// Paired t test over those devices.
+    pub paired: Option<TTest>,
+    /// The minimum meaningful change used.
+    pub min_change: f64,
+    /// Which test decided ("welch" or "paired").
+    pub decided_by: Option<String>,
+    /// The verdict.
+    pub verdict: Change,
+    /// The verdict in words.
+    pub reason: String,
+}
+
+/// A whole comparison.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Comparison {
+    /// Run A (the reference).
+    pub run_a: String,
+    /// Run B.
+    pub run_b: String,
+    /// Confidence of the intervals.
+    pub confidence: f64,
+    /// Rows, sorted: changes first, then by p-value and size of change.
+    pub rows: Vec<MetricComparison>,
+    /// Everything left out of the comparison, with why.
+    pub left_out: Vec<String>,
+    /// Mismatches between the runs.
+    pub warnings: Vec<String>,
+}
+
+const ALPHA: f64 = 0.05;
+
+/// Compares run B against run A.
+pub fn compare(a: &Run, b: &Run, settings: &CompareSettings) -> Comparison {
+    let mut warnings = Vec::new();
+    let mut left_out: Vec<String> = Vec::new();
+    left_out.extend(a.error_rows.iter().map(|e| format!("run A error row {e}")));
+    left_out.extend(b.error_rows.iter().map(|e| format!("run B error row {e}")));
+    let conds_a: BTreeSet<&String> = a.values.keys().map(|(_, c)| c).collect();
+    let conds_b: BTreeSet<&String> = b.values.keys().map(|(_, c)| c).collect();
+    for c in conds_a.difference(&conds_b) {
+        left_out.push(format!("condition '{c}' is only in run A"));
+    }
+    for c in conds_b.difference(&conds_a) {
+        left_out.push(format!("condition '{c}' is only in run B"));
+    }
+    if conds_a != conds_b {
+        warnings.push(
+            "the runs have different conditions: only the ones in both are compared".to_string(),
+        );
+    }
+    let mut rows = Vec::new();
+    let confidence = settings.confidence;
+    for cond in conds_a.intersection(&conds_b) {
+        let (sa, sb) = (a.setup.get(*cond), b.setup.get(*cond));
+        if sa != sb {
+            warnings.push(format!(
+                "condition '{cond}': resolution or sample rate differ ({:?} vs {:?}); left out",
+                sa, sb
+            ));
+            left_out.push(format!(
+                "condition '{cond}': different resolution or sample rate"
+            ));
+            continue;
+        }
+        let devs = |r: &Run| -> BTreeMap<String, BTreeMap<String, f64>> {
+            r.values
+                .iter()
+                .filter(|((_, c), _)| c == *cond)
+                .map(|((d, _), v)| (d.clone(), v.clone()))
+                .collect()
+        };
+        let (da, db) = (devs(a), devs(b));
+        let metrics: BTreeSet<&String> = da
+            .values()
+            .chain(db.values())
+            .flat_map(|m| m.keys())
+            .collect();
+        for metric in metrics {
+            let better = better_direction(metric).expect("only figures of merit are read");
+            let va: Vec<f64> = da.values().filter_map(|m| m.get(metric).copied()).collect();
+            let vb: Vec<f64> = db.values().filter_map(|m| m.get(metric).copied()).collect();
+            let (pa, pb): (Vec<f64>, Vec<f64>) = da
+                .iter()
+                .filter_map(|(d, m)| Some((*m.get(metric)?, *db.get(d)?.get(metric)?)))
+                .unzip();
+            let min_change = settings
+                .min_change
+                .get(metric.as_str())
+                .copied()
+                .unwrap_or(settings.default_min_change);
+            let welch = stats::welch(&va, &vb, confidence);
+            let paired = stats::paired(&pa, &pb, confidence);
+            let use_paired = settings.paired && pa.len() >= 2;
+            let chosen = if use_paired { &paired } else { &welch };
+            let (verdict, reason, decided_by) = judge(chosen, better, min_change, &va, &vb);
+            rows.push(MetricComparison {
+                condition: (*cond).clone(),
+                metric: metric.clone(),
+                better,
+                a: stats::summarize(&va),
+                b: stats::summarize(&vb),
+                welch: welch.ok(),
+                pairs: pa.len(),
+                paired: paired.ok(),
+                min_change,
+                decided_by: decided_by
+                    .then(|| if use_paired { "paired" } else { "welch" }.to_string()),
+                verdict,
+                reason,
+            });
+        }
+    }
+    rows.sort_by(|x, y| {
+        let key = |r: &MetricComparison| {
+            let t = r
+                .paired
+                .as_ref()
+                .filter(|_| r.decided_by.as_deref() == Some("paired"))
+                .or(r.welch.as_ref());
+            (
+                r.verdict,
+                t.map_or(2.0, |t| t.p_value),
+                -t.map_or(0.0, |t| t.difference.abs()),
+            )
+        };
+        let (kx, ky) = (key(x), key(y));
+        kx.0.cmp(&ky.0)
+            .then(kx.1.total_cmp(&ky.1))
+            .then(kx.2.total_cmp(&ky.2))
+            .then(x.condition.cmp(&y.condition))
+            .then(x.metric.cmp(&y.metric))
+    });
+    Comparison {
+        run_a: a.name.clone(),
+        run_b: b.name.clone(),
+        confidence,
+        rows,
+        left_out,
+        warnings,
+    }
+}
+
+fn judge(
+    test: &std::result::Result<TTest, NoTest>,
+    better: Better,
+    min_change: f64,
+    a: &[f64],
+    b: &[f64],
+) -> (Change, String, bool) {
+    match test {
+        Err(NoTest::TooFew) => (
+            Change::NoTest,
+            format!(
+                "no test: {} value(s) in A and {} in B; at least two on each side are needed",
+                a.len(),
+                b.len()
+            ),
+            false,
+        ),
+        Err(NoTest::ZeroVariance) => {
+            let (ma, mb) = (mean(a), mean(b));
+            if ma == mb {
+                (
+                    Change::NoSignificantChange,
+                    "identical values on both sides".to_string(),
+                    false,
+                )
+            } else {
+                (
+                    Change::NoTest,
+                    format!(
+                        "no test: zero spread on both sides, means differ by {:+.4}",
+                        mb - ma
+                    ),
+                    false,
+                )
+            }
+        }
+        Ok(t) => {
+            let improves = match better {
+                Better::Higher => t.difference > 0.0,
+                Better::Lower => t.difference < 0.0,
+            };
+            if t.p_value >= ALPHA {
+                (
+                    Change::NoSignificantChange,
+                    format!("p = {:.3} ≥ {ALPHA}", t.p_value),
+                    true,
+                )
+            } else if t.difference.abs() < min_change {
+                (
+                    Change::NoSignificantChange,
+                    format!(
+                        "significant (p = {:.2e}) but {:+.3} is below the minimum meaningful change {min_change}",
+                        t.p_value, t.difference
+                    ),
+                    true,
+                )
+            } else if improves {
+                (
+                    Change::Better,
+                    format!("{:+.3} (p = {:.2e})", t.difference, t.p_value),
+                    true,
+                )
+            } else {
+                (
+                    Change::Worse,
+                    format!("{:+.3} (p = {:.2e})", t.difference, t.p_value),
+                    true,
+                )
+            }
+        }
+    }
+}
+
+fn mean(v: &[f64]) -> f64 {
+    v.iter().sum::<f64>() / v.len().max(1) as f64
+}

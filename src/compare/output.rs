@@ -1,0 +1,222 @@
+//! Writes a comparison: `comparison.csv` and `comparison.json` (both from the one comparison record) and
+//! `comparison.html` (self-contained, every name escaped, plots inline).
+
+use super::plots::{distributions_svg, versus_frequency_svg};
+use super::stats::{Summary, TTest};
+use super::{Better, Change, Comparison, MetricComparison, Run};
+use crate::report::{escape, write_atomic};
+use crate::Result;
+use std::fmt::Write;
+use std::path::Path;
+
+/// The metrics drawn in the HTML page (all metrics are in the tables).
+pub const PLOTTED: [&str; 5] = [
+    "spectrum.snr_db",
+    "spectrum.sinad_db",
+    "spectrum.thd_db",
+    "spectrum.sfdr_dbc",
+    "spectrum.enob_bits",
+];
+
+fn exemplar() -> MetricComparison {
+    let s = Summary {
+        n: 0,
+        mean: 0.0,
+        std: Some(0.0),
+        median: 0.0,
+        min: 0.0,
+        max: 0.0,
+    };
+    let t = TTest {
+        difference: 0.0,
+        statistic: 0.0,
+        df: 0.0,
+        p_value: 0.0,
+        ci_low: 0.0,
+        ci_high: 0.0,
+    };
+    MetricComparison {
+        condition: String::new(),
+        metric: String::new(),
+        better: Better::Higher,
+        a: Some(s.clone()),
+        b: Some(s),
+        welch: Some(t.clone()),
+        pairs: 0,
+        paired: Some(t),
+        min_change: 0.0,
+        decided_by: Some(String::new()),
+        verdict: Change::NoTest,
+        reason: String::new(),
+    }
+}
+
+/// CSV text: one row per condition and metric; the columns are the flattened JSON keys of a row.
+pub fn to_csv(c: &Comparison) -> String {
+    let flat = |r: &MetricComparison| {
+        crate::report::csv::flatten(&serde_json::to_value(r).expect("plain data serialises"))
+    };
+    let columns: Vec<String> = flat(&exemplar()).into_iter().map(|(k, _)| k).collect();
+    let mut w = ::csv::WriterBuilder::new().from_writer(Vec::new());
+    w.write_record(&columns).expect("writing to memory");
+    for r in &c.rows {
+        let map: std::collections::HashMap<String, String> = flat(r).into_iter().collect();
+        let rec: Vec<String> = columns
+            .iter()
+            .map(|k| map.get(k).cloned().unwrap_or_default())
+            .collect();
+        w.write_record(&rec).expect("writing to memory");
+    }
+    String::from_utf8(w.into_inner().expect("memory writer")).expect("UTF-8")
+}
+
+fn values(run: &Run, condition: &str, metric: &str) -> Vec<f64> {
+    run.values
+        .iter()
+        .filter(|((_, c), _)| c == condition)
+        .filter_map(|(_, m)| m.get(metric).copied())
+        .collect()
+}
+
+fn verdict_word(v: Change) -> &'static str {
+    match v {
+        Change::Better => "better",
+        Change::Worse => "worse",
+        Change::NoSignificantChange => "no significant change",
+        Change::NoTest => "no test",
+    }
+}
+
+fn num(v: Option<f64>, d: usize) -> String {
+    v.filter(|x| x.is_finite())
+        .map_or("—".to_string(), |x| format!("{x:.d$}"))
+}
+
+/// The HTML page.
+pub fn to_html(c: &Comparison, a: &Run, b: &Run) -> Result<String> {
+    let mut h = String::new();
+    let _ = write!(
+        h,
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>spurline comparison</title><style>\
+body{{font-family:sans-serif;margin:0;background:#F6F3EC;color:#3A3F47}}header{{background:#23395B;color:#FCFBF8;padding:14px 24px}}\
+main{{padding:16px 24px}}table{{border-collapse:collapse;font-size:13px}}td,th{{padding:3px 8px;border-bottom:1px solid #DCD8CF;text-align:right}}\
+th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A72;font-weight:bold}}tr.worse td.v{{color:#A4243B;font-weight:bold}}\
+.warn{{background:#FBE9D9;padding:6px 10px;border-left:4px solid #C8642A}}.plots{{display:flex;flex-wrap:wrap;gap:10px}}</style></head><body>\n\
+<header><h1>Revision comparison</h1><p>A = {} · B = {} · {:.0}% intervals · B − A</p></header><main>\n",
+        escape(&c.run_a),
+        escape(&c.run_b),
+        c.confidence * 100.0
+    );
+    for w in &c.warnings {
+        let _ = writeln!(h, "<p class=\"warn\">{}</p>", escape(w));
+    }
+    if !c.left_out.is_empty() {
+        let _ = writeln!(
+            h,
+            "<details><summary>{} item(s) left out</summary><ul>",
+            c.left_out.len()
+        );
+        for l in &c.left_out {
+            let _ = writeln!(h, "<li>{}</li>", escape(l));
+        }
+        let _ = writeln!(h, "</ul></details>");
+    }
+    let _ = writeln!(
+        h,
+        "<table><tr><th class=\"l\">condition</th><th class=\"l\">metric</th><th>better</th><th>n A</th><th>mean A</th><th>σ A</th>\
+<th>n B</th><th>mean B</th><th>σ B</th><th>B − A</th><th>CI</th><th>p (Welch)</th><th>pairs</th><th>p (paired)</th><th class=\"l\">verdict</th><th class=\"l\">reason</th></tr>"
+    );
+    for r in &c.rows {
+        let cls = match r.verdict {
+            Change::Better => "better",
+            Change::Worse => "worse",
+            _ => "",
+        };
+        let t = if r.decided_by.as_deref() == Some("paired") {
+            r.paired.as_ref()
+        } else {
+            r.welch.as_ref()
+        };
+        let _ = writeln!(
+            h,
+            "<tr class=\"{cls}\"><td class=\"l\">{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l v\">{}</td><td class=\"l\">{}</td></tr>",
+            escape(&r.condition),
+            escape(&r.metric),
+            if r.better == Better::Higher { "higher" } else { "lower" },
+            r.a.as_ref().map_or(0, |s| s.n),
+            num(r.a.as_ref().map(|s| s.mean), 3),
+            num(r.a.as_ref().and_then(|s| s.std), 3),
+            r.b.as_ref().map_or(0, |s| s.n),
+            num(r.b.as_ref().map(|s| s.mean), 3),
+            num(r.b.as_ref().and_then(|s| s.std), 3),
+            num(t.map(|t| t.difference), 3),
+            t.map_or("—".to_string(), |t| format!("[{:.3}, {:.3}]", t.ci_low, t.ci_high)),
+            num(r.welch.as_ref().map(|t| t.p_value), 4),
+            r.pairs,
+            num(r.paired.as_ref().map(|t| t.p_value), 4),
+            verdict_word(r.verdict),
+            escape(&r.reason)
+        );
+    }
+    let _ = writeln!(h, "</table>");
+    let conditions: std::collections::BTreeSet<&String> =
+        c.rows.iter().map(|r| &r.condition).collect();
+    let _ = writeln!(h, "<h2>Distributions</h2>");
+    for cond in &conditions {
+        let _ = writeln!(h, "<h3>{}</h3><div class=\"plots\">", escape(cond));
+        for m in PLOTTED {
+            let (va, vb) = (values(a, cond, m), values(b, cond, m));
+            if va.is_empty() && vb.is_empty() {
+                continue;
+            }
+            h.push_str(&distributions_svg(m, unit_of(m), &va, &vb)?);
+        }
+        let _ = writeln!(h, "</div>");
+    }
+    let _ = writeln!(h, "<h2>Against input frequency</h2><div class=\"plots\">");
+    for m in PLOTTED {
+        let pts = |run: &Run| -> Vec<(f64, f64)> {
+            conditions
+                .iter()
+                .filter_map(|cond| {
+                    let f = run.frequency_hz.get(*cond)?;
+                    let v = values(run, cond, m);
+                    (!f.is_empty() && !v.is_empty()).then(|| {
+                        (
+                            f.iter().sum::<f64>() / f.len() as f64,
+                            v.iter().sum::<f64>() / v.len() as f64,
+                        )
+                    })
+                })
+                .collect()
+        };
+        let (pa, pb) = (pts(a), pts(b));
+        if pa.len() + pb.len() > 0 {
+            h.push_str(&versus_frequency_svg(m, unit_of(m), &pa, &pb)?);
+        }
+    }
+    let _ = writeln!(h, "</div></main></body></html>");
+    Ok(h)
+}
+
+fn unit_of(metric: &str) -> &'static str {
+    if metric.ends_with("_dbc") {
+        "dBc"
+    } else if metric.ends_with("_dbfs") {
+        "dBFS"
+    } else if metric.ends_with("_bits") {
+        "bits"
+    } else {
+        "dB"
+    }
+}
+
+/// Writes `comparison.csv`, `comparison.json` and `comparison.html` into `out` (atomically).
+pub fn write_all(out: &Path, c: &Comparison, a: &Run, b: &Run) -> Result<()> {
+    write_atomic(&out.join("comparison.csv"), to_csv(c).as_bytes())?;
+    let mut json = serde_json::to_string_pretty(c).expect("plain data serialises");
+    json.push('\n');
+    write_atomic(&out.join("comparison.json"), json.as_bytes())?;
+    write_atomic(&out.join("comparison.html"), to_html(c, a, b)?.as_bytes())?;
+    Ok(())
+}
