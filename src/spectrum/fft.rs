@@ -21,12 +21,12 @@ pub fn real_fft(input: &mut [f64]) -> Vec<Complex<f64>> {
 }
 
 /// One-sided power spectrum of `x` under window `w`, scaled by N·Σw² so that a tone's power summed over
-/// its bins equals A²/2 and the mean noise bin is 2σ²/N (bins 0 and N/2 are not doubled). An all-ones
-/// window (rectangular) skips the multiplication.
+/// its bins equals A²/2 and the mean noise bin is 2σ²/N (bins 0 and N/2 are not doubled). An empty or
+/// all-ones `w` is the rectangular window: no window is built or multiplied.
 pub fn power_spectrum(x: &[f64], w: &[f64]) -> Vec<f64> {
-    debug_assert_eq!(x.len(), w.len());
+    debug_assert!(w.is_empty() || x.len() == w.len());
     let n = x.len();
-    let rectangular = w.iter().all(|&v| v == 1.0);
+    let rectangular = w.is_empty() || w.iter().all(|&v| v == 1.0);
     let (mut buf, sum_w2): (Vec<f64>, f64) = if rectangular {
         (x.to_vec(), n as f64)
     } else {
