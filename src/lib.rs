@@ -26,6 +26,7 @@ pub mod analysis;
 
 pub mod fit;
 pub mod ingest;
+pub mod linearity;
 pub mod plan;
 pub mod report;
 

@@ -2,6 +2,8 @@
 
 mod analyze;
 mod demo;
+mod linearity;
+mod plan;
 mod synth;
 
 use clap::{Args, Parser, Subcommand};
@@ -34,6 +36,11 @@ pub enum Command {
     Synth(synth::SynthArgs),
     /// Run the main job on built-in generated data and write a report into reports/demo/.
     Demo(demo::DemoArgs),
+    /// Plan coherent test frequencies: cycle counts, where harmonics and two-tone products land,
+    /// collisions, record length for a resolution.
+    Plan(plan::PlanArgs),
+    /// Code-density (histogram) linearity test on overdriven sine records: DNL, INL, missing codes.
+    Linearity(linearity::LinearityArgs),
 }
 
 /// Runs a parsed command line and returns the exit status.
@@ -42,6 +49,8 @@ pub fn run(cli: Cli) -> i32 {
         Command::Analyze(a) => analyze::run(a),
         Command::Synth(a) => synth::run(a),
         Command::Demo(a) => demo::run(a),
+        Command::Plan(a) => plan::run(a),
+        Command::Linearity(a) => linearity::run(a),
     }
 }
 
