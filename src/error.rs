@@ -59,6 +59,8 @@ pub enum ErrorKind {
     DegenerateFit,
     /// A tone so close to DC that the window's DC span swallows it.
     ToneAtEdge,
+    /// A histogram-test sine that does not overdrive both ends of the range.
+    NotOverdriven,
     /// A bench plan that does not parse or names something that does not exist.
     BadPlan,
     /// A limit table that does not parse or names something unknown.

@@ -27,6 +27,7 @@ pub mod compare;
 
 pub mod fit;
 pub mod ingest;
+pub mod linearity;
 pub mod plan;
 pub mod report;
 

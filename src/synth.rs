@@ -1,12 +1,15 @@
 //! A simulated N-bit converter: a sine (with harmonics, a spur, offset, noise, aperture jitter and a
-//! static INL bow) sampled and quantised by an ideal mid-tread quantiser, for the demo and the tests.
+//! static INL bow) sampled and quantised by an ideal mid-tread quantiser, or by a quantiser with given
+//! code-width errors and missing codes, for the demo and the tests.
 //!
 //! The signal chain per sample n (t = n/fs):
 //! 1. analog input at the instant t + δ, δ ~ Gaussian(σ = `jitter_rms_s`):
 //!    offset + A·sin(2π·f·t + φ) + Σ A·10^(dBc/20)·sin(h·(2π·f·t + φ)) + spur;
 //! 2. static transfer: x + bow·(1 − (x/2^(N−1))²) LSB (zero at the ends of the range, `bow` at mid-scale);
 //! 3. additive white Gaussian noise (`noise_rms_codes`);
-//! 4. code = floor(y + 0.5), saturated to −2^(N−1) ..= 2^(N−1) − 1 (clipped samples are counted).
+//! 4. code = floor(y + 0.5), saturated to −2^(N−1) ..= 2^(N−1) − 1 (clipped samples are counted);
+//!    when a DNL pattern or missing codes are set, the code is instead the one whose transition levels
+//!    (see [`transition_levels`]) enclose y, with the same saturation.
 //!
 //! Randomness comes from `ChaCha8Rng::seed_from_u64(seed)`: stream 0 for the noise, stream 1 for the
 //! jitter, so turning one on does not change the other's draws.
@@ -33,6 +36,10 @@ const MAX_LEVEL_DB: f64 = 40.0;
 const MAX_MAGNITUDE_CODES: f64 = 1e15;
 /// Highest harmonic order accepted.
 const MAX_HARMONIC_ORDER: u32 = 10_000;
+/// Highest resolution for which the transition-level table is built (2^20 − 1 levels, 8 MB).
+pub const MAX_TRANSITION_TABLE_BITS: u32 = 20;
+/// Largest width error accepted in a DNL pattern, in LSB.
+const MAX_DNL_PATTERN_LSB: f64 = 1000.0;
 
 /// How the simulated input frequency is given.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -76,6 +83,15 @@ pub struct SynthSettings {
     pub inl_bow_lsb: f64,
     /// Seed of the random generator.
     pub seed: u64,
+    /// Code-width errors in LSB, repeated over the codes: the inner code with offset-binary value u
+    /// (code + 2^(N−1), 1 ..= 2^N − 2) gets width 1 + pattern\[u mod len\]. The widths are then
+    /// rescaled so that the first and last transition levels stay at their ideal places. Each entry
+    /// must be at least −1 (−1 makes a zero-width, missing code). Empty: no width errors.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub dnl_pattern_lsb: Vec<f64>,
+    /// Inner codes (signed, −2^(N−1)+1 ..= 2^(N−1)−2) that never occur: their width is zero.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub missing_codes: Vec<i64>,
 }
 
 impl Default for SynthSettings {
@@ -96,6 +112,8 @@ impl Default for SynthSettings {
             jitter_rms_s: 0.0,
             inl_bow_lsb: 0.0,
             seed: 1,
+            dnl_pattern_lsb: Vec::new(),
+            missing_codes: Vec::new(),
         }
     }
 }
@@ -161,6 +179,8 @@ struct Model {
     spur: Option<(CycleCounter, f64)>,
     inl_bow_lsb: f64,
     full_scale_codes: f64,
+    /// Transition levels of the non-ideal quantiser, when one is set (see [`transition_levels`]).
+    transitions: Option<Vec<f64>>,
 }
 
 fn finite_in(key: &str, v: f64, lo: f64, hi: f64, what: &str) -> Result<()> {
@@ -308,6 +328,11 @@ impl Model {
             spur,
             inl_bow_lsb: s.inl_bow_lsb,
             full_scale_codes,
+            transitions: if s.dnl_pattern_lsb.is_empty() && s.missing_codes.is_empty() {
+                None
+            } else {
+                Some(transition_levels(s)?)
+            },
         })
     }
 
@@ -364,14 +389,16 @@ pub fn synthesize(s: &SynthSettings) -> Result<Synthesized> {
             y += s.noise_rms_codes * z;
         }
         let q = (y + 0.5).floor();
-        let code = if q > hi {
+        // The end transitions of the non-ideal quantiser stay at their ideal places, so clipping
+        // (beyond the outer edge of a 1-LSB end code) is counted the same way for both.
+        let clipped = q > hi || q < lo;
+        if clipped {
             clipped_samples += 1;
-            hi
-        } else if q < lo {
-            clipped_samples += 1;
-            lo
-        } else {
-            q
+        }
+        let code = match &model.transitions {
+            // Code = lowest code + the number of transition levels at or below y.
+            Some(t) => lo + t.partition_point(|&level| level <= y) as f64,
+            None => q.clamp(lo, hi),
         };
         codes.push(code as i32);
     }
@@ -387,6 +414,98 @@ pub fn synthesize(s: &SynthSettings) -> Result<Synthesized> {
         frequency_hz: model.frequency_hz,
         clipped_samples,
     })
+}
+
+/// The transition levels of the simulated quantiser, in codes on the input scale: entry i is the
+/// level T at which the output changes from code c − 1 to code c = −2^(N−1) + 1 + i, so there are
+/// 2^N − 1 levels. The ideal quantiser has T = c − 0.5.
+///
+/// With a DNL pattern or missing codes (see [`SynthSettings::dnl_pattern_lsb`]) the inner code widths
+/// are 1 + pattern (0 for a missing code), rescaled so that they sum to 2^N − 2; the first level stays
+/// at −2^(N−1) + 0.5 and the last at 2^(N−1) − 1.5. The INL bow acts on the input before the
+/// quantiser and is not part of these levels.
+///
+/// Errors (`BadSetting`): bits outside 1..=[`MAX_TRANSITION_TABLE_BITS`], a pattern entry below −1,
+/// above 1000 or not finite, a missing code that is not an inner code, or every inner code missing.
+pub fn transition_levels(s: &SynthSettings) -> Result<Vec<f64>> {
+    if !(1..=MAX_TRANSITION_TABLE_BITS).contains(&s.bits) {
+        let key = if s.missing_codes.is_empty() && s.dnl_pattern_lsb.is_empty() {
+            "bits"
+        } else if s.dnl_pattern_lsb.is_empty() {
+            "missing_codes"
+        } else {
+            "dnl_pattern_lsb"
+        };
+        return Err(Error::setting(
+            key,
+            format!(
+                "a resolution in 1..={MAX_TRANSITION_TABLE_BITS} bits for a transition-level table"
+            ),
+            format!("{} bits", s.bits),
+        ));
+    }
+    for &p in &s.dnl_pattern_lsb {
+        finite_in(
+            "dnl_pattern_lsb",
+            p,
+            -1.0,
+            MAX_DNL_PATTERN_LSB,
+            &format!("width errors in −1..={MAX_DNL_PATTERN_LSB} LSB"),
+        )?;
+    }
+    let lo = min_code(s.bits);
+    let hi = max_code(s.bits);
+    for &c in &s.missing_codes {
+        if c <= lo || c >= hi {
+            return Err(Error::setting(
+                "missing_codes",
+                format!(
+                    "inner codes in {}..={} (the end codes cannot be missing)",
+                    lo + 1,
+                    hi - 1
+                ),
+                c.to_string(),
+            ));
+        }
+    }
+    let mut missing = s.missing_codes.clone();
+    missing.sort_unstable();
+    // Widths of the inner codes lo+1 ..= hi−1, in that order.
+    let widths: Vec<f64> = (lo + 1..hi)
+        .map(|c| {
+            if missing.binary_search(&c).is_ok() {
+                0.0
+            } else if s.dnl_pattern_lsb.is_empty() {
+                1.0
+            } else {
+                let u = (c - lo) as usize;
+                1.0 + s.dnl_pattern_lsb[u % s.dnl_pattern_lsb.len()]
+            }
+        })
+        .collect();
+    let inner = widths.len() as f64;
+    let total: f64 = widths.iter().sum();
+    if inner > 0.0 && total <= 0.0 {
+        return Err(Error::setting(
+            "missing_codes",
+            "at least one inner code of non-zero width",
+            "every inner code has zero width",
+        ));
+    }
+    let first = lo as f64 + 0.5;
+    let scale = if inner > 0.0 { inner / total } else { 1.0 };
+    let mut levels = Vec::with_capacity(widths.len() + 1);
+    let mut t = first;
+    levels.push(t);
+    for w in &widths {
+        t += w * scale;
+        levels.push(t);
+    }
+    // Pin the last level exactly (the running sum rounds).
+    if let Some(last) = levels.last_mut() {
+        *last = hi as f64 - 0.5;
+    }
+    Ok(levels)
 }
 
 /// How [`write_record`] lays out the codes in a file.
@@ -1179,5 +1298,165 @@ mod tests {
         bad.bits = 0;
         let e = write_record(&path, &bad, &OutputLayout::Text).unwrap_err();
         assert_eq!(key_of(&e), "bits");
+    }
+
+    #[test]
+    fn transition_levels_of_the_ideal_and_patterned_quantisers() {
+        // Ideal mid-tread quantiser: floor(y + 0.5) = c for c − 0.5 ≤ y < c + 0.5 (definition above).
+        let ideal = transition_levels(&SynthSettings {
+            bits: 4,
+            ..SynthSettings::default()
+        })
+        .unwrap();
+        let want: Vec<f64> = (-7..=7).map(|c| c as f64 - 0.5).collect();
+        assert_eq!(ideal, want);
+        // 4 bits, pattern [0.2, −0.2], code 3 missing. Inner codes −7..=6 have offset-binary values
+        // u = 1..=14: odd u (c = −7, −5, ..., 5) get 0.8, even u get 1.2, code 3 (u = 11) gets 0.
+        // Sum = 7·1.2 + 6·0.8 = 13.2, rescaled to the 14 LSB between the end levels.
+        let s = SynthSettings {
+            bits: 4,
+            dnl_pattern_lsb: vec![0.2, -0.2],
+            missing_codes: vec![3],
+            ..SynthSettings::default()
+        };
+        let t = transition_levels(&s).unwrap();
+        assert_eq!(t.len(), 15);
+        assert_eq!(t[0], -7.5);
+        assert_eq!(t[14], 6.5);
+        let scale = 14.0 / 13.2;
+        for c in -7i64..=6 {
+            let i = (c + 7) as usize; // level below code c is t[i]
+            let width = t[i + 1] - t[i];
+            let u = c + 8;
+            let want = if c == 3 {
+                0.0
+            } else if u % 2 == 1 {
+                0.8 * scale
+            } else {
+                1.2 * scale
+            };
+            assert!((width - want).abs() < 1e-12, "code {c}: {width} vs {want}");
+        }
+    }
+
+    #[test]
+    fn patterned_quantiser_puts_each_sample_between_its_levels() {
+        // Every output code c must satisfy T(c) ≤ x < T(c+1) for the exact analog input x, computed
+        // here from the definition with integer phase reduction (J coprime with N).
+        let s = SynthSettings {
+            bits: 6,
+            amplitude_dbfs: 1.0,
+            dnl_pattern_lsb: vec![0.3, -0.25, 0.1],
+            missing_codes: vec![-20, 7],
+            ..SynthSettings::default()
+        };
+        let out = synthesize(&s).unwrap();
+        let t = transition_levels(&s).unwrap();
+        let n = s.samples as u64;
+        let j = (out.frequency_hz * s.samples as f64 / s.sample_rate_hz).round() as u64;
+        let a = 32.0 * 10f64.powf(1.0 / 20.0);
+        for (i, &c) in out.record.codes.iter().enumerate() {
+            let x = a * (TAU * ((j * i as u64) % n) as f64 / n as f64).sin();
+            let k = (c + 32) as usize; // offset-binary value
+            if k > 0 {
+                assert!(t[k - 1] <= x, "sample {i}: code {c} below its level");
+            }
+            if k < t.len() {
+                assert!(x < t[k], "sample {i}: code {c} above its level");
+            }
+        }
+        assert!(!out.record.codes.contains(&-20) && !out.record.codes.contains(&7));
+        assert!(out.clipped_samples > 0);
+        // With nothing set the quantiser is the ideal one: same codes as the default path.
+        let plain = synthesize(&SynthSettings {
+            bits: 6,
+            amplitude_dbfs: 1.0,
+            ..SynthSettings::default()
+        })
+        .unwrap();
+        let via_table = synthesize(&SynthSettings {
+            bits: 6,
+            amplitude_dbfs: 1.0,
+            dnl_pattern_lsb: vec![0.0],
+            ..SynthSettings::default()
+        })
+        .unwrap();
+        assert_eq!(plain.record.codes, via_table.record.codes);
+        assert_eq!(plain.clipped_samples, via_table.clipped_samples);
+    }
+
+    #[test]
+    fn static_nonlinearity_settings_are_checked_and_stay_out_of_old_sidecars() {
+        let d = SynthSettings::default;
+        let cases: Vec<(SynthSettings, &str)> = vec![
+            (
+                SynthSettings {
+                    dnl_pattern_lsb: vec![0.1, -1.5],
+                    ..d()
+                },
+                "dnl_pattern_lsb",
+            ),
+            (
+                SynthSettings {
+                    dnl_pattern_lsb: vec![f64::NAN],
+                    ..d()
+                },
+                "dnl_pattern_lsb",
+            ),
+            (
+                SynthSettings {
+                    missing_codes: vec![-2048],
+                    ..d()
+                },
+                "missing_codes",
+            ),
+            (
+                SynthSettings {
+                    missing_codes: vec![2047],
+                    ..d()
+                },
+                "missing_codes",
+            ),
+            (
+                SynthSettings {
+                    bits: 24,
+                    dnl_pattern_lsb: vec![0.1],
+                    ..d()
+                },
+                "dnl_pattern_lsb",
+            ),
+            (
+                SynthSettings {
+                    bits: 2,
+                    missing_codes: vec![-1, 0],
+                    ..d()
+                },
+                "missing_codes",
+            ),
+        ];
+        for (s, key) in cases {
+            let e = synthesize(&s).unwrap_err();
+            assert_eq!(e.kind, ErrorKind::BadSetting, "{key}");
+            assert_eq!(key_of(&e), key);
+        }
+        // A −1 entry is a zero-width code, like a missing one.
+        let t = transition_levels(&SynthSettings {
+            bits: 3,
+            dnl_pattern_lsb: vec![-1.0, 0.0],
+            ..d()
+        })
+        .unwrap();
+        // Inner codes u = 1..=6: even u have width 0; three codes of width 1 rescaled to 6 LSB.
+        assert_eq!(t[1] - t[0], 2.0);
+        assert_eq!(t[2] - t[1], 0.0);
+        // Default settings serialise without the new keys, as before they existed.
+        let text = serde_json::to_string(&d()).unwrap();
+        assert!(!text.contains("dnl_pattern_lsb") && !text.contains("missing_codes"));
+        let back: SynthSettings = serde_json::from_str(
+            r#"{"bits": 8, "dnl_pattern_lsb": [0.1, -0.1], "missing_codes": [5]}"#,
+        )
+        .unwrap();
+        assert_eq!(back.dnl_pattern_lsb, vec![0.1, -0.1]);
+        assert_eq!(back.missing_codes, vec![5]);
     }
 }

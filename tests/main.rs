@@ -2,7 +2,9 @@
 
 mod cli;
 mod compare;
+mod linearity;
 mod pipeline;
+mod plan;
 mod reference;
 mod report;
 mod tolerances;

@@ -20,6 +20,8 @@ fn ideal(bits: u32, samples: usize, amplitude_dbfs: f64, target_hz: f64) -> Synt
         jitter_rms_s: 0.0,
         inl_bow_lsb: 0.0,
         seed: 11,
+        dnl_pattern_lsb: vec![],
+        missing_codes: vec![],
     }
 }
 

@@ -109,6 +109,8 @@ pub fn go(out: &Path) -> Result<Vec<Analysis>, Error> {
                 jitter_rms_s: part.jitter_rms_s,
                 inl_bow_lsb: 0.0,
                 seed: 1000 + (pi * 10 + fi) as u64,
+                dnl_pattern_lsb: Vec::new(),
+                missing_codes: Vec::new(),
             };
             let made = synthesize(&synth)?;
             let path = records_dir.join(format!("{}_{label}.txt", part.name));

@@ -3,6 +3,8 @@
 mod analyze;
 mod compare;
 mod demo;
+mod linearity;
+mod plan;
 mod synth;
 mod verify;
 
@@ -42,6 +44,11 @@ pub enum Command {
     Demo(demo::DemoArgs),
     /// Check this build against published and analytic reference figures; exit 0 when all pass.
     Verify(verify::VerifyArgs),
+    /// Plan coherent test frequencies: cycle counts, where harmonics and two-tone products land,
+    /// collisions, record length for a resolution.
+    Plan(plan::PlanArgs),
+    /// Code-density (histogram) linearity test on overdriven sine records: DNL, INL, missing codes.
+    Linearity(linearity::LinearityArgs),
 }
 
 /// Runs a parsed command line and returns the exit status.
@@ -52,6 +59,8 @@ pub fn run(cli: Cli) -> i32 {
         Command::Compare(a) => compare::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Verify(a) => verify::run(a),
+        Command::Plan(a) => plan::run(a),
+        Command::Linearity(a) => linearity::run(a),
     }
 }
 

@@ -55,6 +55,13 @@ pub struct SynthArgs {
     /// Random seed (same seed, same record).
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
+    /// Code-width errors in LSB, repeated over the codes (offset-binary code u gets entry u mod
+    /// length), e.g. 0.1,-0.1; the widths are rescaled so the end transitions stay in place.
+    #[arg(long, value_delimiter = ',', allow_hyphen_values = true)]
+    pub dnl_pattern: Vec<f64>,
+    /// An inner code (signed, centred on mid-scale) that never occurs (repeatable).
+    #[arg(long = "missing-code", allow_hyphen_values = true)]
+    pub missing_codes: Vec<i64>,
     /// Output layout: text, or a binary word i16le, i16be, u16le, u16be, i32le, i32be, u32le, u32be.
     #[arg(long, default_value = "text")]
     pub layout: String,
@@ -109,6 +116,8 @@ fn go(args: &SynthArgs) -> Result<String, Error> {
         jitter_rms_s: args.jitter,
         inl_bow_lsb: args.inl_bow,
         seed: args.seed,
+        dnl_pattern_lsb: args.dnl_pattern.clone(),
+        missing_codes: args.missing_codes.clone(),
     };
     let out = synthesize(&settings)?;
     let (layout, format) = match args.layout.as_str() {
