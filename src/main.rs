@@ -10,6 +10,13 @@ use clap::Parser;
 static ALLOC: mimalloc::MiMalloc = mimalloc::MiMalloc;
 
 fn main() {
+    // Output piped into `head` and the like: end quietly on a closed pipe, as command-line tools do,
+    // instead of panicking inside print!.
+    #[cfg(unix)]
+    // SAFETY: restoring the default action of one signal before any thread starts.
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     let args = cli::Cli::parse();
     std::process::exit(cli::run(args));
 }
