@@ -23,9 +23,11 @@ mod error;
 mod record;
 
 pub mod analysis;
+pub mod batch;
 
 pub mod fit;
 pub mod ingest;
+pub mod limits;
 pub mod plan;
 pub mod report;
 

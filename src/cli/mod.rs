@@ -1,13 +1,17 @@
 //! Command-line definitions (clap) and their conversion into validated library settings.
 
 mod analyze;
+mod batch;
 mod demo;
+mod limits;
 mod synth;
 
 use clap::{Args, Parser, Subcommand};
 
 /// Exit status: all records analysed and every limit passed.
 pub const EXIT_OK: i32 = 0;
+/// Exit status: everything was analysed but some limit failed.
+pub const EXIT_FAIL: i32 = 1;
 /// Exit status: an error (bad input, bad settings, an unreadable or unanalysable record).
 pub const EXIT_ERROR: i32 = 2;
 
@@ -34,6 +38,12 @@ pub enum Command {
     Synth(synth::SynthArgs),
     /// Run the main job on built-in generated data and write a report into reports/demo/.
     Demo(demo::DemoArgs),
+    /// Run a bench plan over a lot: analyse every device under every condition, judge the results
+    /// against a limit table, write per-device and lot summaries.
+    Batch(batch::BatchArgs),
+    /// Propose limits from a characterisation run (mean ± k·σ or percentiles), with Cpk against an
+    /// existing limit table.
+    Limits(limits::LimitsArgs),
 }
 
 /// Runs a parsed command line and returns the exit status.
@@ -42,6 +52,8 @@ pub fn run(cli: Cli) -> i32 {
         Command::Analyze(a) => analyze::run(a),
         Command::Synth(a) => synth::run(a),
         Command::Demo(a) => demo::run(a),
+        Command::Batch(a) => batch::run(a),
+        Command::Limits(a) => limits::run(a),
     }
 }
 
