@@ -23,10 +23,12 @@ mod error;
 mod record;
 
 pub mod analysis;
+pub mod batch;
 pub mod compare;
 
 pub mod fit;
 pub mod ingest;
+pub mod limits;
 pub mod linearity;
 pub mod plan;
 pub mod report;

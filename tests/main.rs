@@ -1,5 +1,6 @@
 //! Integration tests, one binary with a module per topic. Every check names its source beside it.
 
+mod batch;
 mod cli;
 mod compare;
 mod linearity;

@@ -1,8 +1,10 @@
 //! Command-line definitions (clap) and their conversion into validated library settings.
 
 mod analyze;
+mod batch;
 mod compare;
 mod demo;
+mod limits;
 mod linearity;
 mod plan;
 mod synth;
@@ -49,6 +51,12 @@ pub enum Command {
     Plan(plan::PlanArgs),
     /// Code-density (histogram) linearity test on overdriven sine records: DNL, INL, missing codes.
     Linearity(linearity::LinearityArgs),
+    /// Run a bench plan over a lot: analyse every device under every condition, judge the results
+    /// against a limit table, write per-device and lot summaries.
+    Batch(batch::BatchArgs),
+    /// Propose limits from a characterisation run (mean ± k·σ or percentiles), with Cpk against an
+    /// existing limit table.
+    Limits(limits::LimitsArgs),
 }
 
 /// Runs a parsed command line and returns the exit status.
@@ -61,6 +69,8 @@ pub fn run(cli: Cli) -> i32 {
         Command::Verify(a) => verify::run(a),
         Command::Plan(a) => plan::run(a),
         Command::Linearity(a) => linearity::run(a),
+        Command::Batch(a) => batch::run(a),
+        Command::Limits(a) => limits::run(a),
     }
 }
 

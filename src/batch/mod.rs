@@ -1,0 +1,38 @@
+//! Batch runs: a bench plan (converter, analysis settings, conditions, where the records are) gives a
+//! lot of devices × conditions; each is read, analysed and judged against a limit table on a local
+//! thread pool, and per-device and lot summaries are written as the lot goes.
+//!
+//! ```no_run
+//! use spurline::batch::{run_lot, BatchOptions, BenchPlan, Plots};
+//! use spurline::limits::{Catalogue, LimitTable};
+//!
+//! let plan = BenchPlan::read("bench/plan.toml".as_ref())?;
+//! let lot = plan.locate()?;
+//! let scope: Vec<(String, Catalogue)> = plan
+//!     .conditions
+//!     .iter()
+//!     .map(|c| (c.name.clone(), Catalogue::for_harmonics(c.settings.spectrum.harmonics)))
+//!     .collect();
+//! let limits = LimitTable::read("bench/limits.csv".as_ref(), &scope)?;
+//! let options = BatchOptions { out: "reports/lot7".into(), jobs: 2, plots: Plots::None, progress: false };
+//! let counts = run_lot(&plan, &lot, Some(&limits), &options)?;
+//! println!("{} of {} results pass", counts.passed, counts.results);
+//! # Ok::<(), spurline::Error>(())
+//! ```
+
+mod output;
+mod plan;
+mod run;
+
+pub use output::{
+    escape_html, read_results, write_atomic, write_device_outputs, Plots, SummaryColumns,
+    FAILURE_COLUMNS, LEAD_COLUMNS, YIELD_COLUMNS,
+};
+pub use plan::{
+    natural_cmp, BenchPlan, Condition, ListedRecord, Lot, RecordSource,
+    DEFAULT_AMPLITUDE_TOLERANCE_DB,
+};
+pub use run::{
+    run_lot, BatchOptions, ConditionResult, DeviceResult, LotCounts, CHUNK_RESULTS,
+    FREQUENCY_WARN_BINS, KEPT_ERRORS, REWRITE_EVERY,
+};

@@ -1,0 +1,749 @@
+//! What a batch run writes: per-device folders (`summary.csv`, `results.json`), and for the lot
+//! `summary.csv`, `failures.csv`, `yield.csv` and `index.html`, each written atomically (a temporary file
+//! in the same folder, then a rename); and the reader that takes a run's results back for `limits`.
+//!
+//! # Files
+//! - `summary.csv` (lot and per device): `device`, `condition`, `verdict`, `reason`, then every column of
+//!   the result record as [`crate::report::csv::columns`] names them, one row per device and condition,
+//!   devices in lot order and conditions in plan order.
+//! - `<device>/results.json`: `{"device", "conditions": [{"condition", "fin_hz", "amplitude_dbfs",
+//!   "verdict", "result"}]}` where `result` is the result record exactly as `analyze --json` writes it.
+//! - `failures.csv`: one row per failing check: `device`, `condition`, `metric`, `bound` (low/high),
+//!   `limit`, `value`, `margin` (signed distance from the stated limit, positive inside), `guardband`,
+//!   `unit`, `outcome` (`fail`, `guardband`, `no_value`).
+//! - `yield.csv`: per condition a row with metric `*` (results that pass every limit of the condition)
+//!   and a row per limited metric, then a lot row `*,*` counting devices (a device passes when each of
+//!   its tested conditions passes): `tested`, `passed`, `failed`, `failed_guardband`, `errors`, and
+//!   `yield` = passed / tested to 4 decimals (empty when nothing was tested). Error rows are not tested.
+//! - `index.html`: one self-contained page with the lot's table (every text escaped).
+
+use std::collections::{BTreeMap, HashMap};
+use std::fmt::Write as _;
+use std::path::{Path, PathBuf};
+
+use serde::Serialize;
+
+use super::run::DeviceResult;
+use crate::limits::{
+    Catalogue, Characterisation, CheckOutcome, LimitTable, Outcome, ResultRow, Verdict,
+};
+use crate::{Error, ErrorKind, Location, Result};
+
+/// Which plots a batch run asks for per device.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Plots {
+    /// No plots; traces are dropped as soon as a result is judged.
+    #[default]
+    None,
+    /// Plots of the results that fail (traces kept for those only).
+    Failures,
+    /// Plots of every result (traces kept for all).
+    All,
+}
+
+impl Plots {
+    /// Parses `none`, `failures` or `all`.
+    pub fn parse(s: &str) -> Result<Plots> {
+        match s {
+            "none" => Ok(Plots::None),
+            "failures" => Ok(Plots::Failures),
+            "all" => Ok(Plots::All),
+            other => Err(Error::setting(
+                "plots",
+                "none, failures or all",
+                format!("'{other}'"),
+            )),
+        }
+    }
+
+    /// Whether a result with this verdict needs its traces kept for plotting.
+    pub fn wants(&self, outcome: Outcome) -> bool {
+        match self {
+            Plots::None => false,
+            Plots::Failures => matches!(outcome, Outcome::Fail | Outcome::FailGuardband),
+            Plots::All => true,
+        }
+    }
+}
+
+/// Leading columns of every summary row, before the result record's columns.
+pub const LEAD_COLUMNS: [&str; 4] = ["device", "condition", "verdict", "reason"];
+
+/// Columns of `failures.csv`.
+pub const FAILURE_COLUMNS: [&str; 10] = [
+    "device",
+    "condition",
+    "metric",
+    "bound",
+    "limit",
+    "value",
+    "margin",
+    "guardband",
+    "unit",
+    "outcome",
+];
+
+/// Columns of `yield.csv`.
+pub const YIELD_COLUMNS: [&str; 8] = [
+    "condition",
+    "metric",
+    "tested",
+    "passed",
+    "failed",
+    "failed_guardband",
+    "errors",
+    "yield",
+];
+
+/// The figures shown in the index page's table: (column of the result record, heading).
+const INDEX_FIGURES: [(&str, &str); 5] = [
+    ("spectrum.snr_db", "SNR dB"),
+    ("spectrum.sinad_db", "SINAD dB"),
+    ("spectrum.sfdr_dbc", "SFDR dBc"),
+    ("spectrum.thd_db", "THD dB"),
+    ("spectrum.enob_bits", "ENOB bits (spectral)"),
+];
+
+/// The column set of the summaries: the lead columns and the result record's columns.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SummaryColumns {
+    figures: Vec<String>,
+}
+
+fn csv_line<I, S>(fields: I) -> Vec<u8>
+where
+    I: IntoIterator<Item = S>,
+    S: AsRef<[u8]>,
+{
+    let mut w = ::csv::Writer::from_writer(Vec::new());
+    w.write_record(fields).expect("writing to memory");
+    w.into_inner().expect("writing to memory")
+}
+
+impl SummaryColumns {
+    /// The columns for results analysed with harmonics up to `harmonics`.
+    pub fn new(harmonics: u32) -> SummaryColumns {
+        SummaryColumns {
+            figures: crate::report::csv::columns(harmonics),
+        }
+    }
+
+    /// The result record's columns.
+    pub fn figures(&self) -> &[String] {
+        &self.figures
+    }
+
+    /// The header line.
+    pub fn header(&self) -> Vec<u8> {
+        csv_line(
+            LEAD_COLUMNS
+                .iter()
+                .map(|s| s.as_bytes())
+                .chain(self.figures.iter().map(|s| s.as_bytes())),
+        )
+    }
+
+    /// One summary line from a flattened result (see [`crate::report::csv::flatten`]).
+    pub fn row(
+        &self,
+        device: &str,
+        condition: &str,
+        verdict: &Verdict,
+        flat: &HashMap<String, String>,
+    ) -> Vec<u8> {
+        let lead = [device, condition, verdict.outcome.as_str(), &verdict.reason];
+        csv_line(
+            lead.into_iter().chain(
+                self.figures
+                    .iter()
+                    .map(|c| flat.get(c).map(String::as_str).unwrap_or("")),
+            ),
+        )
+    }
+}
+
+/// The `failures.csv` lines of one result.
+pub(crate) fn failure_lines(device: &str, condition: &str, verdict: &Verdict) -> Vec<u8> {
+    let num = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
+    let mut out = Vec::new();
+    for c in verdict
+        .checks
+        .iter()
+        .filter(|c| c.outcome != CheckOutcome::Pass)
+    {
+        let limit = c.bound.and_then(|b| match b {
+            crate::limits::Bound::Low => c.low,
+            crate::limits::Bound::High => c.high,
+        });
+        out.extend(csv_line([
+            device.to_string(),
+            condition.to_string(),
+            c.metric.clone(),
+            c.bound.map(|b| b.as_str().to_string()).unwrap_or_default(),
+            num(limit),
+            num(c.value),
+            num(c.margin),
+            num(Some(c.guardband)),
+            c.unit.to_string(),
+            c.outcome.as_str().to_string(),
+        ]));
+    }
+    out
+}
+
+/// Escapes text for HTML element content and attribute values.
+pub fn escape_html(s: &str) -> String {
+    let mut out = String::with_capacity(s.len());
+    for ch in s.chars() {
+        match ch {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&#39;"),
+            c => out.push(c),
+        }
+    }
+    out
+}
+
+/// Percent-encodes a path segment for a link.
+fn url_segment(s: &str) -> String {
+    let mut out = String::new();
+    for b in s.bytes() {
+        if b.is_ascii_alphanumeric() || b"-_.~".contains(&b) {
+            out.push(b as char);
+        } else {
+            let _ = write!(out, "%{b:02X}");
+        }
+    }
+    out
+}
+
+/// The index page's table row of one result.
+pub(crate) fn index_row(
+    device: &str,
+    condition: &str,
+    verdict: &Verdict,
+    flat: &HashMap<String, String>,
+) -> String {
+    let mut s = String::new();
+    let _ = write!(
+        s,
+        "<tr class=\"{}\"><td><a href=\"{}/summary.csv\">{}</a></td><td>{}</td><td>{}</td><td>{}</td>",
+        verdict.outcome.as_str(),
+        url_segment(device),
+        escape_html(device),
+        escape_html(condition),
+        verdict.outcome.as_str(),
+        escape_html(&verdict.reason)
+    );
+    for (key, _) in INDEX_FIGURES {
+        let v = flat
+            .get(key)
+            .and_then(|v| v.parse::<f64>().ok())
+            .map(|v| format!("{v:.2}"))
+            .unwrap_or_default();
+        let _ = write!(s, "<td class=\"num\">{v}</td>");
+    }
+    s.push_str("</tr>\n");
+    s
+}
+
+/// Writes `bytes` to `path` atomically: a temporary file in the same folder, then a rename, so that a
+/// reader (or an interrupted run) sees the old file or the new one, never half of one.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().to_string())
+        .unwrap_or_default();
+    let tmp = path.with_file_name(format!(".{name}.{}.tmp", std::process::id()));
+    std::fs::write(&tmp, bytes)
+        .and_then(|_| std::fs::rename(&tmp, path))
+        .map_err(|e| {
+            let _ = std::fs::remove_file(&tmp);
+            Error::new(
+                ErrorKind::Output,
+                path.display().to_string(),
+                Location::Whole,
+                "a writable output file",
+                e.to_string(),
+            )
+        })
+}
+
+fn create_dir(dir: &Path) -> Result<()> {
+    std::fs::create_dir_all(dir).map_err(|e| {
+        Error::new(
+            ErrorKind::Output,
+            dir.display().to_string(),
+            Location::Whole,
+            "a folder the outputs can be written into",
+            e.to_string(),
+        )
+    })
+}
+
+#[derive(Serialize)]
+struct DeviceJson<'a> {
+    device: &'a str,
+    conditions: Vec<ConditionJson<'a>>,
+}
+
+#[derive(Serialize)]
+struct ConditionJson<'a> {
+    condition: &'a str,
+    fin_hz: f64,
+    amplitude_dbfs: f64,
+    verdict: &'a Verdict,
+    result: &'a crate::analysis::Analysis,
+}
+
+/// Writes one device's folder `<out>/<device>/`: `summary.csv` (the device's rows under `header`) and
+/// `results.json`, each atomically. This is the one place where per-device files are written; the plots
+/// that `plots` asks for belong here beside the tables, drawn from the traces that `device` keeps for
+/// exactly the results `plots` selects ([`Plots::wants`]).
+pub fn write_device_outputs(
+    out: &Path,
+    device: &DeviceResult,
+    header: &[u8],
+    plots: Plots,
+) -> Result<()> {
+    let dir = out.join(&device.device);
+    create_dir(&dir)?;
+    let mut summary = header.to_vec();
+    for c in &device.conditions {
+        summary.extend_from_slice(&c.lines.summary);
+    }
+    write_atomic(&dir.join("summary.csv"), &summary)?;
+    let doc = DeviceJson {
+        device: &device.device,
+        conditions: device
+            .conditions
+            .iter()
+            .map(|c| ConditionJson {
+                condition: &c.condition,
+                fin_hz: c.fin_hz,
+                amplitude_dbfs: c.amplitude_dbfs,
+                verdict: &c.verdict,
+                result: &c.analysis,
+            })
+            .collect(),
+    };
+    let mut json = serde_json::to_string_pretty(&doc).expect("plain data serialises");
+    json.push('\n');
+    write_atomic(&dir.join("results.json"), json.as_bytes())?;
+    debug_assert!(
+        plots != Plots::None || device.conditions.iter().all(|c| c.traces.is_none()),
+        "traces are kept only when plots are asked for"
+    );
+    Ok(())
+}
+
+/// Counts behind one yield row.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+struct Tally {
+    tested: usize,
+    passed: usize,
+    failed: usize,
+    guardband: usize,
+    errors: usize,
+}
+
+impl Tally {
+    fn line(&self, condition: &str, metric: &str) -> Vec<u8> {
+        let y = if self.tested == 0 {
+            String::new()
+        } else {
+            format!("{:.4}", self.passed as f64 / self.tested as f64)
+        };
+        csv_line([
+            condition.to_string(),
+            metric.to_string(),
+            self.tested.to_string(),
+            self.passed.to_string(),
+            self.failed.to_string(),
+            self.guardband.to_string(),
+            self.errors.to_string(),
+            y,
+        ])
+    }
+}
+
+struct ConditionTally {
+    name: String,
+    all: Tally,
+    metrics: Vec<(String, Tally)>,
+}
+
+/// The lot files, kept as finished lines so that rewriting them costs only the write.
+pub(crate) struct LotWriter {
+    out: PathBuf,
+    title: String,
+    header: Vec<u8>,
+    summary: Vec<u8>,
+    failures: Vec<u8>,
+    index_rows: String,
+    conditions: Vec<ConditionTally>,
+    devices: Tally,
+    results: usize,
+    outcomes: BTreeMap<&'static str, usize>,
+}
+
+impl LotWriter {
+    /// Creates the output folder; nothing is written until [`LotWriter::write`].
+    pub(crate) fn new(
+        out: &Path,
+        title: &str,
+        header: Vec<u8>,
+        conditions: &[String],
+        limits: Option<&LimitTable>,
+    ) -> Result<LotWriter> {
+        create_dir(out)?;
+        Ok(LotWriter {
+            out: out.to_path_buf(),
+            title: title.to_string(),
+            header,
+            summary: Vec::new(),
+            failures: Vec::new(),
+            index_rows: String::new(),
+            conditions: conditions
+                .iter()
+                .map(|c| ConditionTally {
+                    name: c.clone(),
+                    all: Tally::default(),
+                    metrics: limits
+                        .map(|t| {
+                            t.for_condition(c)
+                                .iter()
+                                .map(|l| (l.metric.clone(), Tally::default()))
+                                .collect()
+                        })
+                        .unwrap_or_default(),
+                })
+                .collect(),
+            devices: Tally::default(),
+            results: 0,
+            outcomes: BTreeMap::new(),
+        })
+    }
+
+    /// Adds a finished device's rows and counts.
+    pub(crate) fn add(&mut self, device: &DeviceResult) {
+        let mut any_error = false;
+        let mut any_fail = false;
+        let mut any_guard = false;
+        let mut any_tested = false;
+        for (i, c) in device.conditions.iter().enumerate() {
+            self.summary.extend_from_slice(&c.lines.summary);
+            self.failures.extend_from_slice(&c.lines.failures);
+            self.index_rows.push_str(&c.lines.index);
+            self.results += 1;
+            *self.outcomes.entry(c.verdict.outcome.as_str()).or_default() += 1;
+            let t = &mut self.conditions[i];
+            match c.verdict.outcome {
+                Outcome::Error => {
+                    any_error = true;
+                    t.all.errors += 1;
+                    t.metrics.iter_mut().for_each(|(_, m)| m.errors += 1);
+                    continue;
+                }
+                Outcome::Untested => continue,
+                Outcome::Pass => t.all.passed += 1,
+                Outcome::Fail => {
+                    any_fail = true;
+                    t.all.failed += 1
+                }
+                Outcome::FailGuardband => {
+                    any_guard = true;
+                    t.all.guardband += 1
+                }
+            }
+            any_tested = true;
+            t.all.tested += 1;
+            for check in &c.verdict.checks {
+                if let Some((_, m)) = t.metrics.iter_mut().find(|(n, _)| *n == check.metric) {
+                    m.tested += 1;
+                    match check.outcome {
+                        CheckOutcome::Pass => m.passed += 1,
+                        CheckOutcome::Guardband => m.guardband += 1,
+                        CheckOutcome::Fail | CheckOutcome::NoValue => m.failed += 1,
+                    }
+                }
+            }
+        }
+        let d = &mut self.devices;
+        if any_error {
+            d.errors += 1;
+        } else if any_tested {
+            d.tested += 1;
+            if any_fail {
+                d.failed += 1;
+            } else if any_guard {
+                d.guardband += 1;
+            } else {
+                d.passed += 1;
+            }
+        }
+    }
+
+    fn yield_csv(&self) -> Vec<u8> {
+        let mut out = csv_line(YIELD_COLUMNS);
+        for c in &self.conditions {
+            out.extend(c.all.line(&c.name, "*"));
+            for (m, t) in &c.metrics {
+                out.extend(t.line(&c.name, m));
+            }
+        }
+        out.extend(self.devices.line("*", "*"));
+        out
+    }
+
+    fn index_html(&self, devices: usize) -> String {
+        let title = escape_html(&self.title);
+        let mut counts = String::new();
+        for (k, v) in &self.outcomes {
+            let _ = write!(counts, ", {v} {k}");
+        }
+        let mut heads = String::new();
+        for (_, h) in INDEX_FIGURES {
+            let _ = write!(heads, "<th>{}</th>", escape_html(h));
+        }
+        format!(
+            "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{title}</title>\n\
+             <style>\nbody{{font-family:sans-serif;margin:1.5em}}table{{border-collapse:collapse}}\
+             td,th{{border:1px solid #bbb;padding:2px 6px}}td.num{{text-align:right}}\
+             tr.fail td,tr.error td{{background:#fdd}}tr.fail_guardband td{{background:#ffd}}\n</style>\n\
+             </head>\n<body>\n<h1>{title}</h1>\n<p>{devices} devices, {} results{counts}.</p>\n\
+             <p><a href=\"summary.csv\">summary.csv</a> · <a href=\"failures.csv\">failures.csv</a> · \
+             <a href=\"yield.csv\">yield.csv</a></p>\n<table>\n<thead><tr><th>device</th><th>condition</th>\
+             <th>verdict</th><th>reason</th>{heads}</tr></thead>\n<tbody>\n{}</tbody>\n</table>\n</body>\n</html>\n",
+            self.results, self.index_rows
+        )
+    }
+
+    /// Rewrites the lot files with every device added so far.
+    pub(crate) fn write(&self, devices: usize) -> Result<()> {
+        let mut summary = self.header.clone();
+        summary.extend_from_slice(&self.summary);
+        write_atomic(&self.out.join("summary.csv"), &summary)?;
+        let mut failures = csv_line(FAILURE_COLUMNS);
+        failures.extend_from_slice(&self.failures);
+        write_atomic(&self.out.join("failures.csv"), &failures)?;
+        write_atomic(&self.out.join("yield.csv"), &self.yield_csv())?;
+        write_atomic(
+            &self.out.join("index.html"),
+            self.index_html(devices).as_bytes(),
+        )
+    }
+}
+
+fn read_error(path: &Path, location: Location, expected: &str, found: String) -> Error {
+    Error::new(
+        ErrorKind::BadMetadata,
+        path.display().to_string(),
+        location,
+        expected,
+        found,
+    )
+}
+
+/// Reads a characterisation run's results back: a batch output folder (its `summary.csv`, else every
+/// `<device>/results.json` in it), a summary CSV, or `results.json` files. Error rows are left out.
+/// Errors: a file that cannot be read, a CSV without `device` and `condition` columns, a metric cell
+/// that is not a number (naming the row), a JSON file not in the `results.json` shape.
+pub fn read_results(paths: &[PathBuf]) -> Result<Characterisation> {
+    let mut files: Vec<PathBuf> = Vec::new();
+    for p in paths {
+        if p.is_dir() {
+            let summary = p.join("summary.csv");
+            if summary.is_file() {
+                files.push(summary);
+                continue;
+            }
+            let mut found: Vec<PathBuf> = std::fs::read_dir(p)
+                .map_err(|e| {
+                    read_error(
+                        p,
+                        Location::Whole,
+                        "a readable results folder",
+                        e.to_string(),
+                    )
+                })?
+                .flatten()
+                .map(|e| e.path().join("results.json"))
+                .filter(|r| r.is_file())
+                .collect();
+            if found.is_empty() {
+                return Err(read_error(
+                    p,
+                    Location::Whole,
+                    "a batch output folder with summary.csv or <device>/results.json",
+                    "neither".into(),
+                ));
+            }
+            found.sort();
+            files.extend(found);
+        } else {
+            files.push(p.clone());
+        }
+    }
+    let mut tables: Vec<Rows> = Vec::new();
+    for f in &files {
+        let text = std::fs::read_to_string(f).map_err(|e| {
+            Error::new(
+                ErrorKind::Io,
+                f.display().to_string(),
+                Location::Whole,
+                "a readable results file",
+                e.to_string(),
+            )
+        })?;
+        let is_json = f
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("json"));
+        tables.push(if is_json {
+            json_rows(f, &text)?
+        } else {
+            csv_rows(f, &text)?
+        });
+    }
+    let catalogue = Catalogue::from_columns(tables.iter().flat_map(|(cols, _)| cols.iter()));
+    let mut data = Characterisation {
+        catalogue,
+        ..Characterisation::default()
+    };
+    for ((_, rows), f) in tables.into_iter().zip(&files) {
+        for (device, condition, cells, row) in rows {
+            let mut values = BTreeMap::new();
+            for m in data.catalogue.metrics() {
+                let Some(cell) = cells.get(&m.name).filter(|c| !c.is_empty()) else {
+                    continue;
+                };
+                let v: f64 = cell.parse().map_err(|_| {
+                    read_error(
+                        f,
+                        Location::Row(row),
+                        &format!("a number in the column {}", m.name),
+                        format!("'{cell}'"),
+                    )
+                })?;
+                values.insert(m.name.clone(), v);
+            }
+            if !data.conditions.contains(&condition) {
+                data.conditions.push(condition.clone());
+            }
+            data.rows.push(ResultRow {
+                device,
+                condition,
+                values,
+            });
+        }
+    }
+    Ok(data)
+}
+
+type Rows = (
+    Vec<String>,
+    Vec<(String, String, HashMap<String, String>, usize)>,
+);
+
+fn csv_rows(path: &Path, text: &str) -> Result<Rows> {
+    let mut rdr = ::csv::ReaderBuilder::new()
+        .flexible(false)
+        .from_reader(text.as_bytes());
+    let bad_csv = |e: ::csv::Error| {
+        let loc = e
+            .position()
+            .map_or(Location::Whole, |p| Location::Row(p.line() as usize));
+        read_error(path, loc, "a batch summary CSV", e.to_string())
+    };
+    let header: Vec<String> = rdr
+        .headers()
+        .map_err(bad_csv)?
+        .iter()
+        .map(str::to_string)
+        .collect();
+    let col = |name: &str| header.iter().position(|h| h == name);
+    let (Some(dc), Some(cc)) = (col("device"), col("condition")) else {
+        return Err(read_error(
+            path,
+            Location::Row(1),
+            "a batch summary CSV with device and condition columns",
+            format!("the columns {}", header.join(", ")),
+        ));
+    };
+    let verdict = col("verdict");
+    let error = col("error.kind");
+    let mut rows = Vec::new();
+    for rec in rdr.records() {
+        let rec = rec.map_err(bad_csv)?;
+        let line = rec.position().map_or(0, |p| p.line() as usize);
+        let failed = verdict.is_some_and(|i| &rec[i] == "error")
+            || error.is_some_and(|i| !rec[i].is_empty());
+        if failed {
+            continue;
+        }
+        let cells: HashMap<String, String> = header
+            .iter()
+            .cloned()
+            .zip(rec.iter().map(str::to_string))
+            .collect();
+        rows.push((rec[dc].to_string(), rec[cc].to_string(), cells, line));
+    }
+    Ok((header, rows))
+}
+
+fn json_rows(path: &Path, text: &str) -> Result<Rows> {
+    let v: serde_json::Value = serde_json::from_str(text).map_err(|e| {
+        read_error(
+            path,
+            Location::LineColumn(e.line(), e.column()),
+            "a results.json file of a batch run",
+            e.to_string(),
+        )
+    })?;
+    let shape = |found: &str| {
+        read_error(
+            path,
+            Location::Whole,
+            "a results.json object {\"device\", \"conditions\": [{\"condition\", \"result\"}]}",
+            found.to_string(),
+        )
+    };
+    let device = v
+        .get("device")
+        .and_then(|d| d.as_str())
+        .ok_or_else(|| shape("no \"device\" string"))?;
+    let conditions = v
+        .get("conditions")
+        .and_then(|c| c.as_array())
+        .ok_or_else(|| shape("no \"conditions\" array"))?;
+    let mut header: Vec<String> = Vec::new();
+    let mut rows = Vec::new();
+    for (i, c) in conditions.iter().enumerate() {
+        let name = c
+            .get("condition")
+            .and_then(|n| n.as_str())
+            .ok_or_else(|| shape(&format!("conditions[{i}] without a \"condition\" string")))?;
+        let result = c
+            .get("result")
+            .ok_or_else(|| shape(&format!("conditions[{i}] without a \"result\"")))?;
+        if result.get("error").is_some_and(|e| !e.is_null()) {
+            continue;
+        }
+        let flat = crate::report::csv::flatten(result);
+        for (k, _) in &flat {
+            if !header.contains(k) {
+                header.push(k.clone());
+            }
+        }
+        rows.push((
+            device.to_string(),
+            name.to_string(),
+            flat.into_iter().collect(),
+            0,
+        ));
+    }
+    Ok((header, rows))
+}

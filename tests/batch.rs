@@ -1,0 +1,1423 @@
+//! Batch runs and limit tables: the bench plan and every plan error (file, line, key), the limit table
+//! and every limit error (row), verdicts with guardbands, a small lot end to end through the binary
+//! (a corrupt record becomes an error row, the rest goes on), exit codes, byte-identical outputs for any
+//! thread count, yields, and limit proposals and Cpk against values stored from numpy/scipy.
+
+use assert_cmd::Command;
+use spurline::batch::{BenchPlan, RecordSource};
+use spurline::ingest::Format;
+use spurline::limits::{
+    propose, stats, Catalogue, Characterisation, CheckOutcome, LimitTable, Method, Outcome,
+    ProposalSettings, ResultRow,
+};
+use spurline::spectrum::WindowChoice;
+use spurline::{ErrorKind, Location};
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+fn spurline() -> Command {
+    Command::new(assert_cmd::cargo::cargo_bin!("spurline"))
+}
+
+fn fixture(name: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("fixtures/batch")
+        .join(name)
+}
+
+/// 1-based line of the first line of `text` containing `marker`.
+fn line_of(text: &str, marker: &str) -> usize {
+    text.lines()
+        .position(|l| l.contains(marker))
+        .unwrap_or_else(|| panic!("no line with {marker:?}"))
+        + 1
+}
+
+/// The fixture lot in a temporary folder: plan, limit table and the records its script writes with
+/// `spurline synth`.
+fn make_lot() -> tempfile::TempDir {
+    let dir = tempfile::tempdir().unwrap();
+    for f in ["plan.toml", "limits.csv"] {
+        std::fs::copy(fixture(f), dir.path().join(f)).unwrap();
+    }
+    let out = std::process::Command::new("sh")
+        .arg(fixture("make_records.sh"))
+        .arg(dir.path())
+        .env("SPURLINE", assert_cmd::cargo::cargo_bin!("spurline"))
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "make_records.sh: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    dir
+}
+
+/// Scope of the fixture plan: its conditions with the metrics of their harmonics.
+fn scope_of(plan: &BenchPlan) -> Vec<(String, Catalogue)> {
+    plan.conditions
+        .iter()
+        .map(|c| {
+            (
+                c.name.clone(),
+                Catalogue::for_harmonics(c.settings.spectrum.harmonics),
+            )
+        })
+        .collect()
+}
+
+fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
+    let mut r = csv::Reader::from_path(path).unwrap();
+    let head = r.headers().unwrap().iter().map(str::to_string).collect();
+    let rows = r
+        .records()
+        .map(|x| x.unwrap().iter().map(str::to_string).collect())
+        .collect();
+    (head, rows)
+}
+
+fn cell<'a>(head: &[String], row: &'a [String], name: &str) -> &'a str {
+    let i = head
+        .iter()
+        .position(|h| h == name)
+        .unwrap_or_else(|| panic!("no column {name}"));
+    &row[i]
+}
+
+// ───────────────────────────── bench plan ─────────────────────────────
+
+#[test]
+fn fixture_plan_parses_into_settings() {
+    let path = fixture("plan.toml");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let plan = BenchPlan::read(&path).unwrap();
+    assert_eq!(plan.ingest.meta.bits, Some(12));
+    assert_eq!(plan.ingest.meta.sample_rate_hz, Some(100e6));
+    assert_eq!(plan.ingest.meta.full_scale_vpp, Some(2.0));
+    assert_eq!(
+        plan.ingest.format,
+        Some(Format::Binary(Format::parse_word("i16le").unwrap()))
+    );
+    let names: Vec<&str> = plan.conditions.iter().map(|c| c.name.as_str()).collect();
+    assert_eq!(names, ["fin_10M", "fin_31M"]);
+    let c = &plan.conditions;
+    assert_eq!((c[0].fin_hz, c[1].fin_hz), (10.1e6, 31.3e6));
+    assert_eq!((c[0].amplitude_dbfs, c[1].amplitude_dbfs), (-1.0, -1.0));
+    // The plan-wide harmonics = 5, overridden to 7 for fin_31M; average 1, overridden to 2.
+    assert_eq!(c[0].settings.spectrum.harmonics, 5);
+    assert_eq!(c[1].settings.spectrum.harmonics, 7);
+    assert_eq!((c[0].average, c[1].average), (1, 2));
+    assert_eq!(c[0].settings.spectrum.window, WindowChoice::Auto);
+    assert_eq!(c[1].line, line_of(&text, "name = \"fin_31M\"") - 1);
+    assert_eq!(
+        plan.records,
+        RecordSource::Pattern {
+            pattern: "records/{device}/{condition}_{index}.bin".into(),
+            line: line_of(&text, "pattern ="),
+        }
+    );
+    assert_eq!(plan.devices, None);
+    assert_eq!(plan.max_harmonics(), 7);
+    // The fit hint is the input folded into the first zone (31.3 MHz at 100 MHz stays where it is).
+    assert_eq!(plan.ingest_for(&c[1]).meta.fin_hz, Some(31.3e6));
+}
+
+const BASE: &str = r#"# a plan
+[converter]
+bits = 12
+sample_rate_hz = 100e6
+format = "i16le"
+
+[analysis]
+harmonics = 5
+
+[records]
+pattern = "caps/{device}/{condition}_{index}.bin"
+
+[[condition]]
+name = "a"
+fin_hz = "10.1M"
+amplitude_dbfs = -1.0
+
+[[condition]]
+name = "b"
+fin_hz = 31.3e6
+amplitude_dbfs = -1.0
+analysis = { harmonics = 7, average = 2 }
+"#;
+
+#[test]
+fn plan_errors_name_file_line_and_key() {
+    // (what is changed, replaced by, the marker of the line expected, the key named)
+    let cases: &[(&str, &str, &str, &str)] = &[
+        ("# a plan", "tittle = \"x\"", "tittle", "tittle"),
+        ("bits = 12", "bits = 12\nbitz = 3", "bitz", "converter.bitz"),
+        ("bits = 12\n", "", "[converter]", "converter.bits"),
+        ("bits = 12", "bits = \"twelve\"", "bits =", "converter.bits"),
+        ("bits = 12", "bits = 40", "bits =", "converter.bits"),
+        ("bits = 12", "bits = 0", "bits =", "converter.bits"),
+        (
+            "sample_rate_hz = 100e6",
+            "sample_rate_hz = -5",
+            "sample_rate_hz",
+            "converter.sample_rate_hz",
+        ),
+        (
+            "sample_rate_hz = 100e6",
+            "sample_rate_hz = \"fast\"",
+            "sample_rate_hz",
+            "converter.sample_rate_hz",
+        ),
+        (
+            "format = \"i16le\"",
+            "format = \"i12\"",
+            "format",
+            "converter.format",
+        ),
+        (
+            "format = \"i16le\"",
+            "format = \"i16le\"\ncoding = \"gray\"",
+            "coding",
+            "converter.coding",
+        ),
+        (
+            "format = \"i16le\"",
+            "format = \"i16le\"\nchannel = \"5/4\"",
+            "channel",
+            "converter.channel",
+        ),
+        (
+            "harmonics = 5",
+            "harmonics = 0",
+            "harmonics = 0",
+            "analysis.harmonics",
+        ),
+        (
+            "harmonics = 5",
+            "harmonics = 5\nwindow = \"hamm\"",
+            "window",
+            "analysis.window",
+        ),
+        (
+            "harmonics = 5",
+            "harmonics = 5\naverage = 0",
+            "average",
+            "analysis.average",
+        ),
+        (
+            "harmonics = 5",
+            "harmonics = 5\nfit = \"five\"",
+            "fit =",
+            "analysis.fit",
+        ),
+        (
+            "harmonics = 5",
+            "harmonics = 5\nspan = 1",
+            "span",
+            "analysis.span",
+        ),
+        (
+            "name = \"a\"\nfin_hz = \"10.1M\"\n",
+            "name = \"a\"\n",
+            "[[condition]]",
+            "condition[1].fin_hz",
+        ),
+        (
+            "fin_hz = \"10.1M\"",
+            "fin_hz = \"abc\"",
+            "fin_hz",
+            "condition[1].fin_hz",
+        ),
+        (
+            "fin_hz = \"10.1M\"",
+            "fin_hz = 0",
+            "fin_hz",
+            "condition[1].fin_hz",
+        ),
+        (
+            "name = \"b\"",
+            "name = \"a\"",
+            "2:name = \"a\"",
+            "condition[2].name",
+        ),
+        ("name = \"b\"", "name = \"b/c\"", "b/c", "condition[2].name"),
+        ("name = \"b\"", "name = \"*\"", "\"*\"", "condition[2].name"),
+        (
+            "{ harmonics = 7,",
+            "{ harmonics = 7, windw = \"hann\",",
+            "windw",
+            "condition[2].analysis.windw",
+        ),
+        (
+            "{ harmonics = 7,",
+            "{ harmonics = 700,",
+            "harmonics = 700",
+            "condition[2].analysis.harmonics",
+        ),
+        (
+            "amplitude_dbfs = -1.0\n\n",
+            "amplitude_dbfs = -1.0\nextra = 1\n\n",
+            "extra",
+            "condition[1].extra",
+        ),
+        (
+            "{condition}_{index}",
+            "{cond}_{index}",
+            "pattern",
+            "records.pattern",
+        ),
+        ("caps/{device}/", "caps/", "pattern", "records.pattern"),
+        ("_{index}", "", "pattern", "records.pattern"),
+        (
+            "pattern = \"caps/{device}/{condition}_{index}.bin\"",
+            "",
+            "[records]",
+            "records.pattern or records.list",
+        ),
+        (
+            "pattern = \"caps/{device}/{condition}_{index}.bin\"",
+            "list = [ { device = \"d1\", condition = \"c\", files = [\"x.bin\"] } ]",
+            "list =",
+            "records.list.condition",
+        ),
+        (
+            "pattern = \"caps/{device}/{condition}_{index}.bin\"",
+            "list = [ { device = \"d1\", condition = \"a\", files = [\"x.bin\", \"y.bin\"] } ]",
+            "list =",
+            "records.list.files",
+        ),
+        (
+            "pattern = \"caps/{device}/{condition}_{index}.bin\"",
+            "pattern = \"caps/{device}/{condition}_{index}.bin\"\ndevices = [\"d1\", \"d1\"]",
+            "devices",
+            "records.devices",
+        ),
+    ];
+    for (from, to, marker, key) in cases {
+        assert!(BASE.contains(from), "{from:?} is not in the base plan");
+        let text = BASE.replacen(from, to, 1);
+        let e = BenchPlan::parse(&text, Path::new("bench/plan.toml")).unwrap_err();
+        let msg = e.to_string();
+        assert_eq!(e.kind, ErrorKind::BadPlan, "{from:?} → {to:?}: {msg}");
+        assert_eq!(e.path, "bench/plan.toml", "{msg}");
+        // The line: of the offending key or value, or of the table missing a key.
+        // "2:" asks for the second line holding the marker.
+        let want = match marker.strip_prefix("2:") {
+            Some(m) => {
+                let first = line_of(&text, m);
+                first + line_of(&text.lines().skip(first).collect::<Vec<_>>().join("\n"), m)
+            }
+            None => line_of(&text, marker),
+        };
+        assert_eq!(e.location, Location::Line(want), "{from:?} → {to:?}: {msg}");
+        assert!(
+            msg.contains(key),
+            "{from:?} → {to:?}: {msg} does not name {key}"
+        );
+    }
+    // A missing table of the top level is named too.
+    let text = BASE.replace("[records]\n", "[recs]\n");
+    let e = BenchPlan::parse(&text, Path::new("p.toml")).unwrap_err();
+    assert!(e.to_string().contains("recs"), "{e}");
+    let e = BenchPlan::parse("[converter]\nbits = 12\n", Path::new("p.toml")).unwrap_err();
+    assert_eq!(e.kind, ErrorKind::BadPlan);
+    assert!(e.to_string().contains("sample_rate_hz"), "{e}");
+    // Not TOML at all.
+    let e = BenchPlan::parse("[converter\n", Path::new("p.toml")).unwrap_err();
+    assert_eq!(
+        (e.kind, e.location),
+        (ErrorKind::BadPlan, Location::Line(1))
+    );
+}
+
+#[test]
+fn a_pattern_that_matches_nothing_is_a_plan_error() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("plan.toml");
+    std::fs::write(&path, BASE).unwrap();
+    let plan = BenchPlan::read(&path).unwrap();
+    let e = plan.locate().unwrap_err();
+    assert_eq!(e.kind, ErrorKind::BadPlan);
+    assert_eq!(e.path, path.display().to_string());
+    assert_eq!(e.location, Location::Line(line_of(BASE, "pattern =")));
+    assert!(e.to_string().contains("records.pattern"), "{e}");
+    // The same through the binary: exit 2, the message names file, line and key.
+    let out = spurline()
+        .arg("batch")
+        .arg(&path)
+        .arg("--out")
+        .arg(dir.path().join("o"))
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("plan.toml: line 11") && err.contains("records.pattern"),
+        "{err}"
+    );
+}
+
+fn touch(root: &Path, rel: &str) {
+    let p = root.join(rel);
+    std::fs::create_dir_all(p.parent().unwrap()).unwrap();
+    std::fs::write(p, b"").unwrap();
+}
+
+#[test]
+fn devices_are_discovered_in_natural_order() {
+    let dir = tempfile::tempdir().unwrap();
+    for f in [
+        "caps/d10/a_1.bin",
+        "caps/d2/a_1.bin",
+        "caps/d2/b_1.bin",
+        "caps/d2/b_2.bin",
+        "caps/d3/b_2.bin",
+        "caps/.hidden/a_1.bin",
+        "caps/d4/a_1.txt",
+        "caps/stray.bin",
+    ] {
+        touch(dir.path(), f);
+    }
+    let path = dir.path().join("plan.toml");
+    std::fs::write(&path, BASE).unwrap();
+    let lot = BenchPlan::read(&path).unwrap().locate().unwrap();
+    assert_eq!(lot.devices, ["d2", "d3", "d10"]);
+    assert_eq!(lot.conditions, 2);
+    assert_eq!(lot.results(), 6);
+    assert_eq!(
+        lot.files(0, 1),
+        [
+            dir.path().join("caps/d2/b_1.bin"),
+            dir.path().join("caps/d2/b_2.bin")
+        ]
+    );
+    // A device that lacks a condition still gets its (missing) files, to become an error row.
+    assert_eq!(lot.files(2, 0), [dir.path().join("caps/d10/a_1.bin")]);
+    assert_eq!(lot.files(2, 1)[1], dir.path().join("caps/d10/b_2.bin"));
+    // {device} inside a file name, twice in a pattern, and a given device list keeping its order.
+    for f in [
+        "flat/x1_a_1_x1.bin",
+        "flat/x2_a_1_x2.bin",
+        "flat/x3_a_1_x4.bin",
+    ] {
+        touch(dir.path(), f);
+    }
+    let text = BASE.replace(
+        "caps/{device}/{condition}_{index}.bin",
+        "flat/{device}_{condition}_{index}_{device}.bin",
+    );
+    std::fs::write(&path, &text).unwrap();
+    let lot = BenchPlan::read(&path).unwrap().locate().unwrap();
+    assert_eq!(lot.devices, ["x1", "x2"]);
+    let text = text.replace(
+        "_{device}.bin\"",
+        "_{device}.bin\"\ndevices = [\"x9\", \"x2\"]",
+    );
+    std::fs::write(&path, &text).unwrap();
+    let lot = BenchPlan::read(&path).unwrap().locate().unwrap();
+    assert_eq!(lot.devices, ["x9", "x2"]);
+}
+
+#[test]
+fn an_explicit_record_list() {
+    let text = BASE.replace(
+        "pattern = \"caps/{device}/{condition}_{index}.bin\"",
+        "list = [\n  { device = \"u10\", condition = \"b\", files = [\"r/3.bin\", \"r/4.bin\"] },\n  \
+         { device = \"u9\", condition = \"a\", files = [\"r/1.bin\"] },\n]",
+    );
+    let plan = BenchPlan::parse(&text, Path::new("bench/plan.toml")).unwrap();
+    let lot = plan.locate().unwrap();
+    assert_eq!(lot.devices, ["u9", "u10"]);
+    assert_eq!(lot.files(0, 0), [PathBuf::from("bench/r/1.bin")]);
+    assert!(lot.files(0, 1).is_empty());
+    assert_eq!(
+        lot.files(1, 1),
+        [
+            PathBuf::from("bench/r/3.bin"),
+            PathBuf::from("bench/r/4.bin")
+        ]
+    );
+    let dup = text.replace(
+        "\"u9\", condition = \"a\", files = [\"r/1.bin\"]",
+        "\"u10\", condition = \"b\", files = [\"r/1.bin\", \"r/2.bin\"]",
+    );
+    let e = BenchPlan::parse(&dup, Path::new("p.toml")).unwrap_err();
+    assert_eq!(e.location, Location::Line(line_of(&dup, "r/1.bin")));
+    assert!(e.to_string().contains("second entry"), "{e}");
+}
+
+// ───────────────────────────── limit table ─────────────────────────────
+
+fn fixture_scope() -> Vec<(String, Catalogue)> {
+    scope_of(&BenchPlan::read(&fixture("plan.toml")).unwrap())
+}
+
+#[test]
+fn fixture_limits_resolve() {
+    let t = LimitTable::read(&fixture("limits.csv"), &fixture_scope()).unwrap();
+    let rows: Vec<_> = t
+        .limits
+        .iter()
+        .map(|l| {
+            (
+                l.row,
+                l.condition.as_deref(),
+                l.metric.as_str(),
+                l.low,
+                l.high,
+                l.unit,
+                l.guardband,
+            )
+        })
+        .collect();
+    assert_eq!(
+        rows,
+        vec![
+            (3, None, "spectrum.snr_db", Some(60.0), None, "dB", 2.5),
+            (4, None, "spectrum.sfdr_dbc", Some(65.0), None, "dBc", 0.0),
+            (
+                5,
+                None,
+                "spectrum.harmonics.h3.dbc",
+                None,
+                Some(-60.0),
+                "dBc",
+                0.0
+            ),
+            (
+                6,
+                Some("fin_31M"),
+                "spectrum.enob_bits",
+                Some(9.5),
+                None,
+                "bits",
+                0.0
+            ),
+        ]
+    );
+    assert_eq!(t.for_condition("fin_10M").len(), 3);
+    assert_eq!(t.for_condition("fin_31M").len(), 4);
+}
+
+#[test]
+fn short_names_semicolons_and_a_byte_order_mark() {
+    let text =
+        "\u{feff}Condition;Metric;Low;High;Unit\nfin_10M;snr_db;60;;db\n;;;;\n*;h3.dbc;;-70;DBC\n";
+    let t = LimitTable::parse(text, "l.csv", &fixture_scope()).unwrap();
+    let got: Vec<_> = t
+        .limits
+        .iter()
+        .map(|l| (l.row, l.metric.as_str()))
+        .collect();
+    assert_eq!(
+        got,
+        [(2, "spectrum.snr_db"), (4, "spectrum.harmonics.h3.dbc")]
+    );
+}
+
+#[test]
+fn limit_errors_name_the_row() {
+    let head = "condition,metric,low,high,unit,guardband\n";
+    // (table body after the header, row expected, text the message must hold)
+    let cases: &[(&str, usize, &str)] = &[
+        ("fin_10M,snr,60,,dB,\n", 2, "'snr'"),
+        ("fin_10M,enob_bits,9,,bits,\n", 2, "fit.enob_bits"),
+        ("fin_99M,snr_db,60,,dB,\n", 2, "'fin_99M'"),
+        (",snr_db,60,,dB,\n", 2, "condition"),
+        ("fin_10M,,60,,dB,\n", 2, "metric"),
+        ("*,snr_db,70,60,dB,\n", 2, "low 70 above high 60"),
+        ("*,sfdr_dbc,70,,dB,\n", 2, "dBc"),
+        ("*,snr_db,sixty,,dB,\n", 2, "'sixty'"),
+        ("*,snr_db,60,,dB,-1\n", 2, "guardband"),
+        ("*,snr_db,60,64,dB,3\n", 2, "leaves a window"),
+        ("*,snr_db,,,dB,\n", 2, "low or a high"),
+        ("*,snr_db,60,,dB\n", 2, "6 cells"),
+        (
+            "*,snr_db,60,,dB,\n*,spectrum.snr_db,61,,dB,\n",
+            3,
+            "first is row 2",
+        ),
+        (
+            "fin_10M,spectrum.harmonics.h7.dbc,,-70,dBc,\n",
+            2,
+            "fin_10M",
+        ),
+        ("*,h7.dbc,,-70,dBc,\n", 2, "fin_10M"),
+        ("# a note\n\n*,snr_db,60,,dB,\n*,snr,1,,,\n", 5, "'snr'"),
+        ("*,snr_db,inf,,dB,\n", 2, "'inf'"),
+        (
+            "*,snr_db,60,,dB,\n# two\n# comment lines\n*,sfdr_dbc,x,,dBc,\n",
+            5,
+            "'x'",
+        ),
+    ];
+    for (body, row, needle) in cases {
+        let text = format!("{head}{body}");
+        let e = LimitTable::parse(&text, "lot/limits.csv", &fixture_scope()).unwrap_err();
+        let msg = e.to_string();
+        assert_eq!(e.kind, ErrorKind::BadLimits, "{body:?}: {msg}");
+        assert_eq!(e.path, "lot/limits.csv");
+        assert_eq!(e.location, Location::Row(*row), "{body:?}: {msg}");
+        assert!(msg.contains(needle), "{body:?}: {msg} lacks {needle:?}");
+    }
+    for (text, needle) in [
+        (
+            "condition,metric,low,high\n*,snr_db,60,\n",
+            "no column 'unit'",
+        ),
+        (
+            "condition,metric,low,high,unit,limit\n",
+            "the column 'limit'",
+        ),
+        ("condition,metric,low,high,unit,low\n", "twice"),
+    ] {
+        let e = LimitTable::parse(text, "l.csv", &fixture_scope()).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location.clone()),
+            (ErrorKind::BadLimits, Location::Row(1)),
+            "{e}"
+        );
+        assert!(e.to_string().contains(needle), "{e}");
+    }
+    for text in ["", "condition,metric,low,high,unit\n"] {
+        let e = LimitTable::parse(text, "l.csv", &fixture_scope()).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (ErrorKind::BadLimits, Location::Whole)
+        );
+    }
+}
+
+// ───────────────────────────── verdicts ─────────────────────────────
+
+#[test]
+fn verdicts_and_guardbands() {
+    let scope = fixture_scope();
+    let t = LimitTable::parse(
+        "condition,metric,low,high,unit,guardband\n\
+         *,snr_db,60,,dB,2\n\
+         *,spectrum.fundamental_dbfs,-2,0,dBFS,0.25\n\
+         fin_31M,spectrum.enob_bits,9.5,,bits,\n",
+        "l.csv",
+        &scope,
+    )
+    .unwrap();
+    let judge = |cond: &str, snr: Option<f64>, fund: f64, enob: f64| {
+        t.judge(cond, |m| match m {
+            "spectrum.snr_db" => snr,
+            "spectrum.fundamental_dbfs" => Some(fund),
+            "spectrum.enob_bits" => Some(enob),
+            _ => None,
+        })
+    };
+    // Inside every tightened limit.
+    let v = judge("fin_10M", Some(65.0), -1.0, 11.0);
+    assert_eq!(v.outcome, Outcome::Pass);
+    assert_eq!(v.checks.len(), 2);
+    assert_eq!(v.reason, "all 2 limits pass");
+    assert_eq!(v.checks[0].margin, Some(5.0));
+    // -1.0 is 1 dB from either end: the nearer bound is the first found of equal margins.
+    assert_eq!(v.checks[1].margin, Some(1.0));
+    // SNR 61: inside the stated limit by 1 dB, inside the 2 dB guardband.
+    let v = judge("fin_10M", Some(61.0), -1.0, 11.0);
+    assert_eq!(v.outcome, Outcome::FailGuardband);
+    assert_eq!(v.checks[0].outcome, CheckOutcome::Guardband);
+    assert_eq!(v.checks[0].margin, Some(1.0));
+    assert!(
+        v.reason.contains("within the 2 dB guardband of low 60 dB"),
+        "{}",
+        v.reason
+    );
+    // Exactly on the tightened limit passes; exactly on the stated limit is inside the guardband.
+    assert_eq!(
+        judge("fin_10M", Some(62.0), -1.0, 11.0).outcome,
+        Outcome::Pass
+    );
+    assert_eq!(
+        judge("fin_10M", Some(60.0), -1.0, 11.0).outcome,
+        Outcome::FailGuardband
+    );
+    // A high-side guardband: -0.125 dBFS is under the high limit 0 but within 0.25 of it.
+    let v = judge("fin_10M", Some(65.0), -0.125, 11.0);
+    assert_eq!(v.outcome, Outcome::FailGuardband);
+    assert_eq!(v.checks[1].bound, Some(spurline::limits::Bound::High));
+    assert_eq!(v.checks[1].margin, Some(0.125));
+    // A hard failure beats a guardband one.
+    let v = judge("fin_10M", Some(59.0), -0.125, 11.0);
+    assert_eq!(v.outcome, Outcome::Fail);
+    assert_eq!(v.checks[0].margin, Some(-1.0));
+    assert!(
+        v.reason
+            .starts_with("1 of 2 limits fail: spectrum.snr_db 59 dB below low 60 dB"),
+        "{}",
+        v.reason
+    );
+    // Above the high limit.
+    let v = judge("fin_10M", Some(65.0), 0.5, 11.0);
+    assert_eq!((v.outcome, v.checks[1].margin), (Outcome::Fail, Some(-0.5)));
+    // A figure that is absent cannot be shown to pass.
+    let v = judge("fin_10M", None, -1.0, 11.0);
+    assert_eq!(v.outcome, Outcome::Fail);
+    assert_eq!(v.checks[0].outcome, CheckOutcome::NoValue);
+    assert!(
+        v.reason.contains("spectrum.snr_db has no value"),
+        "{}",
+        v.reason
+    );
+    // The condition's own row adds the ENOB limit.
+    let v = judge("fin_31M", Some(65.0), -1.0, 9.0);
+    assert_eq!(v.checks.len(), 3);
+    assert_eq!(v.outcome, Outcome::Fail);
+    assert_eq!(v.checks[2].margin, Some(-0.5));
+}
+
+// ───────────────────────────── a lot end to end ─────────────────────────────
+
+fn run_batch(lot: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
+    let o = spurline()
+        .arg("batch")
+        .arg(lot.join("plan.toml"))
+        .arg("--out")
+        .arg(out)
+        .args(extra)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(!err.contains("panicked"), "{err}");
+    o
+}
+
+#[test]
+fn a_corrupt_record_becomes_an_error_row_and_the_lot_goes_on() {
+    let lot = make_lot();
+    let bad = lot.path().join("records/d03/fin_10M_1.bin");
+    std::fs::write(&bad, [1u8, 2, 3]).unwrap();
+    std::fs::remove_file(lot.path().join("records/d01/fin_31M_2.bin")).unwrap();
+    let out = lot.path().join("out");
+    let limits = lot.path().join("limits.csv");
+    let o = run_batch(
+        lot.path(),
+        &out,
+        &["--limits", limits.to_str().unwrap(), "--jobs", "2"],
+    );
+    assert_eq!(
+        o.status.code(),
+        Some(2),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        err.contains("d03 / fin_10M") && err.contains("byte offset 2"),
+        "{err}"
+    );
+    assert!(
+        err.contains("d01 / fin_31M") && err.contains("fin_31M_2.bin"),
+        "{err}"
+    );
+    let (head, rows) = read_csv(&out.join("summary.csv"));
+    assert_eq!(rows.len(), 8);
+    let keyed: BTreeMap<(String, String), &Vec<String>> = rows
+        .iter()
+        .map(|r| ((r[0].clone(), r[1].clone()), r))
+        .collect();
+    let row = |d: &str, c: &str| keyed[&(d.to_string(), c.to_string())];
+    let e = row("d03", "fin_10M");
+    assert_eq!(cell(&head, e, "verdict"), "error");
+    assert_eq!(cell(&head, e, "error.kind"), "partial_word");
+    assert!(cell(&head, e, "reason").contains(&bad.display().to_string()));
+    assert_eq!(cell(&head, e, "spectrum.snr_db"), "");
+    assert_eq!(cell(&head, row("d01", "fin_31M"), "error.kind"), "io");
+    // The rest were analysed and judged.
+    for (d, c, v) in [
+        ("d01", "fin_10M", "pass"),
+        ("d02", "fin_10M", "fail"),
+        ("d02", "fin_31M", "fail"),
+        ("d03", "fin_31M", "fail"),
+        ("d04", "fin_10M", "fail_guardband"),
+        ("d04", "fin_31M", "fail_guardband"),
+    ] {
+        assert_eq!(cell(&head, row(d, c), "verdict"), v, "{d} {c}");
+        assert!(!cell(&head, row(d, c), "spectrum.snr_db").is_empty());
+    }
+    // Rows in device order, then plan order of conditions.
+    let order: Vec<(&str, &str)> = rows
+        .iter()
+        .map(|r| (r[0].as_str(), r[1].as_str()))
+        .collect();
+    assert_eq!(
+        order[..4],
+        [
+            ("d01", "fin_10M"),
+            ("d01", "fin_31M"),
+            ("d02", "fin_10M"),
+            ("d02", "fin_31M")
+        ]
+    );
+    // Per-device folders hold the device's rows and its results.json; no temporary file is left over.
+    for d in ["d01", "d02", "d03", "d04"] {
+        let (h, r) = read_csv(&out.join(d).join("summary.csv"));
+        assert_eq!(h, head);
+        assert_eq!(r.len(), 2);
+        assert!(r.iter().all(|x| x[0] == d));
+        let j: serde_json::Value = serde_json::from_str(
+            &std::fs::read_to_string(out.join(d).join("results.json")).unwrap(),
+        )
+        .unwrap();
+        assert_eq!(j["device"], d);
+        assert_eq!(j["conditions"][1]["condition"], "fin_31M");
+        assert_eq!(j["conditions"][1]["fin_hz"], 31.3e6);
+        let expect_error = d == "d01";
+        assert_eq!(
+            !j["conditions"][1]["result"]["error"].is_null(),
+            expect_error,
+            "{d}"
+        );
+    }
+    let averaged = serde_json::from_str::<serde_json::Value>(
+        &std::fs::read_to_string(out.join("d02/results.json")).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(
+        averaged["conditions"][1]["result"]["spectrum"]["records_averaged"],
+        2
+    );
+    for entry in std::fs::read_dir(&out).unwrap() {
+        let name = entry.unwrap().file_name().to_string_lossy().to_string();
+        assert!(!name.starts_with('.'), "left over: {name}");
+    }
+    let html = std::fs::read_to_string(out.join("index.html")).unwrap();
+    assert!(html.starts_with("<!DOCTYPE html>") && html.contains("<td>fail_guardband</td>"));
+    assert!(!html.contains("<script"));
+}
+
+#[test]
+fn exit_codes() {
+    let lot = make_lot();
+    let p = lot.path();
+    let limits = p.join("limits.csv");
+    // Some limits fail: 1.
+    let o = run_batch(p, &p.join("o1"), &["--limits", limits.to_str().unwrap()]);
+    assert_eq!(
+        o.status.code(),
+        Some(1),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let said = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        said.contains("4 devices, 8 results: 2 pass, 4 fail, 2 fail only inside a guardband"),
+        "{said}"
+    );
+    // Loose limits: 0. No limit table: 0 (untested).
+    let loose = p.join("loose.csv");
+    std::fs::write(&loose, "condition,metric,low,high,unit\n*,snr_db,40,,dB\n").unwrap();
+    let o = run_batch(
+        p,
+        &p.join("o2"),
+        &["--limits", loose.to_str().unwrap(), "--plots", "all"],
+    );
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    assert!(String::from_utf8_lossy(&o.stderr).contains("writes no plot files"));
+    let o = run_batch(p, &p.join("o3"), &[]);
+    assert_eq!(o.status.code(), Some(0));
+    let (head, rows) = read_csv(&p.join("o3/summary.csv"));
+    assert!(rows.iter().all(|r| cell(&head, r, "verdict") == "untested"));
+    // A guardband failure alone is a failure: 1.
+    let guard = p.join("guard.csv");
+    std::fs::write(
+        &guard,
+        "condition,metric,low,high,unit,guardband\n*,snr_db,60,,dB,2.5\n",
+    )
+    .unwrap();
+    let o = run_batch(
+        p,
+        &p.join("o4"),
+        &[
+            "--limits",
+            guard.to_str().unwrap(),
+            "--devices-are-not-an-option",
+        ],
+    );
+    assert_eq!(
+        o.status.code(),
+        Some(2),
+        "an unknown option is a usage error"
+    );
+    let o = run_batch(p, &p.join("o4"), &["--limits", guard.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(1));
+    // Errors: 2, with the row named.
+    std::fs::write(&guard, "condition,metric,low,high,unit\n*,snr_dbx,60,,dB\n").unwrap();
+    let o = run_batch(p, &p.join("o5"), &["--limits", guard.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("guard.csv: row 2"));
+    // An output folder that cannot be made fails before the work.
+    let o = run_batch(p, &limits, &[]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("limits.csv"));
+    let o = run_batch(p, &p.join("o6"), &["--jobs", "0"]);
+    assert_eq!(o.status.code(), Some(2));
+    std::fs::write(p.join("plan.toml"), "[converter]\nbits = 12\n").unwrap();
+    let o = run_batch(p, &p.join("o7"), &[]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("plan.toml: line 1"));
+}
+
+fn files_under(root: &Path) -> Vec<PathBuf> {
+    let mut out = Vec::new();
+    let mut stack = vec![root.to_path_buf()];
+    while let Some(d) = stack.pop() {
+        for e in std::fs::read_dir(&d).unwrap() {
+            let p = e.unwrap().path();
+            if p.is_dir() {
+                stack.push(p);
+            } else {
+                out.push(p.strip_prefix(root).unwrap().to_path_buf());
+            }
+        }
+    }
+    out.sort();
+    out
+}
+
+#[test]
+fn outputs_are_byte_identical_for_any_thread_count() {
+    // DESIGN.md: same inputs and settings give byte-identical CSV and JSON, whatever the thread count.
+    let lot = make_lot();
+    let p = lot.path();
+    let limits = p.join("limits.csv");
+    let l = limits.to_str().unwrap();
+    let (a, b) = (p.join("one"), p.join("two"));
+    assert_eq!(
+        run_batch(p, &a, &["--limits", l, "--jobs", "1"])
+            .status
+            .code(),
+        Some(1)
+    );
+    assert_eq!(
+        run_batch(p, &b, &["--limits", l, "--jobs", "2"])
+            .status
+            .code(),
+        Some(1)
+    );
+    let (fa, fb) = (files_under(&a), files_under(&b));
+    assert_eq!(fa, fb);
+    assert_eq!(fa.len(), 4 + 4 * 2);
+    for f in &fa {
+        assert_eq!(
+            std::fs::read(a.join(f)).unwrap(),
+            std::fs::read(b.join(f)).unwrap(),
+            "{}",
+            f.display()
+        );
+    }
+}
+
+#[test]
+fn yields_and_failures_match_an_independent_count() {
+    let lot = make_lot();
+    let p = lot.path();
+    let out = p.join("out");
+    let limits = p.join("limits.csv");
+    run_batch(p, &out, &["--limits", limits.to_str().unwrap()]);
+    let (head, rows) = read_csv(&out.join("summary.csv"));
+    // The fixture's limits, written out again by hand: (condition or *, metric, low, high, guardband).
+    type Row<'a> = (&'a str, &'a str, Option<f64>, Option<f64>, f64);
+    let table: [Row; 4] = [
+        ("*", "spectrum.snr_db", Some(60.0), None, 2.5),
+        ("*", "spectrum.sfdr_dbc", Some(65.0), None, 0.0),
+        ("*", "spectrum.harmonics.h3.dbc", None, Some(-60.0), 0.0),
+        ("fin_31M", "spectrum.enob_bits", Some(9.5), None, 0.0),
+    ];
+    // (condition, metric) → (tested, passed, failed, guardband); metric "*" for whole results.
+    let mut tally: BTreeMap<(String, String), [usize; 4]> = BTreeMap::new();
+    let mut failures = 0;
+    let mut device_state: BTreeMap<String, usize> = BTreeMap::new(); // 0 pass, 1 guardband, 2 fail
+    for r in &rows {
+        let cond = cell(&head, r, "condition").to_string();
+        let mut worst = 0;
+        for (c, m, lo, hi, g) in table {
+            if c != "*" && c != cond {
+                continue;
+            }
+            let v: f64 = cell(&head, r, m).parse().unwrap();
+            let hard = lo.is_some_and(|l| v < l) || hi.is_some_and(|h| v > h);
+            let soft = !hard && (lo.is_some_and(|l| v < l + g) || hi.is_some_and(|h| v > h - g));
+            let k = if hard {
+                2
+            } else if soft {
+                3
+            } else {
+                1
+            };
+            let t = tally.entry((cond.clone(), m.to_string())).or_default();
+            t[0] += 1;
+            t[k] += 1;
+            failures += usize::from(k != 1);
+            worst = worst.max(match k {
+                2 => 2,
+                3 => 1,
+                _ => 0,
+            });
+        }
+        let want = ["pass", "fail_guardband", "fail"][worst];
+        assert_eq!(cell(&head, r, "verdict"), want, "{r:?}");
+        let t = tally.entry((cond.clone(), "*".into())).or_default();
+        t[0] += 1;
+        t[[1, 3, 2][worst]] += 1;
+        let d = device_state.entry(r[0].clone()).or_default();
+        *d = (*d).max(worst);
+    }
+    // The design of the fixture (make_records.sh): SNR from 10·log10((A²/2)/(1/12 + σ²)) with
+    // A = 2048·10^(-1/20) is 69.8 dB for d01 (σ 0.3), 61.9 dB for d04 (σ 1: inside the 2.5 dB
+    // guardband of 60) and 52.6 dB for d03 (σ 3: fails); d02's -62 dBc third harmonic fails SFDR 65.
+    assert_eq!(
+        device_state
+            .iter()
+            .map(|(d, s)| (d.as_str(), *s))
+            .collect::<Vec<_>>(),
+        [("d01", 0), ("d02", 2), ("d03", 2), ("d04", 1)]
+    );
+    let (yh, yrows) = read_csv(&out.join("yield.csv"));
+    assert_eq!(
+        yh,
+        [
+            "condition",
+            "metric",
+            "tested",
+            "passed",
+            "failed",
+            "failed_guardband",
+            "errors",
+            "yield"
+        ]
+    );
+    let mut seen = 0;
+    for y in &yrows {
+        let key = (y[0].clone(), y[1].clone());
+        let n: Vec<usize> = y[2..7].iter().map(|s| s.parse().unwrap()).collect();
+        if key.0 == "*" {
+            // Devices: d01 passes, d04 fails only inside a guardband, d02 and d03 fail.
+            assert_eq!(n, [4, 1, 2, 1, 0]);
+            assert_eq!(y[7], "0.2500");
+            continue;
+        }
+        let t = tally[&key];
+        assert_eq!(n, [t[0], t[1], t[2], t[3], 0], "{key:?}");
+        assert_eq!(y[7], format!("{:.4}", t[1] as f64 / t[0] as f64), "{key:?}");
+        seen += 1;
+    }
+    assert_eq!(seen, tally.len());
+    let (fh, frows) = read_csv(&out.join("failures.csv"));
+    assert_eq!(fh[..3], ["device", "condition", "metric"]);
+    assert_eq!(frows.len(), failures);
+    for f in &frows {
+        let value: f64 = cell(&fh, f, "value").parse().unwrap();
+        let limit: f64 = cell(&fh, f, "limit").parse().unwrap();
+        let margin: f64 = cell(&fh, f, "margin").parse().unwrap();
+        let want = if cell(&fh, f, "bound") == "low" {
+            value - limit
+        } else {
+            limit - value
+        };
+        assert_eq!(margin, want);
+        assert_eq!(cell(&fh, f, "outcome") == "fail", margin < 0.0, "{f:?}");
+    }
+}
+
+// ───────────────────────────── statistics and limit proposals ─────────────────────────────
+
+fn refs() -> serde_json::Value {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/stats/stats_refs.json");
+    serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
+}
+
+fn values_of(set: &serde_json::Value) -> Vec<f64> {
+    set["values"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_f64().unwrap())
+        .collect()
+}
+
+/// Relative agreement with a numpy/scipy value: the sums differ only in summation order (numpy sums
+/// pairwise), a few ulps per value.
+fn close(got: f64, want: f64, what: &str) {
+    let tol = 1e-11 * want.abs().max(1.0);
+    assert!(
+        (got - want).abs() <= tol,
+        "{what}: {got} vs numpy/scipy {want}"
+    );
+}
+
+#[test]
+fn statistics_match_numpy_and_scipy() {
+    // Reference: tests/reference/make_stats_refs.py (numpy mean, std(ddof=1), percentile(linear);
+    // scipy.stats skew(bias=False), kurtosis(bias=False), jarque_bera; Cpk by the textbook formula).
+    let r = refs();
+    for (name, set) in r["sets"].as_object().unwrap() {
+        let x = values_of(set);
+        let mut sorted = x.clone();
+        sorted.sort_by(f64::total_cmp);
+        let s = stats::summarize(&x).unwrap();
+        close(
+            s.mean,
+            set["mean"].as_f64().unwrap(),
+            &format!("{name} mean"),
+        );
+        close(
+            s.std.unwrap(),
+            set["std"].as_f64().unwrap(),
+            &format!("{name} std"),
+        );
+        assert_eq!(s.min, set["min"].as_f64().unwrap());
+        assert_eq!(s.max, set["max"].as_f64().unwrap());
+        for p in set["percentiles"].as_array().unwrap() {
+            let (pc, want) = (p[0].as_f64().unwrap(), p[1].as_f64().unwrap());
+            close(
+                stats::percentile(&sorted, pc).unwrap(),
+                want,
+                &format!("{name} P{pc}"),
+            );
+        }
+        match set["skewness"].as_f64() {
+            Some(w) => close(s.skewness.unwrap(), w, &format!("{name} skewness")),
+            None => assert!(s.skewness.is_none()),
+        }
+        match set["excess_kurtosis"].as_f64() {
+            Some(w) => close(s.excess_kurtosis.unwrap(), w, &format!("{name} kurtosis")),
+            None => assert!(s.excess_kurtosis.is_none()),
+        }
+        let jb = &set["jarque_bera"];
+        close(
+            s.jarque_bera.unwrap(),
+            jb[0].as_f64().unwrap(),
+            &format!("{name} JB"),
+        );
+        let p_want = jb[1].as_f64().unwrap();
+        assert!(
+            (s.jarque_bera_p.unwrap() - p_want).abs() <= 1e-11 * p_want.max(1e-300) + 1e-300,
+            "{name} JB p"
+        );
+        // The shape rule: n ≥ 8 and p < 0.01.
+        let flagged = x.len() >= stats::SHAPE_MIN_N && p_want < stats::SHAPE_P;
+        assert_eq!(stats::shape_note(&s).is_some(), flagged, "{name}");
+        for c in set["cpk"].as_array().unwrap() {
+            let got = stats::cpk(
+                s.mean,
+                s.std.unwrap(),
+                c["low"].as_f64(),
+                c["high"].as_f64(),
+            )
+            .unwrap();
+            close(got, c["cpk"].as_f64().unwrap(), &format!("{name} Cpk {c}"));
+        }
+    }
+    assert_eq!(stats::sample_std(&[1.0]), None);
+    assert_eq!(stats::skewness(&[1.0, 1.0, 1.0]), None);
+    assert_eq!(stats::cpk(1.0, 0.0, Some(0.0), None), None);
+    assert_eq!(stats::cpk(1.0, 1.0, None, None), None);
+}
+
+#[test]
+fn proposals_in_the_library() {
+    let r = refs();
+    let set = &r["sets"]["normal_30"];
+    let x = values_of(set);
+    let data = Characterisation {
+        catalogue: Catalogue::from_columns([
+            "spectrum.snr_db",
+            "spectrum.thd_db",
+            "fit.frequency_hz",
+        ]),
+        conditions: vec!["c1".into()],
+        rows: x
+            .iter()
+            .enumerate()
+            .map(|(i, v)| ResultRow {
+                device: format!("d{i}"),
+                condition: "c1".into(),
+                values: [
+                    ("spectrum.snr_db".to_string(), *v),
+                    ("spectrum.thd_db".to_string(), -*v),
+                    ("fit.frequency_hz".to_string(), *v),
+                ]
+                .into(),
+            })
+            .collect(),
+    };
+    let metrics = [
+        "spectrum.snr_db".to_string(),
+        "spectrum.thd_db".into(),
+        "fit.frequency_hz".into(),
+    ];
+    let settings = ProposalSettings {
+        method: Method::Sigma { k: 6.0 },
+        two_sided: false,
+        guardband: vec![],
+    };
+    let p = propose(&data, &metrics, &settings, None);
+    let (lo, hi) = (
+        set["sigma_limits_k6"][0].as_f64().unwrap(),
+        set["sigma_limits_k6"][1].as_f64().unwrap(),
+    );
+    // Higher is better: low only. Lower is better (the negated values): high only. Two-sided: both.
+    close(p[0].low.unwrap(), lo, "snr low");
+    assert_eq!(p[0].high, None);
+    assert_eq!(p[1].low, None);
+    close(p[1].high.unwrap(), -lo, "thd high");
+    close(p[2].low.unwrap(), lo, "two-sided low");
+    close(p[2].high.unwrap(), hi, "two-sided high");
+    let settings = ProposalSettings {
+        method: Method::Percentile { percent: 1.0 },
+        two_sided: true,
+        guardband: vec![spurline::limits::GuardbandRule::parse("0.5sigma").unwrap()],
+    };
+    let p = propose(&data, &metrics[..1], &settings, None);
+    let pct = &set["percentiles"];
+    let p1 = pct
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|q| q[0] == 1.0)
+        .unwrap()[1]
+        .as_f64()
+        .unwrap();
+    let p99 = pct
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|q| q[0] == 99.0)
+        .unwrap()[1]
+        .as_f64()
+        .unwrap();
+    close(p[0].low.unwrap(), p1, "P1");
+    close(p[0].high.unwrap(), p99, "P99");
+    close(
+        p[0].guardband,
+        0.5 * set["std"].as_f64().unwrap(),
+        "guardband 0.5σ",
+    );
+    // The proposal as a table reads back in the batch's limit-table parser.
+    let table = spurline::limits::proposal_table(&p, "p.csv");
+    let back = LimitTable::parse(&table.to_csv(), "p.csv", &data.scope()).unwrap();
+    assert_eq!(back.limits.len(), 1);
+    let l = &back.limits[0];
+    assert!(
+        l.low.unwrap() <= p1 && p1 - l.low.unwrap() < 1e-4,
+        "{:?} vs {p1}",
+        l.low
+    );
+    assert!(l.high.unwrap() >= p99 && l.high.unwrap() - p99 < 1e-4);
+}
+
+#[test]
+fn limits_command_proposes_and_reports_cpk() {
+    let r = refs();
+    let normal = &r["sets"]["normal_30"];
+    let skewed = &r["sets"]["skewed_40"];
+    let dir = tempfile::tempdir().unwrap();
+    // A batch summary as `batch` writes it (lead columns, then result columns), plus an error row.
+    let mut w = csv::Writer::from_path(dir.path().join("summary.csv")).unwrap();
+    w.write_record([
+        "device",
+        "condition",
+        "verdict",
+        "reason",
+        "spectrum.snr_db",
+        "spectrum.coherent",
+        "error.kind",
+    ])
+    .unwrap();
+    for (cond, set) in [("c1", normal), ("c2", skewed)] {
+        for (i, v) in values_of(set).iter().enumerate() {
+            w.write_record([
+                format!("d{i:02}"),
+                cond.into(),
+                "pass".into(),
+                String::new(),
+                v.to_string(),
+                "true".into(),
+                String::new(),
+            ])
+            .unwrap();
+        }
+    }
+    w.write_record(["d99", "c1", "error", "unreadable", "", "", "io"])
+        .unwrap();
+    w.flush().unwrap();
+    drop(w);
+    let c1 = &normal["cpk"][0];
+    let c2 = &skewed["cpk"][1];
+    let existing = dir.path().join("existing.csv");
+    std::fs::write(
+        &existing,
+        format!(
+            "condition,metric,low,high,unit\nc1,snr_db,{},{},dB\nc2,spectrum.snr_db,{},,dB\n",
+            c1["low"].as_f64().unwrap(),
+            c1["high"].as_f64().unwrap(),
+            c2["low"].as_f64().unwrap()
+        ),
+    )
+    .unwrap();
+    let proposed = dir.path().join("proposed.csv");
+    let o = spurline()
+        .arg("limits")
+        .arg(dir.path())
+        .args(["--metric", "snr_db", "--existing"])
+        .arg(&existing)
+        .arg("--out")
+        .arg(&proposed)
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&o.stdout).to_string();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    assert!(
+        text.contains("limits from 70 results of 40 devices under 2 conditions"),
+        "{text}"
+    );
+    let line = |cond: &str| {
+        text.lines()
+            .find(|l| l.starts_with(cond))
+            .unwrap()
+            .to_string()
+    };
+    let (l1, l2) = (line("c1 "), line("c2 "));
+    // n, Cpk to 3 decimals and the shape note, against the stored numpy/scipy values.
+    assert!(l1.contains(" 30 "), "{l1}");
+    assert!(
+        l1.contains(&format!("{:.3}", c1["cpk"].as_f64().unwrap())),
+        "{l1}"
+    );
+    assert!(
+        l2.contains(&format!("{:.3}", c2["cpk"].as_f64().unwrap())),
+        "{l2}"
+    );
+    assert!(l1.contains("no clear departure from normal"), "{l1}");
+    assert!(
+        l2.contains("not normal") && l2.contains("skewed left"),
+        "{l2}"
+    );
+    // The table: a low limit only (SNR: higher is better), mean − 6σ rounded down to 6 digits.
+    let data = spurline::batch::read_results(&[dir.path().join("summary.csv")]).unwrap();
+    assert_eq!(data.rows.len(), 70);
+    let t = LimitTable::read(&proposed, &data.scope()).unwrap();
+    assert_eq!(t.limits.len(), 2);
+    for (l, set) in t.limits.iter().zip([normal, skewed]) {
+        let want = set["sigma_limits_k6"][0].as_f64().unwrap();
+        let got = l.low.unwrap();
+        assert!(got <= want && want - got < 1e-4, "{got} vs {want}");
+        assert_eq!(l.high, None);
+        assert_eq!(l.unit, "dB");
+    }
+    // Percentile method with a guardband and the table accepted by `batch`'s parser.
+    let o = spurline()
+        .arg("limits")
+        .arg(dir.path().join("summary.csv"))
+        .args([
+            "--metric",
+            "snr_db",
+            "--method",
+            "percentile",
+            "--percentile",
+            "5",
+            "--guardband",
+            "snr_db=0.1",
+            "--two-sided",
+            "--out",
+        ])
+        .arg(&proposed)
+        .output()
+        .unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let t = LimitTable::read(&proposed, &data.scope()).unwrap();
+    let p5 = normal["percentiles"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|q| q[0] == 5.0)
+        .unwrap()[1]
+        .as_f64()
+        .unwrap();
+    assert!(t.limits[0].low.unwrap() <= p5 && p5 - t.limits[0].low.unwrap() < 1e-4);
+    assert!(t.limits[0].high.is_some());
+    assert_eq!(t.limits[0].guardband, 0.1);
+    // Bad input: exit 2 with a message.
+    for args in [
+        vec!["--metric", "enob"],
+        vec!["--k=-1"],
+        vec!["--guardband", "x=1"],
+        vec!["--method", "percentile", "--percentile", "60"],
+    ] {
+        let o = spurline()
+            .arg("limits")
+            .arg(dir.path())
+            .args(&args)
+            .output()
+            .unwrap();
+        assert_eq!(o.status.code(), Some(2), "{args:?}");
+        assert!(
+            String::from_utf8_lossy(&o.stderr).contains("spurline: error"),
+            "{args:?}"
+        );
+    }
+}
+
+#[test]
+fn limits_reads_a_batch_run_back() {
+    // The batch output folder itself, and its results.json files, are accepted as results.
+    let lot = make_lot();
+    let p = lot.path();
+    let out = p.join("out");
+    run_batch(p, &out, &[]);
+    let from_csv = spurline::batch::read_results(std::slice::from_ref(&out)).unwrap();
+    let jsons: Vec<PathBuf> = ["d01", "d02", "d03", "d04"]
+        .iter()
+        .map(|d| out.join(d).join("results.json"))
+        .collect();
+    let from_json = spurline::batch::read_results(&jsons).unwrap();
+    assert_eq!(from_csv.conditions, ["fin_10M", "fin_31M"]);
+    assert_eq!(from_csv.rows.len(), 8);
+    assert_eq!(from_json.rows.len(), 8);
+    for (a, b) in from_csv.rows.iter().zip(&from_json.rows) {
+        assert_eq!((&a.device, &a.condition), (&b.device, &b.condition));
+        assert_eq!(
+            a.values.get("spectrum.snr_db"),
+            b.values.get("spectrum.snr_db")
+        );
+        assert!(a.values.contains_key("spectrum.snr_db"));
+    }
+    let o = spurline().arg("limits").arg(&out).output().unwrap();
+    assert_eq!(
+        o.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&o.stderr)
+    );
+    let text = String::from_utf8_lossy(&o.stdout);
+    // The default metrics; with 4 devices the shape is not judged.
+    assert!(
+        text.contains("fin_31M")
+            && text.contains("spectrum.sfdr_dbc")
+            && text.contains("fit.enob_bits"),
+        "{text}"
+    );
+    assert!(text.contains("too few values to judge"), "{text}");
+}
