@@ -191,21 +191,8 @@ pub(crate) fn failure_lines(device: &str, condition: &str, verdict: &Verdict) ->
     out
 }
 
-/// Escapes text for HTML element content and attribute values.
-pub fn escape_html(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for ch in s.chars() {
-        match ch {
-            '&' => out.push_str("&amp;"),
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '"' => out.push_str("&quot;"),
-            '\'' => out.push_str("&#39;"),
-            c => out.push(c),
-        }
-    }
-    out
-}
+/// Escapes text for HTML (the report stage's escaping).
+pub use crate::report::escape as escape_html;
 
 /// Percent-encodes a path segment for a link.
 fn url_segment(s: &str) -> String {
@@ -250,27 +237,8 @@ pub(crate) fn index_row(
     s
 }
 
-/// Writes `bytes` to `path` atomically: a temporary file in the same folder, then a rename, so that a
-/// reader (or an interrupted run) sees the old file or the new one, never half of one.
-pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().to_string())
-        .unwrap_or_default();
-    let tmp = path.with_file_name(format!(".{name}.{}.tmp", std::process::id()));
-    std::fs::write(&tmp, bytes)
-        .and_then(|_| std::fs::rename(&tmp, path))
-        .map_err(|e| {
-            let _ = std::fs::remove_file(&tmp);
-            Error::new(
-                ErrorKind::Output,
-                path.display().to_string(),
-                Location::Whole,
-                "a writable output file",
-                e.to_string(),
-            )
-        })
-}
+/// Atomic writes (temporary file in the same folder, then rename), shared with the report stage.
+pub use crate::report::write_atomic;
 
 fn create_dir(dir: &Path) -> Result<()> {
     std::fs::create_dir_all(dir).map_err(|e| {
@@ -337,6 +305,18 @@ pub fn write_device_outputs(
         plots != Plots::None || device.conditions.iter().all(|c| c.traces.is_none()),
         "traces are kept only when plots are asked for"
     );
+    // The traces were kept for exactly the results `plots` selects: draw them beside the tables.
+    for c in &device.conditions {
+        if let Some(t) = &c.traces {
+            crate::report::write_record_plots(
+                &dir,
+                &c.condition,
+                &c.analysis,
+                t,
+                &crate::report::PlotOptions::default(),
+            )?;
+        }
+    }
     Ok(())
 }
 

@@ -72,12 +72,6 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
         Some(j) => j,
         None => std::thread::available_parallelism().map_or(1, |n| n.get()),
     };
-    if plots != Plots::None {
-        eprintln!(
-            "spurline: note: --plots {}: the traces are kept for plotting, but this build writes no plot files",
-            args.plots
-        );
-    }
     let options = BatchOptions {
         out: out.clone(),
         jobs,
