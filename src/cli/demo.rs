@@ -161,9 +161,10 @@ pub fn go(out: &Path) -> Result<Vec<Analysis>, Error> {
     )?;
     print_summary(&results);
     println!(
-        "\nwrote {} (with summary.csv, results.json and one folder per device)",
+        "\nwrote {} (with summary.csv, results.json and one folder per device)\n",
         out.join("index.html").display()
     );
+    super::demo_lot::run(out)?;
     Ok(results)
 }
 

@@ -4,6 +4,7 @@ mod analyze;
 mod batch;
 mod compare;
 mod demo;
+mod demo_lot;
 mod limits;
 mod linearity;
 mod plan;
