@@ -824,7 +824,18 @@ fn exit_codes() {
         "{}",
         String::from_utf8_lossy(&o.stderr)
     );
-    assert!(String::from_utf8_lossy(&o.stderr).contains("writes no plot files"));
+    // --plots all draws every result's spectrum, residual and histogram beside its device's tables.
+    let plotted = std::fs::read_dir(p.join("o2/d01"))
+        .unwrap()
+        .filter(|e| {
+            e.as_ref()
+                .unwrap()
+                .file_name()
+                .to_string_lossy()
+                .ends_with("-spectrum.svg")
+        })
+        .count();
+    assert_eq!(plotted, 2, "one spectrum per condition of d01");
     let o = run_batch(p, &p.join("o3"), &[]);
     assert_eq!(o.status.code(), Some(0));
     let (head, rows) = read_csv(&p.join("o3/summary.csv"));
