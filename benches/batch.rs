@@ -6,6 +6,10 @@
 //! Run: `cargo bench --bench batch` (criterion prints the throughput in elements = records per second).
 
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
+
+// The same allocator as the binary, so the figures are the tool's.
+#[global_allocator]
+static ALLOC: mimalloc::MiMalloc = mimalloc::MiMalloc;
 use spurline::analysis::{analyze, AnalysisSettings};
 use spurline::batch::{run_lot, BatchOptions, BenchPlan, Plots, SummaryColumns};
 use spurline::limits::{Catalogue, LimitTable};
