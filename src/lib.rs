@@ -26,12 +26,15 @@ pub mod analysis;
 pub mod compare;
 
 pub mod fit;
+pub mod imd;
 pub mod ingest;
+pub mod interleave;
 pub mod plan;
 pub mod report;
 
 pub mod spectrum;
 pub mod synth;
+pub mod synth_multi;
 pub mod verify;
 
 pub use error::{Error, ErrorKind, Location, Result};

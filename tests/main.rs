@@ -2,6 +2,7 @@
 
 mod cli;
 mod compare;
+mod imd;
 mod pipeline;
 mod reference;
 mod report;
