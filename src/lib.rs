@@ -27,7 +27,9 @@ pub mod batch;
 pub mod compare;
 
 pub mod fit;
+pub mod imd;
 pub mod ingest;
+pub mod interleave;
 pub mod limits;
 pub mod linearity;
 pub mod plan;
@@ -35,6 +37,7 @@ pub mod report;
 
 pub mod spectrum;
 pub mod synth;
+pub mod synth_multi;
 pub mod verify;
 
 pub use error::{Error, ErrorKind, Location, Result};

@@ -3,6 +3,7 @@
 mod batch;
 mod cli;
 mod compare;
+mod imd;
 mod linearity;
 mod pipeline;
 mod plan;

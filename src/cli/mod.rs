@@ -5,6 +5,8 @@ mod batch;
 mod compare;
 mod demo;
 mod demo_lot;
+mod imd;
+mod interleave;
 mod limits;
 mod linearity;
 mod plan;
@@ -39,6 +41,11 @@ pub struct Cli {
 pub enum Command {
     /// Analyse captured records: sine fit and spectral figures, one table (or JSON object) per record.
     Analyze(analyze::AnalyzeArgs),
+    /// Two-tone intermodulation: IM2 and IM3 products and two-tone SFDR of records holding two tones.
+    Imd(imd::ImdArgs),
+    /// Interleaving spurs of an M-channel time-interleaved converter, with each channel's offset, gain
+    /// and timing error.
+    Interleave(interleave::InterleaveArgs),
     /// Compare two lot runs (board revisions): per condition and metric, statistics and a verdict.
     Compare(compare::CompareArgs),
     /// Write records from a simulated N-bit converter (for demos and tests).
@@ -64,6 +71,8 @@ pub enum Command {
 pub fn run(cli: Cli) -> i32 {
     match cli.command {
         Command::Analyze(a) => analyze::run(a),
+        Command::Imd(a) => imd::run(a),
+        Command::Interleave(a) => interleave::run(a),
         Command::Synth(a) => synth::run(a),
         Command::Compare(a) => compare::run(a),
         Command::Demo(a) => demo::run(a),

@@ -1,0 +1,1499 @@
+//! Two-tone intermodulation: find the two tones of a record, fit them jointly, and measure the second-
+//! and third-order products (and the tones' own harmonics) folded into the first Nyquist zone.
+//!
+//! # Method
+//! 1. Location: the largest peak of a 7-term Blackman-Harris spectrum (sidelobes near −180 dB, so a
+//!    sidelobe of one tone is never taken for the other), then the largest local peak at least the
+//!    window's main-lobe half-width plus one bin (8 bins) away; each is refined by the three-bin Hann
+//!    interpolator, exact for a lone tone.
+//! 2. Fit: least squares of y = Σᵢ (aᵢ·cos θᵢ + bᵢ·sin θᵢ) + c, θᵢ = 2π·fᵢ·(n − centre), at the located
+//!    frequencies (the three-parameter fit of IEEE Std 1241 extended to two tones, five parameters),
+//!    then by default Gauss-Newton on the seven parameters (both frequencies free), as the
+//!    four-parameter fit does for one tone.
+//! 3. Spectrum: the window rule, span widths and noise accounting of the single-tone analysis
+//!    ([`crate::spectrum`]). Bins are claimed in the order DC, tone 1, tone 2, the IM2 products
+//!    f2−f1, f1+f2, the IM3 products 2f1−f2, 2f2−f1, 2f1+f2, 2f2+f1, then the harmonics 2f1, 2f2, 3f1,
+//!    3f2 (so that they are not counted as noise); everything else is noise. A product whose centre bin
+//!    is already claimed (DC, a tone, an earlier product) is reported as masked and not measured.
+//! 4. Levels: a product's power is the sum of its span minus the noise expected there (mean noise bin
+//!    times the span's weight); when that correction leaves no more than the expected noise, the product
+//!    is at the floor and its raw span power is reported as an upper bound (as for harmonics).
+//!
+//! # References of the dBc figures
+//! Tone 1 is the lower-frequency tone. `dbc_f1` and `dbc_f2` refer to tone 1 and tone 2 respectively;
+//! `dbc` refers to the stronger of the two (the usual two-tone convention: with equal tones all three
+//! agree; against the two tones' combined power the figures would be 3 dB lower). dBFS refers to a
+//! full-scale sine, 2^(N−1) codes peak.
+
+use crate::analysis::ErrorReport;
+use crate::fit::cycles_std;
+use crate::plan::fold_bin;
+use crate::spectrum::fft::{power_spectrum, real_fft};
+use crate::spectrum::metrics::bin_weight;
+use crate::spectrum::{self, Window, WindowChoice, COHERENCE_SIGMAS, SPECTRAL_CHECK_CYCLES};
+use crate::{
+    full_scale_amplitude_codes, full_scale_power, Error, ErrorKind, Location, Record, Result,
+};
+use nalgebra::{DMatrix, DVector};
+use serde::Serialize;
+use std::f64::consts::{PI, TAU};
+
+// ───────────────────────── shared sine-model machinery (also used by `interleave`) ─────────────────────────
+
+/// frac(f·t) with the rounding error of the product folded back in (two-product by FMA): exact to
+/// about 1e-16 cycles however large f·t is.
+pub(crate) fn reduced_cycles(f: f64, t: f64) -> f64 {
+    let p = f * t;
+    let e = f.mul_add(t, -p);
+    let r = (p - p.floor()) + e;
+    r - r.floor()
+}
+
+/// Phase at sample 0, in (−π, π], of a·cos θ + b·sin θ with θ = 2π·f·(n − centre).
+pub(crate) fn phase_at_zero(a: f64, b: f64, cycles_per_sample: f64, centre: f64) -> f64 {
+    let mut phase = (-b).atan2(a) - TAU * reduced_cycles(cycles_per_sample, centre);
+    phase = phase.rem_euclid(TAU);
+    if phase > PI {
+        phase -= TAU;
+    }
+    phase
+}
+
+/// Linear least-squares sines at known frequencies.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct LinearSines {
+    /// (a, b) of each frequency, centred frame.
+    pub coeffs: Vec<(f64, f64)>,
+    /// The offset c.
+    pub offset: f64,
+    /// Sum of squared residuals.
+    pub rss: f64,
+}
+
+/// Solves a symmetric positive definite system with Jacobi scaling (the columns may differ by many
+/// orders of magnitude); `None` when it is singular.
+fn solve_scaled(m: &DMatrix<f64>, g: &DVector<f64>) -> Option<DVector<f64>> {
+    let p = m.nrows();
+    let scale = DVector::from_fn(p, |i, _| 1.0 / m[(i, i)].sqrt());
+    if scale.iter().any(|v| !v.is_finite()) {
+        return None;
+    }
+    let ms = DMatrix::from_fn(p, p, |i, j| m[(i, j)] * scale[i] * scale[j]);
+    let chol = ms.cholesky()?;
+    // A nearly singular system (a tone at DC or Nyquist, two tones within a bin) has a tiny pivot.
+    let l = chol.l();
+    let (mut lo, mut hi) = (f64::INFINITY, 0.0f64);
+    for i in 0..p {
+        lo = lo.min(l[(i, i)].abs());
+        hi = hi.max(l[(i, i)].abs());
+    }
+    if lo.is_nan() || lo <= 1e-7 * hi {
+        return None;
+    }
+    Some(chol.solve(&g.component_mul(&scale)).component_mul(&scale))
+}
+
+/// Least squares of y[j] ≈ Σᵢ (aᵢ·cos θᵢ + bᵢ·sin θᵢ) + c, θᵢ = 2π·fᵢ·(n − centre), n = start + j·stride
+/// (fᵢ in cycles per sample of the full record). `None` when the normal equations are singular.
+pub(crate) fn fit_linear(
+    y: &[f64],
+    start: usize,
+    stride: usize,
+    centre: f64,
+    freqs: &[f64],
+) -> Option<LinearSines> {
+    let k = freqs.len();
+    let p = 2 * k + 1;
+    let mut m = DMatrix::<f64>::zeros(p, p);
+    let mut g = DVector::<f64>::zeros(p);
+    let mut basis = vec![0.0; p];
+    let fill = |j: usize, basis: &mut [f64]| {
+        let t = (start + j * stride) as f64 - centre;
+        for (i, &f) in freqs.iter().enumerate() {
+            let (s, c) = (TAU * reduced_cycles(f, t)).sin_cos();
+            basis[2 * i] = c;
+            basis[2 * i + 1] = s;
+        }
+        basis[2 * k] = 1.0;
+    };
+    for (j, &v) in y.iter().enumerate() {
+        fill(j, &mut basis);
+        for r in 0..p {
+            g[r] += basis[r] * v;
+            for c in r..p {
+                m[(r, c)] += basis[r] * basis[c];
+            }
+        }
+    }
+    for r in 0..p {
+        for c in 0..r {
+            m[(r, c)] = m[(c, r)];
+        }
+    }
+    let x = solve_scaled(&m, &g)?;
+    let mut rss = 0.0;
+    for (j, &v) in y.iter().enumerate() {
+        fill(j, &mut basis);
+        let model: f64 = basis.iter().zip(x.iter()).map(|(b, x)| b * x).sum();
+        rss += (v - model) * (v - model);
+    }
+    Some(LinearSines {
+        coeffs: (0..k).map(|i| (x[2 * i], x[2 * i + 1])).collect(),
+        offset: x[2 * k],
+        rss,
+    })
+}
+
+/// A fit of several sines with free frequencies.
+#[derive(Debug, Clone, PartialEq)]
+struct FreeSines {
+    linear: LinearSines,
+    freqs: Vec<f64>,
+    iterations: u32,
+    converged: bool,
+}
+
+/// A relative residual change below this counts as none: the sums carry rounding of a few ulps per
+/// sample (the four-parameter fit's stop rule).
+const RESIDUAL_REL_TOL: f64 = 1e-13;
+
+/// One Gauss-Newton pass at (linear, freqs): the sum of squares and the step (coefficients, offset,
+/// then ω of each tone in radians per sample).
+fn gauss_newton_pass(y: &[f64], lin: &LinearSines, freqs: &[f64]) -> (f64, Option<DVector<f64>>) {
+    let k = freqs.len();
+    let p = 3 * k + 1;
+    let centre = (y.len() as f64 - 1.0) / 2.0;
+    let mut m = DMatrix::<f64>::zeros(p, p);
+    let mut g = DVector::<f64>::zeros(p);
+    let mut basis = vec![0.0; p];
+    let mut rss = 0.0;
+    for (n, &v) in y.iter().enumerate() {
+        let t = n as f64 - centre;
+        let mut model = lin.offset;
+        for (i, &f) in freqs.iter().enumerate() {
+            let (s, c) = (TAU * reduced_cycles(f, t)).sin_cos();
+            let (a, b) = lin.coeffs[i];
+            model += a * c + b * s;
+            basis[2 * i] = c;
+            basis[2 * i + 1] = s;
+            basis[2 * k + 1 + i] = t * (b * c - a * s);
+        }
+        basis[2 * k] = 1.0;
+        let r = v - model;
+        rss += r * r;
+        for a in 0..p {
+            g[a] += basis[a] * r;
+            for b in a..p {
+                m[(a, b)] += basis[a] * basis[b];
+            }
+        }
+    }
+    for a in 0..p {
+        for b in 0..a {
+            m[(a, b)] = m[(b, a)];
+        }
+    }
+    (rss, solve_scaled(&m, &g))
+}
+
+/// Fits sines with free frequencies from `start` (cycles per sample): linear solve, Gauss-Newton with
+/// step halving until the residual stops falling, then a last linear solve at the final frequencies.
+fn fit_free(y: &[f64], start: &[f64], max_iterations: u32) -> Result<FreeSines> {
+    let centre = (y.len() as f64 - 1.0) / 2.0;
+    let degenerate = || {
+        Error::new(
+            ErrorKind::DegenerateFit,
+            "",
+            Location::Whole,
+            "solvable normal equations of the two-tone fit (tones apart from each other, DC and Nyquist)",
+            format!(
+                "a singular system at {:?} cycles",
+                start.iter().map(|f| f * y.len() as f64).collect::<Vec<_>>()
+            ),
+        )
+    };
+    let mut freqs = start.to_vec();
+    let mut lin = fit_linear(y, 0, 1, centre, &freqs).ok_or_else(degenerate)?;
+    let (mut rss, mut step) = gauss_newton_pass(y, &lin, &freqs);
+    let k = freqs.len();
+    let mut iterations = 0;
+    let mut converged = false;
+    while iterations < max_iterations {
+        let Some(delta) = step else {
+            return Err(degenerate());
+        };
+        iterations += 1;
+        let df: Vec<f64> = (0..k).map(|i| delta[2 * k + 1 + i] / TAU).collect();
+        if df
+            .iter()
+            .zip(&freqs)
+            .all(|(d, f)| d.abs() <= 4.0 * f64::EPSILON * f.abs())
+        {
+            converged = true;
+            break;
+        }
+        let mut lambda = 1.0;
+        let mut accepted = None;
+        for _ in 0..12 {
+            let trial = LinearSines {
+                coeffs: (0..k)
+                    .map(|i| {
+                        (
+                            lin.coeffs[i].0 + lambda * delta[2 * i],
+                            lin.coeffs[i].1 + lambda * delta[2 * i + 1],
+                        )
+                    })
+                    .collect(),
+                offset: lin.offset + lambda * delta[2 * k],
+                rss: 0.0,
+            };
+            let tf: Vec<f64> = freqs.iter().zip(&df).map(|(f, d)| f + lambda * d).collect();
+            let (rss_t, step_t) = gauss_newton_pass(y, &trial, &tf);
+            if rss_t <= rss {
+                accepted = Some((trial, tf, rss_t, step_t));
+                break;
+            }
+            lambda *= 0.5;
+        }
+        let Some((trial, tf, rss_t, step_t)) = accepted else {
+            converged = true;
+            break;
+        };
+        let change = rss - rss_t;
+        let was = rss;
+        lin = trial;
+        freqs = tf;
+        rss = rss_t;
+        step = step_t;
+        if change <= RESIDUAL_REL_TOL * was {
+            converged = true;
+            break;
+        }
+    }
+    let lin = fit_linear(y, 0, 1, centre, &freqs).ok_or_else(degenerate)?;
+    Ok(FreeSines {
+        linear: lin,
+        freqs,
+        iterations,
+        converged,
+    })
+}
+
+// ───────────────────────── bin claiming and span measurement (also used by `interleave`) ─────────────────────────
+
+/// Owner of a bin in a multi-tone claim.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Bin {
+    Dc,
+    Tone(usize),
+    Spur(usize),
+    Noise,
+}
+
+/// One named spur's place and the bins it owns.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct SpurClaim {
+    /// Folded fractional bin.
+    pub bin: f64,
+    /// What hides it, when its centre bin was already claimed.
+    pub masked_by: Option<String>,
+    /// The bins it owns (empty when masked).
+    pub bins: Vec<usize>,
+}
+
+/// The result of claiming.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct Claimed {
+    pub owner: Vec<Bin>,
+    pub half: usize,
+    pub spurs: Vec<SpurClaim>,
+}
+
+/// Claims bins in the order DC, the tones (fractional bins, named for messages), then the spurs (names
+/// and folded fractional bins); a bin is never claimed twice. Errors when a tone lands in the DC span or
+/// when two tones' spans overlap (their powers could not be told apart).
+pub(crate) fn claim(
+    samples: usize,
+    tones: &[(String, f64)],
+    spurs: &[(String, f64)],
+    half: usize,
+    window: &str,
+) -> Result<Claimed> {
+    let bins = samples / 2 + 1;
+    let last = bins - 1;
+    let mut owner = vec![Bin::Noise; bins];
+    for o in owner.iter_mut().take((half + 1).min(bins)) {
+        *o = Bin::Dc;
+    }
+    let span = |centre: usize| centre.saturating_sub(half)..=(centre + half).min(last);
+    for (i, (name, b)) in tones.iter().enumerate() {
+        let centre = (b.round().max(0.0) as usize).min(last);
+        if owner[centre] == Bin::Dc {
+            return Err(Error::new(
+                ErrorKind::ToneAtEdge,
+                "",
+                Location::Whole,
+                format!("{name} outside the DC span (bins 0..={half} under the {window} window)"),
+                format!("{name} at bin {b:.2}: use a longer record or a higher input frequency"),
+            ));
+        }
+        for k in span(centre) {
+            match owner[k] {
+                Bin::Tone(j) => {
+                    return Err(Error::new(
+                        ErrorKind::ToneAtEdge,
+                        "",
+                        Location::Whole,
+                        format!(
+                            "tones whose spans do not overlap (more than {} bins apart under the {window} window)",
+                            2 * half
+                        ),
+                        format!(
+                            "{} at bin {:.2} and {name} at bin {b:.2}",
+                            tones[j].0, tones[j].1
+                        ),
+                    ))
+                }
+                Bin::Noise => owner[k] = Bin::Tone(i),
+                _ => {}
+            }
+        }
+    }
+    let mut claims = Vec::with_capacity(spurs.len());
+    for (i, (_, b)) in spurs.iter().enumerate() {
+        let centre = (b.round().max(0.0) as usize).min(last);
+        let masked_by = match owner[centre] {
+            Bin::Dc => Some("dc".to_string()),
+            Bin::Tone(j) => Some(tones[j].0.clone()),
+            Bin::Spur(j) => Some(spurs[j].0.clone()),
+            Bin::Noise => None,
+        };
+        let mut mine = Vec::new();
+        if masked_by.is_none() {
+            for k in span(centre) {
+                if owner[k] == Bin::Noise {
+                    owner[k] = Bin::Spur(i);
+                    mine.push(k);
+                }
+            }
+        }
+        claims.push(SpurClaim {
+            bin: *b,
+            masked_by,
+            bins: mine,
+        });
+    }
+    Ok(Claimed {
+        owner,
+        half,
+        spurs: claims,
+    })
+}
+
+/// A measured spur (or tone) power.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) struct SpanLevel {
+    /// The reported power, codes²: noise-corrected, or the raw span power when at the floor.
+    pub level: f64,
+    /// True when the corrected power is no more than the noise expected in the span.
+    pub at_floor: bool,
+}
+
+/// Span measurements of a claimed spectrum.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct SpanMeasures {
+    /// Mean noise power per unit bin weight, codes².
+    pub noise_per_bin: f64,
+    /// Bins the mean came from.
+    pub noise_bins: usize,
+    /// Noise-corrected power of each tone, codes² (never negative).
+    pub tones: Vec<f64>,
+    /// Each spur's level (`None` when masked).
+    pub spurs: Vec<Option<SpanLevel>>,
+    /// The largest noise bin and the summed noise bins of its lobe: (power, bin).
+    pub largest_lobe: Option<(f64, usize)>,
+}
+
+/// Measures tones and spurs as the single-tone figures do (see [`crate::spectrum::metrics`]).
+pub(crate) fn measure_spans(
+    powers: &[f64],
+    c: &Claimed,
+    samples: usize,
+    tones: usize,
+) -> SpanMeasures {
+    let weight = |k: usize| bin_weight(k, samples);
+    let (mut noise_sum, mut noise_w, mut noise_bins) = (0.0, 0.0, 0usize);
+    let mut tone_raw = vec![(0.0, 0.0); tones];
+    for (k, (&p, &o)) in powers.iter().zip(&c.owner).enumerate() {
+        match o {
+            Bin::Noise => {
+                noise_sum += p;
+                noise_w += weight(k);
+                noise_bins += 1;
+            }
+            Bin::Tone(i) => {
+                tone_raw[i].0 += p;
+                tone_raw[i].1 += weight(k);
+            }
+            _ => {}
+        }
+    }
+    let noise_per_bin = if noise_w > 0.0 {
+        noise_sum / noise_w
+    } else {
+        0.0
+    };
+    let tones = tone_raw
+        .iter()
+        .map(|(p, w)| (p - noise_per_bin * w).max(0.0))
+        .collect();
+    let spurs = c
+        .spurs
+        .iter()
+        .map(|s| {
+            if s.masked_by.is_some() {
+                return None;
+            }
+            let (raw, w) = s
+                .bins
+                .iter()
+                .fold((0.0, 0.0), |(p, w), &k| (p + powers[k], w + weight(k)));
+            let expected = noise_per_bin * w;
+            let corrected = raw - expected;
+            let at_floor = corrected <= expected;
+            Some(SpanLevel {
+                level: if at_floor { raw } else { corrected },
+                at_floor,
+            })
+        })
+        .collect();
+    let mut peak: Option<(f64, usize)> = None;
+    for (k, &p) in powers.iter().enumerate() {
+        if c.owner[k] == Bin::Noise && p > peak.map_or(0.0, |x| x.0) {
+            peak = Some((p, k));
+        }
+    }
+    let largest_lobe = peak.map(|(_, k)| {
+        let lo = k.saturating_sub(c.half);
+        let hi = (k + c.half).min(powers.len() - 1);
+        let lobe = (lo..=hi)
+            .filter(|&j| c.owner[j] == Bin::Noise)
+            .map(|j| powers[j])
+            .sum();
+        (lobe, k)
+    });
+    SpanMeasures {
+        noise_per_bin,
+        noise_bins,
+        tones,
+        spurs,
+        largest_lobe,
+    }
+}
+
+/// Coherence of one tone: its fitted cycle count within 4σ (σ from the Cramér-Rao form of
+/// [`crate::fit::cycles_std`], at least 1e-9 cycles) of an integer, or, for offsets below 0.01 cycles,
+/// an unwindowed spectrum whose two neighbour bins hold less than a tenth of the leakage a real offset
+/// would put there (the single-tone analysis's rule; `rect` is the rectangular power spectrum).
+pub(crate) fn tone_is_coherent(cycles: f64, sigma: f64, rect: &[f64]) -> bool {
+    let offset = cycles - cycles.round();
+    if offset.abs() <= (COHERENCE_SIGMAS * sigma).max(1e-9) {
+        return true;
+    }
+    let k0 = cycles.round() as usize;
+    if offset.abs() > SPECTRAL_CHECK_CYCLES || k0 < 2 || k0 + 2 > rect.len() {
+        return false;
+    }
+    let d = offset.abs();
+    let predicted = rect[k0] * ((d / (1.0 - d)).powi(2) + (d / (1.0 + d)).powi(2));
+    rect[k0 - 1] + rect[k0 + 1] < 0.1 * predicted
+}
+
+/// 10·log10 of a power ratio, `None` unless positive and finite.
+pub(crate) fn db(x: f64) -> Option<f64> {
+    (x > 0.0 && x.is_finite()).then(|| 10.0 * x.log10())
+}
+
+// ───────────────────────── the two-tone analysis ─────────────────────────
+
+/// Settings of the two-tone analysis.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ImdSettings {
+    /// The window choice (the rule of [`crate::spectrum`] for `Auto`, decided on the stronger tone).
+    pub window: WindowChoice,
+    /// Extra bins on each side of every span; `None`: 0 coherent, 1 non-coherent.
+    pub span_guard_bins: Option<usize>,
+    /// Refine both frequencies by Gauss-Newton (otherwise the fit stays at the located frequencies).
+    pub refine_frequencies: bool,
+    /// Iteration cap of the refinement.
+    pub max_iterations: u32,
+    /// Fewest samples accepted (0: 64).
+    pub min_samples: usize,
+}
+
+impl Default for ImdSettings {
+    fn default() -> Self {
+        ImdSettings {
+            window: WindowChoice::Auto,
+            span_guard_bins: None,
+            refine_frequencies: true,
+            max_iterations: 30,
+            min_samples: 0,
+        }
+    }
+}
+
+/// What kind of product a slot holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ProductKind {
+    /// Second-order intermodulation: f2 − f1, f1 + f2.
+    Im2,
+    /// Third-order intermodulation: 2f1 − f2, 2f2 − f1, 2f1 + f2, 2f2 + f1.
+    Im3,
+    /// A harmonic of one tone (2f1, 2f2, 3f1, 3f2).
+    Harmonic,
+}
+
+/// The products measured, in claiming order: (name, kind, multiple of f1, multiple of f2).
+const PRODUCTS: [(&str, ProductKind, i32, i32); 10] = [
+    ("f2-f1", ProductKind::Im2, -1, 1),
+    ("f1+f2", ProductKind::Im2, 1, 1),
+    ("2f1-f2", ProductKind::Im3, 2, -1),
+    ("2f2-f1", ProductKind::Im3, -1, 2),
+    ("2f1+f2", ProductKind::Im3, 2, 1),
+    ("2f2+f1", ProductKind::Im3, 1, 2),
+    ("2f1", ProductKind::Harmonic, 2, 0),
+    ("2f2", ProductKind::Harmonic, 0, 2),
+    ("3f1", ProductKind::Harmonic, 3, 0),
+    ("3f2", ProductKind::Harmonic, 0, 3),
+];
+
+/// Where one product lands.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ProductPlace {
+    /// Its name, e.g. "2f1-f2".
+    pub name: String,
+    /// IM2, IM3 or harmonic.
+    pub kind: ProductKind,
+    /// Its order |m| + |n|.
+    pub order: u32,
+    /// m in m·f1 + n·f2.
+    pub f1_multiple: i32,
+    /// n in m·f1 + n·f2.
+    pub f2_multiple: i32,
+    /// |m·f1 + n·f2| folded into the first Nyquist zone 0..=fs/2, hertz.
+    pub frequency_hz: f64,
+}
+
+/// The second- and third-order products of tones f1 < f2 (hertz) sampled at `sample_rate_hz`, folded
+/// into the first Nyquist zone, in claiming order. (f1 and f2 are swapped when given the other way.)
+pub fn product_places(f1_hz: f64, f2_hz: f64, sample_rate_hz: f64) -> Vec<ProductPlace> {
+    let (f1, f2) = if f1_hz <= f2_hz {
+        (f1_hz, f2_hz)
+    } else {
+        (f2_hz, f1_hz)
+    };
+    PRODUCTS
+        .iter()
+        .map(|&(name, kind, m, n)| ProductPlace {
+            name: name.to_string(),
+            kind,
+            order: m.unsigned_abs() + n.unsigned_abs(),
+            f1_multiple: m,
+            f2_multiple: n,
+            frequency_hz: crate::plan::fold_to_first_zone(
+                m as f64 * f1 + n as f64 * f2,
+                sample_rate_hz,
+            ),
+        })
+        .collect()
+}
+
+/// One fitted tone: y = A·cos(2π·f·t + φ), t = n/fs.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ToneFit {
+    /// Fitted frequency, hertz.
+    pub frequency_hz: f64,
+    /// Cycles in the record, f·N/fs.
+    pub cycles: f64,
+    /// Peak amplitude A, codes.
+    pub amplitude_codes: f64,
+    /// Amplitude relative to a full-scale sine, dBFS.
+    pub amplitude_dbfs: Option<f64>,
+    /// Phase φ at sample 0, in (−π, π].
+    pub phase_rad: f64,
+}
+
+/// The joint fit of the two tones plus offset.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TwoToneFit {
+    /// The two tones, lower frequency first.
+    pub tones: Vec<ToneFit>,
+    /// Offset C, codes.
+    pub offset_codes: f64,
+    /// Rms of the record minus the fitted tones and offset, codes (it holds the products, the noise and
+    /// the quantisation error).
+    pub residual_rms_codes: f64,
+    /// Whether the frequencies were refined by Gauss-Newton (else: the located frequencies).
+    pub refined: bool,
+    /// Gauss-Newton iterations taken.
+    pub iterations: u32,
+    /// Whether the refinement met its stop rule (true when not refined).
+    pub converged: bool,
+}
+
+/// One tone's spectral level.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ToneLevel {
+    /// Frequency (from the fit), hertz.
+    pub frequency_hz: f64,
+    /// Power summed over its span, noise subtracted, relative to full scale.
+    pub dbfs: Option<f64>,
+    /// Whether this tone is coherent (see the single-tone rule).
+    pub coherent: bool,
+    /// Distance of its cycle count from the nearest integer.
+    pub offset_cycles: f64,
+}
+
+/// One product's figures.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ProductFigure {
+    /// Its name, e.g. "2f1-f2".
+    pub name: String,
+    /// IM2, IM3 or harmonic.
+    pub kind: ProductKind,
+    /// Its order.
+    pub order: u32,
+    /// Folded frequency, hertz.
+    pub frequency_hz: f64,
+    /// Level relative to the stronger tone; `None` when masked.
+    pub dbc: Option<f64>,
+    /// Level relative to tone 1 (the lower frequency).
+    pub dbc_f1: Option<f64>,
+    /// Level relative to tone 2 (the higher frequency).
+    pub dbc_f2: Option<f64>,
+    /// Level relative to full scale.
+    pub dbfs: Option<f64>,
+    /// True when the product lands on DC, a tone or an earlier product and is not measured.
+    pub masked: bool,
+    /// What masks it: "dc", "f1", "f2" or a product name.
+    pub masked_by: Option<String>,
+    /// True when no more than the noise expected in its span: the level is then an upper bound.
+    pub at_floor: bool,
+}
+
+/// The largest component other than DC and the two tones.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TwoToneSpur {
+    /// Frequency, hertz (the product's place, or the peak bin of an unnamed spur).
+    pub frequency_hz: f64,
+    /// Level relative to the stronger tone.
+    pub dbc: f64,
+    /// Level relative to full scale.
+    pub dbfs: f64,
+    /// The product's name when the spur is one of the claimed products.
+    pub product: Option<String>,
+}
+
+/// The spectral figures of a two-tone record.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ImdSpectrum {
+    /// Window id.
+    pub window: String,
+    /// Why that window.
+    pub window_reason: String,
+    /// True when both tones are coherent.
+    pub coherent: bool,
+    /// Bin width fs/N, hertz.
+    pub bin_width_hz: f64,
+    /// Half-width of every span, bins.
+    pub span_halfwidth_bins: usize,
+    /// The two tones, lower frequency first.
+    pub tones: Vec<ToneLevel>,
+    /// The products in claiming order.
+    pub products: Vec<ProductFigure>,
+    /// The larger measured IM2 product (masked and at-floor ones left out), dBc of the stronger tone.
+    pub im2_dbc: Option<f64>,
+    /// The same, dBFS.
+    pub im2_dbfs: Option<f64>,
+    /// The largest measured IM3 product (masked and at-floor ones left out), dBc of the stronger tone.
+    pub im3_dbc: Option<f64>,
+    /// The same, dBFS.
+    pub im3_dbfs: Option<f64>,
+    /// Two-tone SFDR: the stronger tone over the largest spur other than DC and the tones, dB.
+    pub sfdr_dbc: Option<f64>,
+    /// Full scale over the largest spur, dB.
+    pub sfdr_dbfs: Option<f64>,
+    /// The largest spur.
+    pub worst_spur: Option<TwoToneSpur>,
+    /// Average noise floor per bin, dBFS.
+    pub noise_floor_dbfs: Option<f64>,
+    /// Bins the noise mean came from.
+    pub noise_bins: usize,
+}
+
+/// The result record of one two-tone analysis (what `spurline imd --json` prints).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct ImdResult {
+    /// Where the record came from.
+    pub source: String,
+    /// Samples in the record.
+    pub samples: usize,
+    /// Sample rate, hertz.
+    pub sample_rate_hz: f64,
+    /// Resolution N, bits.
+    pub bits: u32,
+    /// The joint fit.
+    pub fit: Option<TwoToneFit>,
+    /// The spectral figures.
+    pub spectrum: Option<ImdSpectrum>,
+    /// Everything the user should know about this record.
+    pub warnings: Vec<String>,
+    /// Set when the record failed; the figures are then absent.
+    pub error: Option<ErrorReport>,
+}
+
+impl ImdResult {
+    /// The result record of a record that could not be analysed.
+    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> ImdResult {
+        ImdResult {
+            source: source.to_string(),
+            samples: 0,
+            sample_rate_hz: 0.0,
+            bits: 0,
+            fit: None,
+            spectrum: None,
+            warnings,
+            error: Some(error.into()),
+        }
+    }
+}
+
+/// Tone-to-median bin power ratio below which a peak is not a tone (40 dB, as the single-tone
+/// location). Common practice, no source.
+const TONE_RATIO: f64 = 1e4;
+
+/// The window used to find the tones, chosen for its near −180 dB sidelobes.
+const LOCATE_WINDOW: Window = Window::BlackmanHarris7;
+
+/// Locates the two strongest separated tones, in fractional bins, lower frequency first.
+fn locate_two(y: &[f64]) -> Result<[f64; 2]> {
+    let n = y.len();
+    let mean = y.iter().sum::<f64>() / n as f64;
+    let spectrum_of = |w: Window| {
+        let win = w.samples_shared(n);
+        let mut buf: Vec<f64> = y
+            .iter()
+            .zip(win.iter())
+            .map(|(v, w)| (v - mean) * w)
+            .collect();
+        real_fft(&mut buf)
+    };
+    let bh: Vec<f64> = spectrum_of(LOCATE_WINDOW)
+        .iter()
+        .map(|z| z.norm_sqr())
+        .collect();
+    let last = bh.len() - 1;
+    let lobe = LOCATE_WINDOW.null_halfwidth_bins().ceil() as usize;
+    let first = lobe + 1;
+    if last < first + 2 * lobe + 2 {
+        return Err(Error::new(
+            ErrorKind::TooFewSamples,
+            "",
+            Location::Whole,
+            "a record long enough to hold two separated tones",
+            format!("{n} samples"),
+        ));
+    }
+    let mut rest: Vec<f64> = bh[1..].to_vec();
+    let mid = rest.len() / 2;
+    let median = *rest.select_nth_unstable_by(mid, |a, b| a.total_cmp(b)).1;
+    let floor = TONE_RATIO * median.max(f64::MIN_POSITIVE);
+    let k1 = (first..=last)
+        .max_by(|&a, &b| bh[a].total_cmp(&bh[b]))
+        .unwrap_or(first);
+    if bh[k1].is_nan() || bh[k1] <= floor {
+        return Err(Error::new(
+            ErrorKind::NoTone,
+            "",
+            Location::Whole,
+            "two tones at least 40 dB above the median spectrum bin",
+            "no tone at all",
+        ));
+    }
+    let is_peak = |k: usize| bh[k] >= bh[k - 1] && (k == last || bh[k] >= bh[k + 1]);
+    let k2 = (first..=last)
+        .filter(|&k| k.abs_diff(k1) > lobe && is_peak(k))
+        .max_by(|&a, &b| bh[a].total_cmp(&bh[b]));
+    let k2 = match k2 {
+        Some(k) if bh[k] > floor => k,
+        other => {
+            return Err(Error::new(
+                ErrorKind::NoTone,
+                "",
+                Location::Whole,
+                format!(
+                    "a second tone at least 40 dB above the median spectrum bin and more than {lobe} bins from the first (bin {k1})"
+                ),
+                match other {
+                    Some(k) => format!(
+                        "the next peak (bin {k}) only {:.1} dB above the median",
+                        10.0 * (bh[k] / median.max(f64::MIN_POSITIVE)).log10()
+                    ),
+                    None => "no second peak".to_string(),
+                },
+            ))
+        }
+    };
+    // Fractional part from the Hann spectrum: δ = 2(|X₊| − |X₋|)/(|X₋| + 2|X₀| + |X₊|), exact for a lone
+    // tone under the Hann window (closed form of its kernel); the other tone, 8+ bins away, biases it by
+    // well under 0.01 bin, which the Gauss-Newton refinement removes.
+    let hann: Vec<f64> = spectrum_of(Window::Hann).iter().map(|z| z.norm()).collect();
+    let refine = |k: usize| {
+        let lo = k.saturating_sub(1).max(1);
+        let hi = (k + 1).min(last - 1);
+        let p = (lo..=hi)
+            .max_by(|&a, &b| hann[a].total_cmp(&hann[b]))
+            .unwrap_or(k);
+        if p == 0 || p >= last {
+            return p as f64;
+        }
+        let (m, z, pl) = (hann[p - 1], hann[p], hann[p + 1]);
+        let d = 2.0 * (pl - m) / (m + 2.0 * z + pl);
+        p as f64 + d.clamp(-1.0, 1.0)
+    };
+    let (a, b) = (refine(k1), refine(k2));
+    Ok(if a <= b { [a, b] } else { [b, a] })
+}
+
+/// Analyses a two-tone record: locate, fit, claim and measure (see the module docs).
+pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdResult> {
+    let n = record.len();
+    let min = if settings.min_samples == 0 {
+        64
+    } else {
+        settings.min_samples
+    };
+    let path = record.source.as_str();
+    if n < min {
+        return Err(Error::new(
+            ErrorKind::TooFewSamples,
+            path,
+            Location::Whole,
+            format!("at least {min} samples for the two-tone analysis"),
+            format!("{n} samples"),
+        ));
+    }
+    let fs = record.sample_rate_hz;
+    let bits = record.bits;
+    let y: Vec<f64> = record.codes.iter().map(|&c| c as f64).collect();
+    let located = locate_two(&y).map_err(|e| e.with_path(path))?;
+    let start = [located[0] / n as f64, located[1] / n as f64];
+    let centre = (n as f64 - 1.0) / 2.0;
+    let free = if settings.refine_frequencies {
+        fit_free(&y, &start, settings.max_iterations).map_err(|e| e.with_path(path))?
+    } else {
+        let lin = fit_linear(&y, 0, 1, centre, &start).ok_or_else(|| {
+            Error::new(
+                ErrorKind::DegenerateFit,
+                path,
+                Location::Whole,
+                "solvable normal equations of the two-tone fit",
+                "a singular system",
+            )
+        })?;
+        FreeSines {
+            linear: lin,
+            freqs: start.to_vec(),
+            iterations: 0,
+            converged: true,
+        }
+    };
+    // Keep the lower frequency first (the refinement cannot swap them in practice, but be sure).
+    let mut order = [0usize, 1];
+    if free.freqs[1] < free.freqs[0] {
+        order = [1, 0];
+    }
+    let residual_rms = (free.linear.rss / n as f64).sqrt();
+    let fsa = full_scale_amplitude_codes(bits);
+    let tone_fits: Vec<ToneFit> = order
+        .iter()
+        .map(|&i| {
+            let (a, b) = free.linear.coeffs[i];
+            let f = free.freqs[i];
+            let amp = a.hypot(b);
+            ToneFit {
+                frequency_hz: f * fs,
+                cycles: f * n as f64,
+                amplitude_codes: amp,
+                amplitude_dbfs: db(amp * amp / (fsa * fsa)),
+                phase_rad: phase_at_zero(a, b, f, centre),
+            }
+        })
+        .collect();
+    for (t, name) in tone_fits.iter().zip(["f1", "f2"]) {
+        if !(t.cycles > 0.0 && t.cycles < n as f64 / 2.0) || t.amplitude_codes <= 0.0 {
+            return Err(Error::new(
+                ErrorKind::DegenerateFit,
+                path,
+                Location::Whole,
+                format!("a fitted tone {name} inside (0, fs/2) with some amplitude"),
+                format!("{:.3} cycles, {:.3e} codes", t.cycles, t.amplitude_codes),
+            ));
+        }
+    }
+    let mut warnings = Vec::new();
+    if !free.converged {
+        warnings.push(format!(
+            "two-tone fit stopped at its cap of {} iterations without meeting its stop rule",
+            settings.max_iterations
+        ));
+    }
+
+    // Coherence of each tone, then the window on the stronger tone's level.
+    let rect = power_spectrum(&y, &vec![1.0; n]);
+    let coherent: Vec<bool> = tone_fits
+        .iter()
+        .map(|t| {
+            tone_is_coherent(
+                t.cycles,
+                cycles_std(t.amplitude_codes, residual_rms, n),
+                &rect,
+            )
+        })
+        .collect();
+    let all_coherent = coherent.iter().all(|&c| c);
+    let strongest_dbfs = tone_fits
+        .iter()
+        .filter_map(|t| t.amplitude_dbfs)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let (window, window_reason) = spectrum::choose_window(
+        settings.window,
+        all_coherent,
+        bits,
+        strongest_dbfs,
+        settings.span_guard_bins,
+    );
+    let half = spectrum::half_span(window, all_coherent, settings.span_guard_bins);
+    let powers = if window == Window::Rectangular {
+        rect
+    } else {
+        power_spectrum(&y, &window.samples_shared(n))
+    };
+
+    let c1 = tone_fits[0].cycles;
+    let c2 = tone_fits[1].cycles;
+    let tones = [("f1".to_string(), c1), ("f2".to_string(), c2)];
+    let spurs: Vec<(String, f64)> = PRODUCTS
+        .iter()
+        .map(|&(name, _, m, k)| (name.to_string(), fold_bin(m as f64 * c1 + k as f64 * c2, n)))
+        .collect();
+    let claimed = claim(n, &tones, &spurs, half, &window.name()).map_err(|e| e.with_path(path))?;
+    let meas = measure_spans(&powers, &claimed, n, 2);
+    let pfs = full_scale_power(bits);
+    let (p1, p2) = (meas.tones[0], meas.tones[1]);
+    let pref = p1.max(p2);
+    let noise_total = meas.noise_per_bin * n as f64 / 2.0;
+    for (p, name) in [(p1, "f1"), (p2, "f2")] {
+        if p.is_nan() || p <= 10.0 * noise_total {
+            return Err(Error::new(
+                ErrorKind::NoTone,
+                path,
+                Location::Whole,
+                format!("tone {name} at least 10 dB above the noise"),
+                format!(
+                    "{name} {} dB above the noise",
+                    db(p / noise_total).map_or("—".to_string(), |v| format!("{v:.1}"))
+                ),
+            ));
+        }
+    }
+    if meas.noise_bins < 8 {
+        warnings.push(format!(
+            "only {} noise bins are left after claiming: the noise floor is poorly determined (use a longer record)",
+            meas.noise_bins
+        ));
+    }
+    let bin_hz = fs / n as f64;
+    let mut products = Vec::with_capacity(PRODUCTS.len());
+    let mut worst: Option<(f64, f64, Option<String>)> = None;
+    let mut masked = Vec::new();
+    for ((&(name, kind, m, k), slot), level) in PRODUCTS.iter().zip(&claimed.spurs).zip(&meas.spurs)
+    {
+        let frequency_hz = slot.bin * bin_hz;
+        let order = m.unsigned_abs() + k.unsigned_abs();
+        let fig = match level {
+            None => {
+                masked.push(format!(
+                    "{name} on {}",
+                    slot.masked_by.as_deref().unwrap_or("?")
+                ));
+                ProductFigure {
+                    name: name.to_string(),
+                    kind,
+                    order,
+                    frequency_hz,
+                    dbc: None,
+                    dbc_f1: None,
+                    dbc_f2: None,
+                    dbfs: None,
+                    masked: true,
+                    masked_by: slot.masked_by.clone(),
+                    at_floor: false,
+                }
+            }
+            Some(l) => {
+                if worst.as_ref().is_none_or(|(p, _, _)| l.level > *p) {
+                    worst = Some((l.level, frequency_hz, Some(name.to_string())));
+                }
+                ProductFigure {
+                    name: name.to_string(),
+                    kind,
+                    order,
+                    frequency_hz,
+                    dbc: db(l.level / pref),
+                    dbc_f1: db(l.level / p1),
+                    dbc_f2: db(l.level / p2),
+                    dbfs: db(l.level / pfs),
+                    masked: false,
+                    masked_by: None,
+                    at_floor: l.at_floor,
+                }
+            }
+        };
+        products.push(fig);
+    }
+    if let Some((lobe, k)) = meas.largest_lobe {
+        if worst.as_ref().is_none_or(|(p, _, _)| lobe > *p) {
+            worst = Some((lobe, k as f64 * bin_hz, None));
+        }
+    }
+    if !masked.is_empty() {
+        warnings.push(format!(
+            "products masked (not measured): {}",
+            masked.join(", ")
+        ));
+    }
+    let largest = |kind: ProductKind| -> Option<f64> {
+        PRODUCTS
+            .iter()
+            .zip(&meas.spurs)
+            .filter(|((_, k, _, _), _)| *k == kind)
+            .filter_map(|(_, l)| l.filter(|l| !l.at_floor).map(|l| l.level))
+            .reduce(f64::max)
+    };
+    let im2 = largest(ProductKind::Im2);
+    let im3 = largest(ProductKind::Im3);
+    for (kind, label, v) in [
+        (ProductKind::Im2, "IM2", im2),
+        (ProductKind::Im3, "IM3", im3),
+    ] {
+        let any_measured = products.iter().any(|p| !p.masked && p.kind == kind);
+        if v.is_none() && any_measured {
+            warnings.push(format!(
+                "every {label} product is at the noise floor: {label} is not reported"
+            ));
+        }
+    }
+    let level_gap = db(p1 / p2).unwrap_or(0.0);
+    if level_gap.abs() > 1.0 {
+        warnings.push(format!(
+            "the tones differ by {level_gap:.2} dB: dbc refers to the stronger tone, dbc_f1 and dbc_f2 to each"
+        ));
+    }
+    let worst_spur = worst.and_then(|(p, f, name)| {
+        Some(TwoToneSpur {
+            frequency_hz: f,
+            dbc: db(p / pref)?,
+            dbfs: db(p / pfs)?,
+            product: name,
+        })
+    });
+    let tone_levels = tone_fits
+        .iter()
+        .zip([p1, p2])
+        .zip(&coherent)
+        .map(|((t, p), &c)| ToneLevel {
+            frequency_hz: t.frequency_hz,
+            dbfs: db(p / pfs),
+            coherent: c,
+            offset_cycles: t.cycles - t.cycles.round(),
+        })
+        .collect();
+    Ok(ImdResult {
+        source: record.source.clone(),
+        samples: n,
+        sample_rate_hz: fs,
+        bits,
+        fit: Some(TwoToneFit {
+            tones: tone_fits,
+            offset_codes: free.linear.offset,
+            residual_rms_codes: residual_rms,
+            refined: settings.refine_frequencies,
+            iterations: free.iterations,
+            converged: free.converged,
+        }),
+        spectrum: Some(ImdSpectrum {
+            window: window.name(),
+            window_reason,
+            coherent: all_coherent,
+            bin_width_hz: bin_hz,
+            span_halfwidth_bins: half,
+            tones: tone_levels,
+            products,
+            im2_dbc: im2.and_then(|p| db(p / pref)),
+            im2_dbfs: im2.and_then(|p| db(p / pfs)),
+            im3_dbc: im3.and_then(|p| db(p / pref)),
+            im3_dbfs: im3.and_then(|p| db(p / pfs)),
+            sfdr_dbc: worst_spur.as_ref().map(|s| -s.dbc),
+            sfdr_dbfs: worst_spur.as_ref().map(|s| -s.dbfs),
+            worst_spur,
+            noise_floor_dbfs: db(meas.noise_per_bin / pfs),
+            noise_bins: meas.noise_bins,
+        }),
+        warnings,
+        error: None,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::synth_multi::{two_tone, ToneSpec, TwoToneSettings};
+
+    const FS: f64 = 100e6;
+
+    fn record(
+        bits: u32,
+        samples: usize,
+        cycles: [f64; 2],
+        dbfs: [f64; 2],
+        a2: f64,
+        a3: f64,
+    ) -> Record {
+        let tone = |i: usize, phase: f64| ToneSpec {
+            frequency_hz: cycles[i] * FS / samples as f64,
+            amplitude_dbfs: dbfs[i],
+            phase_rad: phase,
+        };
+        two_tone(&TwoToneSettings {
+            bits,
+            sample_rate_hz: FS,
+            samples,
+            tones: [tone(0, 0.4), tone(1, -1.3)],
+            offset_codes: 0.0,
+            a2,
+            a3,
+            noise_rms_codes: 0.0,
+            seed: 5,
+        })
+        .unwrap()
+    }
+
+    fn product<'a>(sp: &'a ImdSpectrum, name: &str) -> &'a ProductFigure {
+        sp.products.iter().find(|p| p.name == name).unwrap()
+    }
+
+    // Worked example from the standard product formulas m·f1 + n·f2 (handbook): f1 = 5 MHz and
+    // f2 = 6 MHz put IM2 at f2 − f1 = 1 MHz and f1 + f2 = 11 MHz, IM3 at 2f1 − f2 = 4 MHz,
+    // 2f2 − f1 = 7 MHz, 2f1 + f2 = 16 MHz and 2f2 + f1 = 17 MHz. Sampled at 20 MHz, the products above
+    // fs/2 = 10 MHz fold to fs − f (common practice, no source): 11 → 9, 16 → 4, 17 → 3 MHz, and 2f1 + f2
+    // then lands on 2f1 − f2.
+    #[test]
+    fn worked_example_product_frequencies() {
+        let mhz = |v: &[ProductPlace], name: &str| {
+            v.iter().find(|p| p.name == name).unwrap().frequency_hz / 1e6
+        };
+        let v = product_places(5e6, 6e6, 100e6);
+        for (name, want) in [
+            ("f2-f1", 1.0),
+            ("f1+f2", 11.0),
+            ("2f1-f2", 4.0),
+            ("2f2-f1", 7.0),
+            ("2f1+f2", 16.0),
+            ("2f2+f1", 17.0),
+        ] {
+            assert!((mhz(&v, name) - want).abs() < 1e-9, "{name}");
+        }
+        let kinds: Vec<(ProductKind, u32)> = v.iter().take(6).map(|p| (p.kind, p.order)).collect();
+        assert_eq!(kinds[..2], [(ProductKind::Im2, 2), (ProductKind::Im2, 2)]);
+        assert!(kinds[2..].iter().all(|&k| k == (ProductKind::Im3, 3)));
+        // The order of the tones does not matter.
+        assert_eq!(product_places(6e6, 5e6, 100e6), v);
+        let folded = product_places(5e6, 6e6, 20e6);
+        for (name, want) in [("f1+f2", 9.0), ("2f1+f2", 4.0), ("2f2+f1", 3.0)] {
+            assert!((mhz(&folded, name) - want).abs() < 1e-9, "{name}");
+        }
+    }
+
+    // Memoryless polynomial y = x + a2·x² + a3·x³ (full-scale normalised) on x = A1·cos θ1 + A2·cos θ2
+    // (trigonometric product identities, handbook):
+    //   x²  → A1·A2 at f2 − f1 and f1 + f2, A_i²/2 at 2f_i, A1² + A2² at DC / 2;
+    //   x³  → (3/4)·A1²·A2 at 2f1 ± f2, (3/4)·A1·A2² at 2f2 ± f1, A_i³/4 at 3f_i,
+    //         and (3/4)·A_i³ + (3/2)·A_i·A_j² added to tone i.
+    // With equal tones A this is the familiar IM2 = a2·A², IM3 = (3/4)·a3·A³.
+    struct Expected {
+        tone: [f64; 2],
+        levels: Vec<(&'static str, f64)>,
+    }
+
+    fn expected(a: [f64; 2], a2: f64, a3: f64, fsa: f64) -> Expected {
+        let [a1, b] = a;
+        let tone = [
+            a1 + a3 * (0.75 * a1.powi(3) + 1.5 * a1 * b * b),
+            b + a3 * (0.75 * b.powi(3) + 1.5 * a1 * a1 * b),
+        ];
+        let levels = vec![
+            ("f2-f1", a2 * a1 * b),
+            ("f1+f2", a2 * a1 * b),
+            ("2f1-f2", 0.75 * a3 * a1 * a1 * b),
+            ("2f2-f1", 0.75 * a3 * a1 * b * b),
+            ("2f1+f2", 0.75 * a3 * a1 * a1 * b),
+            ("2f2+f1", 0.75 * a3 * a1 * b * b),
+            ("2f1", a2 * a1 * a1 / 2.0),
+            ("2f2", a2 * b * b / 2.0),
+            ("3f1", a3 * a1.powi(3) / 4.0),
+            ("3f2", a3 * b.powi(3) / 4.0),
+        ];
+        Expected {
+            tone: tone.map(|t| t.abs() * fsa),
+            levels: levels
+                .into_iter()
+                .map(|(n, v)| (n, v.abs() * fsa))
+                .collect(),
+        }
+    }
+
+    fn dbfs_of(amp: f64, bits: u32) -> f64 {
+        20.0 * (amp / full_scale_amplitude_codes(bits)).log10()
+    }
+
+    /// dB agreement of a recovered product with the polynomial's closed form. Noise of power Pn in the
+    /// bins that carry a product of power P moves its measured power by about 2·√(Pn/P) relative (one
+    /// σ). At 18 bits and 16384 samples the quantisation noise is q²/12·2/N = 1.0e-5 codes² per bin
+    /// (2.6e-5 within the 7-term Blackman-Harris noise bandwidth of 2.6 bins), and the smallest product
+    /// below (3f2, 38 codes²) then moves by 0.0045 dB (σ); the others by less. 0.02 dB is over 4σ.
+    const IMD_DB: f64 = 0.02;
+
+    // 18-bit coherent record (odd cycle counts coprime with N): rectangular window, one bin per product.
+    #[test]
+    fn polynomial_products_recovered_on_a_coherent_record() {
+        let bits = 18;
+        let (a2, a3) = (1e-3, -3e-3);
+        let r = record(bits, 16384, [1001.0, 1203.0], [-7.0, -7.0], a2, a3);
+        let out = analyze_two_tone(&r, &ImdSettings::default()).unwrap();
+        let sp = out.spectrum.as_ref().unwrap();
+        assert_eq!(sp.window, "rectangular");
+        assert!(sp.coherent);
+        let a = 10f64.powf(-7.0 / 20.0);
+        let fsa = full_scale_amplitude_codes(bits);
+        let e = expected([a, a], a2, a3, fsa);
+        for (t, want) in sp.tones.iter().zip(e.tone) {
+            assert!((t.dbfs.unwrap() - dbfs_of(want, bits)).abs() < IMD_DB);
+        }
+        for (name, amp) in &e.levels {
+            let p = product(sp, name);
+            assert!(!p.masked && !p.at_floor, "{name}");
+            let want_dbfs = dbfs_of(*amp, bits);
+            let want_dbc = 20.0 * (amp / e.tone[0]).log10();
+            assert!(
+                (p.dbfs.unwrap() - want_dbfs).abs() < IMD_DB,
+                "{name}: {:?} vs {want_dbfs}",
+                p.dbfs
+            );
+            assert!((p.dbc.unwrap() - want_dbc).abs() < IMD_DB, "{name}");
+        }
+        // Equal tones: a2·A² and (3/4)·a3·A³ relative to A (the handbook form).
+        let im2 = 20.0 * (a2 * a * a / (e.tone[0] / fsa)).log10();
+        let im3 = 20.0 * (0.75 * a3.abs() * a.powi(3) / (e.tone[0] / fsa)).log10();
+        assert!((sp.im2_dbc.unwrap() - im2).abs() < IMD_DB);
+        assert!((sp.im3_dbc.unwrap() - im3).abs() < IMD_DB);
+        // The largest spur is the largest product: IM3 here, (3/4)·|a3|·A² = 4.49e-4 against
+        // a2·A = 4.47e-4 relative to the tone (the harmonics are half and a quarter of those).
+        let (worst_name, worst_amp) = e
+            .levels
+            .iter()
+            .copied()
+            .max_by(|a, b| a.1.total_cmp(&b.1))
+            .unwrap();
+        // The four IM3 products are equally large, so any of them may be the one picked.
+        let w = sp.worst_spur.as_ref().unwrap();
+        assert_eq!(product(sp, worst_name).kind, ProductKind::Im3);
+        let picked = product(sp, w.product.as_deref().unwrap());
+        assert_eq!(picked.kind, ProductKind::Im3, "{w:?}");
+        let sfdr = -20.0 * (worst_amp / e.tone[0]).log10();
+        assert!((sp.sfdr_dbc.unwrap() - sfdr).abs() < IMD_DB);
+        // The fit finds the generating frequencies and amplitudes.
+        let fit = out.fit.as_ref().unwrap();
+        assert!((fit.tones[0].cycles - 1001.0).abs() < 1e-6);
+        assert!((fit.tones[1].cycles - 1203.0).abs() < 1e-6);
+        assert!((fit.tones[0].amplitude_codes / e.tone[0] - 1.0).abs() < 1e-5);
+        assert!(fit.converged && fit.refined);
+    }
+
+    // Non-coherent, unequal tones, 18 bits: the auto rule picks the 7-term Blackman-Harris (leakage
+    // below −180 dBc) and products sum over 17-bin spans.
+    #[test]
+    fn polynomial_products_recovered_on_a_windowed_record() {
+        let bits = 18;
+        let (a2, a3) = (2e-3, 4e-3);
+        let r = record(bits, 16384, [1001.37, 1203.81], [-6.0, -10.0], a2, a3);
+        let out = analyze_two_tone(&r, &ImdSettings::default()).unwrap();
+        let sp = out.spectrum.as_ref().unwrap();
+        assert_eq!(sp.window, "blackman-harris-7");
+        assert!(!sp.coherent);
+        let amps = [10f64.powf(-6.0 / 20.0), 10f64.powf(-10.0 / 20.0)];
+        let fsa = full_scale_amplitude_codes(bits);
+        let e = expected(amps, a2, a3, fsa);
+        for (name, amp) in e.levels.iter().take(6) {
+            let p = product(sp, name);
+            let f1 = 20.0 * (amp / e.tone[0]).log10();
+            let f2 = 20.0 * (amp / e.tone[1]).log10();
+            assert!(
+                (p.dbfs.unwrap() - dbfs_of(*amp, bits)).abs() < IMD_DB,
+                "{name}"
+            );
+            assert!((p.dbc_f1.unwrap() - f1).abs() < IMD_DB, "{name}");
+            assert!((p.dbc_f2.unwrap() - f2).abs() < IMD_DB, "{name}");
+            // Tone 1 is the stronger: dbc refers to it.
+            assert_eq!(p.dbc, p.dbc_f1);
+        }
+        let fit = out.fit.as_ref().unwrap();
+        // Cramér-Rao bound of a tone's cycle count (fit::cycles_std, Rife & Boorstyn 1974) with the
+        // residual rms as the noise, which here holds the products too: 6σ.
+        for (t, c) in fit.tones.iter().zip([1001.37, 1203.81]) {
+            let s = cycles_std(t.amplitude_codes, fit.residual_rms_codes, 16384);
+            assert!(
+                (t.cycles - c).abs() < 6.0 * s,
+                "{} vs {c} (σ {s})",
+                t.cycles
+            );
+        }
+        assert!(out.warnings.iter().any(|w| w.contains("differ by")));
+    }
+
+    // Slow, obvious reference for the linear part of the fit: dense least squares (QR of the N×5 design
+    // matrix) on noisy data with a fixed seed.
+    #[test]
+    fn linear_fit_agrees_with_dense_least_squares() {
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(3);
+        let n = 2001;
+        let f = [0.0312, 0.0871];
+        let centre = (n as f64 - 1.0) / 2.0;
+        let y: Vec<f64> = (0..n)
+            .map(|k| {
+                let t = k as f64;
+                900.0 * (TAU * f[0] * t + 0.3).cos()
+                    + 400.0 * (TAU * f[1] * t - 2.0).cos()
+                    + 7.0
+                    + rng.gen_range(-3.0..3.0)
+            })
+            .collect();
+        let got = fit_linear(&y, 0, 1, centre, &f).unwrap();
+        let mut d = DMatrix::<f64>::zeros(n, 5);
+        for k in 0..n {
+            let t = k as f64 - centre;
+            for i in 0..2 {
+                d[(k, 2 * i)] = (TAU * f[i] * t).cos();
+                d[(k, 2 * i + 1)] = (TAU * f[i] * t).sin();
+            }
+            d[(k, 4)] = 1.0;
+        }
+        let yv = DVector::from_vec(y);
+        let qr = d.clone().qr();
+        let x = qr
+            .r()
+            .solve_upper_triangular(&(qr.q().transpose() * &yv))
+            .unwrap();
+        for i in 0..2 {
+            assert!((got.coeffs[i].0 - x[2 * i]).abs() < 1e-8 * 900.0);
+            assert!((got.coeffs[i].1 - x[2 * i + 1]).abs() < 1e-8 * 900.0);
+        }
+        assert!((got.offset - x[4]).abs() < 1e-8);
+        let rss = (&yv - &d * &x).norm_squared();
+        assert!((got.rss / rss - 1.0).abs() < 1e-9);
+        // The reported phase is that of the generating sine at sample 0.
+        let (a, b) = got.coeffs[0];
+        assert!((phase_at_zero(a, b, f[0], centre) - 0.3).abs() < 0.01);
+    }
+
+    // Without refinement the frequencies are the Hann interpolator's, within 0.01 bin of the truth
+    // when the other tone is 200 bins away (its Hann leakage there is below −100 dB).
+    #[test]
+    fn located_frequencies_are_close_without_refinement() {
+        let r = record(16, 8192, [500.3, 700.8], [-7.0, -7.0], 0.0, 0.0);
+        let s = ImdSettings {
+            refine_frequencies: false,
+            ..ImdSettings::default()
+        };
+        let out = analyze_two_tone(&r, &s).unwrap();
+        let fit = out.fit.unwrap();
+        assert!(!fit.refined && fit.iterations == 0);
+        assert!((fit.tones[0].cycles - 500.3).abs() < 0.01);
+        assert!((fit.tones[1].cycles - 700.8).abs() < 0.01);
+    }
+
+    // Cycle counts chosen so that N = 3·c1 + c2: 2f1 + f2 folds onto f1, 2f2 + f1 onto 2f1 − f2, 3f1
+    // onto f2 and 2f1 onto f1 + f2 (folding, common practice, no source). These are flagged masked and
+    // measure nothing.
+    #[test]
+    fn products_on_tones_or_other_products_are_masked() {
+        let r = record(16, 4096, [1001.0, 1093.0], [-7.0, -7.0], 1e-3, 1e-3);
+        let out = analyze_two_tone(&r, &ImdSettings::default()).unwrap();
+        let sp = out.spectrum.unwrap();
+        for (name, by) in [
+            ("2f1+f2", "f1"),
+            ("2f2+f1", "2f1-f2"),
+            ("3f1", "f2"),
+            ("2f1", "f1+f2"),
+        ] {
+            let p = product(&sp, name);
+            assert!(p.masked, "{name}");
+            assert_eq!(p.masked_by.as_deref(), Some(by), "{name}");
+            assert!(p.dbc.is_none() && p.dbfs.is_none());
+        }
+        assert!(!product(&sp, "2f1-f2").masked);
+        assert!(out.warnings.iter().any(|w| w.contains("masked")));
+    }
+
+    #[test]
+    fn records_without_two_tones_are_errors() {
+        // One tone only.
+        let r = record(14, 4096, [301.0, 701.0], [-1.0, -400.0], 0.0, 0.0);
+        let e = analyze_two_tone(&r, &ImdSettings::default()).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::NoTone, "{e}");
+        assert!(e.to_string().contains("second tone"), "{e}");
+        assert_eq!(e.path, "two-tone:5");
+        // A constant record.
+        let mut c = r.clone();
+        c.codes.iter_mut().for_each(|v| *v = 3);
+        assert_eq!(
+            analyze_two_tone(&c, &ImdSettings::default())
+                .unwrap_err()
+                .kind,
+            ErrorKind::NoTone
+        );
+        // Too short.
+        c.codes.truncate(40);
+        assert_eq!(
+            analyze_two_tone(&c, &ImdSettings::default())
+                .unwrap_err()
+                .kind,
+            ErrorKind::TooFewSamples
+        );
+    }
+
+    // serde_json writes non-finite floats as null and cannot read them back (DESIGN.md): every figure
+    // of a result, masked and at-floor products included, must be finite or absent.
+    #[test]
+    fn result_serialises_without_non_finite_numbers() {
+        let r = record(16, 4096, [1001.0, 1093.0], [-7.0, -7.0], 1e-3, 0.0);
+        let out = analyze_two_tone(&r, &ImdSettings::default()).unwrap();
+        let text = serde_json::to_string(&out).unwrap();
+        let back: serde_json::Value = serde_json::from_str(&text).unwrap();
+        assert!(back["spectrum"]["products"].as_array().unwrap().len() == 10);
+        assert!(!text.contains("NaN") && !text.contains("inf"));
+    }
+}
