@@ -36,6 +36,7 @@ pub mod plan;
 pub mod report;
 
 pub mod spectrum;
+pub mod sweep;
 pub mod synth;
 pub mod synth_multi;
 pub mod verify;

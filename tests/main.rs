@@ -9,5 +9,6 @@ mod pipeline;
 mod plan;
 mod reference;
 mod report;
+mod sweep;
 mod tolerances;
 mod windows_ref;

@@ -10,6 +10,7 @@ mod interleave;
 mod limits;
 mod linearity;
 mod plan;
+mod sweep;
 mod synth;
 mod verify;
 
@@ -46,6 +47,8 @@ pub enum Command {
     /// Interleaving spurs of an M-channel time-interleaved converter, with each channel's offset, gain
     /// and timing error.
     Interleave(interleave::InterleaveArgs),
+    /// Sweeps over a lot run: figures against input frequency and amplitude, ERBW, aperture jitter.
+    Sweep(sweep::SweepArgs),
     /// Compare two lot runs (board revisions): per condition and metric, statistics and a verdict.
     Compare(compare::CompareArgs),
     /// Write records from a simulated N-bit converter (for demos and tests).
@@ -75,6 +78,7 @@ pub fn run(cli: Cli) -> i32 {
         Command::Interleave(a) => interleave::run(a),
         Command::Synth(a) => synth::run(a),
         Command::Compare(a) => compare::run(a),
+        Command::Sweep(a) => sweep::run(a),
         Command::Demo(a) => demo::run(a),
         Command::Verify(a) => verify::run(a),
         Command::Plan(a) => plan::run(a),

@@ -116,8 +116,31 @@ pub fn versus_frequency_svg(
     a: &[(f64, f64)],
     b: &[(f64, f64)],
 ) -> Result<String> {
-    let (x0, x1) = range_of(a.iter().chain(b).map(|p| p.0 / 1e6));
-    let (y0, y1) = range_of(a.iter().chain(b).map(|p| p.1));
+    series_svg(
+        title,
+        "input frequency (MHz)",
+        unit,
+        &[("A", a), ("B", b)],
+        1e6,
+    )
+}
+
+/// Named series of (x, y) points, one line each (x divided by `x_scale` for the axis): the first in the
+/// run-A colour, the second in the run-B colour, further ones in a muted colour.
+pub fn series_svg(
+    title: &str,
+    x_desc: &str,
+    unit: &str,
+    series: &[(&str, &[(f64, f64)])],
+    x_scale: f64,
+) -> Result<String> {
+    let (x0, x1) = range_of(
+        series
+            .iter()
+            .flat_map(|s| s.1.iter())
+            .map(|p| p.0 / x_scale),
+    );
+    let (y0, y1) = range_of(series.iter().flat_map(|s| s.1.iter()).map(|p| p.1));
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (480, 300)).into_drawing_area();
@@ -131,14 +154,19 @@ pub fn versus_frequency_svg(
             .map_err(err)?;
         chart
             .configure_mesh()
-            .x_desc("input frequency (MHz)")
+            .x_desc(x_desc)
             .y_desc(unit)
             .light_line_style(rgb(palette::GRID_MINOR))
             .bold_line_style(rgb(palette::GRID))
             .draw()
             .map_err(err)?;
-        for (points, colour, name) in [(a, COLOUR_A, "A"), (b, COLOUR_B, "B")] {
-            let mut pts: Vec<(f64, f64)> = points.iter().map(|p| (p.0 / 1e6, p.1)).collect();
+        for (i, (name, points)) in series.iter().enumerate() {
+            let colour = [COLOUR_A, COLOUR_B]
+                .get(i)
+                .copied()
+                .unwrap_or(palette::PANEL_EDGE);
+            let name = name.to_string();
+            let mut pts: Vec<(f64, f64)> = points.iter().map(|p| (p.0 / x_scale, p.1)).collect();
             pts.sort_by(|p, q| p.0.total_cmp(&q.0));
             chart
                 .draw_series(LineSeries::new(pts.clone(), rgb(colour).stroke_width(2)))

@@ -1,0 +1,308 @@
+//! Sweeps over a lot run whose conditions vary the input frequency or amplitude: SNR, SINAD, SFDR and
+//! ENOB against frequency, the effective resolution bandwidth, SNR against amplitude (dynamic range), and
+//! an aperture-jitter estimate from SNR against frequency.
+
+use crate::{Error, ErrorKind, Location, Result};
+use serde::Serialize;
+use std::collections::BTreeMap;
+use std::path::Path;
+
+/// One device's (or the lot mean's) figures under one condition.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SweepPoint {
+    /// Device, or "lot mean".
+    pub device: String,
+    /// Condition name.
+    pub condition: String,
+    /// Fitted input frequency, hertz.
+    pub fin_hz: f64,
+    /// Fitted input amplitude, dBFS.
+    pub amplitude_dbfs: f64,
+    /// SNR, dB.
+    pub snr_db: Option<f64>,
+    /// SINAD, dB.
+    pub sinad_db: Option<f64>,
+    /// SFDR, dBc.
+    pub sfdr_dbc: Option<f64>,
+    /// Spectral ENOB, bits.
+    pub enob_bits: Option<f64>,
+}
+
+/// What a sweep finds for one device (or the lot mean).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SweepSummary {
+    /// Device, or "lot mean".
+    pub device: String,
+    /// Points at the reference amplitude used for the frequency sweep.
+    pub frequency_points: usize,
+    /// Effective resolution bandwidth: the input frequency where SINAD has fallen 3 dB below its value
+    /// at the lowest frequency, linearly interpolated; `None` when it never falls that far.
+    pub erbw_hz: Option<f64>,
+    /// Aperture jitter from the fit 10^(−SNR/10) = a + (2π·f·σ)²; `None` with fewer than 3 frequencies
+    /// or a slope that is not positive.
+    pub jitter_rms_s: Option<f64>,
+    /// The frequency-independent part of the same fit, as an SNR (the noise floor without jitter), dB.
+    pub snr_floor_db: Option<f64>,
+    /// SNR against amplitude at one frequency: (amplitude dBFS, SNR dB), when the conditions vary it.
+    pub snr_vs_amplitude: Vec<(f64, f64)>,
+}
+
+/// A whole sweep.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Sweep {
+    /// Every point, lot mean first then devices, each by rising frequency.
+    pub points: Vec<SweepPoint>,
+    /// One summary per device and one for the lot mean.
+    pub summaries: Vec<SweepSummary>,
+}
+
+/// Reads a lot run's `summary.csv` into points (error rows are skipped).
+pub fn read_points(run: &Path) -> Result<Vec<SweepPoint>> {
+    let path = run.join("summary.csv");
+    let shown = path.display().to_string();
+    let bad = |row: usize, e: String| {
+        Error::new(
+            ErrorKind::BadMetadata,
+            &shown,
+            Location::Row(row),
+            "a lot summary.csv row",
+            e,
+        )
+    };
+    let text = std::fs::read_to_string(&path).map_err(|e| {
+        Error::new(
+            ErrorKind::Io,
+            &shown,
+            Location::Whole,
+            "a readable lot summary.csv",
+            e.to_string(),
+        )
+    })?;
+    let mut rd = ::csv::Reader::from_reader(text.as_bytes());
+    let header: Vec<String> = rd
+        .headers()
+        .map_err(|e| bad(1, e.to_string()))?
+        .iter()
+        .map(str::to_string)
+        .collect();
+    let col = |n: &str| header.iter().position(|h| h == n);
+    let need = |n: &str| {
+        col(n).ok_or_else(|| {
+            Error::new(
+                ErrorKind::BadMetadata,
+                &shown,
+                Location::Row(1),
+                format!("a column '{n}'"),
+                header.join(","),
+            )
+        })
+    };
+    let (dev, cond, fin, amp) = (
+        need("device")?,
+        need("condition")?,
+        need("fit.frequency_hz")?,
+        need("fit.amplitude_dbfs")?,
+    );
+    let figs = [
+        col("spectrum.snr_db"),
+        col("spectrum.sinad_db"),
+        col("spectrum.sfdr_dbc"),
+        col("spectrum.enob_bits"),
+    ];
+    let mut out = Vec::new();
+    for (i, rec) in rd.records().enumerate() {
+        let rec = rec.map_err(|e| bad(i + 2, e.to_string()))?;
+        let num = |k: Option<usize>| {
+            k.and_then(|k| rec.get(k))
+                .and_then(|s| s.parse::<f64>().ok())
+                .filter(|v| v.is_finite())
+        };
+        let (Some(f), Some(a)) = (num(Some(fin)), num(Some(amp))) else {
+            continue;
+        };
+        out.push(SweepPoint {
+            device: rec.get(dev).unwrap_or("").to_string(),
+            condition: rec.get(cond).unwrap_or("").to_string(),
+            fin_hz: f,
+            amplitude_dbfs: a,
+            snr_db: num(figs[0]),
+            sinad_db: num(figs[1]),
+            sfdr_dbc: num(figs[2]),
+            enob_bits: num(figs[3]),
+        });
+    }
+    Ok(out)
+}
+
+/// ERBW: the first frequency where SINAD is 3 dB below its value at the lowest frequency, linearly
+/// interpolated between the two points that straddle it.
+pub fn erbw(points: &[(f64, f64)]) -> Option<f64> {
+    let mut p: Vec<(f64, f64)> = points.to_vec();
+    p.sort_by(|a, b| a.0.total_cmp(&b.0));
+    let target = p.first()?.1 - 3.0;
+    p.windows(2).find_map(|w| {
+        let ((f0, s0), (f1, s1)) = (w[0], w[1]);
+        (s0 > target && s1 <= target).then(|| f0 + (f1 - f0) * (s0 - target) / (s0 - s1))
+    })
+}
+
+/// Fits 10^(−SNR/10) = a + (2π·f·σ)² by least squares, linear in (a, σ²); returns (σ seconds, a).
+pub fn jitter_fit(points: &[(f64, f64)]) -> Option<(f64, f64)> {
+    if points.len() < 3 {
+        return None;
+    }
+    let xy: Vec<(f64, f64)> = points
+        .iter()
+        .map(|&(f, snr)| ((std::f64::consts::TAU * f).powi(2), 10f64.powf(-snr / 10.0)))
+        .collect();
+    let n = xy.len() as f64;
+    let (sx, sy) = xy.iter().fold((0.0, 0.0), |(a, b), &(x, y)| (a + x, b + y));
+    let (mx, my) = (sx / n, sy / n);
+    let sxx: f64 = xy.iter().map(|&(x, _)| (x - mx).powi(2)).sum();
+    let sxy: f64 = xy.iter().map(|&(x, y)| (x - mx) * (y - my)).sum();
+    if sxx <= 0.0 {
+        return None;
+    }
+    let slope = sxy / sxx;
+    let intercept = my - slope * mx;
+    (slope > 0.0).then(|| (slope.sqrt(), intercept))
+}
+
+fn summarize(device: &str, pts: &[&SweepPoint]) -> SweepSummary {
+    // The frequency sweep is taken at the most common amplitude (rounded to 0.1 dB).
+    let mut by_amp: BTreeMap<i64, usize> = BTreeMap::new();
+    for p in pts {
+        *by_amp
+            .entry((p.amplitude_dbfs * 10.0).round() as i64)
+            .or_default() += 1;
+    }
+    let ref_amp = by_amp
+        .iter()
+        .max_by_key(|(k, c)| (**c, -**k))
+        .map(|(k, _)| *k)
+        .unwrap_or(0);
+    let at_ref: Vec<&&SweepPoint> = pts
+        .iter()
+        .filter(|p| (p.amplitude_dbfs * 10.0).round() as i64 == ref_amp)
+        .collect();
+    let sinad: Vec<(f64, f64)> = at_ref
+        .iter()
+        .filter_map(|p| Some((p.fin_hz, p.sinad_db?)))
+        .collect();
+    let snr: Vec<(f64, f64)> = at_ref
+        .iter()
+        .filter_map(|p| Some((p.fin_hz, p.snr_db?)))
+        .collect();
+    let jitter = jitter_fit(&snr);
+    // SNR against amplitude at the most common frequency (rounded to 1 kHz).
+    let mut by_f: BTreeMap<i64, usize> = BTreeMap::new();
+    for p in pts {
+        *by_f.entry((p.fin_hz / 1e3).round() as i64).or_default() += 1;
+    }
+    let ref_f = by_f
+        .iter()
+        .max_by_key(|(k, c)| (**c, -**k))
+        .map(|(k, _)| *k)
+        .unwrap_or(0);
+    let mut amp: Vec<(f64, f64)> = pts
+        .iter()
+        .filter(|p| (p.fin_hz / 1e3).round() as i64 == ref_f)
+        .filter_map(|p| Some((p.amplitude_dbfs, p.snr_db?)))
+        .collect();
+    amp.sort_by(|a, b| a.0.total_cmp(&b.0));
+    SweepSummary {
+        device: device.to_string(),
+        frequency_points: at_ref.len(),
+        erbw_hz: erbw(&sinad),
+        jitter_rms_s: jitter.map(|j| j.0),
+        snr_floor_db: jitter.and_then(|j| (j.1 > 0.0).then(|| -10.0 * j.1.log10())),
+        snr_vs_amplitude: if amp.len() >= 2 { amp } else { Vec::new() },
+    }
+}
+
+/// Builds the sweep of a lot: per device, and for the lot mean per condition.
+pub fn sweep(points: &[SweepPoint]) -> Sweep {
+    let mut by_cond: BTreeMap<&str, Vec<&SweepPoint>> = BTreeMap::new();
+    for p in points {
+        by_cond.entry(p.condition.as_str()).or_default().push(p);
+    }
+    let mean = |v: &[Option<f64>]| {
+        let f: Vec<f64> = v.iter().flatten().copied().collect();
+        (!f.is_empty()).then(|| f.iter().sum::<f64>() / f.len() as f64)
+    };
+    let mut lot: Vec<SweepPoint> = by_cond
+        .iter()
+        .map(|(c, ps)| SweepPoint {
+            device: "lot mean".to_string(),
+            condition: c.to_string(),
+            fin_hz: ps.iter().map(|p| p.fin_hz).sum::<f64>() / ps.len() as f64,
+            amplitude_dbfs: ps.iter().map(|p| p.amplitude_dbfs).sum::<f64>() / ps.len() as f64,
+            snr_db: mean(&ps.iter().map(|p| p.snr_db).collect::<Vec<_>>()),
+            sinad_db: mean(&ps.iter().map(|p| p.sinad_db).collect::<Vec<_>>()),
+            sfdr_dbc: mean(&ps.iter().map(|p| p.sfdr_dbc).collect::<Vec<_>>()),
+            enob_bits: mean(&ps.iter().map(|p| p.enob_bits).collect::<Vec<_>>()),
+        })
+        .collect();
+    lot.sort_by(|a, b| {
+        a.fin_hz
+            .total_cmp(&b.fin_hz)
+            .then(a.amplitude_dbfs.total_cmp(&b.amplitude_dbfs))
+    });
+    let mut summaries = vec![summarize("lot mean", &lot.iter().collect::<Vec<_>>())];
+    let mut devices: BTreeMap<&str, Vec<&SweepPoint>> = BTreeMap::new();
+    for p in points {
+        devices.entry(p.device.as_str()).or_default().push(p);
+    }
+    let mut all = lot.clone();
+    for (d, ps) in &devices {
+        summaries.push(summarize(d, ps));
+        let mut sorted: Vec<SweepPoint> = ps.iter().map(|p| (*p).clone()).collect();
+        sorted.sort_by(|a, b| {
+            a.fin_hz
+                .total_cmp(&b.fin_hz)
+                .then(a.amplitude_dbfs.total_cmp(&b.amplitude_dbfs))
+        });
+        all.extend(sorted);
+    }
+    Sweep {
+        points: all,
+        summaries,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // Jitter-limited SNR (handbook): SNR = −10·log10(a + (2π·f·σ)²); the fit must give σ and a back
+    // exactly from noiseless points.
+    #[test]
+    fn jitter_fit_recovers_sigma() {
+        let (sigma, a) = (500e-15, 10f64.powf(-7.4));
+        let pts: Vec<(f64, f64)> = [5e6, 20e6, 50e6, 120e6]
+            .iter()
+            .map(|&f| {
+                (
+                    f,
+                    -10.0 * (a + (std::f64::consts::TAU * f * sigma).powi(2)).log10(),
+                )
+            })
+            .collect();
+        let (s, aa) = jitter_fit(&pts).unwrap();
+        assert!(
+            (s / sigma - 1.0).abs() < 1e-9 && (aa / a - 1.0).abs() < 1e-9,
+            "{s} {aa}"
+        );
+        assert!(jitter_fit(&pts[..2]).is_none());
+    }
+
+    // ERBW by linear interpolation between straddling points (common practice, no source).
+    #[test]
+    fn erbw_interpolates_the_3_db_point() {
+        let pts = [(1e6, 70.0), (10e6, 69.0), (20e6, 66.0), (40e6, 60.0)];
+        let f = erbw(&pts).unwrap();
+        // 67 dB lies between 10 MHz (69) and 20 MHz (66): 10 + 10·(2/3) MHz.
+        assert!((f - (10e6 + 10e6 * 2.0 / 3.0)).abs() < 1e-3, "{f}");
+        assert!(erbw(&[(1e6, 70.0), (2e6, 69.5)]).is_none());
+    }
+}
