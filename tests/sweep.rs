@@ -52,3 +52,21 @@ fn sweep_recovers_the_simulated_jitter() {
         .unwrap();
     }
 }
+
+/// The demo's revision comparison overlays one representative spectrum per condition and revision.
+#[test]
+fn demo_comparison_overlays_representative_spectra() {
+    let dir = tempfile::tempdir().unwrap();
+    let demo = Command::new(assert_cmd::cargo::cargo_bin!("spurline"))
+        .args(["demo", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert!(demo.status.success());
+    let html = std::fs::read_to_string(dir.path().join("compare/comparison.html")).unwrap();
+    assert!(html.contains("Representative spectra"));
+    assert!(!html.contains("no overlay"), "an overlay is missing");
+    for cond in ["fin_05M", "fin_21M", "fin_47M"] {
+        assert!(html.contains(&format!("{cond}: A d")), "{cond}");
+    }
+}

@@ -103,6 +103,11 @@ pub fn run(out: &Path) -> Result<(), Error> {
                 write_sidecar(
                     &path,
                     &Sidecar {
+                        // The plan gives these too; in the sidecar they let the comparison re-read
+                        // a record on its own for the spectrum overlay.
+                        sample_rate_hz: Some(100e6),
+                        bits: Some(12),
+                        format: Some("i16le".to_string()),
                         generator: Some(serde_json::to_value(&s).expect("plain data serialises")),
                         ..Sidecar::default()
                     },

@@ -65,6 +65,8 @@ pub struct Run {
     pub frequency_hz: BTreeMap<String, Vec<f64>>,
     /// Rows that were errors in the run, left out: "device / condition: reason".
     pub error_rows: Vec<String>,
+    /// (device, condition) → the record file the row was analysed from (`source`).
+    pub sources: BTreeMap<(String, String), String>,
 }
 
 /// Reads a lot run folder (its `summary.csv`, as `spurline batch` writes it).
@@ -118,7 +120,9 @@ pub fn read_run(dir: &Path) -> Result<Run> {
         setup: BTreeMap::new(),
         frequency_hz: BTreeMap::new(),
         error_rows: Vec::new(),
+        sources: BTreeMap::new(),
     };
+    let source = col("source");
     for (i, rec) in rd.records().enumerate() {
         let rec = rec.map_err(|e| {
             Error::new(
@@ -150,6 +154,10 @@ pub fn read_run(dir: &Path) -> Result<Run> {
             .insert((get(bits), get(fs)));
         if let Ok(f) = get(fin).parse::<f64>() {
             run.frequency_hz.entry(c.clone()).or_default().push(f);
+        }
+        let src = get(source);
+        if !src.is_empty() {
+            run.sources.insert((d.clone(), c.clone()), src);
         }
         run.values.insert((d, c), vals);
     }

@@ -195,8 +195,97 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A7
             h.push_str(&versus_frequency_svg(m, unit_of(m), &pa, &pb)?);
         }
     }
+    let _ = writeln!(h, "</div>");
+    let _ = writeln!(h, "<h2>Representative spectra</h2><p>Per condition, the device whose SNR is the median of its run, A and B overlaid (each pixel column keeps its largest bin).</p><div class=\"plots\">");
+    for cond in &conditions {
+        match overlay(cond, a, b) {
+            Ok(svg) => h.push_str(&svg),
+            Err(why) => {
+                let _ = writeln!(
+                    h,
+                    "<p class=\"warn\">{}: no overlay: {}</p>",
+                    escape(cond),
+                    escape(&why)
+                );
+            }
+        }
+    }
     let _ = writeln!(h, "</div></main></body></html>");
     Ok(h)
+}
+
+/// The device of `run` under `condition` whose SNR is nearest the run's median, and its record file.
+fn representative(run: &Run, condition: &str) -> Option<(String, String)> {
+    let mut v: Vec<(f64, &String)> = run
+        .values
+        .iter()
+        .filter(|((_, c), _)| c == condition)
+        .filter_map(|((d, _), m)| Some((*m.get("spectrum.snr_db")?, d)))
+        .collect();
+    v.sort_by(|x, y| x.0.total_cmp(&y.0).then(x.1.cmp(y.1)));
+    let (_, d) = v.get(v.len() / 2)?;
+    let src = run.sources.get(&((*d).clone(), condition.to_string()))?;
+    Some(((*d).clone(), src.clone()))
+}
+
+/// Re-reads and re-analyses one record; returns its spectrum in dBFS, reduced to `columns` points.
+fn spectrum_points(
+    run: &Run,
+    condition: &str,
+    source: &str,
+    columns: usize,
+) -> std::result::Result<Vec<(f64, f64)>, String> {
+    let (bits, fs) = run
+        .setup
+        .get(condition)
+        .and_then(|s| s.iter().next())
+        .cloned()
+        .ok_or("no resolution or sample rate in the run")?;
+    let settings = crate::ingest::IngestSettings {
+        meta: crate::ingest::Metadata {
+            bits: bits.parse().ok(),
+            sample_rate_hz: fs.parse().ok(),
+            ..Default::default()
+        },
+        ..Default::default()
+    };
+    let rec =
+        crate::ingest::read_record(Path::new(source), &settings).map_err(|e| e.to_string())?;
+    let m = crate::analysis::analyze(&rec.record, &crate::analysis::AnalysisSettings::default())
+        .map_err(|e| e.to_string())?;
+    let pfs = crate::full_scale_power(rec.record.bits);
+    let p = &m.traces.powers;
+    let bin_hz = rec.record.sample_rate_hz / rec.record.len() as f64;
+    let per = p.len().div_ceil(columns.max(1)).max(1);
+    Ok(p.chunks(per)
+        .enumerate()
+        .map(|(i, c)| {
+            let (k, v) =
+                c.iter().enumerate().fold(
+                    (0, 0.0f64),
+                    |best, (j, &x)| if x > best.1 { (j, x) } else { best },
+                );
+            (
+                (i * per + k) as f64 * bin_hz,
+                10.0 * (v.max(pfs * 1e-30) / pfs).log10(),
+            )
+        })
+        .collect())
+}
+
+fn overlay(condition: &str, a: &Run, b: &Run) -> std::result::Result<String, String> {
+    let (da, sa) = representative(a, condition).ok_or("run A has no record with an SNR")?;
+    let (db, sb) = representative(b, condition).ok_or("run B has no record with an SNR")?;
+    let pa = spectrum_points(a, condition, &sa, 600).map_err(|e| format!("run A, {da}: {e}"))?;
+    let pb = spectrum_points(b, condition, &sb, 600).map_err(|e| format!("run B, {db}: {e}"))?;
+    super::plots::series_svg(
+        &format!("{condition}: A {da} · B {db}"),
+        "frequency (MHz)",
+        "dBFS per bin",
+        &[("A", &pa), ("B", &pb)],
+        1e6,
+    )
+    .map_err(|e| e.to_string())
 }
 
 fn unit_of(metric: &str) -> &'static str {
