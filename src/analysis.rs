@@ -6,6 +6,8 @@ use crate::spectrum::{self, tones::Owner, Spectrum, SpectrumSettings};
 use crate::{Error, ErrorKind, Location, Record, Result};
 use serde::Serialize;
 
+pub use crate::record::{MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ};
+
 /// Which sine fit to run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum FitChoice {
@@ -130,6 +132,16 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
         settings.min_samples
     };
     for r in records {
+        // Records built in code skip the ingest checks: an unchecked resolution or rate would panic
+        // (shifts by bits − 1) or overflow into infinities further on.
+        if !(1..=32).contains(&r.bits) {
+            return Err(
+                Error::setting("bits", "a resolution of 1..=32 bits", r.bits.to_string())
+                    .with_path(&r.source),
+            );
+        }
+        crate::record::check_sample_rate(r.sample_rate_hz, "")
+            .map_err(|e| e.with_path(&r.source))?;
         if r.len() < min {
             return Err(Error::new(
                 ErrorKind::TooFewSamples,
@@ -251,4 +263,55 @@ pub fn histogram_of(codes: &[i32], bits: u32) -> Vec<u64> {
         }
     }
     h
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn record(bits: u32, sample_rate_hz: f64) -> Record {
+        Record {
+            source: "r.txt".into(),
+            codes: (0..256)
+                .map(|i| (100.0 * (std::f64::consts::TAU * 21.0 * i as f64 / 256.0).sin()) as i32)
+                .collect(),
+            sample_rate_hz,
+            bits,
+            full_scale_vpp: None,
+            fin_hint_hz: None,
+        }
+    }
+
+    // Found by tests/fuzz_props.rs: a record built in code skips the ingest checks; a resolution of 0
+    // bits shifted by bits − 1 and panicked, and a rate of f64::MAX turned frequencies into infinity.
+    #[test]
+    fn record_with_unchecked_bits_or_rate_is_an_error_not_a_panic() {
+        for bits in [0, 33, 64] {
+            let e = analyze(&record(bits, 1e6), &AnalysisSettings::default()).unwrap_err();
+            assert_eq!(e.kind, ErrorKind::BadSetting);
+            assert_eq!(e.location, Location::Key("bits".into()));
+            assert_eq!(e.path, "r.txt");
+        }
+        for fs in [
+            0.0,
+            -1.0,
+            f64::NAN,
+            f64::INFINITY,
+            f64::MAX,
+            1e300,
+            5e-324,
+            1e-7,
+        ] {
+            let e = analyze(&record(12, fs), &AnalysisSettings::default()).unwrap_err();
+            assert_eq!(e.kind, ErrorKind::BadSetting, "{fs}");
+            assert_eq!(e.location, Location::Key("sample_rate_hz".into()));
+            assert!(e.found.len() < 30, "{}", e.found);
+        }
+        for fs in [MIN_SAMPLE_RATE_HZ, 1e6, MAX_SAMPLE_RATE_HZ] {
+            assert!(
+                analyze(&record(12, fs), &AnalysisSettings::default()).is_ok(),
+                "{fs}"
+            );
+        }
+    }
 }

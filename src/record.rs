@@ -2,6 +2,35 @@
 
 use serde::Serialize;
 
+use crate::{Error, Result};
+
+/// Lowest sample rate accepted, hertz (one sample in about 12 days).
+pub const MIN_SAMPLE_RATE_HZ: f64 = 1e-6;
+/// Highest sample rate accepted, hertz: far above any converter (tens of GS/s), and low enough that every
+/// product of a frequency with a record length or cycle count stays finite (f64::MAX overflowed them).
+pub const MAX_SAMPLE_RATE_HZ: f64 = 1e15;
+
+/// Rejects a sample rate outside [`MIN_SAMPLE_RATE_HZ`]..=[`MAX_SAMPLE_RATE_HZ`] (NaN included);
+/// `hint` is appended to what was expected.
+pub(crate) fn check_sample_rate(sample_rate_hz: f64, hint: &str) -> Result<()> {
+    if (MIN_SAMPLE_RATE_HZ..=MAX_SAMPLE_RATE_HZ).contains(&sample_rate_hz) {
+        Ok(())
+    } else {
+        // Far outside the range, plain notation would print hundreds of digits.
+        let v = sample_rate_hz;
+        let found = if v.is_finite() && v != 0.0 && !(1e-6..1e16).contains(&v.abs()) {
+            format!("{v:e}")
+        } else {
+            v.to_string()
+        };
+        Err(Error::setting(
+            "sample_rate_hz",
+            format!("a sample rate in {MIN_SAMPLE_RATE_HZ:e}..={MAX_SAMPLE_RATE_HZ:e} Hz{hint}"),
+            found,
+        ))
+    }
+}
+
 /// How the converter encodes codes in its output words.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]

@@ -1,8 +1,11 @@
 //! Integration tests, one binary with a module per topic. Every check names its source beside it.
 
+mod bad_inputs;
 mod batch;
 mod cli;
 mod compare;
+mod edge_cases;
+mod fuzz_props;
 mod imd;
 mod linearity;
 mod pipeline;

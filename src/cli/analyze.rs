@@ -49,13 +49,25 @@ fn names_of(path: &Path) -> (String, String) {
 
 /// Runs `analyze`.
 pub fn run(args: AnalyzeArgs) -> i32 {
+    // A bad option fails every record; with --json the array still has one object per record.
+    let fail_all = |e: &spurline::Error| {
+        if args.json {
+            let failed: Vec<Analysis> = args
+                .files
+                .iter()
+                .map(|p| Analysis::failed(&p.display().to_string(), e, Vec::new()))
+                .collect();
+            print!("{}", spurline::report::json::to_json(&failed));
+        }
+        super::fail(e)
+    };
     let ingest = match args.read.settings() {
         Ok(s) => s,
-        Err(e) => return super::fail(&e),
+        Err(e) => return fail_all(&e),
     };
     let settings = match args.analysis.settings() {
         Ok(s) => s,
-        Err(e) => return super::fail(&e),
+        Err(e) => return fail_all(&e),
     };
     // Traces are kept only when a report will draw them.
     let keep = args.report.is_some();

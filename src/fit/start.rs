@@ -16,10 +16,16 @@ const NO_TONE_RATIO: f64 = 1e4;
 
 /// Estimates the frequency of the strongest tone in cycles per sample.
 ///
-/// With a hint (cycles per sample) the peak is looked for within a few bins of it only.
+/// With a hint (cycles per sample, folded into the first Nyquist zone 0..=0.5) the peak is looked for
+/// within a few bins of it only.
 /// The three-bin interpolator δ = 2(|X₊|−|X₋|)/(|X₋|+2|X₀|+|X₊|) is exact for a lone tone under the Hann
 /// window (it follows from the Hann kernel's closed form).
 pub fn estimate_frequency(y: &[f64], hint_cycles_per_sample: Option<f64>) -> Result<f64> {
+    // A hint above fs/2 (an undersampled input) names the alias in the first Nyquist zone; folding it
+    // there also keeps the search window inside the spectrum. A non-finite hint is no hint.
+    let hint_cycles_per_sample = hint_cycles_per_sample
+        .map(|h| crate::plan::fold_to_first_zone(h, 1.0))
+        .filter(|h| h.is_finite());
     if y.len() > START_LEN {
         if let Ok(f) = locate(&y[..START_LEN], hint_cycles_per_sample, y.len()) {
             if f * START_LEN as f64 >= 8.0 {
@@ -122,6 +128,22 @@ mod tests {
                 .collect();
             let est = estimate_frequency(&y, None).unwrap() * n as f64;
             assert!((est - k).abs() < 2e-3, "{k}: {est}");
+        }
+    }
+
+    // Found by tests/fuzz_props.rs: a hint above fs/2 put the search window past the last bin and
+    // indexed out of bounds. The alias of 0.7 cycles per sample is 0.3 (first-zone folding, common
+    // practice, no source).
+    #[test]
+    fn hint_above_nyquist_is_folded_not_out_of_bounds() {
+        let n = 1024;
+        let k = 307.0;
+        let y: Vec<f64> = (0..n)
+            .map(|i| 1000.0 * (std::f64::consts::TAU * k * i as f64 / n as f64).cos())
+            .collect();
+        for hint in [0.7, 1.3, 1.0 - 0.3, f64::INFINITY, f64::NAN] {
+            let est = estimate_frequency(&y, Some(hint)).unwrap() * n as f64;
+            assert!((est - k).abs() < 1e-2, "hint {hint}: {est}");
         }
     }
 

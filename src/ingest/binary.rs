@@ -151,7 +151,19 @@ pub fn parse_binary(
             format!("{} bytes", data.len()),
         ));
     }
-    let frame = w * layout.channels;
+    // A channel count from the command line or a sidecar can be any usize: refuse frames whose size
+    // does not even fit in memory rather than overflow.
+    let frame = w.checked_mul(layout.channels).ok_or_else(|| {
+        Error::setting(
+            "channel",
+            format!(
+                "at most {} interleaved channels of {w}-byte words",
+                usize::MAX / w
+            ),
+            format!("{} channels", layout.channels),
+        )
+        .with_path(path)
+    })?;
     let frames_end = data.len() / frame * frame;
     if frames_end != data.len() {
         return Err(Error::new(
@@ -395,6 +407,34 @@ mod tests {
         bad.extend(le16(&[3, 0x1800]));
         let e = parse_binary(&bad, "r.bin", 12, &l12).unwrap_err();
         assert_eq!(e.location, Location::Byte(9));
+    }
+
+    // Found by tests/fuzz_props.rs: a channel count near usize::MAX (a sidecar "channel": "1/18446744073709551615")
+    // overflowed the frame size.
+    #[test]
+    fn huge_channel_count_is_refused_not_overflowed() {
+        let mut l = layout("i16le");
+        for (channel, channels) in [
+            (0, usize::MAX),
+            (usize::MAX - 1, usize::MAX),
+            (3, usize::MAX / 2 + 1),
+        ] {
+            l.channel = channel;
+            l.channels = channels;
+            let e = parse_binary(&[0u8; 16], "r.bin", 12, &l).unwrap_err();
+            assert_eq!(e.kind, ErrorKind::BadSetting);
+            assert_eq!(e.location, Location::Key("channel".into()));
+            assert_eq!(e.path, "r.bin");
+            assert_eq!(e.found, format!("{channels} channels"));
+        }
+        // The largest count that fits is a frame far longer than the file: a partial frame at the start.
+        l.channel = 0;
+        l.channels = usize::MAX / 2;
+        let e = parse_binary(&[0u8; 16], "r.bin", 12, &l).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (ErrorKind::PartialWord, Location::Byte(0))
+        );
     }
 
     #[test]

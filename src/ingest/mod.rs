@@ -261,8 +261,11 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         )
         .with_path(&shown)
     })?;
-    positive("sample_rate_hz", sample_rate_hz)
-        .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
+    crate::record::check_sample_rate(
+        sample_rate_hz,
+        " (give --fs or \"sample_rate_hz\" in the sidecar)",
+    )
+    .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
     if let Some(f) = meta.fin_hz {
         positive("fin_hz", f).map_err(|e| e.with_path(origin(cli.fin_hz.is_some())))?;
     }
@@ -314,14 +317,9 @@ fn positive(key: &str, v: f64) -> Result<()> {
     if v.is_finite() && v > 0.0 {
         Ok(())
     } else {
-        let hint = if key == "sample_rate_hz" {
-            " (give --fs or \"sample_rate_hz\" in the sidecar)"
-        } else {
-            ""
-        };
         Err(Error::setting(
             key,
-            format!("a positive, finite value{hint}"),
+            "a positive, finite value",
             v.to_string(),
         ))
     }
@@ -634,6 +632,33 @@ mod tests {
         s.meta.full_scale_vpp = Some(0.0);
         let e = read_record(&path, &s).unwrap_err();
         assert_eq!(e.location, Location::Key("full_scale_vpp".into()));
+    }
+
+    // Found by tests/fuzz_props.rs: --fs 1e308 passed the positive-and-finite check and the analysis
+    // overflowed into infinite frequencies in its advice.
+    #[test]
+    fn sample_rate_beyond_the_accepted_range_is_refused() {
+        let dir = files(&[("r.txt", ramp_text(20).as_bytes())]);
+        let path = dir.path().join("r.txt");
+        for (bad, shown) in [
+            (1e300, "1e300"),
+            (f64::MAX, "1.7976931348623157e308"),
+            (1e-320, "1e-320"),
+            (1e16, "1e16"),
+        ] {
+            let e = read_record(&path, &cli(bad, 12)).unwrap_err();
+            assert_eq!(e.kind, ErrorKind::BadSetting);
+            assert_eq!(e.location, Location::Key("sample_rate_hz".into()));
+            assert_eq!(e.found, shown);
+            assert!(
+                e.expected.starts_with("a sample rate in 1e-6..=1e15 Hz"),
+                "{}",
+                e.expected
+            );
+        }
+        for good in [1e-6, 1e15] {
+            assert!(read_record(&path, &cli(good, 12)).is_ok(), "{good}");
+        }
     }
 
     #[test]

@@ -1,15 +1,19 @@
 //! Leakage diagnosis: how much the record's own spectral leakage, at its actual fractional-bin offset
 //! and under the chosen window, can bias SNR and SFDR, and what would fix it.
 
+use super::fft::power_spectrum;
 use super::metrics::Figures;
+use super::tones::{Claims, Owner};
 use super::{half_span, Coherence, Window, AUTO_LADDER, BIAS_WARN_DB};
 use crate::fit::SineFit;
 use serde::Serialize;
+use std::f64::consts::TAU;
 
 /// The leakage figures of one analysis (`spectrum.leakage` in the JSON).
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct LeakageDiagnosis {
-    /// Tone offset from its centre bin, in bins (−0.5..0.5).
+    /// Tone offset from its centre bin used for the diagnosis, in bins (−0.5..0.5): 0 for a record judged
+    /// coherent, whose fitted offset (`coherence.offset_cycles`) is within the fit's own uncertainty.
     pub offset_bins: f64,
     /// Fundamental power that falls outside its span, relative to the fundamental (from the window's
     /// known spectrum at this offset); `None` when below the rounding floor.
@@ -62,7 +66,14 @@ pub(crate) fn diagnose(
     fit: &SineFit,
     warnings: &mut Vec<String>,
 ) -> LeakageDiagnosis {
-    let offset = coherence.offset_cycles;
+    // A record judged coherent is analysed as exactly coherent; its fitted offset lies within the fit's
+    // own uncertainty, and reading it as leakage warned about leakage that is not there (short records,
+    // where that uncertainty is largest, got advice to use the coherent input they already had).
+    let offset = if coherence.coherent {
+        0.0
+    } else {
+        coherence.offset_cycles
+    };
     let (snr_bias, sfdr_bias, leak) = biases(window, half, offset, figs);
     let significant = snr_bias > BIAS_WARN_DB || sfdr_bias > BIAS_WARN_DB;
     let mut advice = None;
@@ -116,4 +127,62 @@ pub(crate) fn diagnose(
         significant,
         advice,
     }
+}
+
+/// A warning for a fundamental whose span meets the DC span or reaches Nyquist, where the window's main
+/// lobe shares bins with DC or with the tone's own mirror image (the one-sided spectrum folds the lobe
+/// beyond fs/2, or below 0, back onto itself, and in shared bins the two add as complex values). The
+/// level error is computed, not bounded: the fitted sine alone goes through the same window and bin
+/// claims, and its claimed power is compared with A²/2. Warns when the error exceeds [`BIAS_WARN_DB`].
+pub(crate) fn edge_warning(
+    window: Window,
+    w: &[f64],
+    fit: &SineFit,
+    claims: &Claims,
+    warnings: &mut Vec<String>,
+) {
+    let n = w.len();
+    let (k, half, last) = (claims.fundamental_bin, claims.half_span, n / 2);
+    let near_dc = k <= 2 * half;
+    let near_nyquist = k + half >= last;
+    if !(near_dc || near_nyquist) || fit.amplitude_codes <= 0.0 {
+        return;
+    }
+    let cycles_per_sample = fit.cycles / n as f64;
+    let model: Vec<f64> = (0..n)
+        .map(|i| {
+            let turns = (cycles_per_sample * i as f64).fract();
+            fit.amplitude_codes * (TAU * turns + fit.phase_rad).cos()
+        })
+        .collect();
+    let powers = power_spectrum(&model, w);
+    let claimed: f64 = powers
+        .iter()
+        .zip(&claims.owner)
+        .filter(|(_, o)| **o == Owner::Fundamental)
+        .map(|(p, _)| p)
+        .sum();
+    let expected = 0.5 * fit.amplitude_codes * fit.amplitude_codes;
+    let Some(bias) = (claimed > 0.0).then(|| 10.0 * (claimed / expected).log10()) else {
+        return;
+    };
+    if bias.abs() <= BIAS_WARN_DB || !bias.is_finite() {
+        return;
+    }
+    let (lo, hi) = (k.saturating_sub(half), (k + half).min(last));
+    let (meets, fix) = if near_dc {
+        (
+            format!("meets the DC span (bins 0..={half}): part of the tone is counted as DC"),
+            "a higher input frequency or a longer record",
+        )
+    } else {
+        (
+            format!("reaches Nyquist (bin {last}): the tone shares bins with its mirror image"),
+            "a lower input frequency or a longer record",
+        )
+    };
+    warnings.push(format!(
+        "the fundamental's span (bins {lo}..={hi} under the {} window) {meets}, so its level reads {bias:+.2} dB off (computed from the fitted sine); use {fix}",
+        window.name()
+    ));
 }

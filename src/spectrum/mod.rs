@@ -306,6 +306,7 @@ pub fn measure(
     }
     let figs = metrics::figures(&powers, &claims, n, sample_rate_hz, bits);
     let mut warnings = Vec::new();
+    leakage::edge_warning(window, &w, fit, &claims, &mut warnings);
     if figs.noise_bins < 8 {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise figures are poorly determined (use a longer record or fewer harmonics)",
