@@ -296,6 +296,37 @@ mod tests {
         assert!(jitter_fit(&pts[..2]).is_none());
     }
 
+    // SNR against amplitude (dynamic range): conditions at one frequency and several levels give a
+    // rising list; the frequency sweep uses the most common level (common practice, no source).
+    #[test]
+    fn amplitude_sweep_is_collected_at_one_frequency() {
+        let p = |c: &str, f: f64, a: f64, snr: f64| SweepPoint {
+            device: "d1".into(),
+            condition: c.into(),
+            fin_hz: f,
+            amplitude_dbfs: a,
+            snr_db: Some(snr),
+            sinad_db: Some(snr - 0.5),
+            sfdr_dbc: None,
+            enob_bits: None,
+        };
+        let pts = vec![
+            p("a1", 10e6, -1.0, 70.0),
+            p("a20", 10e6, -20.0, 51.0),
+            p("a10", 10e6, -10.0, 61.0),
+            p("f30", 30e6, -1.0, 69.0),
+            p("f60", 60e6, -1.0, 66.0),
+        ];
+        let s = sweep(&pts);
+        let d = s.summaries.iter().find(|m| m.device == "d1").unwrap();
+        assert_eq!(
+            d.snr_vs_amplitude,
+            vec![(-20.0, 51.0), (-10.0, 61.0), (-1.0, 70.0)]
+        );
+        assert_eq!(d.frequency_points, 3);
+        assert_eq!(s.summaries[0].device, "lot mean");
+    }
+
     // ERBW by linear interpolation between straddling points (common practice, no source).
     #[test]
     fn erbw_interpolates_the_3_db_point() {
