@@ -14,7 +14,16 @@ use spurline::Record;
 mod invariants;
 
 const RATES: [f64; 8] = [1.0, 1e6, 100e6, 3.7e9, 1e-3, 1e-300, 1e300, 5e-324];
-const HINTS: [Option<f64>; 8] = [None, None, None, Some(0.1), Some(0.25), Some(0.5), Some(1e-9), Some(0.49)];
+const HINTS: [Option<f64>; 8] = [
+    None,
+    None,
+    None,
+    Some(0.1),
+    Some(0.25),
+    Some(0.5),
+    Some(1e-9),
+    Some(0.49),
+];
 const WINDOWS: [Window; 8] = [
     Window::Rectangular,
     Window::Hann,

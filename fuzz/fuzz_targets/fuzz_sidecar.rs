@@ -20,11 +20,18 @@ fn folder() -> &'static tempfile::TempDir {
 fn record_bytes(ext: &str) -> Vec<u8> {
     let codes: Vec<i32> = (0..64).map(|i| (i * 37 % 256) - 128).collect();
     match ext {
-        "txt" => codes.iter().map(|c| format!("{c}\n")).collect::<String>().into_bytes(),
+        "txt" => codes
+            .iter()
+            .map(|c| format!("{c}\n"))
+            .collect::<String>()
+            .into_bytes(),
         "csv" => ("code,x\n".to_string()
             + &codes.iter().map(|c| format!("{c},1\n")).collect::<String>())
             .into_bytes(),
-        _ => codes.iter().flat_map(|&c| (c as i16).to_le_bytes()).collect(),
+        _ => codes
+            .iter()
+            .flat_map(|&c| (c as i16).to_le_bytes())
+            .collect(),
     }
 }
 
