@@ -96,8 +96,23 @@ pub struct Traces {
     pub powers: Vec<f64>,
     /// Owner of each bin.
     pub owner: Vec<Owner>,
+    /// Codes of the first record: the code histogram is counted from them when a plot asks for it
+    /// (counting 2^N bins per record cost more than the FFT of short records that are never plotted).
+    pub codes: Vec<i32>,
+    /// Resolution of the record, bits.
+    pub bits: u32,
+}
+
+impl Traces {
     /// Count per code of the first record, index 0 = lowest code −2^(N−1) (empty above 24 bits).
-    pub histogram: Vec<u64>,
+    pub fn histogram(&self) -> Vec<u64> {
+        histogram_of(&self.codes, self.bits)
+    }
+
+    /// Whether [`Traces::histogram`] has counts to show.
+    pub fn has_histogram(&self) -> bool {
+        !self.codes.is_empty() && (1..=24).contains(&self.bits)
+    }
 }
 
 /// Both halves of an analysis.
@@ -203,7 +218,6 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
     )
     .map_err(|e| e.with_path(&src))?;
     warnings.extend(spec.warnings);
-    let histogram = histogram_of(&first.codes, first.bits);
     Ok(Measured {
         analysis: Analysis {
             source: src,
@@ -220,7 +234,8 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
             residual,
             powers: spec.powers,
             owner: spec.owner,
-            histogram,
+            codes: first.codes.clone(),
+            bits: first.bits,
         },
     })
 }

@@ -1,11 +1,17 @@
 //! Four-parameter least-squares sine fit (IEEE Std 1241 §4.1.3.3, IEEE Std 1057): Gauss-Newton on the
 //! cosine and sine amplitudes, the offset and the frequency, from the FFT-peak start.
 
+use super::closed::{solve_step, ModelSums};
 use super::start::estimate_frequency;
 use super::start::START_LEN;
-use super::sums::{for_each_group, reduced_product, total, Phasor, LANES, LANE_OFFSETS};
+use super::sums::{
+    accumulate_into, data_sums, reduced_product, total, Accumulator, Phasor, LANES, LANE_OFFSETS,
+};
 use super::three_param::solve_three;
-use super::{centre_of, finish, residual_of, Centred, Ending, FitMethod, FitOutput, SineFit};
+use super::{
+    centre_of, cycles_std, finish, residual_of, residual_pass, Centred, Ending, FitMethod,
+    FitOutput, SineFit,
+};
 use crate::{Error, ErrorKind, Location, Result};
 use nalgebra::{Matrix4, Vector4};
 use std::f64::consts::TAU;
@@ -36,8 +42,9 @@ const FREQ_ULPS: f64 = 4.0;
 
 /// Gauss-Newton sums at the current parameters (a, b, c0 are the model, not sums): JᵀJ and Jᵀr for
 /// columns (cos, sin, 1, ∂/∂ω), and Σr², per lane.
-#[derive(Clone, Default)]
-struct SumsGn {
+#[derive(Default)]
+struct SumsGn<'a> {
+    residual: Option<&'a mut Vec<f64>>,
     a: f64,
     b: f64,
     c0: f64,
@@ -57,16 +64,10 @@ struct SumsGn {
     rr: [f64; LANES],
 }
 
-impl SumsGn {
-    /// Adds a full group of samples and returns their residuals.
+impl Accumulator for SumsGn<'_> {
+    /// Adds a full group of samples and keeps their residuals.
     #[inline(always)]
-    fn add(
-        &mut self,
-        t0: f64,
-        y: &[f64; LANES],
-        c: &[f64; LANES],
-        s: &[f64; LANES],
-    ) -> [f64; LANES] {
+    fn add(&mut self, t0: f64, y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]) {
         let mut out = [0.0; LANES];
         for j in 0..LANES {
             let t = t0 + LANE_OFFSETS[j];
@@ -89,11 +90,13 @@ impl SumsGn {
             self.rr[j] += r * r;
             out[j] = r;
         }
-        out
+        if let Some(v) = self.residual.as_mut() {
+            v.extend_from_slice(&out);
+        }
     }
 
-    /// Adds one sample (the record's last partial group) and returns its residual.
-    fn add_one(&mut self, t: f64, y: f64, c: f64, s: f64) -> f64 {
+    /// Adds one sample (the record's last partial group) and keeps its residual.
+    fn add_one(&mut self, t: f64, y: f64, c: f64, s: f64) {
         let r = y - (self.a * c + self.b * s + self.c0);
         let d = t * (self.b * c - self.a * s);
         self.cc[0] += c * c;
@@ -110,7 +113,9 @@ impl SumsGn {
         self.r[0] += r;
         self.rd[0] += r * d;
         self.rr[0] += r * r;
-        r
+        if let Some(v) = self.residual.as_mut() {
+            v.push(r);
+        }
     }
 }
 
@@ -121,15 +126,144 @@ fn linear_start(y: &[f64], f0: f64) -> Result<Centred> {
     if y.len() < 4 * START_LEN {
         return solve_three(y, f0);
     }
-    let seg = solve_three(&y[..START_LEN], f0)?;
-    let shift = TAU * reduced_product(f0, centre_of(y.len()) - centre_of(START_LEN));
+    Ok(to_frame(
+        solve_three(&y[..START_LEN], f0)?,
+        START_LEN,
+        y.len(),
+    ))
+}
+
+/// Moves parameters fitted on the first `from` samples to the centred frame of the first `to` samples.
+fn to_frame(p: Centred, from: usize, to: usize) -> Centred {
+    let shift = TAU * reduced_product(p.cycles_per_sample, centre_of(to) - centre_of(from));
     let (sd, cd) = shift.sin_cos();
-    // a·cos(θ' + Δ) + b·sin(θ' + Δ) in the whole record's phase θ'.
-    Ok(Centred {
-        a: seg.a * cd + seg.b * sd,
-        b: seg.b * cd - seg.a * sd,
-        c: seg.c,
-        cycles_per_sample: f0,
+    // a·cos(θ' + Δ) + b·sin(θ' + Δ) in the new phase θ'.
+    Centred {
+        a: p.a * cd + p.b * sd,
+        b: p.b * cd - p.a * sd,
+        ..p
+    }
+}
+
+/// Records at least this long first refine the frequency on their first eighth: the start it hands on
+/// is then within the fit's own scatter of that stretch, and the whole record needs about two passes
+/// fewer.
+const PREFIX_MIN: usize = 1 << 18;
+/// Below this step (cycles in the record) a step that does not halve is taken as rounding, not as slow
+/// convergence; the exact check after the residual pass decides.
+const STALL_CYCLES: f64 = 1e-9;
+/// A step larger than this (cycles in the record) leaves the fast iteration to the guarded one.
+const FAST_REACH_CYCLES: f64 = 0.25;
+
+/// Fast Gauss-Newton from `p`: a pass gathers only the data sums, the normal matrix is in closed form
+/// (`closed.rs`) and full steps are taken. Returns the parameters at the stop rule and the passes used,
+/// or `None` when a step is too large or does not shrink: those records go to the guarded iteration.
+fn fast_refine(y: &[f64], mut p: Centred, max_passes: u32) -> Option<(Centred, u32)> {
+    let n = y.len();
+    let centre = centre_of(n);
+    let mut last = f64::INFINITY;
+    for pass in 1..=max_passes {
+        if !(p.cycles_per_sample > 0.0 && p.cycles_per_sample < 0.5) {
+            return None;
+        }
+        let phasor = Phasor {
+            cycles_per_sample: p.cycles_per_sample,
+            centre,
+        };
+        let data = data_sums(y, phasor);
+        let m = ModelSums::new(n, p.cycles_per_sample);
+        let delta = solve_step(&m.normal_matrix(&p), &m.gradient_from_data(&p, &data))?;
+        let omega_step = delta[3] / TAU;
+        let cycles = (omega_step * n as f64).abs();
+        let stalled = cycles > 0.5 * last;
+        if cycles > FAST_REACH_CYCLES || (stalled && cycles > STALL_CYCLES) {
+            return None;
+        }
+        p = Centred {
+            a: p.a + delta[0],
+            b: p.b + delta[1],
+            c: p.c + delta[2],
+            cycles_per_sample: p.cycles_per_sample + omega_step,
+        };
+        if stalled || omega_step.abs() <= FREQ_ULPS * f64::EPSILON * p.cycles_per_sample {
+            return Some((p, pass));
+        }
+        last = cycles;
+    }
+    None
+}
+
+/// A finished fit: parameters, residual and its rms, passes, stop rule met.
+struct Fitted {
+    p: Centred,
+    residual: Vec<f64>,
+    rms: f64,
+    iterations: u32,
+    converged: bool,
+}
+
+/// The fast path: refine on the first eighth of long records, then on the whole record, then one
+/// residual pass whose own sums give the exact Gauss-Newton step. The fit is done when that step moves
+/// the frequency by less than the f64 resolution or by less than a thousandth of its Cramér-Rao
+/// scatter. Otherwise `Err` hands the best parameters so far to the guarded iteration.
+fn fast_fit(
+    y: &[f64],
+    start: Centred,
+    f0: f64,
+    max_passes: u32,
+) -> std::result::Result<Fitted, Centred> {
+    let n = y.len();
+    let mut p = start;
+    let mut passes = 0;
+    if n >= PREFIX_MIN {
+        let len = n / 8;
+        let head = &y[..len];
+        if let Some((q, k)) = solve_three(&head[..START_LEN], f0)
+            .ok()
+            .map(|s| to_frame(s, START_LEN, len))
+            .and_then(|s| fast_refine(head, s, max_passes))
+        {
+            p = to_frame(q, len, n);
+            passes += k;
+        }
+    }
+    let Some((q, k)) = fast_refine(y, p, max_passes) else {
+        return Err(p);
+    };
+    p = q;
+    passes += k;
+    let pass = residual_pass(y, p);
+    let m = ModelSums::new(n, p.cycles_per_sample);
+    let [r, rc, rs, rtc, rts] = pass.sums;
+    let g = Vector4::new(rc, rs, r, p.b * rtc - p.a * rts);
+    let Some(delta) = solve_step(&m.normal_matrix(&p), &g) else {
+        return Err(p);
+    };
+    let mut rms = (pass.sum_sq / n as f64).sqrt();
+    let omega_step = delta[3] / TAU;
+    let scatter = cycles_std(p.a.hypot(p.b), rms, n);
+    let at_resolution = omega_step.abs() <= FREQ_ULPS * f64::EPSILON * p.cycles_per_sample;
+    if !(at_resolution || (omega_step * n as f64).abs() <= 1e-3 * scatter) {
+        return Err(p);
+    }
+    let mut residual = pass.residual;
+    // As in the guarded iteration: a correction below a millionth of the residual rms changes no sample
+    // visibly and is far inside the parameters' own uncertainty; only a larger one costs another pass.
+    if delta[0].abs() + delta[1].abs() + delta[2].abs() > 1e-6 * rms {
+        p = Centred {
+            a: p.a + delta[0],
+            b: p.b + delta[1],
+            c: p.c + delta[2],
+            cycles_per_sample: p.cycles_per_sample + omega_step,
+        };
+        (residual, rms) = residual_of(y, p);
+    }
+    Ok(Fitted {
+        p,
+        residual,
+        rms,
+        iterations: passes,
+        converged: true,
     })
 }
 
@@ -146,22 +280,13 @@ fn gauss_newton_pass(
         centre: centre_of(y.len()),
     };
     let mut sums = SumsGn {
+        residual: Some(residual),
         a: p.a,
         b: p.b,
         c0: p.c,
         ..SumsGn::default()
     };
-    for_each_group(y.len(), phasor, |n0, len, c, s| {
-        let t0 = n0 as f64 - phasor.centre;
-        if len == LANES {
-            let yy: &[f64; LANES] = y[n0..n0 + LANES].try_into().expect("group of LANES");
-            residual.extend_from_slice(&sums.add(t0, yy, c, s));
-        } else {
-            for j in 0..len {
-                residual.push(sums.add_one(t0 + j as f64, y[n0 + j], c[j], s[j]));
-            }
-        }
-    });
+    accumulate_into(y, phasor, &mut sums);
     let n = y.len() as f64;
     let [cc, ss, cs, c, s, cd, sd, d, dd] = [
         &sums.cc, &sums.ss, &sums.cs, &sums.c, &sums.s, &sums.cd, &sums.sd, &sums.d, &sums.dd,
@@ -180,30 +305,14 @@ fn gauss_newton_pass(
         total(&sums.rd),
     );
     let rr = total(&sums.rr);
-    // Jacobi scaling keeps Cholesky accurate although the ω column is ~N·A larger than the others.
-    let scale = Vector4::from_fn(|i, _| 1.0 / m[(i, i)].sqrt());
-    if scale.iter().any(|v| !v.is_finite()) {
-        return (rr, None);
-    }
-    let ms = Matrix4::from_fn(|i, j| m[(i, j)] * scale[i] * scale[j]);
-    let gs = g.component_mul(&scale);
-    let step = ms.cholesky().map(|ch| ch.solve(&gs).component_mul(&scale));
-    (rr, step)
+    (rr, solve_step(&m, &g))
 }
 
-/// Four-parameter fit of `y`: finds the frequency, amplitude, phase and offset.
-pub fn fit_four(
-    y: &[f64],
-    sample_rate_hz: f64,
-    bits: u32,
-    options: FourParamOptions,
-) -> Result<FitOutput> {
+/// The guarded iteration: Gauss-Newton with every sum taken from the residual, and steps that raise the
+/// residual halved until one lowers it. For records the fast path declines (rough starts, tones near
+/// DC or Nyquist, very low SNR).
+fn guarded_fit(y: &[f64], mut p: Centred, max_iterations: u32) -> Result<Fitted> {
     let n = y.len();
-    let hint = options.hint_hz.map(|h| h / sample_rate_hz);
-    let f0 = estimate_frequency(y, hint)?;
-    // The start may be rough for tones within a bin or two of DC; the cycle count is judged after the
-    // fit.
-    let mut p = linear_start(y, f0)?;
     // `residual` holds the residual at `p`; trial passes write into `scratch` and swap in on acceptance,
     // so no separate residual pass is needed at the end.
     let mut residual = Vec::with_capacity(n);
@@ -212,8 +321,7 @@ pub fn fit_four(
     let mut final_linear = None;
     let mut iterations = 0;
     let mut converged = false;
-    let mut warnings = Vec::new();
-    while iterations < options.max_iterations {
+    while iterations < max_iterations {
         let Some(delta) = step else {
             return Err(Error::new(
                 ErrorKind::DegenerateFit,
@@ -264,6 +372,50 @@ pub fn fit_four(
             break;
         }
     }
+    let mut rms = (rss / n as f64).sqrt();
+    if let Some(d) = final_linear {
+        // A correction below a millionth of the residual rms changes no sample visibly and is far inside
+        // the parameters' own uncertainty (rms·√(2/N)); only a larger one costs another pass.
+        if d[0].abs() + d[1].abs() + d[2].abs() > 1e-6 * rms {
+            p.a += d[0];
+            p.b += d[1];
+            p.c += d[2];
+            (residual, rms) = residual_of(y, p);
+        }
+    }
+    Ok(Fitted {
+        p,
+        residual,
+        rms,
+        iterations,
+        converged,
+    })
+}
+
+/// Four-parameter fit of `y`: finds the frequency, amplitude, phase and offset.
+pub fn fit_four(
+    y: &[f64],
+    sample_rate_hz: f64,
+    bits: u32,
+    options: FourParamOptions,
+) -> Result<FitOutput> {
+    let n = y.len();
+    let hint = options.hint_hz.map(|h| h / sample_rate_hz);
+    let f0 = estimate_frequency(y, hint)?;
+    // The start may be rough for tones within a bin or two of DC; the cycle count is judged after the
+    // fit.
+    let start = linear_start(y, f0)?;
+    let mut warnings = Vec::new();
+    let Fitted {
+        p,
+        residual,
+        rms,
+        iterations,
+        converged,
+    } = match fast_fit(y, start, f0, options.max_iterations) {
+        Ok(done) => done,
+        Err(from) => guarded_fit(y, from, options.max_iterations)?,
+    };
     if !converged {
         warnings.push(format!(
             "four-parameter fit stopped at its cap of {} iterations without meeting its stop rule",
@@ -287,17 +439,6 @@ pub fn fit_four(
             "a fitted frequency inside (0, fs/2)",
             format!("{} Hz", p.cycles_per_sample * sample_rate_hz),
         ));
-    }
-    let mut rms = (rss / n as f64).sqrt();
-    if let Some(d) = final_linear {
-        // A correction below a millionth of the residual rms changes no sample visibly and is far inside
-        // the parameters' own uncertainty (rms·√(2/N)); only a larger one costs another pass.
-        if d[0].abs() + d[1].abs() + d[2].abs() > 1e-6 * rms {
-            p.a += d[0];
-            p.b += d[1];
-            p.c += d[2];
-            (residual, rms) = residual_of(y, p);
-        }
     }
     let fit = finish(
         p,
@@ -412,6 +553,65 @@ mod tests {
             "{worst}"
         );
         assert!((f.residual_rms_codes - 1.5).abs() < 0.05);
+    }
+
+    // The fast path (closed-form normal matrix, data sums only) and the guarded iteration (every sum
+    // from the residual, step halving) minimise the same least-squares cost: from the same start they
+    // must land on the same parameters, to far inside the fit's own scatter. Slow reference: the guarded
+    // iteration, itself checked against scipy in tests/reference.rs.
+    #[test]
+    fn fast_path_agrees_with_the_guarded_iteration() {
+        for &(n, cycles, amp, noise, seed) in &[
+            (4096usize, 333.37, 20_000.0, 1.0, 1u64),
+            (70_001, 7_000.37, 20_000.0, 1.5, 2),
+            (1 << 18, 20_011.123, 30_000.0, 2.0, 3),
+            (1000, 3.3, 500.0, 0.5, 4),
+        ] {
+            let y = make(n, cycles, amp, 0.7, -3.0, noise, seed);
+            let f0 = estimate_frequency(&y, None).unwrap();
+            let start = linear_start(&y, f0).unwrap();
+            let fast =
+                fast_fit(&y, start, f0, 50).unwrap_or_else(|_| panic!("n={n}: fast path declined"));
+            let slow = guarded_fit(&y, start, 50).unwrap();
+            let sigma = cycles_std(amp, noise, n);
+            let (fc, sc) = (
+                fast.p.cycles_per_sample * n as f64,
+                slow.p.cycles_per_sample * n as f64,
+            );
+            assert!(
+                (fc - sc).abs() < 1e-3 * sigma,
+                "n={n}: {fc} vs {sc} (σ {sigma})"
+            );
+            assert!((fast.rms - slow.rms).abs() < 1e-9 * slow.rms, "n={n}: rms");
+            assert!((fast.p.a.hypot(fast.p.b) - slow.p.a.hypot(slow.p.b)).abs() < 1e-6 * noise);
+            assert!((fast.p.c - slow.p.c).abs() < 1e-6 * noise);
+            assert_eq!(fast.residual.len(), n);
+            let worst = fast
+                .residual
+                .iter()
+                .zip(&slow.residual)
+                .map(|(a, b)| (a - b).abs())
+                .fold(0.0, f64::max);
+            assert!(worst < 1e-6 * noise, "n={n}: residuals differ by {worst}");
+        }
+    }
+
+    // A start too far off for full steps (0.4 of a bin) is declined by the fast path and handed to the
+    // guarded iteration, which still finds the tone.
+    #[test]
+    fn a_rough_start_falls_back_to_the_guarded_iteration() {
+        let n = 8192;
+        let cycles = 1234.25;
+        let y = make(n, cycles, 10_000.0, 0.3, 0.0, 1.0, 5);
+        let f0 = (cycles + 0.4) / n as f64;
+        let start = solve_three(&y, f0).unwrap();
+        assert!(fast_fit(&y, start, f0, 50).is_err());
+        let out = guarded_fit(&y, start, 50).unwrap();
+        assert!(out.converged);
+        assert!(
+            (out.p.cycles_per_sample * n as f64 - cycles).abs()
+                < 6.0 * cycles_std(10_000.0, 1.0, n)
+        );
     }
 
     #[test]

@@ -1,6 +1,7 @@
 //! Sine fits (IEEE Std 1241 / IEEE Std 1057): three-parameter at a known frequency, four-parameter when
 //! the frequency must be found. Both work on a centred time index in f64.
 
+mod closed;
 mod four_param;
 mod start;
 mod sums;
@@ -161,25 +162,88 @@ pub fn cycles_std(amplitude: f64, noise_rms: f64, samples: usize) -> f64 {
     var_omega.sqrt() * n / TAU
 }
 
-/// Computes the residual of the centred model, and its rms.
-pub(crate) fn residual_of(y: &[f64], p: Centred) -> (Vec<f64>, f64) {
+/// The residual of the centred model with its sums: Σr², and [Σr, Σr·cos, Σr·sin, Σt·r·cos, Σt·r·sin]
+/// (the Gauss-Newton gradient taken from the residual itself, free of the cancellation in data sums).
+pub(crate) struct ResidualPass {
+    pub residual: Vec<f64>,
+    pub sum_sq: f64,
+    pub sums: [f64; 5],
+}
+
+/// One pass computing the residual of `p` over `y` and its sums.
+pub(crate) fn residual_pass(y: &[f64], p: Centred) -> ResidualPass {
+    sums::wide_vectors!(residual_pass_in [] (y: &[f64], p: Centred) -> ResidualPass)
+}
+
+#[inline(always)]
+fn residual_pass_in(y: &[f64], p: Centred) -> ResidualPass {
+    use sums::{BLOCK, WIDE};
+    let samples = y.len();
     let phasor = sums::Phasor {
         cycles_per_sample: p.cycles_per_sample,
-        centre: centre_of(y.len()),
+        centre: centre_of(samples),
     };
-    // Groups arrive in sample order, so the residual is pushed (no zero-fill of a buffer first).
-    let mut out = Vec::with_capacity(y.len());
-    let mut sq = [0.0; sums::LANES];
-    sums::for_each_group(y.len(), phasor, |n0, len, c, s| {
-        for j in 0..len {
-            let r = y[n0 + j] - (p.a * c[j] + p.b * s[j] + p.c);
-            out.push(r);
-            sq[j] += r * r;
+    let (ss, cs) = (TAU * sums::reduced_product(p.cycles_per_sample, WIDE as f64)).sin_cos();
+    // The residual is written into the spare capacity (no zero-fill of a buffer first, and no growth
+    // check in the loop, which would keep the accumulators out of registers).
+    let mut out: Vec<f64> = Vec::with_capacity(samples);
+    let spare = &mut out.spare_capacity_mut()[..samples];
+    let mut acc = [[0.0; WIDE]; 6];
+    let full = samples - samples % WIDE;
+    let mut block_start = 0;
+    while block_start < full {
+        let block_end = (block_start + BLOCK).min(full);
+        let (mut c, mut s) = sums::seed_wide(phasor, block_start);
+        let mut t: [f64; WIDE] = std::array::from_fn(|j| (block_start + j) as f64 - phasor.centre);
+        let outs = spare[block_start..block_end].chunks_exact_mut(WIDE);
+        for (chunk, dst) in y[block_start..block_end].chunks_exact(WIDE).zip(outs) {
+            for j in 0..WIDE {
+                let r = chunk[j] - (p.a * c[j] + p.b * s[j] + p.c);
+                dst[j].write(r);
+                let tr = t[j] * r;
+                acc[0][j] += r * r;
+                acc[1][j] += r;
+                acc[2][j] += r * c[j];
+                acc[3][j] += r * s[j];
+                acc[4][j] += tr * c[j];
+                acc[5][j] += tr * s[j];
+                let c2 = c[j] * cs - s[j] * ss;
+                s[j] = s[j] * cs + c[j] * ss;
+                c[j] = c2;
+                t[j] += WIDE as f64;
+            }
         }
-    });
-    let rms = (sums::total(&sq) / y.len() as f64).sqrt();
-    (out, rms)
+        block_start = block_end;
+    }
+    for (n, &yn) in y.iter().enumerate().skip(full) {
+        let (c, s) = phasor.cos_sin_at(n);
+        let r = yn - (p.a * c + p.b * s + p.c);
+        spare[n].write(r);
+        let tr = (n as f64 - phasor.centre) * r;
+        acc[0][0] += r * r;
+        acc[1][0] += r;
+        acc[2][0] += r * c;
+        acc[3][0] += r * s;
+        acc[4][0] += tr * c;
+        acc[5][0] += tr * s;
+    }
+    // SAFETY: the loops above wrote every one of the first `samples` slots.
+    unsafe { out.set_len(samples) };
+    let t = acc.map(|a| sums::total(&sums::fold_wide(&a)));
+    ResidualPass {
+        residual: out,
+        sum_sq: t[0],
+        sums: [t[1], t[2], t[3], t[4], t[5]],
+    }
 }
+
+/// Computes the residual of the centred model, and its rms.
+pub(crate) fn residual_of(y: &[f64], p: Centred) -> (Vec<f64>, f64) {
+    let pass = residual_pass(y, p);
+    let rms = (pass.sum_sq / y.len() as f64).sqrt();
+    (pass.residual, rms)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -5,7 +5,7 @@
 use std::f64::consts::TAU;
 
 /// Samples between exact re-seeds of the recurrence.
-const BLOCK: usize = 1024;
+pub(crate) const BLOCK: usize = 1024;
 /// Independent lanes: breaks the dependency chain of the rotation and of the accumulators.
 pub(crate) const LANES: usize = 8;
 
@@ -46,16 +46,54 @@ pub(crate) fn reduced_product(a: f64, b: f64) -> f64 {
 /// Offsets of the lanes within a group, as floats.
 pub(crate) const LANE_OFFSETS: [f64; LANES] = [0.0, 1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0];
 
-/// Visits the samples in groups of LANES consecutive samples: `f(n0, len, c, s)` gets the model's cos
-/// and sin at samples n0 + j for j < len (len < LANES only for the record's last group). The lanes are
-/// independent rotations by LANES·ω, which the compiler turns into vector code, re-seeded exactly
-/// every BLOCK samples.
+/// Calls `$inner($args)` (an `#[inline(always)]` function) compiled for the widest vector unit the CPU
+/// has, found at run time: the eight lanes fill one AVX-512 register or two AVX2 registers instead of
+/// four SSE2 ones. Only the vector width changes, never the order of the operations (Rust does not fuse
+/// a·b + c into an FMA unless told), so every path gives bit-identical results.
+macro_rules! wide_vectors {
+    ($inner:ident [$($g:tt)*] ($($arg:ident : $ty:ty),*) -> $ret:ty) => {{
+        #[cfg(target_arch = "x86_64")]
+        {
+            #[target_feature(enable = "avx512f")]
+            unsafe fn avx512<$($g)*>($($arg: $ty),*) -> $ret {
+                $inner($($arg),*)
+            }
+            #[target_feature(enable = "avx2")]
+            unsafe fn avx2<$($g)*>($($arg: $ty),*) -> $ret {
+                $inner($($arg),*)
+            }
+            if std::arch::is_x86_feature_detected!("avx512f") {
+                // SAFETY: the CPU has just been seen to support AVX-512F.
+                return unsafe { avx512($($arg),*) };
+            }
+            if std::arch::is_x86_feature_detected!("avx2") {
+                // SAFETY: the CPU has just been seen to support AVX2.
+                return unsafe { avx2($($arg),*) };
+            }
+        }
+        $inner($($arg),*)
+    }};
+}
+pub(crate) use wide_vectors;
+/// What a pass accumulates: sums kept per lane (so they vectorise), reduced in a fixed order at the end.
+/// A trait rather than a closure: its methods are inlined into the vector-width variants of the pass.
+pub(crate) trait Accumulator {
+    /// Adds a full group: samples with t = t0 + j (t = n − centre), values y, model cos/sin c, s.
+    fn add(&mut self, t0: f64, y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]);
+    /// Adds a single sample (the last partial group).
+    fn add_one(&mut self, t: f64, y: f64, c: f64, s: f64);
+}
+
+/// One pass over `y` into `acc`, in sample order: groups of LANES consecutive samples whose model cos
+/// and sin come from LANES independent rotations by LANES·ω (which the compiler turns into vector
+/// code), re-seeded exactly every BLOCK samples. The record's last group may be partial.
+pub(crate) fn accumulate_into<A: Accumulator>(y: &[f64], phasor: Phasor, acc: &mut A) {
+    wide_vectors!(pass [A: Accumulator] (y: &[f64], phasor: Phasor, acc: &mut A) -> ())
+}
+
 #[inline(always)]
-pub(crate) fn for_each_group(
-    samples: usize,
-    phasor: Phasor,
-    mut f: impl FnMut(usize, usize, &[f64; LANES], &[f64; LANES]),
-) {
+fn pass<A: Accumulator>(y: &[f64], phasor: Phasor, acc: &mut A) {
+    let samples = y.len();
     let (ss, cs) = (TAU * reduced_product(phasor.cycles_per_sample, LANES as f64)).sin_cos();
     let mut block_start = 0;
     while block_start < samples {
@@ -67,8 +105,15 @@ pub(crate) fn for_each_group(
         }
         let mut n = block_start;
         while n < block_end {
-            let len = (block_end - n).min(LANES);
-            f(n, len, &c, &s);
+            let t0 = n as f64 - phasor.centre;
+            if n + LANES <= block_end {
+                let yy: &[f64; LANES] = y[n..n + LANES].try_into().expect("group of LANES");
+                acc.add(t0, yy, &c, &s);
+            } else {
+                for j in 0..block_end - n {
+                    acc.add_one(t0 + j as f64, y[n + j], c[j], s[j]);
+                }
+            }
             for j in 0..LANES {
                 let c2 = c[j] * cs - s[j] * ss;
                 s[j] = s[j] * cs + c[j] * ss;
@@ -80,29 +125,75 @@ pub(crate) fn for_each_group(
     }
 }
 
-/// What a pass accumulates: sums kept per lane (so they vectorise), reduced in a fixed order at the end.
-pub(crate) trait Accumulator: Clone {
-    /// Adds a full group: samples with t = t0 + j (t = n − centre), values y, model cos/sin c, s.
-    fn add(&mut self, t0: f64, y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]);
-    /// Adds a single sample (the last partial group).
-    fn add_one(&mut self, t: f64, y: f64, c: f64, s: f64);
+/// Lanes of the register-resident passes ([`data_sums`], the residual pass): two groups of LANES, so
+/// that two independent rotations hide the latency of the rotation's multiply-and-add chain.
+pub(crate) const WIDE: usize = 2 * LANES;
+
+/// cos and sin of the model at samples n0 .. n0 + WIDE: one exact evaluation, then rotations by ω
+/// (each adds about an ulp, so the last lane is within ~1e-15 of exact).
+#[inline(always)]
+pub(crate) fn seed_wide(phasor: Phasor, n0: usize) -> ([f64; WIDE], [f64; WIDE]) {
+    let mut c = [0.0; WIDE];
+    let mut s = [0.0; WIDE];
+    (c[0], s[0]) = phasor.cos_sin_at(n0);
+    let (s1, c1) = (TAU * phasor.cycles_per_sample).sin_cos();
+    for j in 1..WIDE {
+        c[j] = c[j - 1] * c1 - s[j - 1] * s1;
+        s[j] = s[j - 1] * c1 + c[j - 1] * s1;
+    }
+    (c, s)
 }
 
-/// Runs one pass over `y` with the accumulator `template` (which may carry model parameters).
-pub(crate) fn accumulate<A: Accumulator>(y: &[f64], phasor: Phasor, template: &A) -> A {
-    let mut acc = template.clone();
-    for_each_group(y.len(), phasor, |n0, len, c, s| {
-        let t0 = n0 as f64 - phasor.centre;
-        if len == LANES {
-            let yy: &[f64; LANES] = y[n0..n0 + LANES].try_into().expect("group of LANES");
-            acc.add(t0, yy, c, s);
-        } else {
-            for j in 0..len {
-                acc.add_one(t0 + j as f64, y[n0 + j], c[j], s[j]);
+/// Folds WIDE lanes into LANES lanes in a fixed order, for [`total`].
+#[inline(always)]
+pub(crate) fn fold_wide(v: &[f64; WIDE]) -> [f64; LANES] {
+    std::array::from_fn(|j| v[j] + v[j + LANES])
+}
+
+/// The data sums of a fit pass over `y` at `phasor`: [Σy, Σy·cos, Σy·sin, Σt·y·cos, Σt·y·sin]. Its accumulators stay in
+/// registers.
+pub(crate) fn data_sums(y: &[f64], phasor: Phasor) -> [f64; 5] {
+    wide_vectors!(data_sums_in [] (y: &[f64], phasor: Phasor) -> [f64; 5])
+}
+
+#[inline(always)]
+fn data_sums_in(y: &[f64], phasor: Phasor) -> [f64; 5] {
+    let samples = y.len();
+    let (ss, cs) = (TAU * reduced_product(phasor.cycles_per_sample, WIDE as f64)).sin_cos();
+    let mut acc = [[0.0; WIDE]; 5];
+    let full = samples - samples % WIDE;
+    let mut block_start = 0;
+    while block_start < full {
+        let block_end = (block_start + BLOCK).min(full);
+        let (mut c, mut s) = seed_wide(phasor, block_start);
+        let mut t: [f64; WIDE] = std::array::from_fn(|j| (block_start + j) as f64 - phasor.centre);
+        for chunk in y[block_start..block_end].chunks_exact(WIDE) {
+            for j in 0..WIDE {
+                let yj = chunk[j];
+                let ty = t[j] * yj;
+                acc[0][j] += yj;
+                acc[1][j] += yj * c[j];
+                acc[2][j] += yj * s[j];
+                acc[3][j] += ty * c[j];
+                acc[4][j] += ty * s[j];
+                let c2 = c[j] * cs - s[j] * ss;
+                s[j] = s[j] * cs + c[j] * ss;
+                c[j] = c2;
+                t[j] += WIDE as f64;
             }
         }
-    });
-    acc
+        block_start = block_end;
+    }
+    for (n, &yj) in y.iter().enumerate().skip(full) {
+        let (c, s) = phasor.cos_sin_at(n);
+        let t = n as f64 - phasor.centre;
+        acc[0][0] += yj;
+        acc[1][0] += yj * c;
+        acc[2][0] += yj * s;
+        acc[3][0] += t * yj * c;
+        acc[4][0] += t * yj * s;
+    }
+    acc.map(|a| total(&fold_wide(&a)))
 }
 
 /// Sum of the lanes in a fixed (pairwise) order: the result does not depend on anything but the input.
@@ -119,22 +210,42 @@ mod tests {
     // every sample exactly once, for lengths that are not multiples of the block or of the lanes.
     #[test]
     fn recurrence_matches_direct_evaluation() {
+        struct Check {
+            ph: Phasor,
+            seen: Vec<u8>,
+            worst: f64,
+        }
+        impl Check {
+            fn one(&mut self, t: f64, c: f64, s: f64) {
+                let n = (t + self.ph.centre).round() as usize;
+                let (c0, s0) = self.ph.cos_sin_at(n);
+                self.worst = self.worst.max((c - c0).abs()).max((s - s0).abs());
+                self.seen[n] += 1;
+            }
+        }
+        impl Accumulator for Check {
+            fn add(&mut self, t0: f64, _y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]) {
+                for j in 0..LANES {
+                    self.one(t0 + j as f64, c[j], s[j]);
+                }
+            }
+            fn add_one(&mut self, t: f64, _y: f64, c: f64, s: f64) {
+                self.one(t, c, s);
+            }
+        }
         for &(n, f) in &[(1000usize, 0.0123), (4099, 0.4567), (65536 + 13, 0.1234567)] {
             let ph = Phasor {
                 cycles_per_sample: f,
                 centre: (n as f64 - 1.0) / 2.0,
             };
-            let mut seen = vec![0u8; n];
-            let mut worst: f64 = 0.0;
-            for_each_group(n, ph, |n0, len, c, s| {
-                for j in 0..len {
-                    let (c0, s0) = ph.cos_sin_at(n0 + j);
-                    worst = worst.max((c[j] - c0).abs()).max((s[j] - s0).abs());
-                    seen[n0 + j] += 1;
-                }
-            });
-            assert!(seen.iter().all(|&k| k == 1), "n={n}");
-            assert!(worst < 1e-12, "n={n} worst={worst}");
+            let mut check = Check {
+                ph,
+                seen: vec![0u8; n],
+                worst: 0.0,
+            };
+            accumulate_into(&vec![0.0; n], ph, &mut check);
+            assert!(check.seen.iter().all(|&k| k == 1), "n={n}");
+            assert!(check.worst < 1e-12, "n={n} worst={}", check.worst);
         }
     }
 

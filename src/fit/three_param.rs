@@ -1,48 +1,9 @@
 //! Three-parameter least-squares sine fit at a known frequency (IEEE Std 1241 §4.1.3.1, IEEE Std 1057).
 
-use super::sums::{accumulate, total, Accumulator, Phasor, LANES};
+use super::closed::ModelSums;
+use super::sums::{data_sums, Phasor};
 use super::{centre_of, finish, residual_of, Centred, Ending, FitMethod, FitOutput};
 use crate::{Error, ErrorKind, Location, Result};
-use nalgebra::{Matrix3, Vector3};
-
-/// Sums of the three-parameter normal equations (columns cos, sin, 1), per lane.
-#[derive(Clone, Default)]
-struct Sums3 {
-    cc: [f64; LANES],
-    ss: [f64; LANES],
-    cs: [f64; LANES],
-    c: [f64; LANES],
-    s: [f64; LANES],
-    y: [f64; LANES],
-    yc: [f64; LANES],
-    ys: [f64; LANES],
-}
-
-impl Accumulator for Sums3 {
-    #[inline(always)]
-    fn add(&mut self, _t0: f64, y: &[f64; LANES], c: &[f64; LANES], s: &[f64; LANES]) {
-        for j in 0..LANES {
-            self.cc[j] += c[j] * c[j];
-            self.ss[j] += s[j] * s[j];
-            self.cs[j] += c[j] * s[j];
-            self.c[j] += c[j];
-            self.s[j] += s[j];
-            self.y[j] += y[j];
-            self.yc[j] += y[j] * c[j];
-            self.ys[j] += y[j] * s[j];
-        }
-    }
-    fn add_one(&mut self, _t: f64, y: f64, c: f64, s: f64) {
-        self.cc[0] += c * c;
-        self.ss[0] += s * s;
-        self.cs[0] += c * s;
-        self.c[0] += c;
-        self.s[0] += s;
-        self.y[0] += y;
-        self.yc[0] += y * c;
-        self.ys[0] += y * s;
-    }
-}
 
 /// Solves the three-parameter fit in the centred frame.
 pub(crate) fn solve_three(y: &[f64], cycles_per_sample: f64) -> Result<Centred> {
@@ -50,31 +11,23 @@ pub(crate) fn solve_three(y: &[f64], cycles_per_sample: f64) -> Result<Centred> 
         cycles_per_sample,
         centre: centre_of(y.len()),
     };
-    let m = accumulate(y, phasor, &Sums3::default());
-    let n = y.len() as f64;
-    let (cc, ss, cs, c, s) = (
-        total(&m.cc),
-        total(&m.ss),
-        total(&m.cs),
-        total(&m.c),
-        total(&m.s),
-    );
-    let a = Matrix3::new(cc, cs, c, cs, ss, s, c, s, n);
-    let rhs = Vector3::new(total(&m.yc), total(&m.ys), total(&m.y));
-    let chol = a.cholesky().ok_or_else(|| {
-        Error::new(
+    let [y1, yc, ys, _, _] = data_sums(y, phasor);
+    // In the centred frame Σcos·sin = Σsin = 0, so the sine column decouples and the rest is 2×2.
+    let m = ModelSums::new(y.len(), cycles_per_sample);
+    let det = m.cc * m.n - m.c * m.c;
+    if !(m.ss > 1e-9 * m.n && det > 1e-9 * m.n * m.n) {
+        return Err(Error::new(
             ErrorKind::DegenerateFit,
             "",
             Location::Whole,
             "a frequency away from DC and Nyquist (solvable three-parameter normal equations)",
             format!("{cycles_per_sample} cycles per sample"),
-        )
-    })?;
-    let x = chol.solve(&rhs);
+        ));
+    }
     Ok(Centred {
-        a: x[0],
-        b: x[1],
-        c: x[2],
+        a: (m.n * yc - m.c * y1) / det,
+        b: ys / m.ss,
+        c: (m.cc * y1 - m.c * yc) / det,
         cycles_per_sample,
     })
 }

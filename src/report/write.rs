@@ -107,7 +107,7 @@ fn render_plots(
     if a.fit.is_some() && !t.residual.is_empty() {
         out.push(("residual", residual_svg(record_name, a, t, o)?));
     }
-    if a.fit.is_some() && !t.histogram.is_empty() {
+    if a.fit.is_some() && t.has_histogram() {
         out.push(("histogram", histogram_svg(record_name, a, t, o)?));
     }
     Ok(out)

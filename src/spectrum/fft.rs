@@ -20,6 +20,19 @@ pub fn real_fft(input: &mut [f64]) -> Vec<Complex<f64>> {
     out
 }
 
+/// Per-thread buffers of [`power_spectrum`]: the windowed copy, the complex output and the FFT's scratch
+/// are reused across records of one length instead of allocated and zeroed each time.
+#[derive(Default)]
+struct Buffers {
+    input: Vec<f64>,
+    output: Vec<Complex<f64>>,
+    scratch: Vec<Complex<f64>>,
+}
+
+thread_local! {
+    static BUFFERS: RefCell<Buffers> = RefCell::new(Buffers::default());
+}
+
 /// One-sided power spectrum of `x` under window `w`, scaled by N·Σw² so that a tone's power summed over
 /// its bins equals A²/2 and the mean noise bin is 2σ²/N (bins 0 and N/2 are not doubled). An empty or
 /// all-ones `w` is the rectangular window: no window is built or multiplied.
@@ -27,24 +40,37 @@ pub fn power_spectrum(x: &[f64], w: &[f64]) -> Vec<f64> {
     debug_assert!(w.is_empty() || x.len() == w.len());
     let n = x.len();
     let rectangular = w.is_empty() || w.iter().all(|&v| v == 1.0);
-    let (mut buf, sum_w2): (Vec<f64>, f64) = if rectangular {
-        (x.to_vec(), n as f64)
-    } else {
-        (
-            x.iter().zip(w).map(|(a, b)| a * b).collect(),
-            w.iter().map(|v| v * v).sum(),
-        )
-    };
-    let spec = real_fft(&mut buf);
-    let scale = 1.0 / (n as f64 * sum_w2);
-    let mut out: Vec<f64> = spec.iter().map(|z| 2.0 * scale * z.norm_sqr()).collect();
-    // DC and (for even N) Nyquist are not mirrored.
-    out[0] *= 0.5;
-    if n % 2 == 0 {
-        let last = out.len() - 1;
-        out[last] *= 0.5;
-    }
-    out
+    let plan = PLANNER.with(|p| p.borrow_mut().plan_fft_forward(n));
+    BUFFERS.with(|b| {
+        let mut guard = b.borrow_mut();
+        let Buffers {
+            input,
+            output,
+            scratch,
+        } = &mut *guard;
+        input.clear();
+        let sum_w2: f64 = if rectangular {
+            input.extend_from_slice(x);
+            n as f64
+        } else {
+            input.extend(x.iter().zip(w).map(|(a, b)| a * b));
+            w.iter().map(|v| v * v).sum()
+        };
+        output.resize(n / 2 + 1, Complex::new(0.0, 0.0));
+        scratch.resize(plan.get_scratch_len(), Complex::new(0.0, 0.0));
+        // Lengths always match the plan, so this cannot fail.
+        plan.process_with_scratch(input, output, scratch)
+            .expect("buffer lengths come from the plan");
+        let scale = 1.0 / (n as f64 * sum_w2);
+        let mut out: Vec<f64> = output.iter().map(|z| 2.0 * scale * z.norm_sqr()).collect();
+        // DC and (for even N) Nyquist are not mirrored.
+        out[0] *= 0.5;
+        if n % 2 == 0 {
+            let last = out.len() - 1;
+            out[last] *= 0.5;
+        }
+        out
+    })
 }
 
 #[cfg(test)]

@@ -134,14 +134,16 @@ pub(crate) fn diagnose(
 /// beyond fs/2, or below 0, back onto itself, and in shared bins the two add as complex values). The
 /// level error is computed, not bounded: the fitted sine alone goes through the same window and bin
 /// claims, and its claimed power is compared with A²/2. Warns when the error exceeds [`BIAS_WARN_DB`].
+/// `w` is the window's samples, or empty for the rectangular window (never materialised), so the record
+/// length `n` is passed on its own.
 pub(crate) fn edge_warning(
     window: Window,
     w: &[f64],
+    n: usize,
     fit: &SineFit,
     claims: &Claims,
     warnings: &mut Vec<String>,
 ) {
-    let n = w.len();
     let (k, half, last) = (claims.fundamental_bin, claims.half_span, n / 2);
     let near_dc = k <= 2 * half;
     let near_nyquist = k + half >= last;

@@ -115,12 +115,27 @@ pub fn figures(
     let bin_hz = sample_rate_hz / samples as f64;
     let weight = |k: usize| bin_weight(k, samples);
 
+    // One pass over the bins gathers the noise, the fundamental's span and the largest noise bin.
     let (mut noise_sum, mut noise_w, mut noise_bins) = (0.0, 0.0, 0usize);
+    let (mut f_raw, mut f_w) = (0.0, 0.0);
+    let mut largest_noise_bin = 0.0;
+    let mut peak_k = None;
     for (k, (&p, &o)) in powers.iter().zip(&claims.owner).enumerate() {
-        if o == Owner::Noise {
-            noise_sum += p;
-            noise_w += weight(k);
-            noise_bins += 1;
+        match o {
+            Owner::Noise => {
+                noise_sum += p;
+                noise_w += weight(k);
+                noise_bins += 1;
+                if p > largest_noise_bin {
+                    largest_noise_bin = p;
+                    peak_k = Some(k);
+                }
+            }
+            Owner::Fundamental => {
+                f_raw += p;
+                f_w += weight(k);
+            }
+            _ => {}
         }
     }
     let noise_per_bin = if noise_w > 0.0 {
@@ -133,8 +148,6 @@ pub fn figures(
     let span_power = |set: &mut dyn Iterator<Item = usize>| -> (f64, f64) {
         set.fold((0.0, 0.0), |(p, w), k| (p + powers[k], w + weight(k)))
     };
-    let (f_raw, f_w) =
-        span_power(&mut (0..powers.len()).filter(|&k| claims.owner[k] == Owner::Fundamental));
     let fundamental_power = (f_raw - noise_per_bin * f_w).max(0.0);
     let fundamental_dbfs = db(fundamental_power / pfs).unwrap_or(f64::NEG_INFINITY);
 
@@ -188,14 +201,6 @@ pub fn figures(
     }
 
     // Non-harmonic spurs: the largest noise bin, with the noise bins of its lobe.
-    let mut largest_noise_bin = 0.0;
-    let mut peak_k = None;
-    for (k, &p) in powers.iter().enumerate() {
-        if claims.owner[k] == Owner::Noise && p > largest_noise_bin {
-            largest_noise_bin = p;
-            peak_k = Some(k);
-        }
-    }
     if let Some(k) = peak_k {
         let lo = k.saturating_sub(claims.half_span);
         let hi = (k + claims.half_span).min(powers.len() - 1);

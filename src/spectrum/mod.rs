@@ -280,14 +280,16 @@ pub fn measure(
     } else {
         window.samples_shared(n)
     };
-    let mut powers = vec![0.0; n / 2 + 1];
-    for r in records {
-        for (acc, p) in powers.iter_mut().zip(fft::power_spectrum(r, &w)) {
-            *acc += p;
+    let mut powers = fft::power_spectrum(records[0], &w);
+    if records.len() > 1 {
+        for r in &records[1..] {
+            for (acc, p) in powers.iter_mut().zip(fft::power_spectrum(r, &w)) {
+                *acc += p;
+            }
         }
+        let m = records.len() as f64;
+        powers.iter_mut().for_each(|p| *p /= m);
     }
-    let m = records.len() as f64;
-    powers.iter_mut().for_each(|p| *p /= m);
     let claims = tones::claim_bins(n, fit.cycles, settings.harmonics.max(1), half);
     if claims.owner[claims.fundamental_bin] == tones::Owner::Dc {
         return Err(Error::new(
@@ -306,7 +308,7 @@ pub fn measure(
     }
     let figs = metrics::figures(&powers, &claims, n, sample_rate_hz, bits);
     let mut warnings = Vec::new();
-    leakage::edge_warning(window, &w, fit, &claims, &mut warnings);
+    leakage::edge_warning(window, &w, n, fit, &claims, &mut warnings);
     if figs.noise_bins < 8 {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise figures are poorly determined (use a longer record or fewer harmonics)",

@@ -56,7 +56,7 @@ pub fn histogram_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> 
         .fit
         .as_ref()
         .ok_or_else(|| no_data("histogram", "a record without a sine fit"))?;
-    let hist = &t.histogram;
+    let hist = &t.histogram();
     if a.bits == 0 || a.bits > 24 || hist.len() != 1usize << a.bits {
         return Err(no_data(
             "histogram",
