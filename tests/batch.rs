@@ -1,7 +1,8 @@
 //! Batch runs and limit tables: the bench plan and every plan error (file, line, key), the limit table
 //! and every limit error (row), verdicts with guardbands, a small lot end to end through the binary
 //! (a corrupt record becomes an error row, the rest goes on), exit codes, byte-identical outputs for any
-//! thread count, yields, and limit proposals and Cpk against values stored from numpy/scipy.
+//! thread count, yields, shards merged into the unsharded report byte for byte (and the merge's
+//! refusals), a run killed midway, and limit proposals and Cpk against values stored from numpy/scipy.
 
 use assert_cmd::Command;
 use spurline::batch::{BenchPlan, RecordSource};
@@ -928,6 +929,423 @@ fn outputs_are_byte_identical_for_any_thread_count() {
             f.display()
         );
     }
+}
+
+// ───────────────────────────── shards and merge ─────────────────────────────
+
+fn merge(out: &Path, shards: &[&Path]) -> std::process::Output {
+    let o = spurline()
+        .arg("merge")
+        .arg(out)
+        .args(shards)
+        .output()
+        .unwrap();
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(!err.contains("panicked"), "{err}");
+    o
+}
+
+/// The last line of a run's stdout (the counts) without the output folder it names.
+fn counts_line(o: &std::process::Output) -> String {
+    let text = String::from_utf8_lossy(&o.stdout).to_string();
+    let last = text.lines().last().unwrap_or("").to_string();
+    last.split("; summaries in").next().unwrap().to_string()
+}
+
+fn manifest(dir: &Path) -> serde_json::Value {
+    serde_json::from_str(&std::fs::read_to_string(dir.join("shard.json")).unwrap()).unwrap()
+}
+
+fn assert_same_files(a: &Path, b: &Path) {
+    let (fa, fb) = (files_under(a), files_under(b));
+    assert_eq!(fa, fb, "{} and {}", a.display(), b.display());
+    for f in &fa {
+        assert!(
+            std::fs::read(a.join(f)).unwrap() == std::fs::read(b.join(f)).unwrap(),
+            "{} differs",
+            f.display()
+        );
+    }
+}
+
+#[test]
+fn shards_merge_into_the_unsharded_report_byte_for_byte() {
+    // The design goal of issue 8 (no outside source: the unsharded run is the reference): the merge of
+    // the shards of a run equals the unsharded run in every file, whatever --jobs each shard used.
+    let lot = make_lot();
+    let p = lot.path();
+    let limits = p.join("limits.csv");
+    let l = limits.to_str().unwrap();
+    // First the lot as it is (exit 1: some limits fail), then with a corrupt record (an error row,
+    // exit 2), so error counts and messages go through the merge too.
+    for (round, want_code) in [("clean", 1), ("corrupt", 2)] {
+        if round == "corrupt" {
+            std::fs::write(p.join("records/d03/fin_10M_1.bin"), [1u8, 2, 3]).unwrap();
+        }
+        let full = p.join(format!("{round}-full"));
+        let whole = run_batch(p, &full, &["--limits", l, "--plots", "failures"]);
+        assert_eq!(whole.status.code(), Some(want_code), "{round}");
+        let mut dirs = Vec::new();
+        for k in 1..=3 {
+            let dir = p.join(format!("{round}-shard{k}"));
+            let jobs = if k == 2 { "2" } else { "1" };
+            let shard = format!("{k}/3");
+            let o = run_batch(
+                p,
+                &dir,
+                &[
+                    "--limits", l, "--plots", "failures", "--jobs", jobs, "--shard", &shard,
+                ],
+            );
+            assert!(
+                matches!(o.status.code(), Some(0..=2)),
+                "{}",
+                String::from_utf8_lossy(&o.stderr)
+            );
+            dirs.push(dir);
+        }
+        // Round-robin in lot order d01..d04: shard 1 takes d01 and d04, 2 takes d02, 3 takes d03.
+        let names = |d: &Path| -> Vec<String> {
+            manifest(d)["devices"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .map(|v| v.as_str().unwrap().to_string())
+                .collect()
+        };
+        assert_eq!(names(&dirs[0]), ["d01", "d04"]);
+        assert_eq!(names(&dirs[1]), ["d02"]);
+        assert_eq!(names(&dirs[2]), ["d03"]);
+        let m = manifest(&dirs[0]);
+        assert_eq!(
+            (m["shard"].as_u64(), m["shards"].as_u64()),
+            (Some(1), Some(3))
+        );
+        assert_eq!(m["lot_devices"], 4);
+        // A shard holds only its own devices' folders beside its lot files and manifest.
+        assert!(dirs[0].join("d04/results.json").is_file());
+        assert!(!dirs[0].join("d02").exists());
+        let merged = p.join(format!("{round}-merged"));
+        // The shard folders in any order.
+        let o = merge(&merged, &[&dirs[2], &dirs[0], &dirs[1]]);
+        assert_eq!(
+            o.status.code(),
+            Some(want_code),
+            "{round}: {}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        assert_eq!(counts_line(&o), counts_line(&whole), "{round}");
+        if round == "corrupt" {
+            assert!(String::from_utf8_lossy(&o.stderr).contains("d03 / fin_10M"));
+        }
+        assert!(!merged.join("shard.json").exists());
+        assert_same_files(&full, &merged);
+        // Plots of the failing results were copied too.
+        assert!(files_under(&merged)
+            .iter()
+            .any(|f| f.to_string_lossy().ends_with("-spectrum.svg")));
+        // The shard folders are left as they were: merging again gives the same report.
+        let again = p.join(format!("{round}-again"));
+        assert_eq!(
+            merge(&again, &[&dirs[0], &dirs[1], &dirs[2]]).status.code(),
+            Some(want_code)
+        );
+        assert_same_files(&full, &again);
+    }
+}
+
+#[test]
+fn more_shards_than_devices_and_one_shard() {
+    // Shards 5..8 of 8 get no device (a lot of 4): their files are header-only and still merge. One
+    // shard of one is the whole lot.
+    let lot = make_lot();
+    let p = lot.path();
+    let full = p.join("full");
+    assert_eq!(run_batch(p, &full, &[]).status.code(), Some(0));
+    let dirs: Vec<PathBuf> = (1..=8).map(|k| p.join(format!("s{k}"))).collect();
+    for (k, d) in dirs.iter().enumerate() {
+        let shard = format!("{}/8", k + 1);
+        assert_eq!(run_batch(p, d, &["--shard", &shard]).status.code(), Some(0));
+    }
+    assert_eq!(manifest(&dirs[6])["devices"], serde_json::json!([]));
+    let refs: Vec<&Path> = dirs.iter().map(PathBuf::as_path).collect();
+    let merged = p.join("merged");
+    assert_eq!(merge(&merged, &refs).status.code(), Some(0));
+    assert_same_files(&full, &merged);
+    let one = p.join("one");
+    assert_eq!(
+        run_batch(p, &one, &["--shard", "1/1"]).status.code(),
+        Some(0)
+    );
+    let merged1 = p.join("merged1");
+    assert_eq!(merge(&merged1, &[&one]).status.code(), Some(0));
+    assert_same_files(&full, &merged1);
+}
+
+#[test]
+fn merge_refuses_missing_duplicated_and_foreign_shards() {
+    let lot = make_lot();
+    let p = lot.path();
+    let limits = p.join("limits.csv");
+    let l = limits.to_str().unwrap();
+    let shard = |name: &str, k: &str, extra: &[&str]| -> PathBuf {
+        let dir = p.join(name);
+        let mut args = vec!["--shard", k];
+        args.extend_from_slice(extra);
+        let o = run_batch(p, &dir, &args);
+        assert!(
+            matches!(o.status.code(), Some(0 | 1)),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        dir
+    };
+    let s1 = shard("s1", "1/3", &["--limits", l]);
+    let s2 = shard("s2", "2/3", &["--limits", l]);
+    let s3 = shard("s3", "3/3", &["--limits", l]);
+    let out = p.join("merged");
+    let refused = |dirs: &[&Path], needles: &[&str]| {
+        let o = merge(&out, dirs);
+        let err = String::from_utf8_lossy(&o.stderr).to_string();
+        assert_eq!(o.status.code(), Some(2), "{err}");
+        for n in needles {
+            assert!(err.contains(n), "{n:?} not in {err}");
+        }
+        // Refused before anything is written.
+        assert!(!out.exists(), "{err}");
+    };
+    // A missing shard is named.
+    refused(&[&s1, &s3], &["shard 2/3", "'shards'"]);
+    // A shard given twice (here the same folder twice) names the shard and both folders.
+    refused(&[&s1, &s2, &s2, &s3], &["shard 2/3 a second time", "s2"]);
+    // A shard of the same plan run with another limit table: another fingerprint.
+    let loose = p.join("loose.csv");
+    std::fs::write(&loose, "condition,metric,low,high,unit\n*,snr_db,40,,dB\n").unwrap();
+    let s2x = shard("s2x", "2/3", &["--limits", loose.to_str().unwrap()]);
+    refused(&[&s1, &s2x, &s3], &["s2x/shard.json", "'fingerprint'"]);
+    // ... and one of a changed plan (one comment more is another plan file).
+    let plan = p.join("plan.toml");
+    let text = std::fs::read_to_string(&plan).unwrap();
+    std::fs::write(&plan, format!("{text}\n# changed\n")).unwrap();
+    let s2p = shard("s2p", "2/3", &["--limits", l]);
+    std::fs::write(&plan, &text).unwrap();
+    refused(&[&s1, &s2p, &s3], &["s2p/shard.json", "'fingerprint'"]);
+    // A shard of another split (M = 4), and one run with other plots.
+    let s2m = shard("s2m", "2/4", &["--limits", l]);
+    refused(&[&s1, &s2m, &s3], &["'shards'", "expected shards 3"]);
+    let s2q = shard("s2q", "2/3", &["--limits", l, "--plots", "all"]);
+    refused(&[&s1, &s2q, &s3], &["'plots'"]);
+    // A device in two shards (a manifest edited by hand).
+    let s3d = p.join("s3d");
+    std::fs::create_dir_all(&s3d).unwrap();
+    for f in files_under(&s3) {
+        std::fs::create_dir_all(s3d.join(&f).parent().unwrap()).unwrap();
+        std::fs::copy(s3.join(&f), s3d.join(&f)).unwrap();
+    }
+    let mut m = manifest(&s3d);
+    m["devices"] = serde_json::json!(["d01"]);
+    std::fs::write(s3d.join("shard.json"), m.to_string()).unwrap();
+    refused(
+        &[&s1, &s2, &s3d],
+        &["device 'd01' in shard 3/3 and in shard 1/3"],
+    );
+    // A folder that is no finished shard (an unsharded run: no manifest).
+    let whole = p.join("whole");
+    run_batch(p, &whole, &["--limits", l]);
+    assert!(!whole.join("shard.json").exists());
+    refused(&[&s1, &s2, &whole], &["whole/shard.json"]);
+    // A manifest left by an earlier shard run is removed by the next run into the folder.
+    let reused = shard("reused", "1/3", &["--limits", l]);
+    assert!(reused.join("shard.json").is_file());
+    run_batch(p, &reused, &["--limits", l]);
+    assert!(!reused.join("shard.json").exists());
+    // The merged report may not go into a shard folder.
+    let o = merge(&s1, &[&s1, &s2, &s3]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("'out'"));
+    // The good set merges.
+    assert_eq!(merge(&out, &[&s1, &s2, &s3]).status.code(), Some(1));
+}
+
+#[test]
+fn bad_shard_values_are_errors_naming_the_option() {
+    let lot = make_lot();
+    let p = lot.path();
+    for bad in ["0/3", "4/3", "x", "3", "1/0", "2/", "-1/3", "1.5/3"] {
+        let out = p.join("out");
+        let o = run_batch(p, &out, &[&format!("--shard={bad}")]);
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{bad}: {err}");
+        assert!(
+            err.contains("'--shard'") && err.contains("K/M") && err.contains(&format!("'{bad}'")),
+            "{bad}: {err}"
+        );
+        // Refused before the work: no output folder.
+        assert!(!out.exists(), "{bad}");
+    }
+}
+
+// ───────────────────────────── an interrupted run ─────────────────────────────
+
+/// A lot of `devices` × 2 conditions whose records are four 2^15-sample binary files shared by every
+/// device through an explicit record list (many results, few files to write).
+fn make_big_lot(devices: usize) -> tempfile::TempDir {
+    use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+    use std::fmt::Write as _;
+    let dir = tempfile::tempdir().unwrap();
+    let mut plan = String::from(
+        "title = \"big lot\"\n[converter]\nbits = 12\nsample_rate_hz = 100e6\nformat = \"i16le\"\n\
+         [analysis]\nharmonics = 5\n",
+    );
+    let mut fins = Vec::new();
+    for (c, target) in [10.1e6, 31.3e6].into_iter().enumerate() {
+        for v in 0..2 {
+            let s = synthesize(&SynthSettings {
+                bits: 12,
+                samples: 1 << 15,
+                frequency: SynthFrequency::NearestCoherent(target),
+                noise_rms_codes: 0.5 + v as f64,
+                seed: (10 * c + v) as u64,
+                ..SynthSettings::default()
+            })
+            .unwrap();
+            let layout = OutputLayout::Binary {
+                word_bytes: 2,
+                big_endian: false,
+                offset_binary: false,
+            };
+            write_record(&dir.path().join(format!("r{c}{v}.bin")), &s.record, &layout).unwrap();
+            if v == 0 {
+                fins.push(s.frequency_hz);
+            }
+        }
+    }
+    plan.push_str("[records]\nlist = [\n");
+    for d in 0..devices {
+        for c in 0..2 {
+            let _ = writeln!(
+                plan,
+                "  {{ device = \"d{d:05}\", condition = \"c{c}\", files = [\"r{c}{}.bin\"] }},",
+                d % 2
+            );
+        }
+    }
+    plan.push_str("]\n");
+    for (c, f) in fins.iter().enumerate() {
+        let _ = write!(
+            plan,
+            "\n[[condition]]\nname = \"c{c}\"\nfin_hz = {f}\namplitude_dbfs = -1.0\n"
+        );
+    }
+    std::fs::write(dir.path().join("plan.toml"), plan).unwrap();
+    std::fs::write(
+        dir.path().join("limits.csv"),
+        "condition,metric,low,high,unit\n*,spectrum.snr_db,67,,dB\n",
+    )
+    .unwrap();
+    dir
+}
+
+#[test]
+fn a_killed_run_keeps_complete_summaries_and_device_folders() {
+    // What an interruption may leave (src/batch/run.rs, src/report/write.rs): lot files that are whole
+    // (each written to a temporary file, then renamed), every device they list in a complete folder,
+    // and temporary files only under hidden names that no reader takes for an output.
+    let lot = make_big_lot(3000);
+    let p = lot.path();
+    let out = p.join("out");
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin!("spurline"))
+        .arg("batch")
+        .arg(p.join("plan.toml"))
+        .arg("--limits")
+        .arg(p.join("limits.csv"))
+        .arg("--out")
+        .arg(&out)
+        .args(["--jobs", "2"])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let pid = child.id();
+    let summary = out.join("summary.csv");
+    let start = std::time::Instant::now();
+    loop {
+        let rows =
+            std::fs::read_to_string(&summary).map_or(0, |t| t.lines().count().saturating_sub(1));
+        if rows >= 6 {
+            break;
+        }
+        if start.elapsed() > std::time::Duration::from_secs(30) {
+            let _ = child.kill();
+            panic!("no summary rows after 30 s");
+        }
+        std::thread::sleep(std::time::Duration::from_millis(10));
+    }
+    child.kill().unwrap();
+    let status = child.wait().unwrap();
+    assert_eq!(status.code(), None, "the run was to be killed, not finish");
+
+    // The lot summary is whole CSV: every row complete, the file ends at a row's end.
+    let bytes = std::fs::read(&summary).unwrap();
+    assert_eq!(bytes.last(), Some(&b'\n'));
+    let mut rdr = csv::ReaderBuilder::new()
+        .flexible(false)
+        .from_reader(&bytes[..]);
+    let head: Vec<String> = rdr.headers().unwrap().iter().map(str::to_string).collect();
+    let rows: Vec<csv::StringRecord> = rdr.records().map(|r| r.unwrap()).collect();
+    assert!(rows.len() >= 6 && rows.len() < 6000, "{} rows", rows.len());
+    assert!(rows.iter().all(|r| r.len() == head.len()));
+    // Whole devices in lot order, both conditions each.
+    assert_eq!(rows.len() % 2, 0);
+    // Byte offsets where each row starts, and the end of the file.
+    let mut starts: Vec<usize> = rows
+        .iter()
+        .map(|r| r.position().unwrap().byte() as usize)
+        .collect();
+    starts.push(bytes.len());
+    for (i, pair) in rows.chunks(2).enumerate() {
+        let device = format!("d{i:05}");
+        assert_eq!((&pair[0][0], &pair[0][1]), (device.as_str(), "c0"));
+        assert_eq!((&pair[1][0], &pair[1][1]), (device.as_str(), "c1"));
+        // Its folder is complete: the device summary is the header and exactly its two lot rows.
+        let own = std::fs::read(out.join(&device).join("summary.csv")).unwrap();
+        let mut want = bytes[..starts[0]].to_vec();
+        want.extend_from_slice(&bytes[starts[2 * i]..starts[2 * i + 2]]);
+        assert!(own == want, "{device}/summary.csv");
+        let json: serde_json::Value = serde_json::from_str(
+            &std::fs::read_to_string(out.join(&device).join("results.json")).unwrap(),
+        )
+        .unwrap();
+        assert_eq!(json["device"], device.as_str());
+        assert_eq!(json["conditions"].as_array().unwrap().len(), 2);
+    }
+    // The other lot files are whole too (possibly from the rewrite before: never ahead of summary.csv).
+    let (yh, _) = read_csv(&out.join("yield.csv"));
+    assert_eq!(yh[0], "condition");
+    read_csv(&out.join("failures.csv"));
+    let html = std::fs::read_to_string(out.join("index.html")).unwrap();
+    assert!(html.ends_with("</html>\n"));
+    assert!(html.matches("<tr class=").count() <= rows.len());
+    // Nothing else at the top but device folders and, if the kill came mid-write, temporary files
+    // under hidden names of the form .<output>.<pid>-<n>.tmp.
+    let outputs = ["summary.csv", "failures.csv", "yield.csv", "index.html"];
+    for e in std::fs::read_dir(&out).unwrap() {
+        let e = e.unwrap();
+        let name = e.file_name().to_string_lossy().to_string();
+        if e.path().is_dir() {
+            assert!(name.starts_with('d') && name.len() == 6, "{name}");
+        } else if !outputs.contains(&name.as_str()) {
+            let temp = outputs.iter().any(|o| {
+                name.strip_prefix(&format!(".{o}.{pid}-"))
+                    .and_then(|rest| rest.strip_suffix(".tmp"))
+                    .is_some_and(|n| n.parse::<u64>().is_ok())
+            });
+            assert!(temp, "left over: {name}");
+        }
+    }
+    // The readers take the summary, never a temporary file: the run reads back with its rows.
+    let back = spurline::batch::read_results(std::slice::from_ref(&out)).unwrap();
+    assert_eq!(back.rows.len(), rows.len());
 }
 
 #[test]

@@ -1,6 +1,8 @@
 //! Batch runs: a bench plan (converter, analysis settings, conditions, where the records are) gives a
 //! lot of devices × conditions; each is read, analysed and judged against a limit table on a local
-//! thread pool, and per-device and lot summaries are written as the lot goes.
+//! thread pool, and per-device and lot summaries are written as the lot goes. A lot can be split into
+//! shards run on separate machines ([`run_shard`]) and the shards merged into the report an unsharded
+//! run writes ([`merge_shards`]).
 //!
 //! ```no_run
 //! use spurline::batch::{run_lot, BatchOptions, BenchPlan, Plots};
@@ -17,13 +19,26 @@
 //! let options = BatchOptions { out: "reports/lot7".into(), jobs: 2, plots: Plots::None, progress: false };
 //! let counts = run_lot(&plan, &lot, Some(&limits), &options)?;
 //! println!("{} of {} results pass", counts.passed, counts.results);
+//!
+//! // The same lot over eight machines: each runs its shard, then one merges the eight folders.
+//! use spurline::batch::{merge_shards, run_shard, Shard};
+//! let shard = Shard::parse("2/8")?;
+//! let mine = BatchOptions { out: "reports/lot7-2".into(), ..options.clone() };
+//! run_shard(&plan, &lot, Some(&limits), &mine, shard)?;
+//! let folders: Vec<std::path::PathBuf> =
+//!     (1..=8).map(|k| format!("reports/lot7-{k}").into()).collect();
+//! let merged = merge_shards("reports/lot7".as_ref(), &folders)?;
+//! assert_eq!(merged.results, counts.results);
 //! # Ok::<(), spurline::Error>(())
 //! ```
 
+mod merge;
 mod output;
 mod plan;
 mod run;
+mod shard;
 
+pub use merge::merge_shards;
 pub use output::{
     escape_html, read_results, write_atomic, write_device_outputs, Plots, SummaryColumns,
     FAILURE_COLUMNS, LEAD_COLUMNS, YIELD_COLUMNS,
@@ -35,4 +50,7 @@ pub use plan::{
 pub use run::{
     run_lot, BatchOptions, ConditionResult, DeviceResult, LotCounts, CHUNK_RESULTS,
     FREQUENCY_WARN_BINS, KEPT_ERRORS, REWRITE_EVERY,
+};
+pub use shard::{
+    lot_fingerprint, run_fingerprint, run_shard, Shard, ShardManifest, SHARD_FORMAT, SHARD_MANIFEST,
 };

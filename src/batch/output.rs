@@ -1,6 +1,7 @@
 //! What a batch run writes: per-device folders (`summary.csv`, `results.json`), and for the lot
 //! `summary.csv`, `failures.csv`, `yield.csv` and `index.html`, each written atomically (a temporary file
-//! in the same folder, then a rename); and the reader that takes a run's results back for `limits`.
+//! in the same folder, then a rename); the reader of a folder's lot files back into finished rows (for
+//! merging shards); and the reader that takes a run's results back for `limits`.
 //!
 //! # Files
 //! - `summary.csv` (lot and per device): `device`, `condition`, `verdict`, `reason`, then every column of
@@ -23,7 +24,7 @@ use std::path::{Path, PathBuf};
 
 use serde::Serialize;
 
-use super::run::DeviceResult;
+use super::run::{DeviceResult, Lines};
 use crate::limits::{
     Catalogue, Characterisation, CheckOutcome, LimitTable, Outcome, ResultRow, Verdict,
 };
@@ -53,6 +54,15 @@ impl Plots {
                 "none, failures or all",
                 format!("'{other}'"),
             )),
+        }
+    }
+
+    /// The option's value as `--plots` takes it.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            Plots::None => "none",
+            Plots::Failures => "failures",
+            Plots::All => "all",
         }
     }
 
@@ -350,11 +360,16 @@ impl Tally {
     }
 }
 
+#[derive(Debug, Clone, PartialEq)]
 struct ConditionTally {
     name: String,
     all: Tally,
     metrics: Vec<(String, Tally)>,
 }
+
+/// Where the index page's rows start and end (the merge of shards reads them back).
+const TBODY_OPEN: &str = "<tbody>\n";
+const TBODY_CLOSE: &str = "</tbody>\n";
 
 /// The lot files, kept as finished lines so that rewriting them costs only the write.
 pub(crate) struct LotWriter {
@@ -408,6 +423,46 @@ impl LotWriter {
         })
     }
 
+    /// A writer for lot files put together from finished rows (a merge of shards): the yield counts
+    /// are given whole, the rows are added with [`LotWriter::add_rows`].
+    pub(crate) fn with_counts(
+        out: &Path,
+        title: &str,
+        header: Vec<u8>,
+        counts: YieldCounts,
+    ) -> Result<LotWriter> {
+        create_dir(out)?;
+        Ok(LotWriter {
+            out: out.to_path_buf(),
+            title: title.to_string(),
+            header,
+            summary: Vec::new(),
+            failures: Vec::new(),
+            index_rows: String::new(),
+            conditions: counts.conditions,
+            devices: counts.devices,
+            results: 0,
+            outcomes: BTreeMap::new(),
+        })
+    }
+
+    /// One result's finished lines.
+    fn add_lines(&mut self, lines: &Lines, outcome: Outcome) {
+        self.summary.extend_from_slice(&lines.summary);
+        self.failures.extend_from_slice(&lines.failures);
+        self.index_rows.push_str(&lines.index);
+        self.results += 1;
+        *self.outcomes.entry(outcome.as_str()).or_default() += 1;
+    }
+
+    /// Adds finished rows read back from lot files; their yield counts are not touched (they come
+    /// whole with [`LotWriter::with_counts`]).
+    pub(crate) fn add_rows<'a>(&mut self, rows: impl IntoIterator<Item = &'a ReadResult>) {
+        for r in rows {
+            self.add_lines(&r.lines, r.outcome);
+        }
+    }
+
     /// Adds a finished device's rows and counts.
     pub(crate) fn add(&mut self, device: &DeviceResult) {
         let mut any_error = false;
@@ -415,11 +470,7 @@ impl LotWriter {
         let mut any_guard = false;
         let mut any_tested = false;
         for (i, c) in device.conditions.iter().enumerate() {
-            self.summary.extend_from_slice(&c.lines.summary);
-            self.failures.extend_from_slice(&c.lines.failures);
-            self.index_rows.push_str(&c.lines.index);
-            self.results += 1;
-            *self.outcomes.entry(c.verdict.outcome.as_str()).or_default() += 1;
+            self.add_lines(&c.lines, c.verdict.outcome);
             let t = &mut self.conditions[i];
             match c.verdict.outcome {
                 Outcome::Error => {
@@ -497,7 +548,7 @@ impl LotWriter {
              </head>\n<body>\n<h1>{title}</h1>\n<p>{devices} devices, {} results{counts}.</p>\n\
              <p><a href=\"summary.csv\">summary.csv</a> · <a href=\"failures.csv\">failures.csv</a> · \
              <a href=\"yield.csv\">yield.csv</a></p>\n<table>\n<thead><tr><th>device</th><th>condition</th>\
-             <th>verdict</th><th>reason</th>{heads}</tr></thead>\n<tbody>\n{}</tbody>\n</table>\n</body>\n</html>\n",
+             <th>verdict</th><th>reason</th>{heads}</tr></thead>\n{TBODY_OPEN}{}{TBODY_CLOSE}</table>\n</body>\n</html>\n",
             self.results, self.index_rows
         )
     }
@@ -516,6 +567,355 @@ impl LotWriter {
             self.index_html(devices).as_bytes(),
         )
     }
+}
+
+impl Tally {
+    fn add(&mut self, other: &Tally) {
+        self.tested += other.tested;
+        self.passed += other.passed;
+        self.failed += other.failed;
+        self.guardband += other.guardband;
+        self.errors += other.errors;
+    }
+}
+
+/// Every count behind a lot's `yield.csv`: per condition the whole results and each limited metric,
+/// then the devices. The counts of disjoint parts of a lot add up to the lot's.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct YieldCounts {
+    conditions: Vec<ConditionTally>,
+    devices: Tally,
+}
+
+impl YieldCounts {
+    /// The (condition, metrics) rows, to check that two parts come from the same plan and limits.
+    fn keys(&self) -> Vec<(&str, Vec<&str>)> {
+        self.conditions
+            .iter()
+            .map(|c| {
+                (
+                    c.name.as_str(),
+                    c.metrics.iter().map(|(m, _)| m.as_str()).collect(),
+                )
+            })
+            .collect()
+    }
+
+    /// Adds the counts of another part of the lot (read from `path`); both must have the same rows.
+    pub(crate) fn add(&mut self, other: &YieldCounts, path: &Path) -> Result<()> {
+        if self.keys() != other.keys() {
+            return Err(read_error(
+                path,
+                Location::Whole,
+                "the same yield rows (conditions and limited metrics) as the other shards",
+                format!("{:?}", other.keys()),
+            ));
+        }
+        for (a, b) in self.conditions.iter_mut().zip(&other.conditions) {
+            a.all.add(&b.all);
+            for ((_, x), (_, y)) in a.metrics.iter_mut().zip(&b.metrics) {
+                x.add(y);
+            }
+        }
+        self.devices.add(&other.devices);
+        Ok(())
+    }
+}
+
+/// One result read back from a lot folder's files: its finished lines and its verdict.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct ReadResult {
+    pub(crate) device: String,
+    pub(crate) condition: String,
+    pub(crate) outcome: Outcome,
+    pub(crate) reason: String,
+    pub(crate) lines: Lines,
+}
+
+/// A lot folder's files read back: the summary header, every result in the folder's order, and the
+/// yield counts.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct LotRows {
+    pub(crate) header: Vec<u8>,
+    pub(crate) results: Vec<ReadResult>,
+    pub(crate) counts: YieldCounts,
+}
+
+const OUTCOMES: [Outcome; 5] = [
+    Outcome::Pass,
+    Outcome::Fail,
+    Outcome::FailGuardband,
+    Outcome::Untested,
+    Outcome::Error,
+];
+
+fn read_bytes(path: &Path) -> Result<Vec<u8>> {
+    std::fs::read(path).map_err(|e| {
+        Error::new(
+            ErrorKind::Io,
+            path.display().to_string(),
+            Location::Whole,
+            "a readable lot file",
+            e.to_string(),
+        )
+    })
+}
+
+/// A CSV file's header bytes and its records, each with its exact bytes and its line.
+type RawCsv = (
+    Vec<String>,
+    Vec<u8>,
+    Vec<(::csv::StringRecord, Vec<u8>, usize)>,
+);
+
+fn raw_csv(path: &Path, bytes: &[u8]) -> Result<RawCsv> {
+    let bad_csv = |e: ::csv::Error| {
+        let loc = e
+            .position()
+            .map_or(Location::Whole, |p| Location::Row(p.line() as usize));
+        read_error(
+            path,
+            loc,
+            "a CSV file written by spurline batch",
+            e.to_string(),
+        )
+    };
+    let mut rdr = ::csv::ReaderBuilder::new()
+        .flexible(false)
+        .from_reader(bytes);
+    let names: Vec<String> = rdr
+        .headers()
+        .map_err(bad_csv)?
+        .iter()
+        .map(str::to_string)
+        .collect();
+    let mut records = Vec::new();
+    for rec in rdr.records() {
+        let rec = rec.map_err(bad_csv)?;
+        let (start, line) = rec
+            .position()
+            .map_or((bytes.len(), 0), |p| (p.byte() as usize, p.line() as usize));
+        records.push((rec, start, line));
+    }
+    let header_end = records.first().map_or(bytes.len(), |r| r.1);
+    let mut out = Vec::with_capacity(records.len());
+    for i in 0..records.len() {
+        let end = records.get(i + 1).map_or(bytes.len(), |r| r.1);
+        let (rec, start, line) = &records[i];
+        out.push((rec.clone(), bytes[*start..end].to_vec(), *line));
+    }
+    Ok((names, bytes[..header_end].to_vec(), out))
+}
+
+fn check_columns(path: &Path, names: &[String], want: &[&str]) -> Result<()> {
+    if names.len() < want.len() || names[..want.len()] != *want {
+        return Err(read_error(
+            path,
+            Location::Row(1),
+            &format!("the columns {}", want.join(", ")),
+            format!("the columns {}", names.join(", ")),
+        ));
+    }
+    Ok(())
+}
+
+/// Reads back the lot files of an output folder that holds `devices` (in that order), each under
+/// `conditions` (in plan order): `summary.csv`, `failures.csv`, the rows of `index.html` and
+/// `yield.csv`. Errors name the file and row: a file that cannot be read or does not parse, columns
+/// that are not batch columns, a row of another device or condition than the order says, an index
+/// page whose rows do not match the summary.
+pub(crate) fn read_lot_rows(
+    dir: &Path,
+    devices: &[String],
+    conditions: &[String],
+) -> Result<LotRows> {
+    let n = conditions.len();
+    let path = dir.join("summary.csv");
+    let bytes = read_bytes(&path)?;
+    let (names, header, rows) = raw_csv(&path, &bytes)?;
+    check_columns(&path, &names, &LEAD_COLUMNS)?;
+    if rows.len() != devices.len() * n {
+        return Err(read_error(
+            &path,
+            Location::Whole,
+            &format!(
+                "{} rows ({} devices × {n} conditions)",
+                devices.len() * n,
+                devices.len()
+            ),
+            format!("{} rows", rows.len()),
+        ));
+    }
+    let mut results = Vec::with_capacity(rows.len());
+    for (k, (rec, raw, line)) in rows.into_iter().enumerate() {
+        let (device, condition) = (&devices[k / n.max(1)], &conditions[k % n.max(1)]);
+        if rec[0] != **device || rec[1] != **condition {
+            return Err(read_error(
+                &path,
+                Location::Row(line),
+                &format!("the row of device '{device}' under condition '{condition}'"),
+                format!("device '{}', condition '{}'", &rec[0], &rec[1]),
+            ));
+        }
+        let outcome = OUTCOMES
+            .into_iter()
+            .find(|o| o.as_str() == &rec[2])
+            .ok_or_else(|| {
+                read_error(
+                    &path,
+                    Location::Row(line),
+                    "a verdict pass, fail, fail_guardband, untested or error",
+                    format!("'{}'", &rec[2]),
+                )
+            })?;
+        results.push(ReadResult {
+            device: device.clone(),
+            condition: condition.clone(),
+            outcome,
+            reason: rec[3].to_string(),
+            lines: Lines {
+                summary: raw,
+                failures: Vec::new(),
+                index: String::new(),
+            },
+        });
+    }
+
+    let path = dir.join("failures.csv");
+    let bytes = read_bytes(&path)?;
+    let (names, _, rows) = raw_csv(&path, &bytes)?;
+    check_columns(&path, &names, &FAILURE_COLUMNS)?;
+    // Failure rows come in result order, several to a result: walk the results alongside.
+    let mut at = 0;
+    for (rec, raw, line) in rows {
+        while at < results.len()
+            && (results[at].device != rec[0] || results[at].condition != rec[1])
+        {
+            at += 1;
+        }
+        let Some(r) = results.get_mut(at) else {
+            return Err(read_error(
+                &path,
+                Location::Row(line),
+                "a row of a result of this folder, in summary order",
+                format!("device '{}', condition '{}'", &rec[0], &rec[1]),
+            ));
+        };
+        r.lines.failures.extend_from_slice(&raw);
+    }
+
+    let path = dir.join("index.html");
+    let page = String::from_utf8(read_bytes(&path)?)
+        .map_err(|e| read_error(&path, Location::Whole, "a UTF-8 page", e.to_string()))?;
+    let body = page
+        .find(TBODY_OPEN)
+        .map(|i| i + TBODY_OPEN.len())
+        .and_then(|start| {
+            page[start..]
+                .find(TBODY_CLOSE)
+                .map(|end| &page[start..start + end])
+        })
+        .ok_or_else(|| {
+            read_error(
+                &path,
+                Location::Whole,
+                "the lot page of spurline batch with its table body",
+                "no <tbody> … </tbody>".into(),
+            )
+        })?;
+    // Every text in a row is escaped, so a row ends at the first "</tr>\n".
+    let rows: Vec<&str> = body.split_inclusive("</tr>\n").collect();
+    if rows.len() != results.len() || rows.iter().any(|r| !r.starts_with("<tr")) {
+        return Err(read_error(
+            &path,
+            Location::Whole,
+            &format!("{} table rows, one per summary row", results.len()),
+            format!("{} rows", rows.len()),
+        ));
+    }
+    for (r, row) in results.iter_mut().zip(rows) {
+        r.lines.index = row.to_string();
+    }
+
+    let counts = read_yield(&dir.join("yield.csv"), conditions)?;
+    Ok(LotRows {
+        header,
+        results,
+        counts,
+    })
+}
+
+/// Reads a `yield.csv` back into its counts; the conditions must be `conditions`, in order.
+fn read_yield(path: &Path, conditions: &[String]) -> Result<YieldCounts> {
+    let bytes = read_bytes(path)?;
+    let (names, _, rows) = raw_csv(path, &bytes)?;
+    check_columns(path, &names, &YIELD_COLUMNS)?;
+    let mut tallies: Vec<ConditionTally> = Vec::new();
+    let mut devices = None;
+    for (rec, _, line) in rows {
+        let bad =
+            |expected: &str, found: String| read_error(path, Location::Row(line), expected, found);
+        if devices.is_some() {
+            return Err(bad(
+                "no row after the lot row *,*",
+                format!("'{}'", &rec[0]),
+            ));
+        }
+        let mut count = [0usize; 5];
+        for (i, c) in count.iter_mut().enumerate() {
+            *c = rec[2 + i].parse().map_err(|_| {
+                bad(
+                    &format!("a count in the column {}", YIELD_COLUMNS[2 + i]),
+                    format!("'{}'", &rec[2 + i]),
+                )
+            })?;
+        }
+        let t = Tally {
+            tested: count[0],
+            passed: count[1],
+            failed: count[2],
+            guardband: count[3],
+            errors: count[4],
+        };
+        match (&rec[0], &rec[1]) {
+            ("*", "*") => devices = Some(t),
+            (c, "*") => tallies.push(ConditionTally {
+                name: c.to_string(),
+                all: t,
+                metrics: Vec::new(),
+            }),
+            (c, m) => match tallies.last_mut() {
+                Some(last) if last.name == c => last.metrics.push((m.to_string(), t)),
+                _ => {
+                    return Err(bad(
+                        "a metric row after its condition's row with metric *",
+                        format!("condition '{c}', metric '{m}'"),
+                    ))
+                }
+            },
+        }
+    }
+    let Some(devices) = devices else {
+        return Err(read_error(
+            path,
+            Location::Whole,
+            "the lot row *,* at the end",
+            "none".into(),
+        ));
+    };
+    let found: Vec<&str> = tallies.iter().map(|t| t.name.as_str()).collect();
+    if found != conditions {
+        return Err(read_error(
+            path,
+            Location::Whole,
+            &format!("rows of the conditions {}", conditions.join(", ")),
+            format!("rows of {}", found.join(", ")),
+        ));
+    }
+    Ok(YieldCounts {
+        conditions: tallies,
+        devices,
+    })
 }
 
 fn read_error(path: &Path, location: Location, expected: &str, found: String) -> Error {

@@ -58,6 +58,7 @@ use std::path::{Path, PathBuf};
 use serde::Deserialize;
 use toml::Spanned;
 
+use super::shard::Shard;
 use crate::analysis::{AnalysisSettings, FitChoice};
 use crate::ingest::{parse_channel, ColumnSel, Format, IngestSettings, Justify, Metadata};
 use crate::spectrum::{SpectrumSettings, Window, WindowChoice};
@@ -260,6 +261,20 @@ impl Lot {
     /// Number of device × condition results the lot gives.
     pub fn results(&self) -> usize {
         self.devices.len() * self.conditions
+    }
+
+    /// The part of the lot that `shard` takes (see [`Shard`]): its devices in lot order, with their
+    /// record files.
+    pub fn shard(&self, shard: Shard) -> Lot {
+        let keep: Vec<usize> = (0..self.devices.len()).filter(|&i| shard.owns(i)).collect();
+        Lot {
+            devices: keep.iter().map(|&i| self.devices[i].clone()).collect(),
+            conditions: self.conditions,
+            files: keep
+                .iter()
+                .flat_map(|&i| (0..self.conditions).map(move |c| self.files(i, c).to_vec()))
+                .collect(),
+        }
     }
 }
 

@@ -15,7 +15,7 @@ use std::time::{Duration, Instant};
 
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use rayon::prelude::*;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 use super::output::{self, LotWriter, Plots, SummaryColumns};
 use super::plan::{BenchPlan, Condition, Lot};
@@ -82,7 +82,7 @@ pub struct DeviceResult {
 }
 
 /// What a lot came to.
-#[derive(Debug, Clone, Default, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Default, PartialEq, Eq, Serialize, Deserialize)]
 pub struct LotCounts {
     /// Devices.
     pub devices: usize,
@@ -120,12 +120,11 @@ pub fn run_lot(
     let columns = SummaryColumns::new(plan.max_harmonics());
     let header = columns.header();
     let names: Vec<String> = plan.conditions.iter().map(|c| c.name.clone()).collect();
-    let title = plan.title.clone().unwrap_or_else(|| {
-        plan.path.file_name().map_or("bench plan".to_string(), |n| {
-            n.to_string_lossy().to_string()
-        })
-    });
+    let title = lot_title(plan);
     let mut writer = LotWriter::new(&options.out, &title, header.clone(), &names, limits)?;
+    // A shard manifest left by an earlier run into this folder must not vouch for this run's files;
+    // a shard run writes its own when it has finished.
+    super::shard::remove_manifest(&options.out)?;
     // The outputs are opened before the work: an unwritable folder fails here, not after the lot.
     writer.write(0)?;
 
@@ -227,23 +226,40 @@ pub fn run_lot(
     Ok(counts)
 }
 
+/// The lot's title: the plan's, else its file name.
+pub(crate) fn lot_title(plan: &BenchPlan) -> String {
+    plan.title.clone().unwrap_or_else(|| {
+        plan.path.file_name().map_or("bench plan".to_string(), |n| {
+            n.to_string_lossy().to_string()
+        })
+    })
+}
+
 impl LotCounts {
     fn add(&mut self, device: &DeviceResult) {
         for c in &device.conditions {
-            self.results += 1;
-            match c.verdict.outcome {
-                Outcome::Pass => self.passed += 1,
-                Outcome::Fail => self.failed += 1,
-                Outcome::FailGuardband => self.failed_guardband += 1,
-                Outcome::Untested => self.untested += 1,
-                Outcome::Error => {
-                    self.errors += 1;
-                    if self.error_messages.len() < KEPT_ERRORS {
-                        self.error_messages.push(format!(
-                            "{} / {}: {}",
-                            device.device, c.condition, c.verdict.reason
-                        ));
-                    }
+            self.count(
+                &device.device,
+                &c.condition,
+                c.verdict.outcome,
+                &c.verdict.reason,
+            );
+        }
+    }
+
+    /// Counts one result (also for results read back from a shard's files).
+    pub(crate) fn count(&mut self, device: &str, condition: &str, outcome: Outcome, reason: &str) {
+        self.results += 1;
+        match outcome {
+            Outcome::Pass => self.passed += 1,
+            Outcome::Fail => self.failed += 1,
+            Outcome::FailGuardband => self.failed_guardband += 1,
+            Outcome::Untested => self.untested += 1,
+            Outcome::Error => {
+                self.errors += 1;
+                if self.error_messages.len() < KEPT_ERRORS {
+                    self.error_messages
+                        .push(format!("{device} / {condition}: {reason}"));
                 }
             }
         }

@@ -1,12 +1,12 @@
 //! `spurline batch`: run a bench plan over a lot, judge every result against a limit table, write the
-//! per-device and lot summaries.
+//! per-device and lot summaries; with `--shard K/M`, only shard K of M of the lot's devices.
 
 use super::{EXIT_ERROR, EXIT_FAIL, EXIT_OK};
 use clap::Args;
-use spurline::batch::{run_lot, BatchOptions, BenchPlan, Plots};
+use spurline::batch::{run_lot, run_shard, BatchOptions, BenchPlan, LotCounts, Plots, Shard};
 use spurline::limits::{Catalogue, LimitTable};
 use std::io::IsTerminal;
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 
 /// Arguments of `batch`.
 #[derive(Debug, Args)]
@@ -14,7 +14,10 @@ use std::path::PathBuf;
     after_help = "Exit status: 0 every result analysed and every limit passed (or no limit table), \
                   1 some limit failed (guardband failures included), 2 an error: a bad plan or limit \
                   table, an output that cannot be written, or a record that could not be read or \
-                  analysed (the lot still runs to the end and that result is an error row)."
+                  analysed (the lot still runs to the end and that result is an error row).\n\n\
+                  With --shard K/M the run takes device i of the lot (in lot order, from 0) when \
+                  i mod M = K - 1, writes the lot files for those devices and a manifest shard.json; \
+                  `spurline merge` combines the M shard folders into the report of an unsharded run."
 )]
 pub struct BatchArgs {
     /// The bench plan (TOML): converter, analysis settings, conditions, where the records are.
@@ -31,6 +34,10 @@ pub struct BatchArgs {
     /// Plots per device: none, failures (the failing results) or all.
     #[arg(long, default_value = "none", value_parser = ["none", "failures", "all"])]
     pub plots: String,
+    /// Run only shard K of M of the lot (e.g. 2/8): the devices whose place in the lot, counted from
+    /// 0, is K - 1 modulo M. Same plan, limits and --plots for every shard; merge them with `merge`.
+    #[arg(long, value_name = "K/M")]
+    pub shard: Option<String>,
 }
 
 /// Runs `batch`.
@@ -43,6 +50,16 @@ pub fn run(args: BatchArgs) -> i32 {
 
 fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
     let plots = Plots::parse(&args.plots)?;
+    let shard = args
+        .shard
+        .as_deref()
+        .map(|s| {
+            Shard::parse(s).map_err(|mut e| {
+                e.location = spurline::Location::Key("--shard".into());
+                e
+            })
+        })
+        .transpose()?;
     let plan = BenchPlan::read(&args.plan)?;
     let lot = plan.locate()?;
     let limits = match &args.limits {
@@ -78,7 +95,23 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
         plots,
         progress: std::io::stderr().is_terminal(),
     };
-    let counts = run_lot(&plan, &lot, limits.as_ref(), &options)?;
+    let counts = match shard {
+        None => run_lot(&plan, &lot, limits.as_ref(), &options)?,
+        Some(s) => {
+            let counts = run_shard(&plan, &lot, limits.as_ref(), &options, s)?;
+            println!(
+                "shard {s}: {} of the lot's {} devices",
+                counts.devices,
+                lot.devices.len()
+            );
+            counts
+        }
+    };
+    Ok(report(&counts, &out))
+}
+
+/// Prints a lot's counts (error rows first, on stderr) and returns the exit status they mean.
+pub(crate) fn report(counts: &LotCounts, out: &Path) -> i32 {
     for m in &counts.error_messages {
         eprintln!("spurline: error: {m}");
     }
@@ -100,11 +133,11 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
         counts.errors,
         out.display()
     );
-    Ok(if counts.errors > 0 {
+    if counts.errors > 0 {
         EXIT_ERROR
     } else if counts.failed + counts.failed_guardband > 0 {
         EXIT_FAIL
     } else {
         EXIT_OK
-    })
+    }
 }

@@ -9,6 +9,7 @@ mod imd;
 mod interleave;
 mod limits;
 mod linearity;
+mod merge;
 mod plan;
 mod sweep;
 mod synth;
@@ -65,6 +66,9 @@ pub enum Command {
     /// Run a bench plan over a lot: analyse every device under every condition, judge the results
     /// against a limit table, write per-device and lot summaries.
     Batch(batch::BatchArgs),
+    /// Merge the output folders of `batch --shard K/M` runs (K = 1..M) into one lot report, the same
+    /// byte for byte as an unsharded run's.
+    Merge(merge::MergeArgs),
     /// Propose limits from a characterisation run (mean ± k·σ or percentiles), with Cpk against an
     /// existing limit table.
     Limits(limits::LimitsArgs),
@@ -84,6 +88,7 @@ pub fn run(cli: Cli) -> i32 {
         Command::Plan(a) => plan::run(a),
         Command::Linearity(a) => linearity::run(a),
         Command::Batch(a) => batch::run(a),
+        Command::Merge(a) => merge::run(a),
         Command::Limits(a) => limits::run(a),
     }
 }

@@ -1,0 +1,330 @@
+//! Merging shards: the output folders of `batch --shard K/M` for K = 1..M combined into one lot
+//! report, byte for byte the report an unsharded run of the same plan and limits writes.
+//!
+//! The shards are checked first: each has a manifest (it finished), all have the same M, the same
+//! plan and limit table ([`super::run_fingerprint`]), the same spurline version, plots option, title,
+//! conditions and lot ([`super::lot_fingerprint`]); each shard 1..M is there once; no device is in two
+//! shards; and each holds the devices its number gives it. Then each shard's lot files are read back
+//! into finished rows, the device folders are copied (the shard folders are left as they were, so a
+//! merge can be repeated) and the lot files are written from the rows in lot order by the same writer
+//! a batch run uses, the yield counts being the sums of the shards' counts.
+
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+use super::output::{read_lot_rows, write_atomic, LotRows, LotWriter};
+use super::run::LotCounts;
+use super::shard::{lot_fingerprint, remove_manifest, ShardManifest, SHARD_MANIFEST};
+use crate::{Error, ErrorKind, Location, Result};
+
+fn manifest_error(dir: &Path, key: &str, expected: String, found: String) -> Error {
+    Error::new(
+        ErrorKind::BadMetadata,
+        dir.join(SHARD_MANIFEST).display().to_string(),
+        Location::Key(key.to_string()),
+        expected,
+        found,
+    )
+}
+
+fn output_error(path: &Path, expected: &str, e: impl std::fmt::Display) -> Error {
+    Error::new(
+        ErrorKind::Output,
+        path.display().to_string(),
+        Location::Whole,
+        expected,
+        e.to_string(),
+    )
+}
+
+/// Checks that every manifest describes a shard of the same run as the first one.
+fn check_same_run(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<()> {
+    let (first_dir, first) = (&dirs[0], &manifests[0]);
+    for (dir, m) in dirs.iter().zip(manifests).skip(1) {
+        let fields: [(&str, String, String); 8] = [
+            ("shards", first.shards.to_string(), m.shards.to_string()),
+            (
+                "fingerprint",
+                first.fingerprint.clone(),
+                m.fingerprint.clone(),
+            ),
+            (
+                "spurline_version",
+                first.spurline_version.clone(),
+                m.spurline_version.clone(),
+            ),
+            ("plots", first.plots.clone(), m.plots.clone()),
+            ("title", first.title.clone(), m.title.clone()),
+            (
+                "conditions",
+                first.conditions.join(", "),
+                m.conditions.join(", "),
+            ),
+            (
+                "lot_devices",
+                first.lot_devices.to_string(),
+                m.lot_devices.to_string(),
+            ),
+            (
+                "lot_fingerprint",
+                first.lot_fingerprint.clone(),
+                m.lot_fingerprint.clone(),
+            ),
+        ];
+        for (key, want, got) in fields {
+            if want != got {
+                let what = match key {
+                    "fingerprint" => " (the plan file and limit table)",
+                    "lot_fingerprint" => " (the lot's devices)",
+                    _ => "",
+                };
+                return Err(manifest_error(
+                    dir,
+                    key,
+                    format!(
+                        "{key} {want}{what} as in {}, shard {}",
+                        first_dir.join(SHARD_MANIFEST).display(),
+                        first.shard()
+                    ),
+                    format!("{got}: shard {} is not of the same run", m.shard()),
+                ));
+            }
+        }
+    }
+    Ok(())
+}
+
+/// For each shard number 1..=M, the place of its folder among `dirs`. Errors: a shard given twice,
+/// a shard missing.
+fn place_shards(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<Vec<usize>> {
+    let m = manifests[0].shards;
+    let mut slot: Vec<Option<usize>> = vec![None; m];
+    for (i, man) in manifests.iter().enumerate() {
+        if let Some(j) = slot[man.shard - 1] {
+            return Err(manifest_error(
+                &dirs[i],
+                "shard",
+                format!("each shard 1/{m}..{m}/{m} of the run once"),
+                format!(
+                    "shard {} a second time (also in {})",
+                    man.shard(),
+                    dirs[j].display()
+                ),
+            ));
+        }
+        slot[man.shard - 1] = Some(i);
+    }
+    let missing: Vec<String> = (1..=m)
+        .filter(|k| slot[k - 1].is_none())
+        .map(|k| format!("{k}/{m}"))
+        .collect();
+    if !missing.is_empty() {
+        return Err(Error::new(
+            ErrorKind::BadSetting,
+            "",
+            Location::Key("shards".into()),
+            format!("the output folders of every shard 1/{m}..{m}/{m} of the run"),
+            format!(
+                "no folder of shard {} among the {} given",
+                missing.join(", "),
+                dirs.len()
+            ),
+        ));
+    }
+    Ok(slot.into_iter().flatten().collect())
+}
+
+/// Checks that the shards' devices make up the lot: each device in one shard only, each shard the
+/// size its number gives, and, dealt back in turn, the lot's devices in order. Returns the lot's
+/// devices as (shard place, index in that shard).
+fn lot_order(
+    dirs: &[PathBuf],
+    manifests: &[ShardManifest],
+    by_shard: &[usize],
+) -> Result<Vec<(usize, usize)>> {
+    let first = &manifests[0];
+    let mut seen: HashMap<&str, usize> = HashMap::new();
+    for (i, man) in manifests.iter().enumerate() {
+        for d in &man.devices {
+            if let Some(&j) = seen.get(d.as_str()) {
+                return Err(manifest_error(
+                    &dirs[i],
+                    "devices",
+                    "each device in one shard only".into(),
+                    format!(
+                        "device '{d}' in shard {} and in shard {} ({})",
+                        man.shard(),
+                        manifests[j].shard(),
+                        dirs[j].display()
+                    ),
+                ));
+            }
+            seen.insert(d, i);
+        }
+        let want = man.shard().size(first.lot_devices);
+        if man.devices.len() != want {
+            return Err(manifest_error(
+                &dirs[i],
+                "devices",
+                format!(
+                    "{want} devices (shard {} of a lot of {})",
+                    man.shard(),
+                    first.lot_devices
+                ),
+                format!("{} devices", man.devices.len()),
+            ));
+        }
+    }
+    let m = first.shards;
+    let order: Vec<(usize, usize)> = (0..first.lot_devices)
+        .map(|i| (by_shard[i % m], i / m))
+        .collect();
+    let names: Vec<&str> = order
+        .iter()
+        .map(|&(s, j)| manifests[s].devices[j].as_str())
+        .collect();
+    if lot_fingerprint(&names) != first.lot_fingerprint {
+        return Err(manifest_error(
+            &dirs[by_shard[0]],
+            "devices",
+            format!(
+                "devices that, dealt back in turn, give the lot of lot_fingerprint {}",
+                first.lot_fingerprint
+            ),
+            format!("the lot fingerprint {}", lot_fingerprint(&names)),
+        ));
+    }
+    Ok(order)
+}
+
+/// Whether two paths name the same existing folder.
+fn same_folder(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => false,
+    }
+}
+
+/// Copies a device folder, file by file (each written atomically); names starting with '.' (the
+/// temporary files of an interrupted write) are left behind.
+fn copy_folder(from: &Path, to: &Path) -> Result<()> {
+    std::fs::create_dir_all(to).map_err(|e| output_error(to, "a folder to copy into", e))?;
+    let mut entries: Vec<PathBuf> = std::fs::read_dir(from)
+        .map_err(|e| output_error(from, "a readable device folder", e))?
+        .map(|e| e.map(|e| e.path()))
+        .collect::<std::io::Result<_>>()
+        .map_err(|e| output_error(from, "a readable device folder", e))?;
+    entries.sort();
+    for p in entries {
+        let Some(name) = p.file_name() else { continue };
+        if name.to_string_lossy().starts_with('.') {
+            continue;
+        }
+        if p.is_dir() {
+            copy_folder(&p, &to.join(name))?;
+        } else {
+            let bytes = std::fs::read(&p).map_err(|e| output_error(&p, "a readable file", e))?;
+            write_atomic(&to.join(name), &bytes)?;
+        }
+    }
+    Ok(())
+}
+
+/// Merges the output folders of the shards of one run into `out` (see the module docs): the device
+/// folders are copied, and `summary.csv`, `failures.csv`, `yield.csv` and `index.html` written, equal
+/// byte for byte to those of an unsharded run. Returns the lot's counts, as [`super::run_lot`] does.
+///
+/// Errors: no folder given; a folder without `shard.json` (not a finished shard) or whose manifest
+/// does not parse; shards of another run (M, plan and limits, version, plots, title, conditions or
+/// lot differ: the error names the field); a shard given twice or missing; a device in two shards;
+/// a shard whose lot files do not match its manifest (naming file and row); a device folder missing;
+/// `out` being one of the shard folders; outputs that cannot be written.
+pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
+    if shards.is_empty() {
+        return Err(Error::setting(
+            "shards",
+            "the output folders of the shards to merge",
+            "none",
+        ));
+    }
+    let manifests = shards
+        .iter()
+        .map(|d| ShardManifest::read(d))
+        .collect::<Result<Vec<_>>>()?;
+    check_same_run(shards, &manifests)?;
+    let by_shard = place_shards(shards, &manifests)?;
+    let order = lot_order(shards, &manifests, &by_shard)?;
+    if let Some(d) = shards.iter().find(|d| same_folder(out, d)) {
+        return Err(Error::setting(
+            "out",
+            "an output folder other than the shard folders",
+            format!("'{}'", d.display()),
+        ));
+    }
+    for (dir, man) in shards.iter().zip(&manifests) {
+        for d in &man.devices {
+            for f in ["summary.csv", "results.json"] {
+                let p = dir.join(d).join(f);
+                if !p.is_file() {
+                    return Err(Error::new(
+                        ErrorKind::Io,
+                        p.display().to_string(),
+                        Location::Whole,
+                        format!("the device folder of '{d}' with {f}"),
+                        "no such file",
+                    ));
+                }
+            }
+        }
+    }
+
+    // Every shard's rows, in shard order 1..=M.
+    let mut rows: Vec<LotRows> = Vec::with_capacity(by_shard.len());
+    for &i in &by_shard {
+        let (dir, man) = (&shards[i], &manifests[i]);
+        let r = read_lot_rows(dir, &man.devices, &man.conditions)?;
+        if let Some(first) = rows.first() {
+            if r.header != first.header {
+                return Err(Error::new(
+                    ErrorKind::BadMetadata,
+                    dir.join("summary.csv").display().to_string(),
+                    Location::Row(1),
+                    "the summary columns of the other shards",
+                    "other columns",
+                ));
+            }
+        }
+        rows.push(r);
+    }
+    let mut counts = rows[0].counts.clone();
+    for (r, &i) in rows.iter().zip(&by_shard).skip(1) {
+        counts.add(&r.counts, &shards[i].join("yield.csv"))?;
+    }
+
+    let first = &manifests[0];
+    let mut writer = LotWriter::with_counts(out, &first.title, rows[0].header.clone(), counts)?;
+    remove_manifest(out)?;
+    // The lot files list no device before its folder is complete, as in a batch run.
+    writer.write(0)?;
+    // Shard place → position in `rows`.
+    let mut row_of = vec![0; shards.len()];
+    for (r, &i) in by_shard.iter().enumerate() {
+        row_of[i] = r;
+    }
+    let n = first.conditions.len();
+    let mut lot = LotCounts {
+        devices: order.len(),
+        ..LotCounts::default()
+    };
+    for &(s, j) in &order {
+        let device = &manifests[s].devices[j];
+        copy_folder(&shards[s].join(device), &out.join(device))?;
+        let results = &rows[row_of[s]].results[j * n..(j + 1) * n];
+        for r in results {
+            lot.count(&r.device, &r.condition, r.outcome, &r.reason);
+        }
+        writer.add_rows(results);
+    }
+    writer.write(order.len())?;
+    Ok(lot)
+}
