@@ -96,22 +96,50 @@ pub struct Traces {
     pub powers: Vec<f64>,
     /// Owner of each bin.
     pub owner: Vec<Owner>,
-    /// Codes of the first record: the code histogram is counted from them when a plot asks for it
-    /// (counting 2^N bins per record cost more than the FFT of short records that are never plotted).
-    pub codes: Vec<i32>,
-    /// Resolution of the record, bits.
-    pub bits: u32,
+    /// What the code histogram of the first record is counted from (see [`Traces::histogram`]).
+    pub codes: CodeCounts,
+}
+
+/// The code histogram of a record, or the codes to count it from when a plot asks for it. Counting
+/// 2^N bins cost more than the FFT of a short record that is never plotted, while a long record's
+/// codes cost more memory than its counts: whichever is smaller is kept.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub enum CodeCounts {
+    /// No histogram (no record, or more than 24 bits).
+    #[default]
+    None,
+    /// The codes and their resolution, counted on demand.
+    Codes(Vec<i32>, u32),
+    /// The counts already made, index 0 = lowest code −2^(N−1).
+    Counts(Vec<u64>),
+}
+
+impl CodeCounts {
+    /// The cheaper form for `codes` at `bits`.
+    pub fn of(codes: &[i32], bits: u32) -> CodeCounts {
+        if !(1..=24).contains(&bits) || codes.is_empty() {
+            CodeCounts::None
+        } else if codes.len() >= 8usize << bits {
+            CodeCounts::Counts(histogram_of(codes, bits))
+        } else {
+            CodeCounts::Codes(codes.to_vec(), bits)
+        }
+    }
 }
 
 impl Traces {
     /// Count per code of the first record, index 0 = lowest code −2^(N−1) (empty above 24 bits).
     pub fn histogram(&self) -> Vec<u64> {
-        histogram_of(&self.codes, self.bits)
+        match &self.codes {
+            CodeCounts::None => Vec::new(),
+            CodeCounts::Codes(c, bits) => histogram_of(c, *bits),
+            CodeCounts::Counts(h) => h.clone(),
+        }
     }
 
     /// Whether [`Traces::histogram`] has counts to show.
     pub fn has_histogram(&self) -> bool {
-        !self.codes.is_empty() && (1..=24).contains(&self.bits)
+        self.codes != CodeCounts::None
     }
 }
 
@@ -208,9 +236,9 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
             ));
         }
     }
-    let views: Vec<&[f64]> = data.iter().map(|v| v.as_slice()).collect();
-    let spec = spectrum::measure(
-        &views,
+    // The spectra are taken in the f64 copies themselves, which are not needed after them.
+    let spec = spectrum::measure_consuming(
+        data,
         &fit,
         first.sample_rate_hz,
         first.bits,
@@ -234,8 +262,7 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
             residual,
             powers: spec.powers,
             owner: spec.owner,
-            codes: first.codes.clone(),
-            bits: first.bits,
+            codes: CodeCounts::of(&first.codes, first.bits),
         },
     })
 }
@@ -283,6 +310,32 @@ pub fn histogram_of(codes: &[i32], bits: u32) -> Vec<u64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // Both forms of the code counts give the same histogram (slow reference: a count per code by a
+    // linear scan), and the form kept is the smaller one.
+    #[test]
+    fn code_counts_forms_agree() {
+        let bits = 4;
+        let codes: Vec<i32> = (0..200).map(|i| (i * 7 % 16) - 8).collect();
+        let want: Vec<u64> = (-8..8)
+            .map(|c| codes.iter().filter(|&&v| v == c).count() as u64)
+            .collect();
+        let short = CodeCounts::of(&codes[..100], bits);
+        let long = CodeCounts::of(&codes, bits);
+        assert!(matches!(short, CodeCounts::Codes(..)));
+        assert!(matches!(long, CodeCounts::Counts(..)));
+        let half: Vec<u64> = (-8..8)
+            .map(|c| codes[..100].iter().filter(|&&v| v == c).count() as u64)
+            .collect();
+        let t = |codes| Traces {
+            codes,
+            ..Traces::default()
+        };
+        assert_eq!(t(short).histogram(), half);
+        assert_eq!(t(long).histogram(), want);
+        assert_eq!(CodeCounts::of(&codes, 25), CodeCounts::None);
+        assert!(!t(CodeCounts::None).has_histogram());
+    }
 
     fn record(bits: u32, sample_rate_hz: f64) -> Record {
         Record {

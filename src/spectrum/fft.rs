@@ -33,44 +33,66 @@ thread_local! {
     static BUFFERS: RefCell<Buffers> = RefCell::new(Buffers::default());
 }
 
+/// Records longer than this give their buffers back after each spectrum: a lot of short records reuses
+/// them, while one huge record should not keep hundreds of megabytes alive after its FFT.
+const KEEP_BUFFERS_MAX: usize = 1 << 20;
+
 /// One-sided power spectrum of `x` under window `w`, scaled by N·Σw² so that a tone's power summed over
 /// its bins equals A²/2 and the mean noise bin is 2σ²/N (bins 0 and N/2 are not doubled). An empty or
 /// all-ones `w` is the rectangular window: no window is built or multiplied.
 pub fn power_spectrum(x: &[f64], w: &[f64]) -> Vec<f64> {
+    if x.len() > KEEP_BUFFERS_MAX {
+        return power_spectrum_in_place(&mut x.to_vec(), w);
+    }
+    let mut input = BUFFERS.with(|b| std::mem::take(&mut b.borrow_mut().input));
+    input.clear();
+    input.extend_from_slice(x);
+    let out = power_spectrum_in_place(&mut input, w);
+    BUFFERS.with(|b| b.borrow_mut().input = input);
+    out
+}
+
+/// [`power_spectrum`] of `x`, using `x` itself as the FFT's input: it is windowed in place and left in an
+/// unspecified state. Saves a copy of the record where the caller has no further use for it.
+pub fn power_spectrum_in_place(x: &mut [f64], w: &[f64]) -> Vec<f64> {
     debug_assert!(w.is_empty() || x.len() == w.len());
     let n = x.len();
     let rectangular = w.is_empty() || w.iter().all(|&v| v == 1.0);
+    let sum_w2: f64 = if rectangular {
+        n as f64
+    } else {
+        x.iter_mut().zip(w).for_each(|(a, b)| *a *= b);
+        w.iter().map(|v| v * v).sum()
+    };
     let plan = PLANNER.with(|p| p.borrow_mut().plan_fft_forward(n));
-    BUFFERS.with(|b| {
-        let mut guard = b.borrow_mut();
-        let Buffers {
-            input,
-            output,
-            scratch,
-        } = &mut *guard;
-        input.clear();
-        let sum_w2: f64 = if rectangular {
-            input.extend_from_slice(x);
-            n as f64
-        } else {
-            input.extend(x.iter().zip(w).map(|(a, b)| a * b));
-            w.iter().map(|v| v * v).sum()
-        };
-        output.resize(n / 2 + 1, Complex::new(0.0, 0.0));
-        scratch.resize(plan.get_scratch_len(), Complex::new(0.0, 0.0));
-        // Lengths always match the plan, so this cannot fail.
-        plan.process_with_scratch(input, output, scratch)
-            .expect("buffer lengths come from the plan");
-        let scale = 1.0 / (n as f64 * sum_w2);
-        let mut out: Vec<f64> = output.iter().map(|z| 2.0 * scale * z.norm_sqr()).collect();
-        // DC and (for even N) Nyquist are not mirrored.
-        out[0] *= 0.5;
-        if n % 2 == 0 {
-            let last = out.len() - 1;
-            out[last] *= 0.5;
-        }
-        out
-    })
+    let (mut output, mut scratch) = BUFFERS.with(|b| {
+        let mut b = b.borrow_mut();
+        (
+            std::mem::take(&mut b.output),
+            std::mem::take(&mut b.scratch),
+        )
+    });
+    output.resize(n / 2 + 1, Complex::new(0.0, 0.0));
+    scratch.resize(plan.get_scratch_len(), Complex::new(0.0, 0.0));
+    // Lengths always match the plan, so this cannot fail.
+    plan.process_with_scratch(x, &mut output, &mut scratch)
+        .expect("buffer lengths come from the plan");
+    let scale = 1.0 / (n as f64 * sum_w2);
+    let mut out: Vec<f64> = output.iter().map(|z| 2.0 * scale * z.norm_sqr()).collect();
+    // DC and (for even N) Nyquist are not mirrored.
+    out[0] *= 0.5;
+    if n % 2 == 0 {
+        let last = out.len() - 1;
+        out[last] *= 0.5;
+    }
+    if n <= KEEP_BUFFERS_MAX {
+        BUFFERS.with(|b| {
+            let mut b = b.borrow_mut();
+            b.output = output;
+            b.scratch = scratch;
+        });
+    }
+    out
 }
 
 #[cfg(test)]
@@ -95,6 +117,22 @@ mod tests {
                 (g.re - re).abs() < 1e-9 && (g.im - im).abs() < 1e-9,
                 "bin {k}"
             );
+        }
+    }
+
+    // The in-place form and the copying form (with the per-thread buffers kept for short records and
+    // given back for long ones) must give bit-identical powers, also when one length follows another.
+    #[test]
+    fn in_place_and_copying_forms_agree() {
+        for &n in &[1000usize, 4096, (1 << 20) + 2, 4096] {
+            let x: Vec<f64> = (0..n).map(|i| ((i * 7919 % 1013) as f64) - 500.0).collect();
+            let w = crate::spectrum::Window::Hann.samples(n);
+            for win in [&[][..], &w[..]] {
+                let a = power_spectrum(&x, win);
+                let b = power_spectrum_in_place(&mut x.clone(), win);
+                assert_eq!(a.len(), n / 2 + 1);
+                assert!(a == b, "n={n}");
+            }
         }
     }
 

@@ -249,6 +249,19 @@ pub fn measure(
     bits: u32,
     settings: &SpectrumSettings,
 ) -> Result<SpectrumOutput> {
+    let owned: Vec<Vec<f64>> = records.iter().map(|r| r.to_vec()).collect();
+    measure_consuming(owned, fit, sample_rate_hz, bits, settings)
+}
+
+/// [`measure`] on records the caller no longer needs: each one is windowed and transformed in place,
+/// which saves a copy of the record (128 MB at 2^24 samples).
+pub fn measure_consuming(
+    mut records: Vec<Vec<f64>>,
+    fit: &SineFit,
+    sample_rate_hz: f64,
+    bits: u32,
+    settings: &SpectrumSettings,
+) -> Result<SpectrumOutput> {
     let n = records.first().map_or(0, |r| r.len());
     if n < 8 || records.iter().any(|r| r.len() != n) {
         return Err(Error::new(
@@ -263,7 +276,7 @@ pub fn measure(
         ));
     }
     let coherence = match settings.window {
-        WindowChoice::Auto => spectral_coherence(records[0], coherence_of(fit)),
+        WindowChoice::Auto => spectral_coherence(&records[0], coherence_of(fit)),
         WindowChoice::Fixed(_) => coherence_of(fit),
     };
     let (window, window_reason) = choose_window(
@@ -280,16 +293,24 @@ pub fn measure(
     } else {
         window.samples_shared(n)
     };
-    let mut powers = fft::power_spectrum(records[0], &w);
-    if records.len() > 1 {
-        for r in &records[1..] {
-            for (acc, p) in powers.iter_mut().zip(fft::power_spectrum(r, &w)) {
+    let count = records.len();
+    let mut rest = records.drain(..);
+    let mut powers = fft::power_spectrum_in_place(&mut rest.next().expect("checked above"), &w);
+    if count > 1 {
+        for mut r in rest {
+            for (acc, p) in powers
+                .iter_mut()
+                .zip(fft::power_spectrum_in_place(&mut r, &w))
+            {
                 *acc += p;
             }
         }
-        let m = records.len() as f64;
+        let m = count as f64;
         powers.iter_mut().for_each(|p| *p /= m);
+    } else {
+        drop(rest);
     }
+    drop(records);
     let claims = tones::claim_bins(n, fit.cycles, settings.harmonics.max(1), half);
     if claims.owner[claims.fundamental_bin] == tones::Owner::Dc {
         return Err(Error::new(
@@ -372,7 +393,7 @@ pub fn measure(
         window_reason,
         coherent: coherence.coherent,
         coherence,
-        records_averaged: records.len(),
+        records_averaged: count,
         bin_width_hz: sample_rate_hz / n as f64,
         span_halfwidth_bins: half,
         fundamental_hz: fit.frequency_hz,

@@ -12,8 +12,9 @@ pub enum Owner {
     Dc,
     /// The fundamental's span.
     Fundamental,
-    /// The span of harmonic `order`.
-    Harmonic(u32),
+    /// The span of harmonic `order` (u16: with one owner per bin, a 2^24-sample record's owners take
+    /// 32 MB rather than 64 MB).
+    Harmonic(u16),
     /// Everything else: noise, among which spurs are searched.
     Noise,
 }
@@ -49,6 +50,8 @@ pub struct Claims {
 /// `tone_bin` is the fundamental's fractional bin (fitted cycles), `half_span` the half-width of every
 /// span. A harmonic whose centre bin is already owned is masked and owns nothing.
 pub fn claim_bins(samples: usize, tone_bin: f64, harmonics: u32, half_span: usize) -> Claims {
+    // Orders are kept as u16 in the owners (the settings allow up to 100).
+    let harmonics = harmonics.min(u16::MAX as u32);
     let bins = samples / 2 + 1;
     let last = bins - 1;
     let mut owner = vec![Owner::Noise; bins];
@@ -76,7 +79,7 @@ pub fn claim_bins(samples: usize, tone_bin: f64, harmonics: u32, half_span: usiz
         if masked_by.is_none() {
             for k in span(centre) {
                 if owner[k] == Owner::Noise {
-                    owner[k] = Owner::Harmonic(order);
+                    owner[k] = Owner::Harmonic(order as u16);
                     mine.push(k);
                 }
             }
@@ -122,7 +125,7 @@ mod tests {
         for s in &c.harmonics {
             for b in &s.bins {
                 assert!(seen.insert(*b));
-                assert_eq!(c.owner[*b], Owner::Harmonic(s.order));
+                assert_eq!(c.owner[*b], Owner::Harmonic(s.order as u16));
             }
         }
         assert_eq!(c.owner[100], Owner::Fundamental);

@@ -325,7 +325,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             if hf.masked {
                 continue;
             }
-            if let Some(k) = peak_of(Owner::Harmonic(hf.order)) {
+            if let Some(k) = peak_of(Owner::Harmonic(hf.order as u16)) {
                 marks.push((k, format!("H{}", hf.order), palette::HARMONIC, !hf.at_floor));
             }
         }
@@ -350,7 +350,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
         // The worst spur: a ring on its peak bin and a label above the order label.
         if let Some(spur) = &sp.worst_spur {
             let k = match spur.harmonic {
-                Some(order) => peak_of(Owner::Harmonic(order)),
+                Some(order) => peak_of(Owner::Harmonic(order as u16)),
                 None => {
                     let centre = (spur.frequency_hz / bin_hz).round() as usize;
                     let half = sp.span_halfwidth_bins;
