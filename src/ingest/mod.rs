@@ -210,6 +210,44 @@ pub struct Ingested {
     pub warnings: Vec<String>,
 }
 
+/// A record file's bytes: memory-mapped when it is a regular file of at least [`MAP_MIN_BYTES`] (the
+/// parsers read it straight from the page cache, with no copy on the heap), else read whole.
+enum RecordBytes {
+    Mapped(memmap2::Mmap),
+    Read(Vec<u8>),
+}
+
+/// Files smaller than this are read: mapping costs more than copying a few pages.
+const MAP_MIN_BYTES: u64 = 1 << 20;
+
+impl RecordBytes {
+    fn open(path: &Path) -> std::io::Result<RecordBytes> {
+        let file = std::fs::File::open(path)?;
+        let meta = file.metadata()?;
+        if meta.is_file() && meta.len() >= MAP_MIN_BYTES {
+            // SAFETY: the map is read-only and lives only while this record is parsed. A file changed
+            // by another process meanwhile could give torn values (never unsafety in the parsers,
+            // which take any bytes); records are captures, not files being written.
+            if let Ok(map) = unsafe { memmap2::Mmap::map(&file) } {
+                return Ok(RecordBytes::Mapped(map));
+            }
+        }
+        let mut bytes = Vec::new();
+        std::io::Read::read_to_end(&mut &file, &mut bytes)?;
+        Ok(RecordBytes::Read(bytes))
+    }
+}
+
+impl std::ops::Deref for RecordBytes {
+    type Target = [u8];
+    fn deref(&self) -> &[u8] {
+        match self {
+            RecordBytes::Mapped(m) => m,
+            RecordBytes::Read(v) => v,
+        }
+    }
+}
+
 /// Reads a record file and its sidecar (if any) into a [`Record`].
 ///
 /// Errors: a missing or unreadable file ([`ErrorKind::Io`]), an empty file or no samples
@@ -218,7 +256,7 @@ pub struct Ingested {
 /// that does not parse ([`ErrorKind::BadMetadata`]), and the parsers' errors.
 pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     let shown = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| {
+    let bytes = RecordBytes::open(path).map_err(|e| {
         Error::new(
             ErrorKind::Io,
             &shown,
@@ -828,6 +866,34 @@ mod tests {
             (0..20).map(|k| k * 100 - 2048).collect::<Vec<i32>>()
         );
         assert_eq!((r.sample_rate_hz, r.bits), (1e5, 12));
+    }
+
+    // Files of at least MAP_MIN_BYTES are memory-mapped, smaller ones read: both must give the same
+    // codes (slow reference: the words written), for binary and text records.
+    #[test]
+    fn mapped_and_read_files_give_the_same_codes() {
+        let big = (MAP_MIN_BYTES as usize) / 2 + 17; // i16 words: just over the mapping threshold
+        let words: Vec<i16> = (0..big).map(|i| (i % 4001) as i16 - 2000).collect();
+        let sidecar = br#"{"format": "i16le", "sample_rate_hz": 1e6, "bits": 12}"#;
+        let text: String = words.iter().map(|w| format!("{w}\n")).collect();
+        let dir = files(&[
+            ("big.bin", &le16(&words)),
+            ("big.json", sidecar),
+            ("small.bin", &le16(&words[..1000])),
+            ("small.json", sidecar),
+            ("plain.txt", text.as_bytes()),
+        ]);
+        assert!(std::fs::metadata(dir.path().join("big.bin")).unwrap().len() >= MAP_MIN_BYTES);
+        let read = |name: &str, s: &IngestSettings| {
+            read_record(&dir.path().join(name), s).unwrap().record.codes
+        };
+        let want: Vec<i32> = words.iter().map(|&w| w as i32).collect();
+        assert_eq!(read("big.bin", &IngestSettings::default()), want);
+        assert_eq!(read("small.bin", &IngestSettings::default()), want[..1000]);
+        let mut t = IngestSettings::default();
+        t.meta.bits = Some(12);
+        t.meta.sample_rate_hz = Some(1e6);
+        assert_eq!(read("plain.txt", &t), want);
     }
 
     #[test]
