@@ -15,6 +15,7 @@ use std::path::{Path, PathBuf};
 use super::output::{read_lot_rows, write_atomic, LotRows, LotWriter};
 use super::run::LotCounts;
 use super::shard::{lot_fingerprint, remove_manifest, ShardManifest, SHARD_MANIFEST};
+use crate::report::output_error;
 use crate::{Error, ErrorKind, Location, Result};
 
 fn manifest_error(dir: &Path, key: &str, expected: String, found: String) -> Error {
@@ -24,16 +25,6 @@ fn manifest_error(dir: &Path, key: &str, expected: String, found: String) -> Err
         Location::Key(key.to_string()),
         expected,
         found,
-    )
-}
-
-fn output_error(path: &Path, expected: &str, e: impl std::fmt::Display) -> Error {
-    Error::new(
-        ErrorKind::Output,
-        path.display().to_string(),
-        Location::Whole,
-        expected,
-        e.to_string(),
     )
 }
 

@@ -394,14 +394,7 @@ impl LotWriter {
         conditions: &[String],
         limits: Option<&LimitTable>,
     ) -> Result<LotWriter> {
-        create_dir(out)?;
-        Ok(LotWriter {
-            out: out.to_path_buf(),
-            title: title.to_string(),
-            header,
-            summary: Vec::new(),
-            failures: Vec::new(),
-            index_rows: String::new(),
+        let counts = YieldCounts {
             conditions: conditions
                 .iter()
                 .map(|c| ConditionTally {
@@ -418,9 +411,8 @@ impl LotWriter {
                 })
                 .collect(),
             devices: Tally::default(),
-            results: 0,
-            outcomes: BTreeMap::new(),
-        })
+        };
+        LotWriter::with_counts(out, title, header, counts)
     }
 
     /// A writer for lot files put together from finished rows (a merge of shards): the yield counts

@@ -12,6 +12,7 @@ pub mod svg;
 pub mod text;
 pub mod units;
 mod write;
+pub(crate) use write::output_error;
 
 pub use html::{escape, render_index_html, render_index_html_inline, IndexRow};
 pub use svg::PlotOptions;

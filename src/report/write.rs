@@ -12,7 +12,8 @@ use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
 
-fn output_error(path: &Path, expected: &str, e: impl std::fmt::Display) -> Error {
+/// An [`ErrorKind::Output`] error for `path`.
+pub(crate) fn output_error(path: &Path, expected: &str, e: impl std::fmt::Display) -> Error {
     Error::new(
         ErrorKind::Output,
         path.display().to_string(),
