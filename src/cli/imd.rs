@@ -1,10 +1,10 @@
 //! `spurline imd`: two-tone intermodulation of each record (IM2, IM3, two-tone SFDR), as readable tables
 //! or one JSON array.
 
-use super::{ReadArgs, EXIT_ERROR, EXIT_OK};
+use super::ReadArgs;
 use clap::Args;
 use spurline::imd::{analyze_two_tone, ImdResult, ImdSettings};
-use spurline::ingest::read_record;
+use spurline::report::text::block_head;
 use spurline::report::units::{fixed, si};
 use spurline::spectrum::{Window, WindowChoice};
 use std::fmt::Write;
@@ -60,57 +60,31 @@ pub fn run(args: ImdArgs) -> i32 {
         refine_frequencies: !args.no_refine,
         ..ImdSettings::default()
     };
-    let mut results = Vec::with_capacity(args.files.len());
-    for path in &args.files {
-        let shown = path.display().to_string();
-        let r = match read_record(path, &ingest) {
-            Err(e) => ImdResult::failed(&shown, &e, Vec::new()),
-            Ok(ing) => match analyze_two_tone(&ing.record, &settings) {
-                Ok(mut r) => {
-                    let mut w = ing.warnings;
-                    w.append(&mut r.warnings);
-                    r.warnings = w;
-                    r
-                }
-                Err(e) => ImdResult::failed(&shown, &e, ing.warnings),
-            },
-        };
-        results.push(r);
+    super::run_files(
+        &args.files,
+        &ingest,
+        args.json,
+        |record| analyze_two_tone(record, &settings),
+        render,
+    )
+}
+
+impl super::FileResult for ImdResult {
+    fn failed(source: &str, e: &spurline::Error, warnings: Vec<String>) -> Self {
+        ImdResult::failed(source, e, warnings)
     }
-    if args.json {
-        // Plain data with Option<f64> figures and finite floats: this cannot fail.
-        let mut s = serde_json::to_string_pretty(&results).expect("plain data serialises");
-        s.push('\n');
-        print!("{s}");
-    } else {
-        for r in &results {
-            print!("{}", render(r));
-        }
+    fn warnings_mut(&mut self) -> &mut Vec<String> {
+        &mut self.warnings
     }
-    let mut any_error = false;
-    for r in &results {
-        if let Some(e) = &r.error {
-            any_error = true;
-            eprintln!("spurline: error: {}", e.message);
-        }
-    }
-    if any_error {
-        EXIT_ERROR
-    } else {
-        EXIT_OK
+    fn error_message(&self) -> Option<&str> {
+        self.error.as_ref().map(|e| e.message.as_str())
     }
 }
 
 /// Renders one result as a block of labelled lines.
 pub fn render(r: &ImdResult) -> String {
     let mut s = String::new();
-    let rule = "─".repeat(72usize.saturating_sub(r.source.chars().count() + 4));
-    let _ = writeln!(s, "── {} {rule}", r.source);
-    if let Some(e) = &r.error {
-        let _ = writeln!(s, "  error      {}", e.message);
-        for w in &r.warnings {
-            let _ = writeln!(s, "  warning    {w}");
-        }
+    if block_head(&mut s, &r.source, r.error.as_ref(), &r.warnings) {
         return s;
     }
     let _ = writeln!(

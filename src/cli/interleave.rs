@@ -1,10 +1,10 @@
 //! `spurline interleave`: interleaving spurs of each record of an M-channel time-interleaved converter,
 //! with each channel's offset, gain and timing error, as readable tables or one JSON array.
 
-use super::{ReadArgs, EXIT_ERROR, EXIT_OK};
+use super::ReadArgs;
 use clap::Args;
-use spurline::ingest::read_record;
 use spurline::interleave::{analyze_interleaved, InterleaveResult, InterleaveSettings};
+use spurline::report::text::block_head;
 use spurline::report::units::{fixed, si};
 use std::fmt::Write;
 use std::path::PathBuf;
@@ -49,57 +49,31 @@ pub fn run(args: InterleaveArgs) -> i32 {
         span_guard_bins: args.span_guard,
         ..InterleaveSettings::new(args.channels)
     };
-    let mut results = Vec::with_capacity(args.files.len());
-    for path in &args.files {
-        let shown = path.display().to_string();
-        let r = match read_record(path, &ingest) {
-            Err(e) => InterleaveResult::failed(&shown, &e, Vec::new()),
-            Ok(ing) => match analyze_interleaved(&ing.record, &settings) {
-                Ok(mut r) => {
-                    let mut w = ing.warnings;
-                    w.append(&mut r.warnings);
-                    r.warnings = w;
-                    r
-                }
-                Err(e) => InterleaveResult::failed(&shown, &e, ing.warnings),
-            },
-        };
-        results.push(r);
+    super::run_files(
+        &args.files,
+        &ingest,
+        args.json,
+        |record| analyze_interleaved(record, &settings),
+        render,
+    )
+}
+
+impl super::FileResult for InterleaveResult {
+    fn failed(source: &str, e: &spurline::Error, warnings: Vec<String>) -> Self {
+        InterleaveResult::failed(source, e, warnings)
     }
-    if args.json {
-        // Plain data with Option<f64> figures and finite floats: this cannot fail.
-        let mut s = serde_json::to_string_pretty(&results).expect("plain data serialises");
-        s.push('\n');
-        print!("{s}");
-    } else {
-        for r in &results {
-            print!("{}", render(r));
-        }
+    fn warnings_mut(&mut self) -> &mut Vec<String> {
+        &mut self.warnings
     }
-    let mut any_error = false;
-    for r in &results {
-        if let Some(e) = &r.error {
-            any_error = true;
-            eprintln!("spurline: error: {}", e.message);
-        }
-    }
-    if any_error {
-        EXIT_ERROR
-    } else {
-        EXIT_OK
+    fn error_message(&self) -> Option<&str> {
+        self.error.as_ref().map(|e| e.message.as_str())
     }
 }
 
 /// Renders one result as a block of labelled lines.
 pub fn render(r: &InterleaveResult) -> String {
     let mut s = String::new();
-    let rule = "─".repeat(72usize.saturating_sub(r.source.chars().count() + 4));
-    let _ = writeln!(s, "── {} {rule}", r.source);
-    if let Some(e) = &r.error {
-        let _ = writeln!(s, "  error      {}", e.message);
-        for w in &r.warnings {
-            let _ = writeln!(s, "  warning    {w}");
-        }
+    if block_head(&mut s, &r.source, r.error.as_ref(), &r.warnings) {
         return s;
     }
     let _ = writeln!(

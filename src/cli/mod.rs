@@ -93,6 +93,64 @@ pub fn run(cli: Cli) -> i32 {
     }
 }
 
+/// A per-record result of the commands that analyse each file on its own (`imd`, `interleave`).
+pub(crate) trait FileResult: serde::Serialize {
+    /// The result of a record that could not be read or analysed.
+    fn failed(source: &str, e: &spurline::Error, warnings: Vec<String>) -> Self;
+    /// Its warnings, to put the reader's before the analysis's.
+    fn warnings_mut(&mut self) -> &mut Vec<String>;
+    /// Its error message, if it failed.
+    fn error_message(&self) -> Option<&str>;
+}
+
+/// Reads and analyses each file in order (one bad file is a failed result, the rest go on), prints
+/// one JSON array or the text blocks, repeats the errors on stderr, and gives the exit status.
+pub(crate) fn run_files<R: FileResult>(
+    files: &[std::path::PathBuf],
+    ingest: &spurline::ingest::IngestSettings,
+    json: bool,
+    analyse: impl Fn(&spurline::Record) -> spurline::Result<R>,
+    render: impl Fn(&R) -> String,
+) -> i32 {
+    let mut results = Vec::with_capacity(files.len());
+    for path in files {
+        let shown = path.display().to_string();
+        let r = match spurline::ingest::read_record(path, ingest) {
+            Err(e) => R::failed(&shown, &e, Vec::new()),
+            Ok(ing) => match analyse(&ing.record) {
+                Ok(mut r) => {
+                    let mut w = ing.warnings;
+                    w.append(r.warnings_mut());
+                    *r.warnings_mut() = w;
+                    r
+                }
+                Err(e) => R::failed(&shown, &e, ing.warnings),
+            },
+        };
+        results.push(r);
+    }
+    if json {
+        // Plain data with Option<f64> figures and finite floats: this cannot fail.
+        let mut s = serde_json::to_string_pretty(&results).expect("plain data serialises");
+        s.push('\n');
+        print!("{s}");
+    } else {
+        for r in &results {
+            print!("{}", render(r));
+        }
+    }
+    let mut any_error = false;
+    for m in results.iter().filter_map(|r| r.error_message()) {
+        any_error = true;
+        eprintln!("spurline: error: {m}");
+    }
+    if any_error {
+        EXIT_ERROR
+    } else {
+        EXIT_OK
+    }
+}
+
 /// Prints an error the same way everywhere and returns the error exit status.
 pub(crate) fn fail(e: &spurline::Error) -> i32 {
     eprintln!("spurline: error: {e}");

@@ -1,19 +1,34 @@
 //! The readable per-record table that `analyze` prints.
 
 use super::units::{fixed, si};
-use crate::analysis::Analysis;
+use crate::analysis::{Analysis, ErrorReport};
 use std::fmt::Write;
+
+/// Starts the block of one result: a rule naming its source, then, for a result that failed, its error
+/// and warnings. Returns true when that is the whole block (the result failed). Shared by every command
+/// that prints per-record blocks.
+pub fn block_head(
+    s: &mut String,
+    source: &str,
+    error: Option<&ErrorReport>,
+    warnings: &[String],
+) -> bool {
+    let rule = "─".repeat(72usize.saturating_sub(source.chars().count() + 4));
+    let _ = writeln!(s, "── {source} {rule}");
+    let Some(e) = error else {
+        return false;
+    };
+    let _ = writeln!(s, "  error      {}", e.message);
+    for w in warnings {
+        let _ = writeln!(s, "  warning    {w}");
+    }
+    true
+}
 
 /// Renders one result record as a block of labelled lines.
 pub fn render(a: &Analysis) -> String {
     let mut s = String::new();
-    let rule = "─".repeat(72usize.saturating_sub(a.source.chars().count() + 4));
-    let _ = writeln!(s, "── {} {rule}", a.source);
-    if let Some(e) = &a.error {
-        let _ = writeln!(s, "  error      {}", e.message);
-        for w in &a.warnings {
-            let _ = writeln!(s, "  warning    {w}");
-        }
+    if block_head(&mut s, &a.source, a.error.as_ref(), &a.warnings) {
         return s;
     }
     let _ = writeln!(
