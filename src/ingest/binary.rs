@@ -23,7 +23,7 @@ fn sign_extend(raw: u32, width: u32) -> i64 {
 
 impl Decoder {
     /// The code for a word, or None when the word holds no valid N-bit code.
-    #[inline]
+    #[inline(always)]
     fn decode(&self, raw: u32) -> Option<i64> {
         let pad = self.word_bits - self.bits;
         let half = 1i64 << (self.bits - 1);
@@ -70,7 +70,7 @@ impl Decoder {
 }
 
 /// Reads one word of 1, 2 or 4 bytes.
-#[inline]
+#[inline(always)]
 fn read_word(b: &[u8], big_endian: bool) -> u32 {
     match (b.len(), big_endian) {
         (1, _) => u32::from(b[0]),
@@ -189,23 +189,47 @@ pub fn parse_binary(
     };
     let first = layout.channel * w;
     let mut codes = Vec::with_capacity(data.len() / frame);
+    // One loop per word size and byte order, so that neither is decided again for every sample.
+    let bad = match (w, layout.big_endian) {
+        (1, _) => decode_frames::<1, false>(data, frame, first, &decoder, &mut codes),
+        (2, false) => decode_frames::<2, false>(data, frame, first, &decoder, &mut codes),
+        (2, true) => decode_frames::<2, true>(data, frame, first, &decoder, &mut codes),
+        (_, false) => decode_frames::<4, false>(data, frame, first, &decoder, &mut codes),
+        (_, true) => decode_frames::<4, true>(data, frame, first, &decoder, &mut codes),
+    };
+    if let Some(k) = bad {
+        let at = k * frame + first;
+        let raw = read_word(&data[at..at + w], layout.big_endian);
+        return Err(Error::new(
+            ErrorKind::CodeOutOfRange,
+            path,
+            Location::Byte(skip + at as u64),
+            decoder.expected(),
+            format!("word 0x{raw:0digits$x} ({raw})", digits = 2 * w),
+        ));
+    }
+    Ok(codes)
+}
+
+/// Decodes the word at `first` of every `frame`-byte frame into `codes`; returns the index of the
+/// first frame whose word holds no valid code.
+#[inline(always)]
+fn decode_frames<const W: usize, const BIG_ENDIAN: bool>(
+    data: &[u8],
+    frame: usize,
+    first: usize,
+    decoder: &Decoder,
+    codes: &mut Vec<i32>,
+) -> Option<usize> {
     for (k, f) in data.chunks_exact(frame).enumerate() {
-        let raw = read_word(&f[first..first + w], layout.big_endian);
+        let raw = read_word(&f[first..first + W], BIG_ENDIAN);
         match decoder.decode(raw) {
             // Every decoded value lies in the N-bit range, N <= 32, so it fits an i32.
             Some(v) => codes.push(v as i32),
-            None => {
-                return Err(Error::new(
-                    ErrorKind::CodeOutOfRange,
-                    path,
-                    Location::Byte(skip + (k * frame + first) as u64),
-                    decoder.expected(),
-                    format!("word 0x{raw:0digits$x} ({raw})", digits = 2 * w),
-                ))
-            }
+            None => return Some(k),
         }
     }
-    Ok(codes)
+    None
 }
 
 #[cfg(test)]

@@ -145,19 +145,16 @@ pub fn check_codes(codes: &[i32], bits: u32) -> Vec<String> {
         return warnings;
     }
     let (lo, hi) = (min_code(bits), max_code(bits));
-    let mut min = i64::MAX;
-    let mut max = i64::MIN;
-    let (mut at_lo, mut at_hi) = (0usize, 0usize);
-    for &c in codes {
-        let c = i64::from(c);
-        min = min.min(c);
-        max = max.max(c);
-        at_lo += usize::from(c == lo);
-        at_hi += usize::from(c == hi);
-    }
+    // Separate passes in i32 vectorise; one pass doing all four in i64 cost as much as the parse.
+    let min = i64::from(codes.iter().copied().min().unwrap_or(0));
+    let max = i64::from(codes.iter().copied().max().unwrap_or(0));
     if min < lo || max > hi {
         return warnings;
     }
+    // In range, so the end codes are i32 values too.
+    let (lo32, hi32) = (lo as i32, hi as i32);
+    let at_lo = codes.iter().filter(|&&c| c == lo32).count();
+    let at_hi = codes.iter().filter(|&&c| c == hi32).count();
     let n = codes.len();
 
     if bits >= 2 && at_lo + at_hi > 0 {
