@@ -541,7 +541,7 @@ mod tests {
 
     #[test]
     fn worked_example_44_mhz_at_100_mhz_with_2048_samples() {
-        // Hand arithmetic (a widely reproduced coherent-sampling worked example, from memory):
+        // Hand arithmetic (common practice, no source):
         // 44e6·2048/100e6 = 901.12 → J = 901 (odd, coprime with 2048); 901·100e6/2048 = 43 994 140.625 Hz.
         let c = nearest_coherent(100e6, 2048, 44e6, false).unwrap();
         assert_eq!(c.cycles, 901);
@@ -818,7 +818,7 @@ mod tests {
 
     #[test]
     fn tone_plan_of_the_worked_example() {
-        // 44 MHz at 100 MHz, N = 2048 → J = 901 (worked example above); harmonics on the bin scale:
+        // 44 MHz at 100 MHz, N = 2048 → J = 901 (hand arithmetic above); harmonics on the bin scale:
         // 2·901 = 1802 → 2048 − 1802 = 246; 3·901 = 2703 → 2703 − 2048 = 655; 4·901 = 3604 → 4096 − 3604 = 492;
         // 5·901 = 4505 → 4505 − 4096 = 409.
         let p = plan_tone(100e6, 2048, 44e6, false, 5, 0.0).unwrap();

@@ -1,6 +1,6 @@
 //! A built-in reference suite that checks the installed build against figures from outside the
 //! project: published window tables, handbook formulas on simulated records with known truth, the
-//! coherent-sampling worked example and the Cramér-Rao bound of the sine fit.
+//! coherent-sampling arithmetic and the Cramér-Rao bound of the sine fit.
 //!
 //! [`measure`] runs every check and returns what it measured next to what it expected; [`judge`]
 //! decides pass or fail; [`run`] does both. Each check states its source and its tolerance, and a check
@@ -472,14 +472,15 @@ fn analytic_records(out: &mut Vec<Measurement>) {
     );
 }
 
-// The coherent-sampling worked example (from memory): N = 2048 at 100 MS/s, target 44 MHz gives
-// J = 901 cycles (odd, coprime with 2048) and 43 994 140.625 Hz. Exact arithmetic: tolerance 0.
+// Hand arithmetic (common practice, no source): N = 2048 at 100 MS/s, target 44 MHz: 44e6·2048/1e8 =
+// 901.12, and the nearest odd cycle count (odd is coprime with 2048) is J = 901, i.e. 901·1e8/2048 =
+// 43 994 140.625 Hz. Exact arithmetic: tolerance 0.
 fn coherent_sampling(out: &mut Vec<Measurement>) {
     let mut sheet = Sheet { out };
     let c = nearest_coherent(100e6, 2048, 44e6, false).map_err(|e| e.to_string());
     sheet.add(
         "coherent cycles near 44 MHz, 2048 points at 100 MS/s",
-        "coherent-sampling worked example",
+        "hand arithmetic: J = fin·N/fs, odd, coprime with N",
         "cycles",
         901.0,
         0.0,
@@ -487,7 +488,7 @@ fn coherent_sampling(out: &mut Vec<Measurement>) {
     );
     sheet.add(
         "coherent frequency near 44 MHz, 2048 points at 100 MS/s",
-        "coherent-sampling worked example",
+        "hand arithmetic: J = fin·N/fs, odd, coprime with N",
         "Hz",
         43_994_140.625,
         0.0,

@@ -39,7 +39,7 @@ fn cell<'a>(header: &[String], row: &'a [String], name: &str) -> &'a str {
 
 #[test]
 fn worked_example_44_mhz() {
-    // Hand arithmetic (a widely reproduced coherent-sampling worked example, from memory):
+    // Hand arithmetic (common practice, no source):
     // 44e6·2048/100e6 = 901.12 → J = 901, odd and coprime with 2048; 901·100e6/2048 = 43 994 140.625 Hz.
     // 901 = 17·53 is not prime; the nearest prime is 907 (887 is 14.12 bins away, 907 is 5.88).
     let text = plan(&["--fs", "100M", "--n", "2048", "--fin", "44M"]);
