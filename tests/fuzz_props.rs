@@ -911,3 +911,471 @@ proptest! {
         }
     }
 }
+
+// ---------------------------------------------------------------------------------------------------
+// Bench plans
+// ---------------------------------------------------------------------------------------------------
+
+/// A valid plan with every table the format has (converter, analysis, records, conditions with an
+/// inline and a sub-table override), one key per line: the base the near-valid plans are edited from.
+const PLAN: &str = r#"# near-valid base plan
+title = "lot"
+
+[converter]
+bits = 12
+sample_rate_hz = "100M"
+full_scale_vpp = 2.0
+format = "i16le"
+coding = "twos"
+justify = "right"
+skip_bytes = 0
+channel = "1/1"
+
+[analysis]
+fit = "four"
+window = "auto"
+harmonics = 5
+span_guard = 1
+average = 1
+amplitude_tolerance_db = 1.0
+
+[records]
+pattern = "records/{device}/{condition}_{index}.bin"
+
+[[condition]]
+name = "fin_10M"
+fin_hz = "10.1M"
+amplitude_dbfs = -1.0
+
+[[condition]]
+name = "fin_31M"
+fin_hz = 31.3e6
+amplitude_dbfs = -1.0
+analysis = { harmonics = 7, average = 2 }
+
+[[condition]]
+name = "fin_49M"
+fin_hz = "49.9 MHz"
+amplitude_dbfs = -6
+[condition.analysis]
+window = "hann"
+fit = "three"
+"#;
+
+/// The same lot with an explicit record list (located without any file).
+const PLAN_LIST: &str = r#"[converter]
+bits = 8
+sample_rate_hz = 1e6
+[records]
+devices = ["d1", "d2"]
+list = [
+  { device = "d1", condition = "a", files = ["a/d1.txt"] },
+  { device = "d2", condition = "b", files = ["b/d2_1.txt", "b/d2_2.txt"] },
+]
+[[condition]]
+name = "a"
+fin_hz = 1000
+amplitude_dbfs = -1
+[[condition]]
+name = "b"
+fin_hz = "250k"
+amplitude_dbfs = 0.0
+analysis = { average = 2 }
+"#;
+
+/// Values a key may be given: right and wrong types, ranges' edges, non-finite numbers, bad strings.
+const PLAN_VALUES: [&str; 36] = [
+    "0",
+    "1",
+    "32",
+    "33",
+    "100",
+    "101",
+    "10000",
+    "10001",
+    "-1",
+    "4294967296",
+    "18446744073709551615",
+    "1e308",
+    "-0.0",
+    "nan",
+    "inf",
+    "-inf",
+    "0.5",
+    "\"\"",
+    "\"100M\"",
+    "\"0\"",
+    "\"-5k\"",
+    "\"1e400\"",
+    "\"nanM\"",
+    "\"é\"",
+    "\"*\"",
+    "\"..\"",
+    "\"a/b\"",
+    "\"{device}\"",
+    "\"{x}\"",
+    "\"0/0\"",
+    "\"3/2\"",
+    "\"u24le\"",
+    "\"tab\"",
+    "true",
+    "[]",
+    "{ window = 1 }",
+];
+
+/// Extra lines a near-valid plan may gain: tables, unknown keys, duplicate names.
+const PLAN_LINES: [&str; 12] = [
+    "[converter]",
+    "[analysis]",
+    "[records]",
+    "[[condition]]",
+    "[condition.analysis]",
+    "unknown = 1",
+    "name = \"fin_10M\"",
+    "devices = [\"d1\", \"d1\"]",
+    "list = []",
+    "pattern = \"x.bin\"",
+    "analysis = { average = 0 }",
+    "[[records.list]]",
+];
+
+/// One edit of a plan's lines.
+#[derive(Debug, Clone)]
+enum PlanEdit {
+    /// The value of line `.0` (if it has one) becomes `PLAN_VALUES[.1]`.
+    Value(prop::sample::Index, usize),
+    Drop(prop::sample::Index),
+    Duplicate(prop::sample::Index),
+    Insert(prop::sample::Index, usize),
+}
+
+fn plan_edit() -> impl Strategy<Value = PlanEdit> {
+    let i = any::<prop::sample::Index>();
+    prop_oneof![
+        4 => (i.clone(), 0..PLAN_VALUES.len()).prop_map(|(i, v)| PlanEdit::Value(i, v)),
+        1 => i.clone().prop_map(PlanEdit::Drop),
+        1 => i.clone().prop_map(PlanEdit::Duplicate),
+        1 => (i, 0..PLAN_LINES.len()).prop_map(|(i, v)| PlanEdit::Insert(i, v)),
+    ]
+}
+
+/// A plan edited from one of the bases, then perhaps cut or with one byte changed.
+fn plan_text() -> impl Strategy<Value = String> {
+    (
+        any::<bool>(),
+        prop::collection::vec(plan_edit(), 0..4),
+        prop_oneof![6 => Just(None), 1 => (any::<prop::sample::Index>(), any::<u8>(), any::<bool>()).prop_map(Some)],
+        any::<bool>(),
+    )
+        .prop_map(|(list, edits, mutation, crlf)| {
+            let base = if list { PLAN_LIST } else { PLAN };
+            let mut lines: Vec<String> = base.lines().map(str::to_string).collect();
+            for e in edits {
+                match e {
+                    PlanEdit::Value(i, v) => {
+                        let at = i.index(lines.len());
+                        let l = &mut lines[at];
+                        if let Some((k, _)) = l.split_once(" = ") {
+                            *l = format!("{k} = {}", PLAN_VALUES[v]);
+                        }
+                    }
+                    PlanEdit::Drop(i) => {
+                        lines.remove(i.index(lines.len()));
+                    }
+                    PlanEdit::Duplicate(i) => {
+                        let at = i.index(lines.len());
+                        lines.insert(at, lines[at].clone());
+                    }
+                    PlanEdit::Insert(i, v) => {
+                        let at = i.index(lines.len() + 1);
+                        lines.insert(at, PLAN_LINES[v].to_string());
+                    }
+                }
+                if lines.is_empty() {
+                    lines.push(String::new());
+                }
+            }
+            let mut text = lines.join(if crlf { "\r\n" } else { "\n" });
+            text.push('\n');
+            if let Some((at, byte, cut)) = mutation {
+                let mut bytes = text.into_bytes();
+                let i = at.index(bytes.len());
+                if cut {
+                    bytes.truncate(i);
+                } else {
+                    bytes[i] = byte;
+                }
+                text = String::from_utf8_lossy(&bytes).into_owned();
+            }
+            text
+        })
+}
+
+/// Keys of the base plan whose values have a range, each with values outside it.
+const PLAN_RANGES: [(&str, &[&str]); 7] = [
+    ("bits", &["0", "33"]),
+    ("sample_rate_hz", &["0", "-1e6", "nan", "\"-5k\""]),
+    ("full_scale_vpp", &["0.0", "-2", "inf"]),
+    ("harmonics", &["0", "101"]),
+    ("average", &["0", "10001"]),
+    ("amplitude_tolerance_db", &["0", "nan"]),
+    ("fin_hz", &["0", "-1", "inf", "\"0k\""]),
+];
+
+#[test]
+fn the_base_plans_parse() {
+    // Both bases are valid, or the edits below start from an error and test less than they say.
+    let p = spurline::batch::BenchPlan::parse(PLAN, Path::new("bench/plan.toml")).unwrap();
+    invariants::check_plan(&p, PLAN);
+    assert_eq!(p.conditions.len(), 3);
+    let p = spurline::batch::BenchPlan::parse(PLAN_LIST, Path::new("bench/plan.toml")).unwrap();
+    invariants::check_plan(&p, PLAN_LIST);
+}
+
+proptest! {
+    #![proptest_config(config(256))]
+
+    #[test]
+    fn plan_arbitrary_text_never_panics(bytes in prop::collection::vec(any::<u8>(), 0..400)) {
+        let text = String::from_utf8_lossy(&bytes);
+        match spurline::batch::BenchPlan::parse(&text, Path::new("bench/plan.toml")) {
+            Ok(p) => invariants::check_plan(&p, &text),
+            Err(e) => invariants::check_plan_error(&e, "bench/plan.toml", &text),
+        }
+    }
+
+    #[test]
+    fn plan_near_valid_never_panics_and_names_its_line(text in plan_text()) {
+        match spurline::batch::BenchPlan::parse(&text, Path::new("bench/plan.toml")) {
+            Ok(p) => invariants::check_plan(&p, &text),
+            Err(e) => invariants::check_plan_error(&e, "bench/plan.toml", &text),
+        }
+    }
+
+    #[test]
+    fn plan_value_out_of_range_is_named_at_its_line(
+        (key, bad) in prop::sample::select(PLAN_RANGES.to_vec())
+            .prop_flat_map(|(k, bad)| (Just(k), prop::sample::select(bad.to_vec()))),
+        which in any::<prop::sample::Index>(),
+    ) {
+        // The value of one occurrence of the key is put out of its range (documented in
+        // src/batch/plan.rs); the error must be at that line and name the key.
+        let lines: Vec<&str> = PLAN.lines().collect();
+        let at: Vec<usize> = (0..lines.len())
+            .filter(|&i| lines[i].starts_with(&format!("{key} = ")))
+            .collect();
+        let i = at[which.index(at.len())];
+        let mut edited: Vec<String> = lines.iter().map(|l| l.to_string()).collect();
+        edited[i] = format!("{key} = {bad}");
+        let text = edited.join("\n") + "\n";
+        let e = spurline::batch::BenchPlan::parse(&text, Path::new("bench/plan.toml")).unwrap_err();
+        invariants::check_plan_error(&e, "bench/plan.toml", &text);
+        prop_assert_eq!(&e.location, &Location::Line(i + 1), "{}", e);
+        prop_assert!(e.expected.contains(key), "{}", e);
+    }
+}
+
+// ---------------------------------------------------------------------------------------------------
+// Limit tables
+// ---------------------------------------------------------------------------------------------------
+
+/// The scope of the fixture lot: its two conditions with 5 and 7 harmonics.
+fn limit_scope() -> Vec<(String, spurline::limits::Catalogue)> {
+    [("fin_10M", 5), ("fin_31M", 7)]
+        .iter()
+        .map(|&(n, h)| (n.to_string(), spurline::limits::Catalogue::for_harmonics(h)))
+        .collect()
+}
+
+/// Metrics as a table may name them, with the full name and unit they resolve to under both
+/// conditions (checked against the catalogue in `limit_metrics_resolve`).
+const LIMIT_METRICS: [(&str, &str, &str); 5] = [
+    ("snr_db", "spectrum.snr_db", "dB"),
+    ("spectrum.sfdr_dbc", "spectrum.sfdr_dbc", "dBc"),
+    ("h3.dbc", "spectrum.harmonics.h3.dbc", "dBc"),
+    ("fit.enob_bits", "fit.enob_bits", "bits"),
+    ("spectrum.thd_db", "spectrum.thd_db", "dB"),
+];
+
+#[test]
+fn limit_metrics_resolve() {
+    for (_, cat) in limit_scope() {
+        for (given, full, unit) in LIMIT_METRICS {
+            let m = cat.resolve(given).unwrap();
+            assert_eq!((m.name.as_str(), m.unit), (full, unit));
+        }
+    }
+}
+
+/// One row of a near-valid limit table: valid cells, or one cell wrong in a known way.
+#[derive(Debug, Clone)]
+enum LimitRow {
+    Valid {
+        condition: usize,
+        metric: usize,
+        low: Option<i32>,
+        high: Option<i32>,
+        unit: bool,
+        guardband: Option<u8>,
+    },
+    /// A cell that makes the row an error: unknown condition or metric, an ambiguous name, a
+    /// non-number, low above high, a wrong unit, a negative guardband, a row of another width.
+    Bad(u8),
+    Blank,
+    Comment,
+}
+
+fn limit_row() -> impl Strategy<Value = LimitRow> {
+    prop_oneof![
+        8 => (0usize..3, 0..LIMIT_METRICS.len(), prop::option::of(-100i32..100), prop::option::of(-100i32..100), any::<bool>(), prop::option::of(0u8..3))
+            .prop_map(|(condition, metric, low, high, unit, guardband)| LimitRow::Valid { condition, metric, low, high, unit, guardband }),
+        1 => (0u8..8).prop_map(LimitRow::Bad),
+        1 => Just(LimitRow::Blank),
+        1 => Just(LimitRow::Comment),
+    ]
+}
+
+/// The columns in the order the header gives them; the guardband column is optional.
+const LIMIT_COLUMNS: [&str; 6] = ["condition", "metric", "low", "high", "unit", "guardband"];
+
+/// Renders a table and predicts the parse: the (line, full metric) of every limit, or the line of the
+/// first bad row.
+fn render_limits(
+    order: &[usize],
+    rows: &[LimitRow],
+    semicolon: bool,
+    crlf: bool,
+) -> (String, std::result::Result<Vec<(usize, String)>, Location>) {
+    let conditions = ["*", "fin_10M", "fin_31M"];
+    let d = if semicolon { ";" } else { "," };
+    let end = if crlf { "\r\n" } else { "\n" };
+    let guard = order.contains(&5);
+    let mut out = String::from("# limits");
+    out.push_str(end);
+    // Column names are compared without regard to case.
+    let header: Vec<String> = order
+        .iter()
+        .map(|&i| LIMIT_COLUMNS[i].to_uppercase())
+        .collect();
+    out.push_str(&header.join(d));
+    out.push_str(end);
+    let mut line = 2;
+    let mut got: Vec<(usize, Option<&str>, String)> = Vec::new();
+    let mut first_bad: Option<usize> = None;
+    for r in rows {
+        line += 1;
+        let mut cells = [
+            "*".to_string(),
+            "snr_db".into(),
+            "1".into(),
+            String::new(),
+            String::new(),
+            String::new(),
+        ];
+        match r {
+            LimitRow::Blank => {
+                out.push_str(&vec![""; order.len()].join(d));
+                out.push_str(end);
+                continue;
+            }
+            LimitRow::Comment => {
+                out.push_str("  # a comment, with cells");
+                out.push_str(end);
+                continue;
+            }
+            LimitRow::Valid {
+                condition,
+                metric,
+                low,
+                high,
+                unit,
+                guardband,
+            } => {
+                let (given, full, u) = LIMIT_METRICS[*metric];
+                // Bounds that always leave a window: low ≤ high − 2·guardband.
+                let g = if guard { guardband.unwrap_or(0) } else { 0 };
+                let (lo, hi) = match (low, high) {
+                    (Some(a), Some(b)) => (Some(*a.min(b)), Some(*a.max(b) + 2 * i32::from(g))),
+                    (None, None) => (Some(0), None),
+                    other => (*other.0, *other.1),
+                };
+                cells = [
+                    conditions[*condition].to_string(),
+                    given.to_string(),
+                    lo.map_or(String::new(), |v| v.to_string()),
+                    hi.map_or(String::new(), |v| v.to_string()),
+                    if *unit { u.to_string() } else { String::new() },
+                    if guard && guardband.is_some() {
+                        g.to_string()
+                    } else {
+                        String::new()
+                    },
+                ];
+                let cond = (*condition > 0).then_some(conditions[*condition]);
+                if got.iter().any(|(_, c, m)| *c == cond && m == full) {
+                    first_bad.get_or_insert(line);
+                }
+                got.push((line, cond, full.to_string()));
+            }
+            LimitRow::Bad(k) => {
+                match k {
+                    0 => cells[0] = "fin_99M".into(),
+                    1 => cells[1] = "snr".into(),
+                    2 => cells[1] = "enob_bits".into(),
+                    3 => cells[2] = "6o".into(),
+                    4 => cells[3] = "0".into(),
+                    5 => cells[4] = "dBc".into(),
+                    6 if guard => cells[5] = "-1".into(),
+                    6 => cells[2] = "nan".into(),
+                    _ => cells[0].push_str(d),
+                }
+                first_bad.get_or_insert(line);
+            }
+        }
+        let shown: Vec<&str> = order.iter().map(|&i| cells[i].as_str()).collect();
+        out.push_str(&shown.join(d));
+        out.push_str(end);
+    }
+    let want = match first_bad {
+        Some(l) => Err(Location::Row(l)),
+        None if got.is_empty() => Err(Location::Whole),
+        None => Ok(got.into_iter().map(|(l, _, m)| (l, m)).collect()),
+    };
+    (out, want)
+}
+
+proptest! {
+    #![proptest_config(config(256))]
+
+    #[test]
+    fn limits_arbitrary_text_never_panic(bytes in prop::collection::vec(any::<u8>(), 0..400)) {
+        let text = String::from_utf8_lossy(&bytes);
+        let scope = limit_scope();
+        match spurline::limits::LimitTable::parse(&text, "bench/limits.csv", &scope) {
+            Ok(t) => invariants::check_limits(&t, "bench/limits.csv", &text, &scope),
+            Err(e) => invariants::check_limits_error(&e, "bench/limits.csv", &text),
+        }
+    }
+
+    #[test]
+    fn limits_near_valid_tables_parse_as_predicted(
+        order in prop_oneof![Just(vec![0usize, 1, 2, 3, 4]), Just(vec![0usize, 1, 2, 3, 4, 5])].prop_shuffle(),
+        rows in prop::collection::vec(limit_row(), 0..12),
+        semicolon in any::<bool>(),
+        crlf in any::<bool>(),
+    ) {
+        let scope = limit_scope();
+        let (text, want) = render_limits(&order, &rows, semicolon, crlf);
+        match spurline::limits::LimitTable::parse(&text, "bench/limits.csv", &scope) {
+            Ok(t) => {
+                invariants::check_limits(&t, "bench/limits.csv", &text, &scope);
+                let got: Vec<(usize, String)> = t.limits.iter().map(|l| (l.row, l.metric.clone())).collect();
+                prop_assert_eq!(Ok(got), want, "{}", text);
+            }
+            Err(e) => {
+                invariants::check_limits_error(&e, "bench/limits.csv", &text);
+                prop_assert_eq!(Err(e.location.clone()), want, "{}\n{}", e, text);
+            }
+        }
+    }
+}

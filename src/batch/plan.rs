@@ -278,9 +278,11 @@ impl Lot {
     }
 }
 
-/// The line (1-based) of a byte offset.
+/// The line (1-based) of a byte offset. The end of a text that ends in a newline (where the TOML
+/// parser puts an error about an unclosed string or table) is on its last line, not the one after.
 fn line_at(text: &str, byte: usize) -> usize {
-    1 + text.as_bytes()[..byte.min(text.len())]
+    let end = text.len() - usize::from(text.ends_with('\n'));
+    1 + text.as_bytes()[..byte.min(end)]
         .iter()
         .filter(|&&b| b == b'\n')
         .count()
@@ -436,7 +438,19 @@ impl Reader<'_> {
                     table.clone()
                 }
             });
-        let message = message.replace('\n', " ");
+        let mut message = message.replace('\n', " ");
+        if message.is_empty() {
+            // The TOML parser gives some syntax errors (a lone carriage return) no message: say what
+            // stands at the place instead, so that the error still shows what was found.
+            message = if span.start >= self.text.len() {
+                "the end of the plan".to_string()
+            } else {
+                self.text
+                    .get(span.start..)
+                    .and_then(|t| t.chars().next())
+                    .map_or_else(|| "text that is not TOML".to_string(), |c| format!("{c:?}"))
+            };
+        }
         // serde's "invalid type: X, expected Y" and our own "expected Y, found X".
         let split = ["invalid type: ", "invalid value: "]
             .iter()
@@ -1202,6 +1216,30 @@ mod tests {
         let mut v = vec!["d10", "d2", "d1", "a", "d02", "b3x"];
         v.sort_by(|a, b| natural_cmp(a, b));
         assert_eq!(v, vec!["a", "b3x", "d1", "d02", "d2", "d10"]);
+    }
+
+    #[test]
+    fn lone_carriage_return_is_named() {
+        // Found by fuzz_plan: a TOML syntax error without a message gave an empty "found".
+        let e = BenchPlan::parse("\r", Path::new("p.toml")).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::BadPlan);
+        assert_eq!(e.found, "'\\r'", "{e:?}");
+        assert_eq!(e.location, Location::Line(1), "{e:?}");
+        // Inside a line the parser says what it expected; that stays as it was.
+        let e = BenchPlan::parse("[converter]\rbits = 12\n", Path::new("p.toml")).unwrap_err();
+        assert!(e.found.starts_with("invalid table header"), "{e:?}");
+        assert_eq!(e.location, Location::Line(1), "{e:?}");
+    }
+
+    #[test]
+    fn error_at_the_end_is_on_the_last_line() {
+        // Found by fuzz_plan: an unclosed multi-line string at the end gave the line after the last.
+        let text = "[converter]\nbits = 12\ntitle = '''open\n";
+        let e = BenchPlan::parse(text, Path::new("p.toml")).unwrap_err();
+        assert_eq!(e.location, Location::Line(3), "{e:?}");
+        assert_eq!(line_at("a\n", 2), 1);
+        assert_eq!(line_at("a\nb", 3), 2);
+        assert_eq!(line_at("", 0), 1);
     }
 
     #[test]

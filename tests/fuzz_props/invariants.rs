@@ -19,6 +19,14 @@ pub fn line_count(bytes: &[u8]) -> usize {
 /// What every error must satisfy: a non-empty path that the message shows, a place inside the input
 /// when the kind is about a place, and an expectation free of NaN (`found` quotes the input).
 pub fn check_error(e: &Error, path: &str, input: &[u8]) {
+    check_place(e, path, input);
+    // `found` quotes the input, which may well say "nan"; what the parser expected is its own text.
+    no_nan_words(&e.expected);
+}
+
+/// The part of [`check_error`] about the path and the place, for errors whose expectation may quote
+/// the input too (a key of a bench plan).
+pub fn check_place(e: &Error, path: &str, input: &[u8]) {
     assert!(!e.path.is_empty(), "error without a path: {e:?}");
     assert_eq!(e.path, path, "{e:?}");
     let shown = e.to_string();
@@ -60,8 +68,6 @@ pub fn check_error(e: &Error, path: &str, input: &[u8]) {
         Location::Key(k) => assert!(shown.contains(k.as_str()), "{shown}"),
         Location::Row(_) | Location::Whole => {}
     }
-    // `found` quotes the input, which may well say "nan"; what the parser expected is its own text.
-    no_nan_words(&e.expected);
 }
 
 /// Checks an error of `read_record`: a path that is the record or its sidecar, and a place in that file.
@@ -347,5 +353,158 @@ pub fn check_outputs<T: Serialize>(what: &T, analyses: &[spurline::analysis::Ana
     no_nan_words(&spurline::report::csv::to_csv(analyses, 10));
     for a in analyses {
         no_nan_words(&spurline::report::text::render(a));
+    }
+}
+
+/// Checks an error of `BenchPlan::parse`: a `bad_plan` error of the file at a line inside the input
+/// (the general checks of [`check_error`] included).
+pub fn check_plan_error(e: &Error, path: &str, input: &str) {
+    assert_eq!(e.kind, ErrorKind::BadPlan, "{e:?}");
+    assert!(matches!(e.location, Location::Line(_)), "{e:?}");
+    check_place(e, path, input.as_bytes());
+    // The expectation names the key as written, so a NaN word in it can only come from the input.
+    let lower = input.to_ascii_lowercase();
+    if !lower.contains("nan") && !lower.contains("inf") {
+        no_nan_words(&e.expected);
+    }
+}
+
+/// Checks a plan `BenchPlan::parse` accepted: every value inside the range its docs give, every line
+/// inside the input, and the derived settings free of NaN.
+pub fn check_plan(plan: &spurline::batch::BenchPlan, input: &str) {
+    use spurline::batch::RecordSource;
+    let lines = line_count(input.as_bytes());
+    let fs = plan.ingest.meta.sample_rate_hz.expect("a sample rate");
+    assert!(fs.is_finite() && fs > 0.0, "{fs}");
+    assert!((1..=32).contains(&plan.ingest.meta.bits.expect("bits")));
+    assert!(!plan.conditions.is_empty());
+    for (i, c) in plan.conditions.iter().enumerate() {
+        assert!(
+            !c.name.is_empty() && c.name != "*" && !c.name.contains('/'),
+            "{c:?}"
+        );
+        assert!(
+            plan.conditions[..i].iter().all(|o| o.name != c.name),
+            "{c:?}"
+        );
+        assert!(c.fin_hz.is_finite() && c.fin_hz > 0.0, "{c:?}");
+        assert!(c.amplitude_dbfs.is_finite(), "{c:?}");
+        assert!((1..=100).contains(&c.settings.spectrum.harmonics), "{c:?}");
+        assert!((1..=10_000).contains(&c.average), "{c:?}");
+        assert!(c.amplitude_tolerance_db.is_finite() && c.amplitude_tolerance_db > 0.0);
+        assert!(c.line >= 1 && c.line <= lines, "{c:?} in {lines} lines");
+        // The fit's hint is the input folded into the first zone: inside (0, fs/2) or none.
+        if let Some(f) = plan.ingest_for(c).meta.fin_hz {
+            assert!(f > 0.0 && f < fs / 2.0, "{f} for {c:?}");
+        }
+    }
+    assert!(plan.max_harmonics() >= 1);
+    match &plan.records {
+        RecordSource::Pattern { line, .. } => assert!(*line >= 1 && *line <= lines),
+        // A list needs no file system to be located.
+        RecordSource::List(list) => {
+            assert!(!list.is_empty());
+            for e in list {
+                assert!(e.line >= 1 && e.line <= lines, "{e:?}");
+            }
+            let lot = plan
+                .locate()
+                .expect("a listed lot is located without files");
+            assert_eq!(lot.results(), lot.devices.len() * plan.conditions.len());
+        }
+    }
+}
+
+/// Checks an error of `LimitTable::parse`: a `bad_limits` error of the file at a row (a line of the
+/// input, which the message shows), or about the whole file.
+pub fn check_limits_error(e: &Error, path: &str, input: &str) {
+    assert_eq!(e.kind, ErrorKind::BadLimits, "{e:?}");
+    check_error(e, path, input.as_bytes());
+    match e.location {
+        Location::Row(r) => {
+            let lines = line_count(input.as_bytes());
+            assert!(r >= 1 && r <= lines, "{e:?} in {lines} lines");
+            assert!(e.to_string().contains(&format!("row {r}")), "{e}");
+        }
+        Location::Whole => {}
+        _ => panic!("a limit-table error at neither a row nor the whole file: {e:?}"),
+    }
+}
+
+/// Checks a table `LimitTable::parse` accepted against its scope: rows at lines of the input in file
+/// order, every condition and metric of the scope, finite ordered bounds, and a CSV form that reads
+/// back to the same limits.
+pub fn check_limits(
+    t: &spurline::limits::LimitTable,
+    path: &str,
+    input: &str,
+    scope: &spurline::limits::Scope,
+) {
+    let lines = line_count(input.as_bytes());
+    assert!(!t.limits.is_empty());
+    assert_eq!(t.path, path);
+    for (i, l) in t.limits.iter().enumerate() {
+        assert!(l.row >= 1 && l.row <= lines, "{l:?} in {lines} lines");
+        if i > 0 {
+            // Without a lone CR (which the CSV reader also ends a row at) each row starts a line.
+            let prev = t.limits[i - 1].row;
+            if input.contains('\r') {
+                assert!(l.row >= prev, "{l:?} after row {prev}");
+            } else {
+                assert!(l.row > prev, "{l:?} after row {prev}");
+            }
+        }
+        let catalogues: Vec<_> = scope
+            .iter()
+            .filter(|(n, _)| l.condition.as_ref().is_none_or(|c| c == n))
+            .map(|(_, c)| c)
+            .collect();
+        assert!(!catalogues.is_empty(), "{l:?}");
+        for c in catalogues {
+            let m = c
+                .get(&l.metric)
+                .unwrap_or_else(|| panic!("{l:?} not in scope"));
+            assert_eq!(m.unit, l.unit, "{l:?}");
+        }
+        assert!(l.low.is_some() || l.high.is_some(), "{l:?}");
+        assert!(l.low.is_none_or(f64::is_finite) && l.high.is_none_or(f64::is_finite));
+        assert!(l.guardband.is_finite() && l.guardband >= 0.0, "{l:?}");
+        if let (Some(lo), Some(hi)) = (l.low, l.high) {
+            assert!(lo + l.guardband <= hi - l.guardband, "{l:?}");
+        }
+        assert!(
+            t.limits[..i]
+                .iter()
+                .all(|o| o.condition != l.condition || o.metric != l.metric),
+            "{l:?} twice"
+        );
+    }
+    let back = spurline::limits::LimitTable::parse(&t.to_csv(), path, scope)
+        .unwrap_or_else(|e| panic!("the table's CSV does not read back: {e}"));
+    let strip = |t: &spurline::limits::LimitTable| -> Vec<_> {
+        t.limits
+            .iter()
+            .map(|l| {
+                (
+                    l.condition.clone(),
+                    l.metric.clone(),
+                    l.low,
+                    l.high,
+                    l.guardband,
+                )
+            })
+            .collect()
+    };
+    assert_eq!(strip(t), strip(&back));
+    // Judging never panics, whatever the values, and a missing value fails.
+    for (name, _) in scope {
+        let applies = !t.for_condition(name).is_empty();
+        for value in [None, Some(0.0), Some(-1e300), Some(1e300)] {
+            let v = t.judge(name, |_| value);
+            no_nan_words(&format!("{v:?}"));
+            if value.is_none() && applies {
+                assert_eq!(v.outcome, spurline::limits::Outcome::Fail, "{v:?}");
+            }
+        }
     }
 }
