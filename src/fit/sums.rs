@@ -249,6 +249,31 @@ mod tests {
         }
     }
 
+    // The vector-width variants run the same operations in the same order as the plain build, so their
+    // sums must be bit-identical to it (the plain `data_sums_in`, called directly, is compiled for the
+    // baseline target), for lengths that are not multiples of the lanes or of the block.
+    #[test]
+    fn wide_vectors_give_bit_identical_sums() {
+        for &(n, f) in &[(1000usize, 0.0123), (4099, 0.4567), (65536 + 13, 0.1234567)] {
+            let y: Vec<f64> = (0..n)
+                .map(|i| ((i * 7919 % 2003) as f64) - 1000.0)
+                .collect();
+            let ph = Phasor {
+                cycles_per_sample: f,
+                centre: (n as f64 - 1.0) / 2.0,
+            };
+            let plain = data_sums_in(&y, ph);
+            let wide = data_sums(&y, ph);
+            assert!(
+                plain
+                    .iter()
+                    .zip(&wide)
+                    .all(|(a, b)| a.to_bits() == b.to_bits()),
+                "n={n}: {plain:?} vs {wide:?}"
+            );
+        }
+    }
+
     // The reduced phase must stay exact when f·t is large (2^24 samples): compare with exact
     // rational arithmetic on a frequency that is a dyadic fraction (exactly representable).
     #[test]
