@@ -256,7 +256,7 @@ pub fn measure(
 /// [`measure`] on records the caller no longer needs: each one is windowed and transformed in place,
 /// which saves a copy of the record (128 MB at 2^24 samples).
 pub fn measure_consuming(
-    mut records: Vec<Vec<f64>>,
+    records: Vec<Vec<f64>>,
     fit: &SineFit,
     sample_rate_hz: f64,
     bits: u32,
@@ -294,23 +294,20 @@ pub fn measure_consuming(
         window.samples_shared(n)
     };
     let count = records.len();
-    let mut rest = records.drain(..);
-    let mut powers = fft::power_spectrum_in_place(&mut rest.next().expect("checked above"), &w);
-    if count > 1 {
-        for mut r in rest {
-            for (acc, p) in powers
-                .iter_mut()
-                .zip(fft::power_spectrum_in_place(&mut r, &w))
-            {
-                *acc += p;
-            }
+    let mut powers: Vec<f64> = Vec::new();
+    // Each record is transformed in place and dropped before the next one.
+    for mut r in records {
+        let p = fft::power_spectrum_in_place(&mut r, &w);
+        if powers.is_empty() {
+            powers = p;
+        } else {
+            powers.iter_mut().zip(p).for_each(|(acc, v)| *acc += v);
         }
+    }
+    if count > 1 {
         let m = count as f64;
         powers.iter_mut().for_each(|p| *p /= m);
-    } else {
-        drop(rest);
     }
-    drop(records);
     let claims = tones::claim_bins(n, fit.cycles, settings.harmonics.max(1), half);
     if claims.owner[claims.fundamental_bin] == tones::Owner::Dc {
         return Err(Error::new(
