@@ -11,8 +11,8 @@ use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 #[global_allocator]
 static ALLOC: mimalloc::MiMalloc = mimalloc::MiMalloc;
 use spurline::analysis::{analyze, AnalysisSettings};
-use spurline::batch::{run_lot, BatchOptions, BenchPlan, Plots, SummaryColumns};
-use spurline::limits::{Catalogue, LimitTable};
+use spurline::lot::limits::{Catalogue, LimitTable};
+use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots, SummaryColumns};
 use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
 use std::collections::HashMap;
 use std::fmt::Write;

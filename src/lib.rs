@@ -22,23 +22,16 @@
 mod error;
 mod record;
 
+pub mod analyses;
 pub mod analysis;
-pub mod batch;
-pub mod compare;
-
 pub mod fit;
-pub mod imd;
 pub mod ingest;
-pub mod interleave;
-pub mod limits;
-pub mod linearity;
+pub mod lot;
 pub mod plan;
 pub mod report;
-
 pub mod spectrum;
-pub mod sweep;
+pub mod stats;
 pub mod synth;
-pub mod synth_multi;
 pub mod verify;
 
 pub use error::{Error, ErrorKind, Location, Result};

@@ -5,12 +5,12 @@
 //! refusals), a run killed midway, and limit proposals and Cpk against values stored from numpy/scipy.
 
 use assert_cmd::Command;
-use spurline::batch::{BenchPlan, RecordSource};
 use spurline::ingest::Format;
-use spurline::limits::{
+use spurline::lot::limits::{
     propose, stats, Catalogue, Characterisation, CheckOutcome, LimitTable, Method, Outcome,
     ProposalSettings, ResultRow,
 };
+use spurline::lot::{BenchPlan, RecordSource};
 use spurline::spectrum::WindowChoice;
 use spurline::{ErrorKind, Location};
 use std::collections::BTreeMap;
@@ -642,7 +642,7 @@ fn verdicts_and_guardbands() {
     // A high-side guardband: -0.125 dBFS is under the high limit 0 but within 0.25 of it.
     let v = judge("fin_10M", Some(65.0), -0.125, 11.0);
     assert_eq!(v.outcome, Outcome::FailGuardband);
-    assert_eq!(v.checks[1].bound, Some(spurline::limits::Bound::High));
+    assert_eq!(v.checks[1].bound, Some(spurline::lot::limits::Bound::High));
     assert_eq!(v.checks[1].margin, Some(0.125));
     // A hard failure beats a guardband one.
     let v = judge("fin_10M", Some(59.0), -0.125, 11.0);
@@ -1248,7 +1248,7 @@ fn make_big_lot(devices: usize) -> tempfile::TempDir {
 
 #[test]
 fn a_killed_run_keeps_complete_summaries_and_device_folders() {
-    // What an interruption may leave (src/batch/run.rs, src/report/write.rs): lot files that are whole
+    // What an interruption may leave (src/lot/run.rs, src/report/write.rs): lot files that are whole
     // (each written to a temporary file, then renamed), every device they list in a complete folder,
     // and temporary files only under hidden names that no reader takes for an output.
     let lot = make_big_lot(3000);
@@ -1344,7 +1344,7 @@ fn a_killed_run_keeps_complete_summaries_and_device_folders() {
         }
     }
     // The readers take the summary, never a temporary file: the run reads back with its rows.
-    let back = spurline::batch::read_results(std::slice::from_ref(&out)).unwrap();
+    let back = spurline::lot::read_results(std::slice::from_ref(&out)).unwrap();
     assert_eq!(back.rows.len(), rows.len());
 }
 
@@ -1607,7 +1607,7 @@ fn proposals_in_the_library() {
     let settings = ProposalSettings {
         method: Method::Percentile { percent: 1.0 },
         two_sided: true,
-        guardband: vec![spurline::limits::GuardbandRule::parse("0.5sigma").unwrap()],
+        guardband: vec![spurline::lot::limits::GuardbandRule::parse("0.5sigma").unwrap()],
     };
     let p = propose(&data, &metrics[..1], &settings, None);
     let pct = &set["percentiles"];
@@ -1635,7 +1635,7 @@ fn proposals_in_the_library() {
         "guardband 0.5σ",
     );
     // The proposal as a table reads back in the batch's limit-table parser.
-    let table = spurline::limits::proposal_table(&p, "p.csv");
+    let table = spurline::lot::limits::proposal_table(&p, "p.csv");
     let back = LimitTable::parse(&table.to_csv(), "p.csv", &data.scope()).unwrap();
     assert_eq!(back.limits.len(), 1);
     let l = &back.limits[0];
@@ -1740,7 +1740,7 @@ fn limits_command_proposes_and_reports_cpk() {
         "{l2}"
     );
     // The table: a low limit only (SNR: higher is better), mean − 6σ rounded down to 6 digits.
-    let data = spurline::batch::read_results(&[dir.path().join("summary.csv")]).unwrap();
+    let data = spurline::lot::read_results(&[dir.path().join("summary.csv")]).unwrap();
     assert_eq!(data.rows.len(), 70);
     let t = LimitTable::read(&proposed, &data.scope()).unwrap();
     assert_eq!(t.limits.len(), 2);
@@ -1816,12 +1816,12 @@ fn limits_reads_a_batch_run_back() {
     let p = lot.path();
     let out = p.join("out");
     run_batch(p, &out, &[]);
-    let from_csv = spurline::batch::read_results(std::slice::from_ref(&out)).unwrap();
+    let from_csv = spurline::lot::read_results(std::slice::from_ref(&out)).unwrap();
     let jsons: Vec<PathBuf> = ["d01", "d02", "d03", "d04"]
         .iter()
         .map(|d| out.join(d).join("results.json"))
         .collect();
-    let from_json = spurline::batch::read_results(&jsons).unwrap();
+    let from_json = spurline::lot::read_results(&jsons).unwrap();
     assert_eq!(from_csv.conditions, ["fin_10M", "fin_31M"]);
     assert_eq!(from_csv.rows.len(), 8);
     assert_eq!(from_json.rows.len(), 8);

@@ -1,6 +1,6 @@
 //! Revision-comparison statistics against stored scipy values (tests/reference/make_ttest_refs.py).
 
-use spurline::compare::stats::{paired, summarize, welch};
+use spurline::stats::{paired, summarize, welch};
 
 fn refs() -> serde_json::Value {
     let path = concat!(
@@ -86,7 +86,7 @@ fn paired_matches_scipy() {
     assert_eq!(seen, 2);
 }
 
-use spurline::compare::{compare, read_run, Change, CompareSettings};
+use spurline::lot::compare::{compare, read_run, Change, CompareSettings};
 use std::path::Path;
 
 /// Writes a minimal lot summary.csv (the columns `spurline batch` writes that compare reads).
@@ -187,7 +187,7 @@ fn verdicts_directions_and_left_out_items() {
     // No NaN reaches an output.
     let json = serde_json::to_string(&c).unwrap();
     assert!(!json.contains("NaN") && !json.contains("null,\"ci"));
-    let csv = spurline::compare::output::to_csv(&c);
+    let csv = spurline::lot::compare::output::to_csv(&c);
     assert!(!csv.contains("NaN") && !csv.to_lowercase().contains("inf"));
 }
 

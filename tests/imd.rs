@@ -3,7 +3,7 @@
 
 use crate::tolerances::{IMD_DB, INTERLEAVE_DB};
 use assert_cmd::Command;
-use spurline::synth_multi::{
+use spurline::synth::multi::{
     interleaved, two_tone, InterleavedSettings, ToneSpec, TwoToneSettings,
 };
 use std::path::{Path, PathBuf};
@@ -63,7 +63,7 @@ fn json_of(out: &std::process::Output) -> serde_json::Value {
 
 // Equal tones of amplitude A (full-scale normalised) through y = x + a2·x² + a3·x³: IM2 products of
 // amplitude a2·A², IM3 products of (3/4)·a3·A³, and each tone grows to A·(1 + (9/4)·a3·A²)
-// (trigonometric product identities, handbook; derived in src/imd.rs). The products fold as the
+// (trigonometric product identities, handbook; derived in src/analyses/imd.rs). The products fold as the
 // standard formulas m·f1 + n·f2 say.
 #[test]
 fn imd_json_matches_the_polynomial() {

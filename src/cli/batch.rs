@@ -3,8 +3,8 @@
 
 use super::{EXIT_ERROR, EXIT_FAIL, EXIT_OK};
 use clap::Args;
-use spurline::batch::{run_lot, run_shard, BatchOptions, BenchPlan, LotCounts, Plots, Shard};
-use spurline::limits::{Catalogue, LimitTable};
+use spurline::lot::limits::{Catalogue, LimitTable};
+use spurline::lot::{run_lot, run_shard, BatchOptions, BenchPlan, LotCounts, Plots, Shard};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 

@@ -2,7 +2,7 @@
 
 use super::{EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::compare::{compare, output, read_run, CompareSettings};
+use spurline::lot::compare::{compare, output, read_run, CompareSettings};
 use spurline::Error;
 use std::path::PathBuf;
 
@@ -53,7 +53,7 @@ fn go(args: &CompareArgs) -> Result<(), Error> {
             Some((k, v)) => {
                 let v: f64 = v.trim().parse().map_err(|_| bad())?;
                 if !(v >= 0.0 && v.is_finite())
-                    || spurline::compare::better_direction(k.trim()).is_none()
+                    || spurline::lot::compare::better_direction(k.trim()).is_none()
                 {
                     return Err(Error::setting(
                         "min-change",

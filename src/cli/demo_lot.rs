@@ -5,10 +5,10 @@
 //! revisions are compared device by device.
 
 use rand::{Rng, SeedableRng};
-use spurline::batch::{run_lot, BatchOptions, BenchPlan, Plots};
-use spurline::compare::{compare, output, read_run, Change, CompareSettings};
 use spurline::ingest::{write_sidecar, Sidecar};
-use spurline::limits::{Catalogue, LimitTable};
+use spurline::lot::compare::{compare, output, read_run, Change, CompareSettings};
+use spurline::lot::limits::{Catalogue, LimitTable};
+use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
 use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
 use spurline::{Error, ErrorKind, Location};
 use std::path::Path;

@@ -3,7 +3,7 @@
 
 use super::ReadArgs;
 use clap::Args;
-use spurline::imd::{analyze_two_tone, ImdResult, ImdSettings};
+use spurline::analyses::imd::{analyze_two_tone, ImdResult, ImdSettings};
 use spurline::report::text::block_head;
 use spurline::report::units::{fixed, si};
 use spurline::spectrum::{Window, WindowChoice};

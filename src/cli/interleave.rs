@@ -3,7 +3,7 @@
 
 use super::ReadArgs;
 use clap::Args;
-use spurline::interleave::{analyze_interleaved, InterleaveResult, InterleaveSettings};
+use spurline::analyses::interleave::{analyze_interleaved, InterleaveResult, InterleaveSettings};
 use spurline::report::text::block_head;
 use spurline::report::units::{fixed, si};
 use std::fmt::Write;

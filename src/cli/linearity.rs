@@ -3,11 +3,11 @@
 
 use super::{ReadArgs, EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::ingest::{read_record, read_sidecar};
-use spurline::linearity::{
+use spurline::analyses::linearity::{
     analyze_histogram, plot::write_plots, AtCode, CodeHistogram, Extremes, Linearity,
     LinearitySettings,
 };
+use spurline::ingest::{read_record, read_sidecar};
 use spurline::Error;
 use std::fmt::Write as _;
 use std::path::PathBuf;

@@ -1,7 +1,7 @@
 //! `spurline merge`: combine the output folders of the shards of one lot run into one lot report.
 
 use clap::Args;
-use spurline::batch::merge_shards;
+use spurline::lot::merge_shards;
 use std::path::PathBuf;
 
 /// Arguments of `merge`.

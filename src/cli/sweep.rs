@@ -3,9 +3,9 @@
 
 use super::{EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::compare::plots::series_svg;
+use spurline::lot::compare::plots::series_svg;
+use spurline::lot::sweep::{read_points, sweep, SweepPoint};
 use spurline::report::{csv::flatten, write_atomic};
-use spurline::sweep::{read_points, sweep, SweepPoint};
 use spurline::Error;
 use std::path::PathBuf;
 

@@ -371,8 +371,8 @@ pub fn check_plan_error(e: &Error, path: &str, input: &str) {
 
 /// Checks a plan `BenchPlan::parse` accepted: every value inside the range its docs give, every line
 /// inside the input, and the derived settings free of NaN.
-pub fn check_plan(plan: &spurline::batch::BenchPlan, input: &str) {
-    use spurline::batch::RecordSource;
+pub fn check_plan(plan: &spurline::lot::BenchPlan, input: &str) {
+    use spurline::lot::RecordSource;
     let lines = line_count(input.as_bytes());
     let fs = plan.ingest.meta.sample_rate_hz.expect("a sample rate");
     assert!(fs.is_finite() && fs > 0.0, "{fs}");
@@ -435,10 +435,10 @@ pub fn check_limits_error(e: &Error, path: &str, input: &str) {
 /// order, every condition and metric of the scope, finite ordered bounds, and a CSV form that reads
 /// back to the same limits.
 pub fn check_limits(
-    t: &spurline::limits::LimitTable,
+    t: &spurline::lot::limits::LimitTable,
     path: &str,
     input: &str,
-    scope: &spurline::limits::Scope,
+    scope: &spurline::lot::limits::Scope,
 ) {
     let lines = line_count(input.as_bytes());
     assert!(!t.limits.is_empty());
@@ -479,9 +479,9 @@ pub fn check_limits(
             "{l:?} twice"
         );
     }
-    let back = spurline::limits::LimitTable::parse(&t.to_csv(), path, scope)
+    let back = spurline::lot::limits::LimitTable::parse(&t.to_csv(), path, scope)
         .unwrap_or_else(|e| panic!("the table's CSV does not read back: {e}"));
-    let strip = |t: &spurline::limits::LimitTable| -> Vec<_> {
+    let strip = |t: &spurline::lot::limits::LimitTable| -> Vec<_> {
         t.limits
             .iter()
             .map(|l| {
@@ -503,7 +503,7 @@ pub fn check_limits(
             let v = t.judge(name, |_| value);
             no_nan_words(&format!("{v:?}"));
             if value.is_none() && applies {
-                assert_eq!(v.outcome, spurline::limits::Outcome::Fail, "{v:?}");
+                assert_eq!(v.outcome, spurline::lot::limits::Outcome::Fail, "{v:?}");
             }
         }
     }

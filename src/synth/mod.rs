@@ -14,6 +14,8 @@
 //! Randomness comes from `ChaCha8Rng::seed_from_u64(seed)`: stream 0 for the noise, stream 1 for the
 //! jitter, so turning one on does not change the other's draws.
 
+pub mod multi;
+
 use std::f64::consts::TAU;
 use std::fs::File;
 use std::io::{BufWriter, Write};

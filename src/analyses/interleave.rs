@@ -24,9 +24,9 @@
 //! (φ_m − mean φ)/(2π·f) seconds, positive when the channel samples late. Phase differences are taken in
 //! (−π, π], so a timing error of half an input period or more cannot be told from a smaller one.
 
+use crate::analyses::imd::{claim, db, fit_linear, measure_spans, phase_at_zero, tone_is_coherent};
 use crate::analysis::ErrorReport;
 use crate::fit::{fit_four, FourParamOptions, SineFit};
-use crate::imd::{claim, db, fit_linear, measure_spans, phase_at_zero, tone_is_coherent};
 use crate::plan::{fold_bin, fold_to_first_zone};
 use crate::spectrum::fft::power_spectrum;
 use crate::spectrum::{self, Window, WindowChoice};
@@ -472,7 +472,7 @@ pub fn analyze_interleaved(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::synth_multi::{interleaved, InterleavedSettings, ToneSpec};
+    use crate::synth::multi::{interleaved, InterleavedSettings, ToneSpec};
 
     const FS: f64 = 100e6;
     const N: usize = 16384;

@@ -22,10 +22,10 @@ use std::path::Path;
 
 use serde::{Deserialize, Serialize};
 
+use super::bench_plan::{BenchPlan, Lot};
 use super::output::write_atomic;
-use super::plan::{BenchPlan, Lot};
 use super::run::{lot_title, run_lot, BatchOptions, LotCounts};
-use crate::limits::LimitTable;
+use crate::lot::limits::LimitTable;
 use crate::{Error, ErrorKind, Location, Result};
 
 /// File name of the shard manifest in a shard's output folder.

@@ -2,9 +2,9 @@
 //! `comparison.html` (self-contained, every name escaped, plots inline).
 
 use super::plots::{distributions_svg, versus_frequency_svg};
-use super::stats::{Summary, TTest};
 use super::{Better, Change, Comparison, MetricComparison, Run};
 use crate::report::{escape, write_atomic};
+use crate::stats::{Summary, TTest};
 use crate::Result;
 use std::fmt::Write;
 use std::path::Path;

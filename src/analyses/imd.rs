@@ -1160,7 +1160,7 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::synth_multi::{two_tone, ToneSpec, TwoToneSettings};
+    use crate::synth::multi::{two_tone, ToneSpec, TwoToneSettings};
 
     const FS: f64 = 100e6;
 

@@ -5,11 +5,10 @@
 
 pub mod output;
 pub mod plots;
-pub mod stats;
 
+use crate::stats::{self, NoTest, Summary, TTest};
 use crate::{Error, ErrorKind, Location, Result};
 use serde::Serialize;
-use stats::{NoTest, Summary, TTest};
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
 

@@ -17,11 +17,11 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
+use super::bench_plan::{BenchPlan, Condition, Lot};
 use super::output::{self, LotWriter, Plots, SummaryColumns};
-use super::plan::{BenchPlan, Condition, Lot};
 use crate::analysis::{analyze_averaged, Analysis, Traces};
 use crate::ingest::read_record;
-use crate::limits::{LimitTable, Outcome, Verdict};
+use crate::lot::limits::{LimitTable, Outcome, Verdict};
 use crate::{Error, ErrorKind, Location, Result};
 
 /// Fewest results per chunk; a chunk also holds at least 8 per thread so that threads stay busy.

@@ -5,8 +5,8 @@
 //! run writes ([`merge_shards`]).
 //!
 //! ```no_run
-//! use spurline::batch::{run_lot, BatchOptions, BenchPlan, Plots};
-//! use spurline::limits::{Catalogue, LimitTable};
+//! use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
+//! use spurline::lot::limits::{Catalogue, LimitTable};
 //!
 //! let plan = BenchPlan::read("bench/plan.toml".as_ref())?;
 //! let lot = plan.locate()?;
@@ -21,7 +21,7 @@
 //! println!("{} of {} results pass", counts.passed, counts.results);
 //!
 //! // The same lot over eight machines: each runs its shard, then one merges the eight folders.
-//! use spurline::batch::{merge_shards, run_shard, Shard};
+//! use spurline::lot::{merge_shards, run_shard, Shard};
 //! let shard = Shard::parse("2/8")?;
 //! let mine = BatchOptions { out: "reports/lot7-2".into(), ..options.clone() };
 //! run_shard(&plan, &lot, Some(&limits), &mine, shard)?;
@@ -32,20 +32,23 @@
 //! # Ok::<(), spurline::Error>(())
 //! ```
 
+mod bench_plan;
+pub mod compare;
+pub mod limits;
 mod merge;
 mod output;
-mod plan;
 mod run;
 mod shard;
+pub mod sweep;
 
+pub use bench_plan::{
+    natural_cmp, BenchPlan, Condition, ListedRecord, Lot, RecordSource,
+    DEFAULT_AMPLITUDE_TOLERANCE_DB,
+};
 pub use merge::merge_shards;
 pub use output::{
     escape_html, read_results, write_atomic, write_device_outputs, Plots, SummaryColumns,
     FAILURE_COLUMNS, LEAD_COLUMNS, YIELD_COLUMNS,
-};
-pub use plan::{
-    natural_cmp, BenchPlan, Condition, ListedRecord, Lot, RecordSource,
-    DEFAULT_AMPLITUDE_TOLERANCE_DB,
 };
 pub use run::{
     run_lot, BatchOptions, ConditionResult, DeviceResult, LotCounts, CHUNK_RESULTS,

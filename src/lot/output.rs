@@ -25,7 +25,7 @@ use std::path::{Path, PathBuf};
 use serde::Serialize;
 
 use super::run::{DeviceResult, Lines};
-use crate::limits::{
+use crate::lot::limits::{
     Catalogue, Characterisation, CheckOutcome, LimitTable, Outcome, ResultRow, Verdict,
 };
 use crate::{Error, ErrorKind, Location, Result};
@@ -182,8 +182,8 @@ pub(crate) fn failure_lines(device: &str, condition: &str, verdict: &Verdict) ->
         .filter(|c| c.outcome != CheckOutcome::Pass)
     {
         let limit = c.bound.and_then(|b| match b {
-            crate::limits::Bound::Low => c.low,
-            crate::limits::Bound::High => c.high,
+            crate::lot::limits::Bound::Low => c.low,
+            crate::lot::limits::Bound::High => c.high,
         });
         out.extend(csv_line([
             device.to_string(),
