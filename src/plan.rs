@@ -210,7 +210,7 @@ pub struct HarmonicPlace {
 const BIN_TOLERANCE: f64 = 1e-6;
 
 /// Places harmonics 2..=`harmonics` of `fin_hz`, folded into the first Nyquist zone, and marks each
-/// one that lies within `span_halfwidth_bins` (inclusive) of DC, of the (folded) fundamental, of
+/// one that lies within `tone_halfwidth_bins` (inclusive) of DC, of the (folded) fundamental, of
 /// Nyquist or of an earlier harmonic.
 ///
 /// Returns an empty list when fs is not positive and finite, N is 0, fin is not finite or the span
@@ -220,14 +220,14 @@ pub fn harmonic_places(
     sample_rate_hz: f64,
     samples: usize,
     harmonics: u32,
-    span_halfwidth_bins: f64,
+    tone_halfwidth_bins: f64,
 ) -> Vec<HarmonicPlace> {
     if !(sample_rate_hz.is_finite()
         && sample_rate_hz > 0.0
         && samples > 0
         && fin_hz.is_finite()
-        && span_halfwidth_bins.is_finite()
-        && span_halfwidth_bins >= 0.0)
+        && tone_halfwidth_bins.is_finite()
+        && tone_halfwidth_bins >= 0.0)
     {
         return Vec::new();
     }
@@ -235,7 +235,7 @@ pub fn harmonic_places(
     let fin_bin = fin_hz * n / sample_rate_hz;
     let fundamental = fold_bin(fin_bin, samples);
     let nyquist = n / 2.0;
-    let near = |a: f64, b: f64| (a - b).abs() <= span_halfwidth_bins + BIN_TOLERANCE;
+    let near = |a: f64, b: f64| (a - b).abs() <= tone_halfwidth_bins + BIN_TOLERANCE;
 
     let mut places: Vec<HarmonicPlace> = Vec::new();
     for order in 2..=harmonics {
@@ -299,7 +299,7 @@ pub struct TonePlan {
 /// Highest harmonic order a plan accepts.
 pub const MAX_PLAN_HARMONIC: u32 = 100;
 
-fn check_plan_options(harmonics: u32, span_halfwidth_bins: f64) -> Result<()> {
+fn check_plan_options(harmonics: u32, tone_halfwidth_bins: f64) -> Result<()> {
     if !(1..=MAX_PLAN_HARMONIC).contains(&harmonics) {
         return Err(Error::setting(
             "harmonics",
@@ -307,33 +307,33 @@ fn check_plan_options(harmonics: u32, span_halfwidth_bins: f64) -> Result<()> {
             harmonics.to_string(),
         ));
     }
-    if !(span_halfwidth_bins.is_finite() && span_halfwidth_bins >= 0.0) {
+    if !(tone_halfwidth_bins.is_finite() && tone_halfwidth_bins >= 0.0) {
         return Err(Error::setting(
-            "span_bins",
-            "a non-negative, finite span half-width in bins",
-            span_halfwidth_bins.to_string(),
+            "tone_halfwidth",
+            "a non-negative, finite half-width of the tone bins",
+            tone_halfwidth_bins.to_string(),
         ));
     }
     Ok(())
 }
 
 /// Plans one tone: the nearest coherent frequency (see [`nearest_coherent`]) and its harmonics
-/// 2..=`harmonics` with their collisions within `span_halfwidth_bins` (see [`harmonic_places`]).
+/// 2..=`harmonics` with their collisions within `tone_halfwidth_bins` (see [`harmonic_places`]).
 ///
 /// The harmonics are placed on the exact bin scale (h·J folded into 0..=N/2), so their bins are whole
 /// numbers; each frequency is bin·fs/N.
 ///
 /// Errors (`BadSetting`): those of [`nearest_coherent`], a highest harmonic outside
-/// 1..=[`MAX_PLAN_HARMONIC`], and a span that is negative or not finite (key `span_bins`).
+/// 1..=[`MAX_PLAN_HARMONIC`], and a tone half-width that is negative or not finite (key `tone_halfwidth`).
 pub fn plan_tone(
     sample_rate_hz: f64,
     samples: usize,
     target_hz: f64,
     prime: bool,
     harmonics: u32,
-    span_halfwidth_bins: f64,
+    tone_halfwidth_bins: f64,
 ) -> Result<TonePlan> {
-    check_plan_options(harmonics, span_halfwidth_bins)?;
+    check_plan_options(harmonics, tone_halfwidth_bins)?;
     let tone = nearest_coherent(sample_rate_hz, samples, target_hz, prime)?;
     let n = samples as f64;
     // On the bin scale (fs = N) the fundamental is exactly J and every harmonic bin is exact.
@@ -342,7 +342,7 @@ pub fn plan_tone(
         n,
         samples,
         harmonics,
-        span_halfwidth_bins,
+        tone_halfwidth_bins,
     );
     for p in &mut places {
         p.frequency_hz = p.bin * sample_rate_hz / n;
@@ -435,7 +435,7 @@ pub struct TwoTonePlan {
 
 /// Plans a two-tone test: each tone at its nearest coherent frequency (see [`nearest_coherent`]),
 /// the harmonics 2..=`harmonics` of each and the IMD products (see [`imd_products`]), all folded, with
-/// what each lands on within `span_halfwidth_bins` (inclusive).
+/// what each lands on within `tone_halfwidth_bins` (inclusive).
 ///
 /// Errors (`BadSetting`): those of [`plan_tone`], and two targets that get the same cycle count
 /// (key `f2`).
@@ -446,9 +446,9 @@ pub fn plan_two_tone(
     f2_target_hz: f64,
     prime: bool,
     harmonics: u32,
-    span_halfwidth_bins: f64,
+    tone_halfwidth_bins: f64,
 ) -> Result<TwoTonePlan> {
-    check_plan_options(harmonics, span_halfwidth_bins)?;
+    check_plan_options(harmonics, tone_halfwidth_bins)?;
     let f1 = nearest_coherent(sample_rate_hz, samples, f1_target_hz, prime)?;
     let f2 = nearest_coherent(sample_rate_hz, samples, f2_target_hz, prime)?;
     if f1.cycles == f2.cycles {
@@ -464,7 +464,7 @@ pub fn plan_two_tone(
     let n = samples as f64;
     // Everything on the exact bin scale: cycle counts are integers, so sums of multiples are exact.
     let (j1, j2) = (f1.cycles as f64, f2.cycles as f64);
-    let near = |a: f64, b: f64| (a - b).abs() <= span_halfwidth_bins + BIN_TOLERANCE;
+    let near = |a: f64, b: f64| (a - b).abs() <= tone_halfwidth_bins + BIN_TOLERANCE;
     let fixed = [("dc", 0.0), ("f1", j1), ("f2", j2), ("nyquist", n / 2.0)];
     let mut placed: Vec<Placement> = Vec::new();
     let mut place = |name: String, order: u32, raw_bin: f64| {
@@ -836,7 +836,7 @@ mod tests {
             assert_eq!(key_of(&e), key);
         }
         let e = plan_tone(100e6, 2048, 44e6, false, 5, -1.0).unwrap_err();
-        assert_eq!(key_of(&e), "span_bins");
+        assert_eq!(key_of(&e), "tone_halfwidth");
         let e = plan_tone(100e6, 2048, 60e6, false, 5, 0.0).unwrap_err();
         assert_eq!(key_of(&e), "target_hz");
     }

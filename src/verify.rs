@@ -355,7 +355,7 @@ fn analytic_records(out: &mut Vec<Measurement>) {
         "dB",
         thd,
         0.05,
-        spectrum.and_then(|sp| present(sp.thd_db, "THD")),
+        spectrum.and_then(|sp| present(sp.thd_dbc, "THD")),
     );
 
     // Jitter-limited SNR = −20·log10(2π·f·σ) (handbook formula): 100 MHz with 100 fs rms is 84.04 dB.
@@ -417,7 +417,10 @@ fn analytic_records(out: &mut Vec<Measurement>) {
             m.analysis.spectrum.as_ref().and_then(|s| s.enob_bits)
         }),
         ("full-scale-referred", 12.0, |m| {
-            m.analysis.spectrum.as_ref().and_then(|s| s.enob_fs_bits)
+            m.analysis
+                .spectrum
+                .as_ref()
+                .and_then(|s| s.enob_full_scale_bits)
         }),
         ("fit", 12.0, |m| {
             m.analysis.fit.as_ref().and_then(|f| f.enob_bits)
@@ -450,7 +453,7 @@ fn analytic_records(out: &mut Vec<Measurement>) {
     let settings = AnalysisSettings {
         spectrum: SpectrumSettings {
             window: WindowChoice::Fixed(Window::Rectangular),
-            span_guard_bins: Some(40),
+            guard_bins: Some(40),
             ..SpectrumSettings::default()
         },
         ..AnalysisSettings::default()

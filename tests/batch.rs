@@ -1563,7 +1563,7 @@ fn proposals_in_the_library() {
     let data = Characterisation {
         catalogue: Catalogue::from_columns([
             "spectrum.snr_db",
-            "spectrum.thd_db",
+            "spectrum.thd_dbc",
             "fit.frequency_hz",
         ]),
         conditions: vec!["c1".into()],
@@ -1575,7 +1575,7 @@ fn proposals_in_the_library() {
                 condition: "c1".into(),
                 values: [
                     ("spectrum.snr_db".to_string(), *v),
-                    ("spectrum.thd_db".to_string(), -*v),
+                    ("spectrum.thd_dbc".to_string(), -*v),
                     ("fit.frequency_hz".to_string(), *v),
                 ]
                 .into(),
@@ -1584,7 +1584,7 @@ fn proposals_in_the_library() {
     };
     let metrics = [
         "spectrum.snr_db".to_string(),
-        "spectrum.thd_db".into(),
+        "spectrum.thd_dbc".into(),
         "fit.frequency_hz".into(),
     ];
     let settings = ProposalSettings {

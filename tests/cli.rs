@@ -86,11 +86,11 @@ fn analyzes_text_record_with_sidecar() {
         "fundamental_dbfs",
         "snr_db",
         "sinad_db",
-        "thd_db",
+        "thd_dbc",
         "sfdr_dbc",
         "sfdr_dbfs",
         "enob_bits",
-        "enob_fs_bits",
+        "enob_full_scale_bits",
         "noise_floor_dbfs",
         "nsd_dbfs_per_hz",
         "worst_spur",
@@ -159,7 +159,7 @@ fn prints_a_readable_table() {
         "SFDR",
         "ENOB",
         "noise floor",
-        "fit form",
+        "sine-fit ENOB",
         "full-scale referred",
     ] {
         assert!(text.contains(label), "missing {label} in\n{text}");

@@ -92,7 +92,7 @@ use std::path::Path;
 /// Writes a minimal lot summary.csv (the columns `spurline batch` writes that compare reads).
 fn write_run(dir: &Path, rows: &[(&str, &str, f64, f64, &str)]) {
     std::fs::create_dir_all(dir).unwrap();
-    let mut s = String::from("device,condition,verdict,reason,bits,sample_rate_hz,fit.frequency_hz,spectrum.snr_db,spectrum.thd_db,error.message\n");
+    let mut s = String::from("device,condition,verdict,reason,bits,sample_rate_hz,fit.frequency_hz,spectrum.snr_db,spectrum.thd_dbc,error.message\n");
     for (dev, cond, snr, thd, err) in rows {
         let f = if *cond == "f10" { 10.1e6 } else { 40.3e6 };
         s.push_str(&format!(
@@ -160,9 +160,9 @@ fn verdicts_directions_and_left_out_items() {
     };
     // Higher SNR is better; higher THD is worse (the directions of the trade, common practice).
     assert_eq!(find("f10", "spectrum.snr_db").verdict, Change::Better);
-    assert_eq!(find("f10", "spectrum.thd_db").verdict, Change::Worse);
+    assert_eq!(find("f10", "spectrum.thd_dbc").verdict, Change::Worse);
     assert_eq!(
-        find("f40", "spectrum.thd_db").verdict,
+        find("f40", "spectrum.thd_dbc").verdict,
         Change::NoSignificantChange
     );
     let tiny = find("f40", "spectrum.snr_db");
@@ -243,7 +243,7 @@ fn zero_variance_is_said_plainly() {
     let thd = c
         .rows
         .iter()
-        .find(|r| r.metric == "spectrum.thd_db")
+        .find(|r| r.metric == "spectrum.thd_dbc")
         .unwrap();
     assert_eq!(thd.verdict, Change::NoTest);
     assert!(thd.reason.contains("zero spread"), "{}", thd.reason);

@@ -89,7 +89,7 @@ fn tone_within_one_bin_of_dc() {
     // Half a bin from bin 1: the windowed tone sits inside the DC span, an error naming the span.
     let e = analyse(&at_cycles(1.5)).unwrap_err();
     assert_eq!(e.kind, ErrorKind::ToneAtEdge, "{e}");
-    assert!(e.expected.contains("a tone outside the DC span"), "{e}");
+    assert!(e.expected.contains("a tone outside the DC bins"), "{e}");
     assert!(e.found.contains("1.5 cycles"), "{e}");
 }
 
@@ -118,7 +118,7 @@ fn fewer_than_one_cycle_is_a_degenerate_fit() {
 fn tone_whose_window_lobe_meets_the_dc_span_warns_with_its_level_error() {
     let a = analyse(&at_cycles(9.5)).unwrap();
     assert!(
-        has_warning(&a, "meets the DC span (bins 0..=8)"),
+        has_warning(&a, "meets the DC bins (0..=8)"),
         "{:?}",
         a.warnings
     );
@@ -259,9 +259,9 @@ fn fully_clipped_record_is_warned_and_measured_as_a_square_wave() {
     );
     let thd = 10.0 * (1.0 / 9.0 + 1.0 / 25.0 + 1.0 / 49.0 + 1.0 / 81.0f64).log10();
     assert!(
-        (sp.thd_db.unwrap() - thd).abs() < 0.1,
+        (sp.thd_dbc.unwrap() - thd).abs() < 0.1,
         "{:?} vs {thd}",
-        sp.thd_db
+        sp.thd_dbc
     );
 }
 
@@ -353,7 +353,7 @@ fn large_offsets() {
     );
     let a = analyse(&rail).unwrap();
     // Clipped on one side: strong even harmonics, THD far above the unclipped −90 dBc.
-    assert!(a.spectrum.as_ref().unwrap().thd_db.unwrap() > -30.0);
+    assert!(a.spectrum.as_ref().unwrap().thd_dbc.unwrap() > -30.0);
 
     let beyond = SynthSettings {
         offset_codes: 5000.0,

@@ -813,12 +813,12 @@ fn analysis_settings() -> impl Strategy<Value = AnalysisSettings> {
         prop_oneof![Just(1u32), Just(10), 1u32..=100],
         prop_oneof![4 => Just(None), 1 => prop::sample::select(vec![0usize, 1, 7, 100, 100_000]).prop_map(Some)],
     )
-        .prop_map(|(fit, window, harmonics, span_guard_bins)| AnalysisSettings {
+        .prop_map(|(fit, window, harmonics, guard_bins)| AnalysisSettings {
             fit,
             spectrum: SpectrumSettings {
                 window,
                 harmonics,
-                span_guard_bins,
+                guard_bins,
             },
             min_samples: 0,
         })
@@ -935,7 +935,7 @@ channel = "1/1"
 fit = "four"
 window = "auto"
 harmonics = 5
-span_guard = 1
+guard_bins = 1
 average = 1
 amplitude_tolerance_db = 1.0
 
@@ -1199,7 +1199,7 @@ const LIMIT_METRICS: [(&str, &str, &str); 5] = [
     ("spectrum.sfdr_dbc", "spectrum.sfdr_dbc", "dBc"),
     ("h3.dbc", "spectrum.harmonics.h3.dbc", "dBc"),
     ("fit.enob_bits", "fit.enob_bits", "bits"),
-    ("spectrum.thd_db", "spectrum.thd_db", "dB"),
+    ("spectrum.thd_dbc", "spectrum.thd_dbc", "dBc"),
 ];
 
 #[test]

@@ -46,7 +46,7 @@ fn ideal_quantiser_sinad_is_602n_plus_176() {
         );
         // Full-scale-referred ENOB recovers N (handbook: ENOB = (SINAD − 1.76)/6.02).
         assert!(
-            (sp.enob_fs_bits.unwrap() - bits as f64).abs() < HANDBOOK_BITS,
+            (sp.enob_full_scale_bits.unwrap() - bits as f64).abs() < HANDBOOK_BITS,
             "{bits}"
         );
         assert_eq!(sp.window, "rectangular");
@@ -112,9 +112,9 @@ fn enob_forms_at_half_scale() {
         sp.enob_bits
     );
     assert!(
-        (sp.enob_fs_bits.unwrap() - 12.0).abs() < HANDBOOK_BITS,
+        (sp.enob_full_scale_bits.unwrap() - 12.0).abs() < HANDBOOK_BITS,
         "{:?}",
-        sp.enob_fs_bits
+        sp.enob_full_scale_bits
     );
     assert!(
         (fit.enob_bits.unwrap() - 12.0).abs() < HANDBOOK_BITS,
@@ -159,9 +159,9 @@ fn harmonics_are_recovered_and_folded() {
     // THD is the power sum of the harmonics (handbook definition).
     let thd = 10.0 * (10f64.powf(-7.0) + 10f64.powf(-8.0) + 10f64.powf(-9.0)).log10();
     assert!(
-        (sp.thd_db.unwrap() - thd).abs() < HARMONIC_DB,
+        (sp.thd_dbc.unwrap() - thd).abs() < HARMONIC_DB,
         "{:?}",
-        sp.thd_db
+        sp.thd_dbc
     );
     // The worst spur is H2, and SFDR is its level.
     let spur = sp.worst_spur.unwrap();
@@ -345,7 +345,7 @@ fn tone_in_the_dc_span_is_a_clear_error() {
     let rec = synthesize(&s).unwrap().record;
     let err = analyze(&rec, &AnalysisSettings::default()).unwrap_err();
     assert_eq!(err.kind, spurline::ErrorKind::ToneAtEdge, "{err}");
-    assert!(err.to_string().contains("DC span"), "{err}");
+    assert!(err.to_string().contains("DC bins"), "{err}");
 }
 
 /// A coherent record with a strong low-order harmonic and few cycles: the sine fit's frequency is pulled

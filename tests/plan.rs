@@ -153,7 +153,7 @@ fn collisions_are_reported_in_csv() {
         "341",
         "--harmonics",
         "3",
-        "--span",
+        "--tone-halfwidth",
         "1",
         "--csv",
     ]);

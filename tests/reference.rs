@@ -114,7 +114,7 @@ fn ideal_quantiser_32_bits_shows_the_pipeline_floor_is_far_below() {
             "32 bits: {what} {got} vs {expected}"
         );
     }
-    assert!((sp.enob_fs_bits.unwrap() - 32.0).abs() < HANDBOOK_BITS);
+    assert!((sp.enob_full_scale_bits.unwrap() - 32.0).abs() < HANDBOOK_BITS);
     // The fit's residual is the quantisation error alone: q/√12 even at 2^31 codes of amplitude.
     let rms = m.analysis.fit.unwrap().residual_rms_codes;
     assert!(
@@ -303,7 +303,7 @@ fn half_bin_scalloping_of_the_rectangular_window() {
         spectrum: SpectrumSettings {
             window: WindowChoice::Fixed(Window::Rectangular),
             // A wide span keeps the leaked power out of the noise, so the record stays analysable.
-            span_guard_bins: Some(40),
+            guard_bins: Some(40),
             ..SpectrumSettings::default()
         },
         ..AnalysisSettings::default()
@@ -523,8 +523,8 @@ fn pipeline_matches_numpy() {
         assert_eq!(sp.window, want["window"].as_str().unwrap(), "{file}");
         assert_eq!(sp.coherent, want["coherent"].as_bool().unwrap(), "{file}");
         assert_eq!(
-            sp.span_halfwidth_bins as u64,
-            want["span_halfwidth_bins"].as_u64().unwrap(),
+            sp.tone_halfwidth_bins as u64,
+            want["tone_halfwidth_bins"].as_u64().unwrap(),
             "{file}"
         );
         assert_eq!(
@@ -554,7 +554,7 @@ fn pipeline_matches_numpy() {
         };
         check("SNR", sp.snr_db, "snr_db", PIPELINE_REF_DB);
         check("SINAD", sp.sinad_db, "sinad_db", PIPELINE_REF_DB);
-        check("THD", sp.thd_db, "thd_db", PIPELINE_REF_DB);
+        check("THD", sp.thd_dbc, "thd_dbc", PIPELINE_REF_DB);
         check("SFDR", sp.sfdr_dbc, "sfdr_dbc", PIPELINE_REF_DB);
         check(
             "fundamental",
@@ -571,8 +571,8 @@ fn pipeline_matches_numpy() {
         check("ENOB", sp.enob_bits, "enob_bits", PIPELINE_REF_BITS);
         check(
             "ENOB fs",
-            sp.enob_fs_bits,
-            "enob_fs_bits",
+            sp.enob_full_scale_bits,
+            "enob_full_scale_bits",
             PIPELINE_REF_BITS,
         );
         let spur = sp.worst_spur.as_ref().unwrap();

@@ -96,7 +96,7 @@ fn spectrum_plot_is_well_formed_labelled_and_marked() {
         "H2",
         "H3",
         "worst spur",
-        "Figures",
+        "Measured",
         "SNR",
         "SINAD",
         "THD",
@@ -330,7 +330,7 @@ fn residual_plot_is_labelled_and_decimates_deterministically() {
         "3π/2",
         "2π",
         "sample index n (first 512 of 8192)",
-        "ENOB (fit form)",
+        "sine-fit ENOB",
     ] {
         assert!(all.iter().any(|t| t == label), "no '{label}' in {all:?}");
     }

@@ -842,7 +842,7 @@ fn rectangular_half_bin_scalloping() {
     let inside = 1.0 / (n * (PI / (2.0 * n)).sin()).powi(2);
     close(
         "rect outside",
-        l.outside_span_dbc.unwrap(),
+        l.outside_tone_bins_dbc.unwrap(),
         10.0 * (1.0 - inside).log10(),
         1e-9,
     );
@@ -853,7 +853,7 @@ fn rectangular_half_bin_scalloping() {
         1e-9,
     );
     assert_eq!(l.offset_bins, 0.5);
-    assert_eq!(l.span_halfwidth_bins, 0);
+    assert_eq!(l.tone_halfwidth_bins, 0);
 }
 
 #[test]
@@ -864,7 +864,7 @@ fn coherent_cosine_sums_are_exactly_contained() {
         let Some(a) = w.coefficients() else { continue };
         let k = a.len();
         let l = w.leakage(0.0, k - 1);
-        if let Some(v) = l.outside_span_dbc {
+        if let Some(v) = l.outside_tone_bins_dbc {
             assert!(v < -250.0, "{}: {v} dBc outside ±{}", w.name(), k - 1);
         }
         close(
@@ -877,7 +877,7 @@ fn coherent_cosine_sums_are_exactly_contained() {
             let narrower = w.leakage(0.0, k - 2);
             let p: f64 = a[0] * a[0] + 0.5 * a[1..].iter().map(|x| x * x).sum::<f64>();
             let edge = 2.0 * (a[k - 1] / 2.0).powi(2) / p; // both edge bins
-            let got = narrower.outside_span_dbc.expect("must leak");
+            let got = narrower.outside_tone_bins_dbc.expect("must leak");
             close(
                 &format!("{} edge bins", w.name()),
                 got,
@@ -894,12 +894,12 @@ fn blackman_harris_4_worst_case_leakage() {
     // reaches -120 dBc (far sidelobes fall 6 dB/octave).
     let w = Window::BlackmanHarris4;
     let l = w.leakage(0.5, 4);
-    let v = l.outside_span_dbc.unwrap();
+    let v = l.outside_tone_bins_dbc.unwrap();
     close("BH4 ±4 at 0.5 bin (windows.md)", v, -86.5, 0.05);
     // Leakage decreases as the span widens but stays above -120 dBc up to ±20 bins.
     let mut prev = 0.0;
     for s in 0..=20 {
-        let v = w.leakage(0.5, s).outside_span_dbc.unwrap();
+        let v = w.leakage(0.5, s).outside_tone_bins_dbc.unwrap();
         assert!(v > -120.0, "BH4 span {s}: {v}");
         assert!(v < prev, "BH4 span {s}: not decreasing");
         prev = v;
@@ -922,7 +922,7 @@ fn long_windows_reach_minus_140_dbc() {
             let d = 0.05 * i as f64;
             let v = w
                 .leakage(d, span)
-                .outside_span_dbc
+                .outside_tone_bins_dbc
                 .unwrap_or(f64::NEG_INFINITY);
             assert!(v < -140.0, "{} offset {d} span {span}: {v}", w.name());
         }
@@ -930,7 +930,7 @@ fn long_windows_reach_minus_140_dbc() {
     // One bin fewer is not enough for BH7 at half a bin (it is -123 dBc there).
     let v = Window::BlackmanHarris7
         .leakage(0.5, 6)
-        .outside_span_dbc
+        .outside_tone_bins_dbc
         .unwrap();
     assert!(v > -140.0, "BH7 ±6: {v}");
 }
@@ -944,7 +944,7 @@ fn leakage_is_even_in_offset() {
             let a = w.leakage(d, s);
             let b = w.leakage(-d, s);
             close(&w.name(), a.peak_bin_loss_db, b.peak_bin_loss_db, 1e-9);
-            match (a.outside_span_dbc, b.outside_span_dbc) {
+            match (a.outside_tone_bins_dbc, b.outside_tone_bins_dbc) {
                 (Some(x), Some(y)) => close(&w.name(), x, y, 1e-6),
                 (x, y) => panic!("{}: {x:?} vs {y:?}", w.name()),
             }
@@ -956,10 +956,10 @@ fn leakage_is_even_in_offset() {
 fn leakage_serialises_floor_as_null() {
     // No NaN in outputs: below the floor the figure is None and serialises as JSON null.
     let l = Window::Hann.leakage(0.0, 1);
-    assert_eq!(l.outside_span_dbc, None);
+    assert_eq!(l.outside_tone_bins_dbc, None);
     let j = serde_json::to_value(l).unwrap();
-    assert!(j["outside_span_dbc"].is_null());
-    assert_eq!(j["span_halfwidth_bins"], 1);
+    assert!(j["outside_tone_bins_dbc"].is_null());
+    assert_eq!(j["tone_halfwidth_bins"], 1);
     let f = serde_json::to_value(Window::Hann.figures()).unwrap();
     close(
         "hann ENBW in JSON",

@@ -55,7 +55,7 @@ fuzz_target!(|data: &[u8]| {
                 WindowChoice::Fixed(WINDOWS[usize::from(w % 8)])
             },
             harmonics: u32::from(k % 100) + 1,
-            span_guard_bins: GUARDS[usize::from(g % 4)],
+            guard_bins: GUARDS[usize::from(g % 4)],
         },
         min_samples: 0,
     };

@@ -522,7 +522,7 @@ pub struct ImdSettings {
     /// The window choice (the rule of [`crate::spectrum`] for `Auto`, decided on the stronger tone).
     pub window: WindowChoice,
     /// Extra bins on each side of every span; `None`: 0 coherent, 1 non-coherent.
-    pub span_guard_bins: Option<usize>,
+    pub guard_bins: Option<usize>,
     /// Refine both frequencies by Gauss-Newton (otherwise the fit stays at the located frequencies).
     pub refine_frequencies: bool,
     /// Iteration cap of the refinement.
@@ -535,7 +535,7 @@ impl Default for ImdSettings {
     fn default() -> Self {
         ImdSettings {
             window: WindowChoice::Auto,
-            span_guard_bins: None,
+            guard_bins: None,
             refine_frequencies: true,
             max_iterations: 30,
             min_samples: 0,
@@ -708,7 +708,7 @@ pub struct ImdSpectrum {
     /// Bin width fs/N, hertz.
     pub bin_width_hz: f64,
     /// Half-width of every span, bins.
-    pub span_halfwidth_bins: usize,
+    pub tone_halfwidth_bins: usize,
     /// The two tones, lower frequency first.
     pub tones: Vec<ToneLevel>,
     /// The products in claiming order.
@@ -973,9 +973,9 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
         all_coherent,
         bits,
         strongest_dbfs,
-        settings.span_guard_bins,
+        settings.guard_bins,
     );
-    let half = spectrum::half_span(window, all_coherent, settings.span_guard_bins);
+    let half = spectrum::tone_halfwidth(window, all_coherent, settings.guard_bins);
     let powers = if window == Window::Rectangular {
         rect
     } else {
@@ -1139,7 +1139,7 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             window_reason,
             coherent: all_coherent,
             bin_width_hz: bin_hz,
-            span_halfwidth_bins: half,
+            tone_halfwidth_bins: half,
             tones: tone_levels,
             products,
             im2_dbc: im2.and_then(|p| db(p / pref)),

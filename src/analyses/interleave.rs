@@ -46,7 +46,7 @@ pub struct InterleaveSettings {
     /// The window choice (the rule of [`crate::spectrum`] for `Auto`).
     pub window: WindowChoice,
     /// Extra bins on each side of every span; `None`: 0 coherent, 1 non-coherent.
-    pub span_guard_bins: Option<usize>,
+    pub guard_bins: Option<usize>,
 }
 
 impl InterleaveSettings {
@@ -55,7 +55,7 @@ impl InterleaveSettings {
         InterleaveSettings {
             channels,
             window: WindowChoice::Auto,
-            span_guard_bins: None,
+            guard_bins: None,
         }
     }
 }
@@ -130,7 +130,7 @@ pub struct InterleaveSpectrum {
     /// Bin width fs/N, hertz.
     pub bin_width_hz: f64,
     /// Half-width of every span, bins.
-    pub span_halfwidth_bins: usize,
+    pub tone_halfwidth_bins: usize,
     /// Fundamental level (span power, noise subtracted), dBFS.
     pub fundamental_dbfs: Option<f64>,
     /// Offset spurs (k = 1..=M/2), then gain/timing spurs (k = 1..M−1).
@@ -339,9 +339,9 @@ pub fn analyze_interleaved(
         coherent,
         bits,
         fit.amplitude_dbfs,
-        settings.span_guard_bins,
+        settings.guard_bins,
     );
-    let half = spectrum::half_span(window, coherent, settings.span_guard_bins);
+    let half = spectrum::tone_halfwidth(window, coherent, settings.guard_bins);
     let powers = if window == Window::Rectangular {
         rect
     } else {
@@ -456,7 +456,7 @@ pub fn analyze_interleaved(
             window_reason,
             coherent,
             bin_width_hz: bin_hz,
-            span_halfwidth_bins: half,
+            tone_halfwidth_bins: half,
             fundamental_dbfs: db(p1 / pfs),
             spurs,
             offset_spur_dbc: largest(InterleaveSpurKind::Offset),

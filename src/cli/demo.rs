@@ -185,7 +185,7 @@ fn print_summary(results: &[Analysis]) {
                 si(f.frequency_hz, "Hz", 5),
                 fixed(s.snr_db, 2),
                 fixed(s.sinad_db, 2),
-                fixed(s.thd_db, 2),
+                fixed(s.thd_dbc, 2),
                 fixed(s.sfdr_dbc, 2),
                 fixed(s.enob_bits, 2),
                 fixed(f.enob_bits, 2),

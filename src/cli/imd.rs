@@ -23,10 +23,10 @@ pub struct ImdArgs {
     /// hft116d, hft144d, hft169d, flattop, kaiser(BETA).
     #[arg(long, default_value = "auto")]
     pub window: String,
-    /// Extra bins on each side of every span beyond the window's main lobe (default: 0 coherent,
+    /// Guard bins added on each side of every tone's bins beyond the window's main lobe (default: 0 coherent,
     /// 1 non-coherent).
     #[arg(long)]
-    pub span_guard: Option<usize>,
+    pub guard_bins: Option<usize>,
     /// Keep the frequencies where the tones were located (no Gauss-Newton refinement of the fit).
     #[arg(long)]
     pub no_refine: bool,
@@ -56,7 +56,7 @@ pub fn run(args: ImdArgs) -> i32 {
     };
     let settings = ImdSettings {
         window,
-        span_guard_bins: args.span_guard,
+        guard_bins: args.guard_bins,
         refine_frequencies: !args.no_refine,
         ..ImdSettings::default()
     };
@@ -126,7 +126,7 @@ pub fn render(r: &ImdResult) -> String {
         );
         let _ = writeln!(
             s,
-            "  spectrum   window {} ({}) · bin {} · spans ±{} bins · noise floor {} dBFS per bin",
+            "  spectrum   window {} ({}) · bin {} · tone bins ±{} · noise floor {} dBFS per bin",
             sp.window,
             if sp.coherent {
                 "coherent"
@@ -134,7 +134,7 @@ pub fn render(r: &ImdResult) -> String {
                 "non-coherent"
             },
             si(sp.bin_width_hz, "Hz", 4),
-            sp.span_halfwidth_bins,
+            sp.tone_halfwidth_bins,
             fixed(sp.noise_floor_dbfs, 2)
         );
         let spur = sp.worst_spur.as_ref().map_or("—".to_string(), |w| {

@@ -25,10 +25,10 @@ pub struct InterleaveArgs {
     /// hft116d, hft144d, hft169d, flattop, kaiser(BETA).
     #[arg(long, default_value = "auto")]
     pub window: String,
-    /// Extra bins on each side of every span beyond the window's main lobe (default: 0 coherent,
+    /// Guard bins added on each side of every tone's bins beyond the window's main lobe (default: 0 coherent,
     /// 1 non-coherent).
     #[arg(long)]
-    pub span_guard: Option<usize>,
+    pub guard_bins: Option<usize>,
     /// Print one JSON array, one object per record in input order, instead of tables.
     #[arg(long)]
     pub json: bool,
@@ -46,7 +46,7 @@ pub fn run(args: InterleaveArgs) -> i32 {
     };
     let settings = InterleaveSettings {
         window,
-        span_guard_bins: args.span_guard,
+        guard_bins: args.guard_bins,
         ..InterleaveSettings::new(args.channels)
     };
     super::run_files(

@@ -272,13 +272,13 @@ pub struct AnalysisArgs {
     /// hft116d, hft144d, hft169d, flattop, kaiser(BETA).
     #[arg(long, default_value = "auto")]
     pub window: String,
-    /// Highest harmonic order claimed (2..=H).
+    /// Highest harmonic counted (2..=H).
     #[arg(long, default_value_t = 10)]
     pub harmonics: u32,
-    /// Extra bins on each side of every tone span beyond the window's main lobe (default: 0 coherent,
+    /// Guard bins added on each side of every tone's bins beyond the window's main lobe (default: 0 coherent,
     /// 1 non-coherent).
     #[arg(long)]
-    pub span_guard: Option<usize>,
+    pub guard_bins: Option<usize>,
 }
 
 impl AnalysisArgs {
@@ -307,7 +307,7 @@ impl AnalysisArgs {
             spectrum: SpectrumSettings {
                 window,
                 harmonics: self.harmonics,
-                span_guard_bins: self.span_guard,
+                guard_bins: self.guard_bins,
             },
             min_samples: 0,
         })

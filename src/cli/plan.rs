@@ -43,7 +43,7 @@ pub struct PlanArgs {
     /// Half-width in bins within which two lines count as colliding: 0 for a coherent record with the
     /// rectangular window, the window's main-lobe half-width otherwise.
     #[arg(long, default_value_t = 0.0)]
-    pub span: f64,
+    pub tone_halfwidth: f64,
     /// Targets START:STOP:STEP in hertz, STOP included when a step lands on it (e.g. 1M:49M:4M).
     #[arg(long)]
     pub range: Option<String>,
@@ -177,7 +177,7 @@ fn go(args: &PlanArgs) -> Result<String, Error> {
                     f2,
                     args.prime,
                     args.harmonics,
-                    args.span,
+                    args.tone_halfwidth,
                 )
             })
             .collect::<Result<Vec<_>, _>>()?;
@@ -203,7 +203,16 @@ fn go(args: &PlanArgs) -> Result<String, Error> {
         }
         let plans = targets
             .iter()
-            .map(|&f| plan_tone(args.fs, samples, f, args.prime, args.harmonics, args.span))
+            .map(|&f| {
+                plan_tone(
+                    args.fs,
+                    samples,
+                    f,
+                    args.prime,
+                    args.harmonics,
+                    args.tone_halfwidth,
+                )
+            })
             .collect::<Result<Vec<_>, _>>()?;
         Plans::Single(plans)
     };
@@ -387,14 +396,14 @@ fn render(plans: &Plans, ctx: &Context, args: &PlanArgs) -> String {
         writeln!(
         s,
         "plan: fs {} Hz ({}), N = {} samples, bin width (resolution) {} Hz ({}); harmonics 2..{}, \
-         span ±{} bins{}",
+         tone bins ±{}{}",
         ctx.fs,
         si(ctx.fs, "Hz", 6),
         ctx.samples,
         bin,
         si(bin, "Hz", 6),
         args.harmonics,
-        args.span,
+        args.tone_halfwidth,
         if args.prime { ", prime cycle counts" } else { "" }
     );
     if let (Some(r), Some(n)) = (ctx.resolution, ctx.samples_for_resolution) {

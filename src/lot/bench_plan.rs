@@ -21,7 +21,7 @@
 //! fit = "four"                 # four | three
 //! window = "auto"              # auto, or a window name as `analyze --window` takes
 //! harmonics = 10               # highest harmonic order claimed, 1..=100
-//! span_guard = 1               # extra bins around every tone span
+//! guard_bins = 1               # extra bins around every tone span
 //! average = 1                  # records per condition whose spectra are averaged
 //! amplitude_tolerance_db = 1.0 # warn when the fitted level is further than this from the plan's
 //!
@@ -132,7 +132,7 @@ struct AnalysisToml {
     fit: Option<Spanned<String>>,
     window: Option<Spanned<String>>,
     harmonics: Option<Spanned<u32>>,
-    span_guard: Option<usize>,
+    guard_bins: Option<usize>,
     average: Option<Spanned<usize>>,
     amplitude_tolerance_db: Option<Spanned<f64>>,
 }
@@ -144,7 +144,7 @@ impl AnalysisToml {
             fit: self.fit.clone().or_else(|| base.fit.clone()),
             window: self.window.clone().or_else(|| base.window.clone()),
             harmonics: self.harmonics.clone().or_else(|| base.harmonics.clone()),
-            span_guard: self.span_guard.or(base.span_guard),
+            guard_bins: self.guard_bins.or(base.guard_bins),
             average: self.average.clone().or_else(|| base.average.clone()),
             amplitude_tolerance_db: self
                 .amplitude_tolerance_db
@@ -1034,7 +1034,7 @@ fn analysis(r: &Reader, a: &AnalysisToml) -> Result<(AnalysisSettings, usize, f6
             spectrum: SpectrumSettings {
                 window,
                 harmonics,
-                span_guard_bins: a.span_guard,
+                guard_bins: a.guard_bins,
             },
             min_samples: 0,
         },

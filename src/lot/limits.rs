@@ -1142,7 +1142,7 @@ impl Characterisation {
 pub const DEFAULT_METRICS: [&str; 7] = [
     "spectrum.snr_db",
     "spectrum.sinad_db",
-    "spectrum.thd_db",
+    "spectrum.thd_dbc",
     "spectrum.sfdr_dbc",
     "spectrum.enob_bits",
     "spectrum.noise_floor_dbfs",
@@ -1439,7 +1439,7 @@ mod tests {
         // Common practice, no source: more SNR/SFDR/ENOB is better, less distortion and noise is better.
         assert_eq!(direction_of("spectrum.snr_db"), Direction::HigherIsBetter);
         assert_eq!(direction_of("fit.enob_bits"), Direction::HigherIsBetter);
-        assert_eq!(direction_of("spectrum.thd_db"), Direction::LowerIsBetter);
+        assert_eq!(direction_of("spectrum.thd_dbc"), Direction::LowerIsBetter);
         assert_eq!(
             direction_of("spectrum.harmonics.h2.dbc"),
             Direction::LowerIsBetter

@@ -110,7 +110,7 @@ const INDEX_FIGURES: [(&str, &str); 5] = [
     ("spectrum.snr_db", "SNR dB"),
     ("spectrum.sinad_db", "SINAD dB"),
     ("spectrum.sfdr_dbc", "SFDR dBc"),
-    ("spectrum.thd_db", "THD dB"),
+    ("spectrum.thd_dbc", "THD dB"),
     ("spectrum.enob_bits", "ENOB bits (spectral)"),
 ];
 

@@ -222,7 +222,7 @@ pub(crate) fn render_with(
         ("THD", "dBc"),
         ("SFDR", "dBc"),
         ("ENOB", "bits, spectral"),
-        ("ENOB", "bits, fit form"),
+        ("sine-fit ENOB", "bits"),
     ] {
         let _ = write!(h, "<th>{name}<span class=\"u\">{unit}</span></th>");
     }
@@ -249,7 +249,7 @@ pub(crate) fn render_with(
             fixed(sp.and_then(|s| s.fundamental_dbfs), 2),
             fixed(sp.and_then(|s| s.snr_db), 2),
             fixed(sp.and_then(|s| s.sinad_db), 2),
-            fixed(sp.and_then(|s| s.thd_db), 2),
+            fixed(sp.and_then(|s| s.thd_dbc), 2),
             fixed(sp.and_then(|s| s.sfdr_dbc), 2),
             fixed(sp.and_then(|s| s.enob_bits), 2),
             fixed(fit.and_then(|f| f.enob_bits), 2),

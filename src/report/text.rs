@@ -54,7 +54,7 @@ pub fn render(a: &Analysis) -> String {
         );
         let _ = writeln!(
             s,
-            "             residual {:.4} codes rms · SINAD {} dB · ENOB {} bits (fit form) · {} iterations{}",
+            "             residual {:.4} codes rms · SINAD {} dB · sine-fit ENOB {} bits · {} iterations{}",
             f.residual_rms_codes,
             fixed(f.sinad_db, 2),
             fixed(f.enob_bits, 3),
@@ -81,7 +81,7 @@ pub fn render(a: &Analysis) -> String {
             fixed(sp.fundamental_dbfs, 2),
             fixed(sp.snr_db, 2),
             fixed(sp.sinad_db, 2),
-            fixed(sp.thd_db, 2)
+            fixed(sp.thd_dbc, 2)
         );
         let spur = sp.worst_spur.as_ref().map_or("—".to_string(), |w| {
             format!(
@@ -101,7 +101,7 @@ pub fn render(a: &Analysis) -> String {
             s,
             "             ENOB {} bits (spectral) · {} bits (full-scale referred)",
             fixed(sp.enob_bits, 3),
-            fixed(sp.enob_fs_bits, 3)
+            fixed(sp.enob_full_scale_bits, 3)
         );
         let _ = writeln!(
             s,
@@ -111,9 +111,9 @@ pub fn render(a: &Analysis) -> String {
         );
         let _ = writeln!(
             s,
-            "  leakage    {:+.3} bins off-centre · outside span {} dBc · SNR bias ≤ {:.3} dB · SFDR bias ≤ {:.3} dB",
+            "  leakage    {:+.3} bins off-centre · outside the tone's bins {} dBc · SNR bias ≤ {:.3} dB · SFDR bias ≤ {:.3} dB",
             sp.leakage.offset_bins,
-            fixed(sp.leakage.outside_span_dbc, 1),
+            fixed(sp.leakage.outside_tone_bins_dbc, 1),
             sp.leakage.snr_bias_db,
             sp.leakage.sfdr_bias_db
         );

@@ -4,7 +4,7 @@
 use super::fft::power_spectrum;
 use super::metrics::Figures;
 use super::tones::{Claims, Owner};
-use super::{half_span, Coherence, Window, AUTO_LADDER, BIAS_WARN_DB};
+use super::{tone_halfwidth, Coherence, Window, AUTO_LADDER, BIAS_WARN_DB};
 use crate::fit::SineFit;
 use serde::Serialize;
 use std::f64::consts::TAU;
@@ -17,7 +17,7 @@ pub struct LeakageDiagnosis {
     pub offset_bins: f64,
     /// Fundamental power that falls outside its span, relative to the fundamental (from the window's
     /// known spectrum at this offset); `None` when below the rounding floor.
-    pub outside_span_dbc: Option<f64>,
+    pub outside_tone_bins_dbc: Option<f64>,
     /// The largest single leaked bin outside the span, dBc.
     pub worst_bin_dbc: Option<f64>,
     /// Loss of the peak bin against a bin-centred tone at this offset (scalloping), dB.
@@ -45,7 +45,7 @@ fn biases(window: Window, half: usize, offset: f64, figs: &Figures) -> (f64, f64
     let leak = window.leakage(offset, half);
     let to_power =
         |dbc: Option<f64>| dbc.map_or(0.0, |d| figs.fundamental_power * 10f64.powf(d / 10.0));
-    let snr_bias = bias_db(figs.noise_power, to_power(leak.outside_span_dbc));
+    let snr_bias = bias_db(figs.noise_power, to_power(leak.outside_tone_bins_dbc));
     let spur = figs
         .worst_spur
         .as_ref()
@@ -81,7 +81,7 @@ pub(crate) fn diagnose(
         let mut fixes = Vec::new();
         if let Some(w) = AUTO_LADDER.iter().chain(&[Window::Hft144d]).find(|w| {
             **w != window && {
-                let (s, f, _) = biases(**w, half_span(**w, false, None), offset, figs);
+                let (s, f, _) = biases(**w, tone_halfwidth(**w, false, None), offset, figs);
                 s <= BIAS_WARN_DB && f <= BIAS_WARN_DB
             }
         }) {
@@ -92,8 +92,8 @@ pub(crate) fn diagnose(
             a <= BIAS_WARN_DB && b <= BIAS_WARN_DB
         }) {
             fixes.push(format!(
-                "a span of ±{s} bins (--span-guard {})",
-                s.saturating_sub(half_span(window, coherence.coherent, Some(0)))
+                "tone bins of ±{s} (--guard-bins {})",
+                s.saturating_sub(tone_halfwidth(window, coherence.coherent, Some(0)))
             ));
         }
         if let Ok(c) =
@@ -119,7 +119,7 @@ pub(crate) fn diagnose(
     }
     LeakageDiagnosis {
         offset_bins: offset,
-        outside_span_dbc: leak.outside_span_dbc,
+        outside_tone_bins_dbc: leak.outside_tone_bins_dbc,
         worst_bin_dbc: leak.worst_bin_outside_dbc,
         scalloping_loss_db: leak.peak_bin_loss_db,
         snr_bias_db: snr_bias,
@@ -144,7 +144,7 @@ pub(crate) fn edge_warning(
     claims: &Claims,
     warnings: &mut Vec<String>,
 ) {
-    let (k, half, last) = (claims.fundamental_bin, claims.half_span, n / 2);
+    let (k, half, last) = (claims.fundamental_bin, claims.tone_halfwidth, n / 2);
     let near_dc = k <= 2 * half;
     let near_nyquist = k + half >= last;
     if !(near_dc || near_nyquist) || fit.amplitude_codes <= 0.0 {
@@ -174,7 +174,7 @@ pub(crate) fn edge_warning(
     let (lo, hi) = (k.saturating_sub(half), (k + half).min(last));
     let (meets, fix) = if near_dc {
         (
-            format!("meets the DC span (bins 0..={half}): part of the tone is counted as DC"),
+            format!("meets the DC bins (0..={half}): part of the tone is counted as DC"),
             "a higher input frequency or a longer record",
         )
     } else {
@@ -184,7 +184,7 @@ pub(crate) fn edge_warning(
         )
     };
     warnings.push(format!(
-        "the fundamental's span (bins {lo}..={hi} under the {} window) {meets}, so its level reads {bias:+.2} dB off (computed from the fitted sine); use {fix}",
+        "the fundamental's bins ({lo}..={hi} under the {} window) {meets}, so its level reads {bias:+.2} dB off (computed from the fitted sine); use {fix}",
         window.name()
     ));
 }

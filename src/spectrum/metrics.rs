@@ -67,7 +67,7 @@ pub struct Figures {
     /// SINAD, dB.
     pub sinad_db: Option<f64>,
     /// THD, dBc (negative); `None` when every harmonic is masked or at the floor.
-    pub thd_db: Option<f64>,
+    pub thd_dbc: Option<f64>,
     /// SFDR against the fundamental.
     pub sfdr_dbc: Option<f64>,
     /// SFDR against full scale.
@@ -75,7 +75,7 @@ pub struct Figures {
     /// Spectral ENOB: (SINAD − 1.76)/6.02.
     pub enob_bits: Option<f64>,
     /// Full-scale-referred ENOB: SINAD referred to a 0 dBFS input.
-    pub enob_fs_bits: Option<f64>,
+    pub enob_full_scale_bits: Option<f64>,
     /// Average noise floor per bin, dBFS.
     pub noise_floor_dbfs: Option<f64>,
     /// Noise spectral density, dBFS/Hz.
@@ -202,8 +202,8 @@ pub fn figures(
 
     // Non-harmonic spurs: the largest noise bin, with the noise bins of its lobe.
     if let Some(k) = peak_k {
-        let lo = k.saturating_sub(claims.half_span);
-        let hi = (k + claims.half_span).min(powers.len() - 1);
+        let lo = k.saturating_sub(claims.tone_halfwidth);
+        let hi = (k + claims.tone_halfwidth).min(powers.len() - 1);
         let lobe: f64 = (lo..=hi)
             .filter(|&j| claims.owner[j] == Owner::Noise)
             .map(|j| powers[j])
@@ -244,11 +244,11 @@ pub fn figures(
         harmonic_power_signed,
         snr_db: db(snr),
         sinad_db,
-        thd_db: db(thd_sum / fundamental_power),
+        thd_dbc: db(thd_sum / fundamental_power),
         sfdr_dbc: worst_spur.as_ref().map(|s| -s.dbc),
         sfdr_dbfs: worst_spur.as_ref().map(|s| -s.dbfs),
         enob_bits: enob,
-        enob_fs_bits: enob_fs,
+        enob_full_scale_bits: enob_fs,
         noise_floor_dbfs: db(noise_per_bin / pfs),
         nsd_dbfs_per_hz: db(noise_power / pfs / (sample_rate_hz / 2.0)),
         worst_spur,
@@ -286,7 +286,7 @@ mod tests {
         let h3 = &f.harmonics[1];
         assert!(!h3.at_floor);
         assert!((h3.dbc.unwrap() - 10.0 * (10.0 / p1).log10()).abs() < 1e-9);
-        assert!((f.thd_db.unwrap() - 10.0 * (10.0 / p1).log10()).abs() < 1e-9);
+        assert!((f.thd_dbc.unwrap() - 10.0 * (10.0 / p1).log10()).abs() < 1e-9);
         // SINAD counts every corrected harmonic power, the at-floor one included.
         let sinad = 10.0 * (p1 / (32.0 + 0.5 + 10.0)).log10();
         assert!((f.sinad_db.unwrap() - sinad).abs() < 1e-9);

@@ -38,11 +38,11 @@ pub enum WindowChoice {
 pub struct SpectrumSettings {
     /// Window choice.
     pub window: WindowChoice,
-    /// Highest harmonic order claimed (2..=H); default 10.
+    /// Highest harmonic counted (2..=H); default 10.
     pub harmonics: u32,
-    /// Extra bins added to each side of every span beyond the window's main lobe; `None` means 0 for a
+    /// Guard bins added to each side of every tone's bins beyond the window's main lobe; `None` means 0 for a
     /// coherent record and 1 for a non-coherent one.
-    pub span_guard_bins: Option<usize>,
+    pub guard_bins: Option<usize>,
 }
 
 impl Default for SpectrumSettings {
@@ -50,7 +50,7 @@ impl Default for SpectrumSettings {
         SpectrumSettings {
             window: WindowChoice::Auto,
             harmonics: 10,
-            span_guard_bins: None,
+            guard_bins: None,
         }
     }
 }
@@ -124,8 +124,8 @@ fn spectral_coherence(record: &[f64], mut c: Coherence) -> Coherence {
     c
 }
 
-/// Half-width of the tone spans for a window, in bins.
-pub fn half_span(window: Window, coherent: bool, guard: Option<usize>) -> usize {
+/// Half-width of the bins given to each tone (main lobe plus guard bins) for a window.
+pub fn tone_halfwidth(window: Window, coherent: bool, guard: Option<usize>) -> usize {
     let null = window.null_halfwidth_bins();
     let guard = guard.unwrap_or(if coherent { 0 } else { 1 });
     // A coherent tone under a K-term cosine sum occupies exactly k0 ± (K−1).
@@ -158,13 +158,13 @@ pub fn choose_window(
         WindowChoice::Auto => {
             let need = -(ideal_snr_db(bits, amplitude_dbfs.min(0.0)) + LEAKAGE_MARGIN_DB);
             for w in AUTO_LADDER {
-                let leak = w.leakage(0.5, half_span(w, false, guard));
-                if leak.outside_span_dbc.is_none_or(|l| l <= need) {
+                let leak = w.leakage(0.5, tone_halfwidth(w, false, guard));
+                if leak.outside_tone_bins_dbc.is_none_or(|l| l <= need) {
                     return (
                         w,
                         format!(
                             "auto: non-coherent record; worst-case leakage {} dBc is below the {need:.1} dBc that {bits}-bit quantisation noise allows",
-                            leak.outside_span_dbc.map_or("< -300".to_string(), |l| format!("{l:.1}"))
+                            leak.outside_tone_bins_dbc.map_or("< -300".to_string(), |l| format!("{l:.1}"))
                         ),
                     );
                 }
@@ -193,8 +193,8 @@ pub struct Spectrum {
     pub records_averaged: usize,
     /// Bin width fs/N in hertz.
     pub bin_width_hz: f64,
-    /// Half-width of the DC, fundamental and harmonic spans, bins.
-    pub span_halfwidth_bins: usize,
+    /// Half-width of the bins given to DC, the fundamental and each harmonic (main lobe plus guard bins).
+    pub tone_halfwidth_bins: usize,
     /// Fundamental frequency (from the fit), hertz.
     pub fundamental_hz: f64,
     /// Fundamental level, dBFS.
@@ -204,7 +204,7 @@ pub struct Spectrum {
     /// Signal to noise and distortion, dB.
     pub sinad_db: Option<f64>,
     /// Total harmonic distortion over harmonics 2..H, dBc.
-    pub thd_db: Option<f64>,
+    pub thd_dbc: Option<f64>,
     /// Spurious-free dynamic range against the fundamental, dB.
     pub sfdr_dbc: Option<f64>,
     /// Spurious-free dynamic range against full scale, dB.
@@ -212,7 +212,7 @@ pub struct Spectrum {
     /// Spectral ENOB: (SINAD − 1.76)/6.02, bits.
     pub enob_bits: Option<f64>,
     /// Full-scale-referred ENOB: (SINAD − fundamental dBFS − 1.76)/6.02, bits.
-    pub enob_fs_bits: Option<f64>,
+    pub enob_full_scale_bits: Option<f64>,
     /// Average noise floor per bin, dBFS.
     pub noise_floor_dbfs: Option<f64>,
     /// Noise spectral density, dBFS/Hz.
@@ -284,9 +284,9 @@ pub fn measure_consuming(
         coherence.coherent,
         bits,
         fit.amplitude_dbfs,
-        settings.span_guard_bins,
+        settings.guard_bins,
     );
-    let half = half_span(window, coherence.coherent, settings.span_guard_bins);
+    let half = tone_halfwidth(window, coherence.coherent, settings.guard_bins);
     // The rectangular window is never materialised: a 2^24-sample record saves 128 MB.
     let w: std::sync::Arc<[f64]> = if window == Window::Rectangular {
         Vec::new().into()
@@ -315,7 +315,7 @@ pub fn measure_consuming(
             "",
             Location::Whole,
             format!(
-                "a tone outside the DC span (bins 0..={half} under the {} window)",
+                "a tone outside the DC bins (0..={half} under the {} window)",
                 window.name()
             ),
             format!(
@@ -346,7 +346,7 @@ pub fn measure_consuming(
             ),
         ));
     }
-    if figs.thd_db.is_none() && figs.harmonics.iter().any(|h| !h.masked) {
+    if figs.thd_dbc.is_none() && figs.harmonics.iter().any(|h| !h.masked) {
         warnings.push("every harmonic is at the noise floor: THD is not reported".to_string());
     }
     let masked: Vec<String> = figs
@@ -392,7 +392,7 @@ pub fn measure_consuming(
         coherence,
         records_averaged: count,
         bin_width_hz: sample_rate_hz / n as f64,
-        span_halfwidth_bins: half,
+        tone_halfwidth_bins: half,
         fundamental_hz: fit.frequency_hz,
         fundamental_dbfs: figs
             .fundamental_dbfs
@@ -400,11 +400,11 @@ pub fn measure_consuming(
             .then_some(figs.fundamental_dbfs),
         snr_db: figs.snr_db,
         sinad_db: figs.sinad_db,
-        thd_db: figs.thd_db,
+        thd_dbc: figs.thd_dbc,
         sfdr_dbc: figs.sfdr_dbc,
         sfdr_dbfs: figs.sfdr_dbfs,
         enob_bits: figs.enob_bits,
-        enob_fs_bits: figs.enob_fs_bits,
+        enob_full_scale_bits: figs.enob_full_scale_bits,
         noise_floor_dbfs: figs.noise_floor_dbfs,
         nsd_dbfs_per_hz: figs.nsd_dbfs_per_hz,
         worst_spur: figs.worst_spur.clone(),

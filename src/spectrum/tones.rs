@@ -38,7 +38,7 @@ pub struct Claims {
     /// Owner of each bin 0..=N/2.
     pub owner: Vec<Owner>,
     /// Half-width of the DC, fundamental and harmonic spans, in bins.
-    pub half_span: usize,
+    pub tone_halfwidth: usize,
     /// Centre bin of the fundamental.
     pub fundamental_bin: usize,
     /// Harmonics 2..=H in order.
@@ -47,19 +47,20 @@ pub struct Claims {
 
 /// Claims bins in the order DC, fundamental, harmonics 2..=`harmonics`; a bin is never claimed twice.
 ///
-/// `tone_bin` is the fundamental's fractional bin (fitted cycles), `half_span` the half-width of every
+/// `tone_bin` is the fundamental's fractional bin (fitted cycles), `tone_halfwidth` the half-width of every
 /// span. A harmonic whose centre bin is already owned is masked and owns nothing.
-pub fn claim_bins(samples: usize, tone_bin: f64, harmonics: u32, half_span: usize) -> Claims {
+pub fn claim_bins(samples: usize, tone_bin: f64, harmonics: u32, tone_halfwidth: usize) -> Claims {
     // Orders are kept as u16 in the owners (the settings allow up to 100).
     let harmonics = harmonics.min(u16::MAX as u32);
     let bins = samples / 2 + 1;
     let last = bins - 1;
     let mut owner = vec![Owner::Noise; bins];
-    for o in owner.iter_mut().take((half_span + 1).min(bins)) {
+    for o in owner.iter_mut().take((tone_halfwidth + 1).min(bins)) {
         *o = Owner::Dc;
     }
     let fundamental_bin = (tone_bin.round().max(0.0) as usize).min(last);
-    let span = |centre: usize| centre.saturating_sub(half_span)..=(centre + half_span).min(last);
+    let span =
+        |centre: usize| centre.saturating_sub(tone_halfwidth)..=(centre + tone_halfwidth).min(last);
     for k in span(fundamental_bin) {
         if owner[k] == Owner::Noise {
             owner[k] = Owner::Fundamental;
@@ -93,7 +94,7 @@ pub fn claim_bins(samples: usize, tone_bin: f64, harmonics: u32, half_span: usiz
     }
     Claims {
         owner,
-        half_span,
+        tone_halfwidth,
         fundamental_bin,
         harmonics: slots,
     }

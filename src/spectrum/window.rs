@@ -121,10 +121,10 @@ pub struct Leakage {
     /// Offset of the tone from the centre bin of the span, in bins (as used; see [`Window::leakage`]).
     pub offset_bins: f64,
     /// The span is the centre bin ± this many bins.
-    pub span_halfwidth_bins: usize,
+    pub tone_halfwidth_bins: usize,
     /// Total tone power outside the span relative to the tone's total power (dBc); `None` when below
     /// about -300 dB (rounding floor), e.g. a coherent tone under a K-term cosine sum with span ≥ K − 1.
-    pub outside_span_dbc: Option<f64>,
+    pub outside_tone_bins_dbc: Option<f64>,
     /// The largest single bin outside the span, relative to the tone's total power (dBc); `None` below
     /// about -300 dB.
     pub worst_bin_outside_dbc: Option<f64>,
@@ -335,7 +335,7 @@ impl Window {
     ///
     /// δ may be any finite value (in practice −0.5..=0.5); it is reduced modulo Nr. A non-finite δ is
     /// replaced by 0.5, the worst case, and the result records the value used.
-    pub fn leakage(&self, offset_bins: f64, span_halfwidth_bins: usize) -> Leakage {
+    pub fn leakage(&self, offset_bins: f64, tone_halfwidth_bins: usize) -> Leakage {
         let offset = if offset_bins.is_finite() {
             offset_bins
         } else {
@@ -347,7 +347,7 @@ impl Window {
         thread_local! {
             static ANSWERS: RefCell<Vec<Answer>> = const { RefCell::new(Vec::new()) };
         }
-        let key = (*self, offset.to_bits(), span_halfwidth_bins);
+        let key = (*self, offset.to_bits(), tone_halfwidth_bins);
         if let Some(hit) = ANSWERS.with(|a| {
             a.borrow()
                 .iter()
@@ -359,7 +359,7 @@ impl Window {
         let answer = LEAKAGE_KIT.with(|kit| {
             let mut kit = kit.borrow_mut();
             let kit = kit.get_or_insert_with(LeakageKit::new);
-            kit.leakage(self, offset, span_halfwidth_bins)
+            kit.leakage(self, offset, tone_halfwidth_bins)
         });
         ANSWERS.with(|a| {
             let mut a = a.borrow_mut();
@@ -685,8 +685,8 @@ impl LeakageKit {
         };
         Leakage {
             offset_bins: offset,
-            span_halfwidth_bins: span,
-            outside_span_dbc: dbc(outside),
+            tone_halfwidth_bins: span,
+            outside_tone_bins_dbc: dbc(outside),
             worst_bin_outside_dbc: dbc(worst),
             peak_bin_loss_db,
         }
@@ -842,7 +842,7 @@ mod tests {
             }
         }
         let want = 10.0 * (outside / total).log10();
-        let got = l.outside_span_dbc.unwrap();
+        let got = l.outside_tone_bins_dbc.unwrap();
         assert!((got - want).abs() < 1e-8, "{got} vs {want}");
         let want_worst = 10.0 * (worst / total).log10();
         assert!((l.worst_bin_outside_dbc.unwrap() - want_worst).abs() < 1e-8);

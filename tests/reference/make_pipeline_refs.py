@@ -147,7 +147,7 @@ def window_samples(name, N):
     return windows.general_cosine(N, COSINE_SUMS[name], sym=False)
 
 
-def half_span(name, coherent):
+def tone_halfwidth(name, coherent):
     K = len(COSINE_SUMS[name])
     return K - 1 if coherent else K + 1
 
@@ -155,7 +155,7 @@ def half_span(name, coherent):
 def worst_leakage_dbc(name):
     """Power of a unit tone half a bin off that falls outside its span, dBc (None below -300 dB)."""
     Nr = LEAKAGE_REF_LEN
-    span = half_span(name, False)
+    span = tone_halfwidth(name, False)
     k0 = Nr // 4
     n = np.arange(Nr)
     x = window_samples(name, Nr) * np.exp(2j * np.pi * (k0 + 0.5) * n / Nr)
@@ -197,7 +197,7 @@ def analyse(codes, bits):
     cycles_std = math.sqrt(24 * sigma ** 2 / (amp ** 2 * N * (N ** 2 - 1))) * N / (2 * math.pi)
     coherent = abs(cycles - round_half_away(cycles)) <= max(COHERENCE_SIGMAS * cycles_std, 1e-9)
     win = choose_window(coherent, bits, level_dbfs)
-    half = half_span(win, coherent)
+    half = tone_halfwidth(win, coherent)
 
     w = window_samples(win, N)
     X = np.fft.rfft(y * w)
@@ -275,16 +275,16 @@ def analyse(codes, bits):
         cycles_std=cycles_std,
         coherent=bool(coherent),
         window=win,
-        span_halfwidth_bins=half,
+        tone_halfwidth_bins=half,
         noise_bins=len(noise_idx),
         fundamental_dbfs=fund_dbfs,
         snr_db=db(p1 / noise),
         sinad_db=sinad_db,
-        thd_db=db(thd_sum / p1),
+        thd_dbc=db(thd_sum / p1),
         sfdr_dbc=-db(worst / p1),
         worst_spur_is_harmonic=spur_is_harmonic,
         enob_bits=(sinad_db - SINE_CREST_DB) / DB_PER_BIT,
-        enob_fs_bits=(sinad_db - fund_dbfs - SINE_CREST_DB) / DB_PER_BIT,
+        enob_full_scale_bits=(sinad_db - fund_dbfs - SINE_CREST_DB) / DB_PER_BIT,
         noise_floor_dbfs=db(mean / pfs),
         harmonics=harmonics,
     )
@@ -316,7 +316,7 @@ def main():
         out["records"].append(dict(file=fname, bits=r["bits"], samples=r["samples"],
                                    generator=r, expected=figures))
         print(r["name"], {k: figures[k] for k in ("window", "coherent", "snr_db", "sinad_db",
-                                                 "thd_db", "sfdr_dbc", "enob_bits")})
+                                                 "thd_dbc", "sfdr_dbc", "enob_bits")})
     with open(os.path.join(OUT_DIR, "expected.json"), "w") as fh:
         json.dump(out, fh, indent=1)
         fh.write("\n")

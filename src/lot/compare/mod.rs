@@ -30,12 +30,12 @@ pub fn better_direction(metric: &str) -> Option<Better> {
         "spectrum.sfdr_dbc",
         "spectrum.sfdr_dbfs",
         "spectrum.enob_bits",
-        "spectrum.enob_fs_bits",
+        "spectrum.enob_full_scale_bits",
         "fit.enob_bits",
         "fit.sinad_db",
     ];
     const LOWER: [&str; 4] = [
-        "spectrum.thd_db",
+        "spectrum.thd_dbc",
         "spectrum.noise_floor_dbfs",
         "spectrum.nsd_dbfs_per_hz",
         "spectrum.worst_spur.dbc",

@@ -13,7 +13,7 @@ use std::path::Path;
 pub const PLOTTED: [&str; 5] = [
     "spectrum.snr_db",
     "spectrum.sinad_db",
-    "spectrum.thd_db",
+    "spectrum.thd_dbc",
     "spectrum.sfdr_dbc",
     "spectrum.enob_bits",
 ];

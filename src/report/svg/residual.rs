@@ -247,7 +247,7 @@ pub fn residual_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
                 format!("{} dB", fixed(fit.sinad_db, 2)),
             ),
             (
-                "ENOB (fit form)".into(),
+                "sine-fit ENOB".into(),
                 format!("{} bits", fixed(fit.enob_bits, 3)),
             ),
             ("fin".into(), si(fit.frequency_hz, "Hz", 9)),

@@ -353,7 +353,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
                 Some(order) => peak_of(Owner::Harmonic(order as u16)),
                 None => {
                     let centre = (spur.frequency_hz / bin_hz).round() as usize;
-                    let half = sp.span_halfwidth_bins;
+                    let half = sp.tone_halfwidth_bins;
                     (centre.saturating_sub(half)..=(centre + half).min(bins - 1))
                         .filter(|&k| k >= first_bin)
                         .max_by(|&x, &y| t.powers[x].total_cmp(&t.powers[y]).then(y.cmp(&x)))
@@ -385,7 +385,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
         let lines: PanelLines = vec![
             ("SNR".into(), format!("{} dB", fixed(sp.snr_db, 2))),
             ("SINAD".into(), format!("{} dB", fixed(sp.sinad_db, 2))),
-            ("THD".into(), format!("{} dBc", fixed(sp.thd_db, 2))),
+            ("THD".into(), format!("{} dBc", fixed(sp.thd_dbc, 2))),
             ("SFDR".into(), format!("{} dBc", fixed(sp.sfdr_dbc, 2))),
             (
                 "ENOB (spectral)".into(),
@@ -406,7 +406,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             ("fs".into(), si(a.sample_rate_hz, "Hz", 6)),
             ("records averaged".into(), sp.records_averaged.to_string()),
         ];
-        draw_panel(&right, "Figures", &lines)?;
+        draw_panel(&right, "Measured", &lines)?;
         root.present().map_err(&err)?;
     }
     Ok(svg)
