@@ -203,7 +203,7 @@ fn render(proposals: &[Proposal], with_cpk: bool) -> String {
     head.push("shape");
     let mut rows: Vec<Vec<String>> = vec![head.iter().map(|s| s.to_string()).collect()];
     for p in proposals {
-        let s = p.stats.as_ref();
+        let s = p.stats.as_ref().map(|d| &d.summary);
         let mut r = vec![
             p.condition.clone(),
             p.metric.clone(),
@@ -228,7 +228,7 @@ fn render(proposals: &[Proposal], with_cpk: bool) -> String {
         r.push(match (&p.shape, &p.note, s) {
             (_, Some(note), _) => note.clone(),
             (Some(shape), _, _) => shape.clone(),
-            (None, None, Some(s)) if s.n < spurline::lot::limits::stats::SHAPE_MIN_N => {
+            (None, None, Some(s)) if s.n < spurline::stats::SHAPE_MIN_N => {
                 "too few values to judge".into()
             }
             _ => "no clear departure from normal".into(),
