@@ -468,7 +468,7 @@ fn fixture_limits_resolve() {
                 l.metric.as_str(),
                 l.low,
                 l.high,
-                l.unit,
+                l.unit.symbol(),
                 l.guardband,
             )
         })
@@ -1755,7 +1755,7 @@ fn limits_command_proposes_and_reports_cpk() {
         let got = l.low.unwrap();
         assert!(got <= want && want - got < 1e-4, "{got} vs {want}");
         assert_eq!(l.high, None);
-        assert_eq!(l.unit, "dB");
+        assert_eq!(l.unit.symbol(), "dB");
     }
     // Percentile method with a guardband and the table accepted by `batch`'s parser.
     let o = spurline()

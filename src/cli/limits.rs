@@ -4,8 +4,8 @@
 use super::EXIT_OK;
 use clap::Args;
 use spurline::lot::limits::{
-    format_value, proposal_table, propose, GuardbandRule, LimitTable, Method, Proposal,
-    ProposalSettings, DEFAULT_METRICS,
+    default_metrics, format_value, proposal_table, propose, GuardbandRule, LimitTable, Method,
+    Proposal, ProposalSettings,
 };
 use spurline::lot::read_results;
 use spurline::Error;
@@ -115,7 +115,7 @@ fn go(args: &LimitsArgs) -> Result<(), Error> {
     };
     let mut metrics: Vec<String> = Vec::new();
     if args.metrics.is_empty() {
-        for m in DEFAULT_METRICS {
+        for m in default_metrics() {
             if data.catalogue.get(m).is_some() {
                 metrics.push(m.to_string());
             }

@@ -14,10 +14,10 @@
 //!   record (`spectrum.snr_db`, `spectrum.sfdr_dbc`, `fit.enob_bits`, `spectrum.harmonics.h3.dbc`), or
 //!   any tail of it cut at a dot that exactly one metric ends with (`snr_db`, `sfdr_dbc`, `h3.dbc`).
 //!   `enob_bits` and `sinad_db` name both a fit and a spectral figure and are refused as ambiguous. Only
-//!   columns whose last name part carries a unit (see [`unit_of`]) are metrics.
+//!   figures with a unit are metrics ([`Metric::of`], from the figure table [`crate::figures`]).
 //! - `low`, `high`: numbers in the metric's unit; an empty cell is no bound; at least one bound.
-//! - `unit`: the unit the metric's name carries (`_db` dB, `_dbc` dBc, `_dbfs` dBFS, `_bits` bits,
-//!   `_hz` Hz, ...), compared without regard to case; an empty cell skips the check.
+//! - `unit`: the metric's unit as the figure table gives it (dB, dBc, dBFS, dBFS/Hz, bits, Hz, codes,
+//!   ...), compared without regard to case; an empty cell skips the check.
 //! - `guardband`: a margin ≥ 0 in the metric's unit (empty: 0); the test limits are low + guardband and
 //!   high − guardband, so a value between a stated limit and its tightened limit fails "only inside the
 //!   guardband".
@@ -41,10 +41,10 @@ mod table;
 mod verdict;
 
 pub use proposals::{
-    proposal_table, propose, Characterisation, Existing, GuardbandRule, Margin, Method, Proposal,
-    ProposalSettings, ResultRow, DEFAULT_METRICS,
+    default_metrics, proposal_table, propose, Characterisation, Existing, GuardbandRule, Margin,
+    Method, Proposal, ProposalSettings, ResultRow,
 };
-pub use table::{direction_of, unit_of, Catalogue, Direction, Limit, LimitTable, Metric, Scope};
+pub use table::{Catalogue, Limit, LimitTable, Metric, Scope};
 pub use verdict::{Bound, Check, CheckOutcome, Outcome, Verdict};
 
 /// A number for people: at most 6 significant digits, trailing zeros dropped, exponent form below

@@ -6,7 +6,8 @@ use std::collections::BTreeMap;
 
 use serde::Serialize;
 
-use super::{direction_of, unit_of, Catalogue, Direction, Limit, LimitTable};
+use super::{Catalogue, Limit, LimitTable};
+use crate::figures::{self, Better, Unit};
 use crate::stats;
 use crate::{Error, Result};
 
@@ -51,16 +52,11 @@ impl Characterisation {
     }
 }
 
-/// The metrics limits are proposed for when none are named: the headline figures.
-pub const DEFAULT_METRICS: [&str; 7] = [
-    "spectrum.snr_db",
-    "spectrum.sinad_db",
-    "spectrum.thd_dbc",
-    "spectrum.sfdr_dbc",
-    "spectrum.enob_bits",
-    "spectrum.noise_floor_dbfs",
-    "fit.enob_bits",
-];
+/// The metrics limits are proposed for when none are named: the headline figures
+/// ([`figures::headline`]), in their order.
+pub fn default_metrics() -> Vec<&'static str> {
+    figures::headline().iter().map(|f| f.key).collect()
+}
 
 /// How limits are placed around a lot's values.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -160,9 +156,9 @@ pub struct Proposal {
     /// The metric's full name.
     pub metric: String,
     /// Its unit.
-    pub unit: &'static str,
+    pub unit: Unit,
     /// Its bad direction.
-    pub direction: Direction,
+    pub direction: Better,
     /// The statistics; `None` when no device has a value.
     pub stats: Option<stats::Distribution>,
     /// Proposed low limit.
@@ -190,8 +186,8 @@ pub fn propose(
     let mut out = Vec::new();
     for condition in &data.conditions {
         for metric in metrics {
-            let unit = unit_of(metric).unwrap_or("");
-            let direction = direction_of(metric);
+            let unit = figures::unit_of(metric).unwrap_or(Unit::None);
+            let direction = figures::better_of(metric);
             let mut values = data.values(condition, metric);
             values.retain(|v| v.is_finite());
             values.sort_by(f64::total_cmp);
@@ -211,8 +207,8 @@ pub fn propose(
                 ),
             };
             let (low, high) = match (direction, settings.two_sided) {
-                (Direction::HigherIsBetter, false) => (centre_low, None),
-                (Direction::LowerIsBetter, false) => (None, centre_high),
+                (Better::Higher, false) => (centre_low, None),
+                (Better::Lower, false) => (None, centre_high),
                 _ => (centre_low, centre_high),
             };
             let rule = settings

@@ -7,89 +7,31 @@ use std::path::Path;
 use serde::Serialize;
 
 use super::format_value;
+use crate::figures::{self, Better, Unit};
 use crate::{Error, ErrorKind, Location, Result};
 
-/// Metric-name suffixes and the unit each stands for, longest first where one ends another.
-const UNITS: [(&str, &str); 13] = [
-    ("dbfs_per_hz", "dBFS/Hz"),
-    ("dbfs", "dBFS"),
-    ("dbc", "dBc"),
-    ("db", "dB"),
-    ("bits", "bits"),
-    ("hz", "Hz"),
-    ("codes", "codes"),
-    ("lsb", "LSB"),
-    ("rad", "rad"),
-    ("vpp", "Vpp"),
-    ("bins", "bins"),
-    ("cycles", "cycles"),
-    ("s", "s"),
-];
-
-/// The unit a metric's name carries: its last dotted part equals one of the suffixes or ends with
-/// `_suffix` (`snr_db` → dB, `sfdr_dbc` → dBc, `nsd_dbfs_per_hz` → dBFS/Hz, `h3.dbc` → dBc,
-/// `enob_bits` → bits, `frequency_hz` → Hz, also `_codes`, `_lsb`, `_rad`, `_vpp`, `_bins`, `_cycles`,
-/// `_s`). `None` for a name without one, which is then not a metric.
-pub fn unit_of(metric: &str) -> Option<&'static str> {
-    let leaf = metric.rsplit('.').next().unwrap_or(metric);
-    UNITS
-        .iter()
-        .find(|(suffix, _)| {
-            leaf == *suffix
-                || leaf
-                    .strip_suffix(suffix)
-                    .is_some_and(|head| head.ends_with('_'))
-        })
-        .map(|(_, unit)| *unit)
-}
-
-/// Which direction of a metric is bad.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "snake_case")]
-pub enum Direction {
-    /// Higher is better (SNR, SINAD, SFDR, ENOB): only a low limit matters.
-    HigherIsBetter,
-    /// Lower is better (THD, harmonic and spur levels, noise floor, noise density, fit residual):
-    /// only a high limit matters.
-    LowerIsBetter,
-    /// Both directions are bad (frequencies, amplitudes, offsets, ...).
-    TwoSided,
-}
-
-/// The bad direction of a metric, from its name: a last part starting with `snr`, `sinad`, `sfdr` or
-/// `enob` is higher-is-better; one starting with `thd`, `noise_floor`, `nsd` or `residual_rms`, and the
-/// `dbc`/`dbfs` levels of harmonics and of the worst spur, are lower-is-better; everything else is
-/// two-sided.
-pub fn direction_of(metric: &str) -> Direction {
-    let leaf = metric.rsplit('.').next().unwrap_or(metric);
-    if ["snr", "sinad", "sfdr", "enob"]
-        .iter()
-        .any(|p| leaf.starts_with(p))
-    {
-        return Direction::HigherIsBetter;
-    }
-    if ["thd", "noise_floor", "nsd", "residual_rms"]
-        .iter()
-        .any(|p| leaf.starts_with(p))
-    {
-        return Direction::LowerIsBetter;
-    }
-    let level = leaf == "dbc" || leaf == "dbfs";
-    if level && (metric.contains("harmonics.h") || metric.contains("worst_spur.")) {
-        return Direction::LowerIsBetter;
-    }
-    Direction::TwoSided
-}
-
-/// A metric limits can be set on: a figure of the result record with a unit.
+/// A metric limits can be set on: a figure of the result record with a unit ([`Figure::is_metric`]).
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub struct Metric {
     /// The full flattened name, as a column of the results CSV.
     pub name: String,
-    /// The unit its name carries.
-    pub unit: &'static str,
-    /// Which direction is bad.
-    pub direction: Direction,
+    /// Its unit.
+    pub unit: Unit,
+    /// Which direction is better.
+    pub direction: Better,
+}
+
+impl Metric {
+    /// The metric of a results column, from the figure table; `None` for a column that is no metric
+    /// (text, flags, counts) or that the table does not hold.
+    pub fn of(column: &str) -> Option<Metric> {
+        let c = figures::get(column).filter(|c| c.figure.is_metric())?;
+        Some(Metric {
+            name: column.to_string(),
+            unit: c.unit(),
+            direction: c.better(),
+        })
+    }
 }
 
 /// The metrics of one set of result columns.
@@ -99,28 +41,24 @@ pub struct Catalogue {
 }
 
 impl Catalogue {
-    /// The columns among `columns` that carry a unit, in their order (duplicates dropped).
+    /// The columns among `columns` that are metrics ([`Metric::of`]), in their order (duplicates
+    /// dropped).
     pub fn from_columns<S: AsRef<str>>(columns: impl IntoIterator<Item = S>) -> Catalogue {
         let mut metrics: Vec<Metric> = Vec::new();
         for c in columns {
-            let name = c.as_ref();
-            if let Some(unit) = unit_of(name) {
-                if metrics.iter().all(|m| m.name != name) {
-                    metrics.push(Metric {
-                        name: name.to_string(),
-                        unit,
-                        direction: direction_of(name),
-                    });
+            if let Some(m) = Metric::of(c.as_ref()) {
+                if metrics.iter().all(|o| o.name != m.name) {
+                    metrics.push(m);
                 }
             }
         }
         Catalogue { metrics }
     }
 
-    /// The metrics of results analysed with harmonics up to `harmonics`: the unit-carrying columns of
-    /// [`crate::report::csv::columns`], the one source of the result's fields.
+    /// The metrics of results analysed with harmonics up to `harmonics`: the metrics among the figure
+    /// table's columns ([`figures::keys`]).
     pub fn for_harmonics(harmonics: u32) -> Catalogue {
-        Catalogue::from_columns(crate::report::csv::columns(harmonics))
+        Catalogue::from_columns(figures::keys(harmonics))
     }
 
     /// Every metric, in column order.
@@ -139,11 +77,10 @@ impl Catalogue {
         if let Some(m) = self.get(name) {
             return Ok(m);
         }
-        let tail = format!(".{name}");
         let found: Vec<&Metric> = self
             .metrics
             .iter()
-            .filter(|m| m.name.ends_with(&tail))
+            .filter(|m| figures::is_tail(&m.name, name))
             .collect();
         if found.len() == 1 {
             Ok(found[0])
@@ -176,7 +113,7 @@ pub struct Limit {
     /// The metric's full name.
     pub metric: String,
     /// The metric's unit.
-    pub unit: &'static str,
+    pub unit: Unit,
     /// Low limit, when there is one.
     pub low: Option<f64>,
     /// High limit, when there is one.
@@ -382,7 +319,7 @@ impl LimitTable {
                         row,
                         format!(
                             "a metric of the results under condition '{name}' (a column name \
-                             with a unit suffix, such as spectrum.snr_db, or an unambiguous tail \
+                             with a unit, such as spectrum.snr_db, or an unambiguous tail \
                              of one, such as snr_db)"
                         ),
                         unresolved(given, &cands),
@@ -407,11 +344,11 @@ impl LimitTable {
                 ));
             };
             let unit = cell("unit");
-            if !unit.is_empty() && !unit.eq_ignore_ascii_case(metric.unit) {
+            if !unit.is_empty() && !unit.eq_ignore_ascii_case(metric.unit.symbol()) {
                 return Err(at(
                     row,
                     format!(
-                        "the unit of {}: {} (from its name's suffix), or an empty cell",
+                        "the unit of {}: {}, or an empty cell",
                         metric.name, metric.unit
                     ),
                     format!("'{unit}'"),
@@ -614,40 +551,29 @@ mod tests {
     }
 
     #[test]
-    fn units_follow_the_name_suffix() {
-        // The convention of the crate docs: units in names.
-        assert_eq!(unit_of("spectrum.snr_db"), Some("dB"));
-        assert_eq!(unit_of("spectrum.sfdr_dbc"), Some("dBc"));
-        assert_eq!(unit_of("spectrum.sfdr_dbfs"), Some("dBFS"));
-        assert_eq!(unit_of("spectrum.nsd_dbfs_per_hz"), Some("dBFS/Hz"));
-        assert_eq!(unit_of("spectrum.harmonics.h3.dbc"), Some("dBc"));
-        assert_eq!(unit_of("fit.enob_bits"), Some("bits"));
-        assert_eq!(unit_of("fit.frequency_hz"), Some("Hz"));
-        assert_eq!(unit_of("fit.cycles_std"), None);
-        assert_eq!(unit_of("spectrum.coherent"), None);
-        assert_eq!(unit_of("samples"), None);
-        assert_eq!(unit_of("spectrum.window"), None);
-    }
-
-    #[test]
-    fn directions() {
-        // Common practice, no source: more SNR/SFDR/ENOB is better, less distortion and noise is better.
-        assert_eq!(direction_of("spectrum.snr_db"), Direction::HigherIsBetter);
-        assert_eq!(direction_of("fit.enob_bits"), Direction::HigherIsBetter);
-        assert_eq!(direction_of("spectrum.thd_dbc"), Direction::LowerIsBetter);
+    fn metrics_are_the_figures_with_a_unit() {
+        let m = |c: &str| Metric::of(c).map(|m| (m.unit.symbol(), m.direction));
+        assert_eq!(m("spectrum.snr_db"), Some(("dB", Better::Higher)));
+        assert_eq!(m("spectrum.sfdr_dbfs"), Some(("dBFS", Better::Higher)));
         assert_eq!(
-            direction_of("spectrum.harmonics.h2.dbc"),
-            Direction::LowerIsBetter
+            m("spectrum.nsd_dbfs_per_hz"),
+            Some(("dBFS/Hz", Better::Lower))
         );
-        assert_eq!(
-            direction_of("spectrum.noise_floor_dbfs"),
-            Direction::LowerIsBetter
-        );
-        assert_eq!(direction_of("fit.frequency_hz"), Direction::TwoSided);
-        assert_eq!(
-            direction_of("spectrum.fundamental_dbfs"),
-            Direction::TwoSided
-        );
+        assert_eq!(m("spectrum.harmonics.h3.dbc"), Some(("dBc", Better::Lower)));
+        assert_eq!(m("fit.residual_rms_codes"), Some(("codes", Better::Lower)));
+        assert_eq!(m("fit.frequency_hz"), Some(("Hz", Better::Neither)));
+        assert_eq!(m("fit.cycles_std"), Some(("cycles", Better::Neither)));
+        assert_eq!(m("bits"), Some(("bits", Better::Neither)));
+        for not_one in [
+            "spectrum.coherent",
+            "samples",
+            "spectrum.window",
+            "fit.iterations",
+            "spectrum.harmonics.h3.order",
+            "device",
+        ] {
+            assert_eq!(m(not_one), None, "{not_one}");
+        }
     }
 
     #[test]

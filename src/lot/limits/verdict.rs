@@ -4,6 +4,7 @@
 use serde::Serialize;
 
 use super::{format_value, Limit, LimitTable};
+use crate::figures::Unit;
 
 /// Which stated limit a check is about.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
@@ -59,7 +60,7 @@ pub struct Check {
     /// The metric's full name.
     pub metric: String,
     /// The metric's unit.
-    pub unit: &'static str,
+    pub unit: Unit,
     /// Low limit.
     pub low: Option<f64>,
     /// High limit.
