@@ -197,3 +197,48 @@ fn a_failed_record_is_covered_by_the_table() {
     }
     assert!(absent.contains(&"fit.".to_string()) && absent.contains(&"spectrum.".to_string()));
 }
+
+// The CSV's columns come from the table, not from an example result: a part that is absent in every
+// result (no worst spur, no leakage advice, a failed record's whole fit) keeps its columns, empty, in
+// a record's CSV and in a lot's summary columns alike.
+#[test]
+fn absent_parts_keep_their_columns() {
+    let mut a = populated();
+    a.error = None;
+    let sp = a.spectrum.as_mut().unwrap();
+    sp.worst_spur = None;
+    sp.leakage.advice = None;
+    sp.sfdr_dbc = None;
+    let e = Error::new(
+        ErrorKind::Empty,
+        "r.txt",
+        Location::Whole,
+        "samples",
+        "none",
+    );
+    let failed = Analysis::failed("f.txt", &e, Vec::new());
+    let csv = spurline::report::csv::to_csv(&[a, failed], HARMONICS);
+    let mut rows = csv.lines();
+    let header: Vec<&str> = rows.next().unwrap().split(',').collect();
+    assert_eq!(header, figures::keys(HARMONICS));
+    let col = |k: &str| header.iter().position(|h| *h == k).unwrap();
+    let first: Vec<&str> = rows.next().unwrap().split(',').collect();
+    for k in [
+        "spectrum.worst_spur.frequency_hz",
+        "spectrum.worst_spur.dbc",
+        "spectrum.leakage.advice",
+        "spectrum.sfdr_dbc",
+    ] {
+        assert_eq!(first[col(k)], "", "{k}");
+    }
+    assert_eq!(first[col("spectrum.snr_db")], "70.0");
+    let second: Vec<&str> = rows.next().unwrap().split(',').collect();
+    assert_eq!(second[col("fit.frequency_hz")], "");
+    assert_eq!(second[col("error.kind")], "empty");
+    // A lot's summary: the lead columns, then the table's columns.
+    let lot = spurline::lot::SummaryColumns::new(7);
+    assert_eq!(lot.figures(), figures::keys(7).as_slice());
+    // A result with more harmonics than asked for widens the columns rather than losing fields.
+    let wide = spurline::report::csv::columns_for([&populated()], 2);
+    assert_eq!(wide, figures::keys(HARMONICS));
+}

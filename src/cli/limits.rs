@@ -17,8 +17,8 @@ use std::path::PathBuf;
     after_help = "Limits: --method sigma puts them at mean ± K·σ (sample σ, n − 1), --method percentile at \
                   the P-th and (100 − P)-th percentiles (linear interpolation between closest ranks). \
                   Metrics where only one direction is bad get one limit: a low one for SNR, SINAD, SFDR \
-                  and ENOB, a high one for THD, harmonic and spur levels and the noise floor (--two-sided \
-                  gives both). The shape is reported when it is clearly not normal: at least 8 values and \
+                  and ENOB, a high one for THD, harmonic and spur levels, the noise floor and the fit \
+                  residual (--two-sided gives both). The shape is reported when it is clearly not normal: at least 8 values and \
                   a Jarque-Bera p-value below 0.01. Exit status: 0 done, 2 an error."
 )]
 pub struct LimitsArgs {

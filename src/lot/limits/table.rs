@@ -10,7 +10,7 @@ use super::format_value;
 use crate::figures::{self, Better, Unit};
 use crate::{Error, ErrorKind, Location, Result};
 
-/// A metric limits can be set on: a figure of the result record with a unit ([`Figure::is_metric`]).
+/// A metric limits can be set on: a figure of the result record with a unit ([`figures::Figure::is_metric`]).
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
 pub struct Metric {
     /// The full flattened name, as a column of the results CSV.
