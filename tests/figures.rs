@@ -102,6 +102,18 @@ fn populated() -> Analysis {
     }
 }
 
+/// The result record of a record that could not be read.
+fn failed() -> Analysis {
+    let e = Error::new(
+        ErrorKind::Empty,
+        "r.txt",
+        Location::Whole,
+        "samples",
+        "none",
+    );
+    Analysis::failed("r.txt", &e, vec!["w".into()])
+}
+
 /// Every leaf of a JSON value with its dotted path, harmonics keyed `h<order>` (the CSV's rule, written
 /// out here on its own so that the check does not lean on the code it checks).
 fn leaves(prefix: &str, v: &Value, out: &mut Vec<(String, Value)>) {
@@ -166,14 +178,7 @@ fn every_field_of_a_full_record_has_a_row_and_every_row_a_field() {
 
 #[test]
 fn a_failed_record_is_covered_by_the_table() {
-    let e = Error::new(
-        ErrorKind::Empty,
-        "r.txt",
-        Location::Whole,
-        "samples",
-        "none",
-    );
-    let failed = keys_of(&Analysis::failed("r.txt", &e, vec!["w".into()]));
+    let failed = keys_of(&failed());
     let table = figures::keys(HARMONICS);
     // A part that is absent as a whole (null) stands for every row under it.
     let absent: Vec<String> = failed
@@ -209,15 +214,7 @@ fn absent_parts_keep_their_columns() {
     sp.worst_spur = None;
     sp.leakage.advice = None;
     sp.sfdr_dbc = None;
-    let e = Error::new(
-        ErrorKind::Empty,
-        "r.txt",
-        Location::Whole,
-        "samples",
-        "none",
-    );
-    let failed = Analysis::failed("f.txt", &e, Vec::new());
-    let csv = spurline::report::csv::to_csv(&[a, failed], HARMONICS);
+    let csv = spurline::report::csv::to_csv(&[a, failed()], HARMONICS);
     let mut rows = csv.lines();
     let header: Vec<&str> = rows.next().unwrap().split(',').collect();
     assert_eq!(header, figures::keys(HARMONICS));
