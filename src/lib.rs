@@ -24,6 +24,7 @@ mod record;
 
 pub mod analyses;
 pub mod analysis;
+pub mod figures;
 pub mod fit;
 pub mod ingest;
 pub mod lot;

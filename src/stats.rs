@@ -1,9 +1,12 @@
-//! Statistics for revision comparison: per-sample summaries, Welch's unequal-variance t test and the
-//! paired t test, each with the confidence interval of the difference of means (B − A). Student-t
-//! quantiles and tail probabilities come from statrs.
+//! Statistics shared by limit proposals, revision comparison and sweeps: a sample's summary (mean,
+//! sample σ, median, range), percentiles, its shape (skewness, excess kurtosis, the Jarque-Bera test),
+//! process capability (Cpk), and Welch's and the paired t test of B against A, each with the confidence
+//! interval of the difference of means (B − A). Each definition names the numpy or scipy function it
+//! matches. Distributions (Student t, χ²) come from statrs; the percentile is written here because
+//! statrs's quantile is Hyndman & Fan type 8, not numpy's default type 7.
 
 use serde::Serialize;
-use statrs::distribution::{ContinuousCDF, StudentsT};
+use statrs::distribution::{ChiSquared, ContinuousCDF, StudentsT};
 
 /// Summary of one sample.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -22,17 +25,21 @@ pub struct Summary {
     pub max: f64,
 }
 
-/// Summarises finite values; `None` when there are none.
-pub fn summarize(values: &[f64]) -> Option<Summary> {
+/// The finite values of `values`, ascending.
+fn finite_sorted(values: &[f64]) -> Vec<f64> {
     let mut v: Vec<f64> = values.iter().copied().filter(|x| x.is_finite()).collect();
-    if v.is_empty() {
-        return None;
-    }
     v.sort_by(|a, b| a.total_cmp(b));
+    v
+}
+
+/// Summarises finite values (non-finite ones are left out); `None` when there are none.
+pub fn summarize(values: &[f64]) -> Option<Summary> {
+    summary_of_sorted(&finite_sorted(values))
+}
+
+fn summary_of_sorted(v: &[f64]) -> Option<Summary> {
     let n = v.len();
-    let mean = v.iter().sum::<f64>() / n as f64;
-    let std = (n >= 2)
-        .then(|| (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt());
+    let mean = mean(v)?;
     let median = if n % 2 == 1 {
         v[n / 2]
     } else {
@@ -41,10 +48,208 @@ pub fn summarize(values: &[f64]) -> Option<Summary> {
     Some(Summary {
         n,
         mean,
-        std,
+        std: sample_std(v),
         median,
         min: v[0],
         max: v[n - 1],
+    })
+}
+
+/// Arithmetic mean; `None` when empty.
+pub fn mean(x: &[f64]) -> Option<f64> {
+    if x.is_empty() {
+        None
+    } else {
+        Some(x.iter().sum::<f64>() / x.len() as f64)
+    }
+}
+
+/// Sample standard deviation, divisor n − 1 (numpy `std(ddof=1)`); `None` below 2 values.
+pub fn sample_std(x: &[f64]) -> Option<f64> {
+    let m = mean(x)?;
+    if x.len() < 2 {
+        return None;
+    }
+    let ss: f64 = x.iter().map(|v| (v - m) * (v - m)).sum();
+    Some((ss / (x.len() - 1) as f64).sqrt())
+}
+
+/// The p-th percentile (0..=100) of ascending `sorted` values by linear interpolation between
+/// closest ranks: h = (n − 1)·p/100, x[⌊h⌋] + (h − ⌊h⌋)(x[⌊h⌋+1] − x[⌊h⌋]) (Hyndman & Fan 1996
+/// type 7, numpy's default `method="linear"`). `None` when empty or p is outside 0..=100.
+pub fn percentile(sorted: &[f64], p: f64) -> Option<f64> {
+    if sorted.is_empty() || !(0.0..=100.0).contains(&p) {
+        return None;
+    }
+    let h = (sorted.len() - 1) as f64 * p / 100.0;
+    let lo = h.floor() as usize;
+    let hi = (lo + 1).min(sorted.len() - 1);
+    Some(sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo]))
+}
+
+/// Biased central moments (n, m2, m3, m4), divisor n.
+#[derive(Debug, Clone, Copy)]
+struct Moments {
+    n: f64,
+    m2: f64,
+    m3: f64,
+    m4: f64,
+}
+
+impl Moments {
+    fn of(x: &[f64]) -> Option<Moments> {
+        let m = mean(x)?;
+        let n = x.len() as f64;
+        let (mut m2, mut m3, mut m4) = (0.0, 0.0, 0.0);
+        for v in x {
+            let d = v - m;
+            let d2 = d * d;
+            m2 += d2;
+            m3 += d2 * d;
+            m4 += d2 * d2;
+        }
+        Some(Moments {
+            n,
+            m2: m2 / n,
+            m3: m3 / n,
+            m4: m4 / n,
+        })
+    }
+
+    /// G1 = g1·√(n(n−1))/(n−2), g1 = m3/m2^1.5.
+    fn skewness(&self) -> Option<f64> {
+        let Moments { n, m2, m3, .. } = *self;
+        if n < 3.0 || m2 <= 0.0 {
+            return None;
+        }
+        let g1 = m3 / m2.powf(1.5);
+        Some(g1 * (n * (n - 1.0)).sqrt() / (n - 2.0))
+    }
+
+    /// G2 = ((n²−1)·m4/m2² − 3(n−1)²)/((n−2)(n−3)).
+    fn excess_kurtosis(&self) -> Option<f64> {
+        let Moments { n, m2, m4, .. } = *self;
+        if n < 4.0 || m2 <= 0.0 {
+            return None;
+        }
+        Some(((n * n - 1.0) * m4 / (m2 * m2) - 3.0 * (n - 1.0).powi(2)) / ((n - 2.0) * (n - 3.0)))
+    }
+
+    /// JB = n/6·(g1² + g2²/4) and its χ²(2) tail probability.
+    fn jarque_bera(&self) -> Option<(f64, f64)> {
+        let Moments { n, m2, m3, m4 } = *self;
+        if n < 2.0 || m2 <= 0.0 {
+            return None;
+        }
+        let g1 = m3 / m2.powf(1.5);
+        let g2 = m4 / (m2 * m2) - 3.0;
+        let jb = n / 6.0 * (g1 * g1 + g2 * g2 / 4.0);
+        let chi2 = ChiSquared::new(2.0).expect("two degrees of freedom");
+        Some((jb, chi2.sf(jb)))
+    }
+}
+
+/// Sample skewness, the adjusted Fisher-Pearson coefficient G1 = g1·√(n(n−1))/(n−2) with
+/// g1 = m3/m2^1.5 (scipy `stats.skew(bias=False)`); `None` below 3 values or with no spread.
+pub fn skewness(x: &[f64]) -> Option<f64> {
+    Moments::of(x)?.skewness()
+}
+
+/// Sample excess kurtosis G2 = ((n²−1)·m4/m2² − 3(n−1)²)/((n−2)(n−3)) (scipy
+/// `stats.kurtosis(fisher=True, bias=False)`); 0 for a normal distribution; `None` below 4 values
+/// or with no spread.
+pub fn excess_kurtosis(x: &[f64]) -> Option<f64> {
+    Moments::of(x)?.excess_kurtosis()
+}
+
+/// Jarque-Bera statistic JB = n/6·(g1² + g2²/4) from the biased g1 = m3/m2^1.5 and
+/// g2 = m4/m2² − 3, and its p-value, the tail of the χ² distribution with 2 degrees of freedom
+/// (Jarque & Bera 1987; scipy `stats.jarque_bera`). `None` below 2 values or with no spread.
+pub fn jarque_bera(x: &[f64]) -> Option<(f64, f64)> {
+    Moments::of(x)?.jarque_bera()
+}
+
+/// Process capability Cpk = min((high − mean)/3σ, (mean − low)/3σ) over the limits present
+/// (Montgomery, Introduction to Statistical Quality Control, §8.3); `None` without a limit or
+/// with σ ≤ 0.
+pub fn cpk(mean: f64, std: f64, low: Option<f64>, high: Option<f64>) -> Option<f64> {
+    if std <= 0.0 || !std.is_finite() {
+        return None;
+    }
+    let sides = [
+        low.map(|l| (mean - l) / (3.0 * std)),
+        high.map(|h| (h - mean) / (3.0 * std)),
+    ];
+    sides.into_iter().flatten().reduce(f64::min)
+}
+
+/// A sample's summary and its shape: what a limit proposal reports for one metric.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Distribution {
+    /// Count, mean, sample σ, median and range.
+    #[serde(flatten)]
+    pub summary: Summary,
+    /// Adjusted sample skewness G1.
+    pub skewness: Option<f64>,
+    /// Sample excess kurtosis G2.
+    pub excess_kurtosis: Option<f64>,
+    /// Jarque-Bera statistic.
+    pub jarque_bera: Option<f64>,
+    /// Its p-value.
+    pub jarque_bera_p: Option<f64>,
+}
+
+/// Describes finite values (non-finite ones are left out); `None` when there are none.
+pub fn describe(values: &[f64]) -> Option<Distribution> {
+    let v = finite_sorted(values);
+    let summary = summary_of_sorted(&v)?;
+    let m = Moments::of(&v)?;
+    let jb = m.jarque_bera();
+    Some(Distribution {
+        summary,
+        skewness: m.skewness(),
+        excess_kurtosis: m.excess_kurtosis(),
+        jarque_bera: jb.map(|j| j.0),
+        jarque_bera_p: jb.map(|j| j.1),
+    })
+}
+
+/// Fewest values for which the shape is judged.
+pub const SHAPE_MIN_N: usize = 8;
+/// Jarque-Bera p-value below which a distribution is called clearly not normal.
+pub const SHAPE_P: f64 = 0.01;
+/// |G1| from which the shape note says "skewed".
+pub const SKEW_NOTE: f64 = 0.5;
+/// |G2| from which the shape note says "heavy tails" or "light tails".
+pub const KURTOSIS_NOTE: f64 = 1.0;
+
+/// Says how a distribution is clearly not normal, or `None`. The rule: with at least
+/// [`SHAPE_MIN_N`] values, the Jarque-Bera test rejects normality at p < [`SHAPE_P`]; the note then
+/// names a skew when |G1| ≥ [`SKEW_NOTE`] and heavy (G2 ≥ [`KURTOSIS_NOTE`]) or light
+/// (G2 ≤ −[`KURTOSIS_NOTE`]) tails.
+pub fn shape_note(d: &Distribution) -> Option<String> {
+    let p = d.jarque_bera_p?;
+    if d.summary.n < SHAPE_MIN_N || p >= SHAPE_P {
+        return None;
+    }
+    let mut parts = Vec::new();
+    if let Some(g1) = d.skewness.filter(|g| g.abs() >= SKEW_NOTE) {
+        let side = if g1 > 0.0 { "right" } else { "left" };
+        parts.push(format!("skewed {side} (skewness {g1:+.2})"));
+    }
+    if let Some(g2) = d.excess_kurtosis.filter(|g| g.abs() >= KURTOSIS_NOTE) {
+        let tails = if g2 > 0.0 {
+            "heavy tails"
+        } else {
+            "light tails or several modes"
+        };
+        parts.push(format!("{tails} (excess kurtosis {g2:+.2})"));
+    }
+    let head = format!("not normal (Jarque-Bera p = {p:.2e})");
+    Some(if parts.is_empty() {
+        head
+    } else {
+        format!("{head}: {}", parts.join(", "))
     })
 }
 
@@ -161,5 +366,23 @@ mod tests {
             Err(NoTest::ZeroVariance)
         );
         assert!(summarize(&[f64::NAN]).is_none());
+        assert!(describe(&[f64::NAN, f64::INFINITY]).is_none());
+        assert_eq!(describe(&[1.0, f64::NAN, 3.0]).unwrap().summary.n, 2);
+    }
+
+    // The χ² distribution with 2 degrees of freedom has the survival function exp(−x/2) (handbook
+    // formula: it is the exponential distribution of mean 2), so the Jarque-Bera p-value from statrs
+    // must agree with it to rounding over the range of p-values a lot can give.
+    #[test]
+    fn jarque_bera_p_is_the_chi2_2_tail() {
+        let x = [1.0, 2.0, 2.5, 7.0, 3.0, 2.0, 1.5, 9.5, 2.0, 2.2];
+        let (jb, p) = jarque_bera(&x).unwrap();
+        assert!(jb > 0.0);
+        assert!((p - (-jb / 2.0).exp()).abs() <= 1e-13 * p, "{p}");
+        for jb in [0.0, 0.5, 5.0, 50.0, 500.0] {
+            let chi2 = ChiSquared::new(2.0).unwrap();
+            let want = (-jb / 2.0f64).exp();
+            assert!((chi2.sf(jb) - want).abs() <= 1e-13 * want, "{jb}");
+        }
     }
 }

@@ -160,7 +160,7 @@ fn prints_a_readable_table() {
         "ENOB",
         "noise floor",
         "sine-fit ENOB",
-        "full-scale referred",
+        "full-scale ENOB",
     ] {
         assert!(text.contains(label), "missing {label} in\n{text}");
     }

@@ -315,3 +315,101 @@ fn compare_command_writes_its_outputs_escaped() {
         .unwrap();
     assert_eq!(snr["decided_by"], "paired", "{snr}");
 }
+
+// Limits and compare take their directions from one table (src/figures.rs), so every metric a limit
+// table judges one-sided is compared, in the same direction, and nothing else is. The residual rms of
+// the fit and the dBFS levels of the worst spur and the harmonics were once judged by limits and left
+// out by compare. Directions: common practice, no source (less residual and spur level is better).
+#[test]
+fn limits_and_compare_agree_on_every_direction() {
+    use spurline::figures::{self, Better};
+    use spurline::lot::compare::better_direction;
+    use spurline::lot::limits::{
+        propose, Catalogue, Characterisation, Method, Metric, ProposalSettings, ResultRow,
+    };
+    let mut one_sided = 0;
+    for key in figures::keys(10) {
+        match Metric::of(&key).map(|m| m.direction) {
+            Some(d @ (Better::Higher | Better::Lower)) => {
+                assert_eq!(better_direction(&key), Some(d), "{key}");
+                one_sided += 1;
+            }
+            _ => assert_eq!(better_direction(&key), None, "{key}"),
+        }
+    }
+    assert!(one_sided > 20, "{one_sided}");
+    let once_apart = [
+        "fit.residual_rms_codes",
+        "spectrum.worst_spur.dbfs",
+        "spectrum.harmonics.h3.dbfs",
+    ];
+    // Compare reads them from a lot summary and judges a drop as an improvement.
+    let dir = tempfile::tempdir().unwrap();
+    let mut text = format!("device,condition,error.message,{}\n", once_apart.join(","));
+    let mut rows = Vec::new();
+    for i in 0..8 {
+        let d = 0.01 * i as f64;
+        text.push_str(&format!(
+            "d{i},f10,,{},{},{}\n",
+            0.5 + d,
+            -80.0 + d,
+            -90.0 + d
+        ));
+        rows.push(ResultRow {
+            device: format!("d{i}"),
+            condition: "f10".into(),
+            values: once_apart.iter().map(|m| (m.to_string(), d)).collect(),
+        });
+    }
+    let lower: String = text
+        .lines()
+        .enumerate()
+        .map(|(i, l)| {
+            if i == 0 {
+                format!("{l}\n")
+            } else {
+                let cells: Vec<String> = l
+                    .split(',')
+                    .enumerate()
+                    .map(|(j, c)| match j {
+                        3 => format!("{}", c.parse::<f64>().unwrap() - 0.2),
+                        4 | 5 => format!("{}", c.parse::<f64>().unwrap() - 3.0),
+                        _ => c.to_string(),
+                    })
+                    .collect();
+                format!("{}\n", cells.join(","))
+            }
+        })
+        .collect();
+    let (ra, rb) = (dir.path().join("a"), dir.path().join("b"));
+    std::fs::create_dir_all(&ra).unwrap();
+    std::fs::create_dir_all(&rb).unwrap();
+    std::fs::write(ra.join("summary.csv"), &text).unwrap();
+    std::fs::write(rb.join("summary.csv"), &lower).unwrap();
+    let c = compare(
+        &read_run(&ra).unwrap(),
+        &read_run(&rb).unwrap(),
+        &CompareSettings::default(),
+    );
+    for m in once_apart {
+        let r = c.rows.iter().find(|r| r.metric == m).unwrap();
+        assert_eq!(r.better, Better::Lower, "{m}");
+        assert_eq!(r.verdict, Change::Better, "{m}: {}", r.reason);
+    }
+    // Limits propose a high limit only for them (one-sided, lower is better).
+    let data = Characterisation {
+        catalogue: Catalogue::for_harmonics(10),
+        conditions: vec!["f10".into()],
+        rows,
+    };
+    let metrics: Vec<String> = once_apart.iter().map(|m| m.to_string()).collect();
+    let settings = ProposalSettings {
+        method: Method::Sigma { k: 3.0 },
+        two_sided: false,
+        guardband: vec![],
+    };
+    for p in propose(&data, &metrics, &settings, None) {
+        assert_eq!(p.direction, Better::Lower, "{}", p.metric);
+        assert!(p.low.is_none() && p.high.is_some(), "{}", p.metric);
+    }
+}

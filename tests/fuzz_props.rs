@@ -1207,7 +1207,7 @@ fn limit_metrics_resolve() {
     for (_, cat) in limit_scope() {
         for (given, full, unit) in LIMIT_METRICS {
             let m = cat.resolve(given).unwrap();
-            assert_eq!((m.name.as_str(), m.unit), (full, unit));
+            assert_eq!((m.name.as_str(), m.unit.symbol()), (full, unit));
         }
     }
 }

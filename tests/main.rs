@@ -5,6 +5,7 @@ mod batch;
 mod cli;
 mod compare;
 mod edge_cases;
+mod figures;
 mod fuzz_props;
 mod imd;
 mod linearity;

@@ -5,6 +5,7 @@
 use super::{EXIT_ERROR, EXIT_OK};
 use clap::Args;
 use spurline::analysis::{analyze, Analysis, AnalysisSettings, Traces};
+use spurline::figures::{self, Cells, Figure, Unit};
 use spurline::ingest::{read_record, write_sidecar, IngestSettings, Sidecar};
 use spurline::report::units::{fixed, si};
 use spurline::report::{write_run_report, PlotOptions};
@@ -169,29 +170,45 @@ pub fn go(out: &Path) -> Result<Vec<Analysis>, Error> {
 }
 
 fn print_summary(results: &[Analysis]) {
-    println!(
-        "{:<28} {:>12} {:>8} {:>8} {:>8} {:>8} {:>8} {:>7}  window",
-        "record", "fin", "SNR dB", "SINAD", "THD dBc", "SFDR dBc", "ENOB", "fit ENOB"
-    );
+    // The input frequency, then the headline figures; labels and units from the figure table.
+    let mut shown: Vec<&Figure> = vec![&figures::FIN];
+    shown.extend(figures::headline());
+    let width = |f: &Figure| f.label.chars().count().max(8);
+    let mut head = format!("{:<28}", "record");
+    let mut units = format!("{:<28}", "");
+    for f in &shown {
+        let w = width(f).max(if f.unit == Unit::Hz { 12 } else { 0 });
+        let unit = if f.unit == Unit::Hz {
+            ""
+        } else {
+            f.unit.symbol()
+        };
+        head.push_str(&format!(" {:>w$}", f.label));
+        units.push_str(&format!(" {unit:>w$}"));
+    }
+    println!("{head}  {}", figures::WINDOW.label);
+    println!("{}", units.trim_end());
     for a in results {
         let name = Path::new(&a.source)
             .file_name()
             .map(|n| n.to_string_lossy().to_string())
             .unwrap_or_else(|| a.source.clone());
-        match (&a.spectrum, &a.fit, &a.error) {
-            (Some(s), Some(f), None) => println!(
-                "{:<28} {:>12} {:>8} {:>8} {:>8} {:>8} {:>8} {:>7}  {}",
-                name,
-                si(f.frequency_hz, "Hz", 5),
-                fixed(s.snr_db, 2),
-                fixed(s.sinad_db, 2),
-                fixed(s.thd_dbc, 2),
-                fixed(s.sfdr_dbc, 2),
-                fixed(s.enob_bits, 2),
-                fixed(f.enob_bits, 2),
-                s.window
-            ),
-            (_, _, Some(e)) => println!("{name:<28} error: {}", e.message),
+        match (&a.spectrum, &a.error) {
+            (Some(s), None) => {
+                let cells = Cells::of(a);
+                let mut line = format!("{name:<28}");
+                for f in &shown {
+                    let v = cells.number(f.key);
+                    let (w, text) = if f.unit == Unit::Hz {
+                        (width(f).max(12), v.map_or("—".into(), |v| si(v, "Hz", 5)))
+                    } else {
+                        (width(f), fixed(v, 2))
+                    };
+                    line.push_str(&format!(" {text:>w$}"));
+                }
+                println!("{line}  {}", s.window);
+            }
+            (_, Some(e)) => println!("{name:<28} error: {}", e.message),
             _ => println!("{name:<28} (no figures)"),
         }
         for w in &a.warnings {

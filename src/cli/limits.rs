@@ -4,8 +4,8 @@
 use super::EXIT_OK;
 use clap::Args;
 use spurline::lot::limits::{
-    format_value, proposal_table, propose, GuardbandRule, LimitTable, Method, Proposal,
-    ProposalSettings, DEFAULT_METRICS,
+    default_metrics, format_value, proposal_table, propose, GuardbandRule, LimitTable, Method,
+    Proposal, ProposalSettings,
 };
 use spurline::lot::read_results;
 use spurline::Error;
@@ -17,8 +17,8 @@ use std::path::PathBuf;
     after_help = "Limits: --method sigma puts them at mean ± K·σ (sample σ, n − 1), --method percentile at \
                   the P-th and (100 − P)-th percentiles (linear interpolation between closest ranks). \
                   Metrics where only one direction is bad get one limit: a low one for SNR, SINAD, SFDR \
-                  and ENOB, a high one for THD, harmonic and spur levels and the noise floor (--two-sided \
-                  gives both). The shape is reported when it is clearly not normal: at least 8 values and \
+                  and ENOB, a high one for THD, harmonic and spur levels, the noise floor and the fit \
+                  residual (--two-sided gives both). The shape is reported when it is clearly not normal: at least 8 values and \
                   a Jarque-Bera p-value below 0.01. Exit status: 0 done, 2 an error."
 )]
 pub struct LimitsArgs {
@@ -115,7 +115,7 @@ fn go(args: &LimitsArgs) -> Result<(), Error> {
     };
     let mut metrics: Vec<String> = Vec::new();
     if args.metrics.is_empty() {
-        for m in DEFAULT_METRICS {
+        for m in default_metrics() {
             if data.catalogue.get(m).is_some() {
                 metrics.push(m.to_string());
             }
@@ -203,7 +203,7 @@ fn render(proposals: &[Proposal], with_cpk: bool) -> String {
     head.push("shape");
     let mut rows: Vec<Vec<String>> = vec![head.iter().map(|s| s.to_string()).collect()];
     for p in proposals {
-        let s = p.stats.as_ref();
+        let s = p.stats.as_ref().map(|d| &d.summary);
         let mut r = vec![
             p.condition.clone(),
             p.metric.clone(),
@@ -228,7 +228,7 @@ fn render(proposals: &[Proposal], with_cpk: bool) -> String {
         r.push(match (&p.shape, &p.note, s) {
             (_, Some(note), _) => note.clone(),
             (Some(shape), _, _) => shape.clone(),
-            (None, None, Some(s)) if s.n < spurline::lot::limits::stats::SHAPE_MIN_N => {
+            (None, None, Some(s)) if s.n < spurline::stats::SHAPE_MIN_N => {
                 "too few values to judge".into()
             }
             _ => "no clear departure from normal".into(),

@@ -3,6 +3,7 @@
 
 use super::{EXIT_ERROR, EXIT_OK};
 use clap::Args;
+use spurline::figures::{self, Figure};
 use spurline::lot::compare::plots::series_svg;
 use spurline::lot::sweep::{read_points, sweep, SweepPoint};
 use spurline::report::{csv::flatten, write_atomic};
@@ -78,13 +79,15 @@ fn go(args: &SweepArgs) -> Result<(), Error> {
     write_atomic(&out.join("sweep.json"), json.as_bytes())?;
     let lot: Vec<&SweepPoint> = s.points.iter().filter(|p| p.device == "lot mean").collect();
     type Get = fn(&SweepPoint) -> Option<f64>;
-    let figures: [(&str, &str, Get); 4] = [
-        ("sinad", "SINAD (dB)", |p| p.sinad_db),
-        ("snr", "SNR (dB)", |p| p.snr_db),
-        ("sfdr", "SFDR (dBc)", |p| p.sfdr_dbc),
-        ("enob", "ENOB (bits)", |p| p.enob_bits),
+    let axis = |f: &Figure| format!("{} ({})", f.label, f.unit);
+    let plotted: [(&str, &Figure, Get); 4] = [
+        ("sinad", &figures::SINAD, |p| p.sinad_db),
+        ("snr", &figures::SNR, |p| p.snr_db),
+        ("sfdr", &figures::SFDR, |p| p.sfdr_dbc),
+        ("enob", &figures::ENOB, |p| p.enob_bits),
     ];
-    for (name, unit, get) in figures {
+    for (name, figure, get) in plotted {
+        let unit = axis(figure);
         let pts: Vec<(f64, f64)> = lot
             .iter()
             .filter_map(|p| Some((p.fin_hz, get(p)?)))
@@ -92,7 +95,7 @@ fn go(args: &SweepArgs) -> Result<(), Error> {
         let svg = series_svg(
             &format!("{unit} against input frequency"),
             "input frequency (MHz)",
-            unit,
+            &unit,
             &[("lot mean", &pts)],
             1e6,
         )?;
@@ -107,9 +110,9 @@ fn go(args: &SweepArgs) -> Result<(), Error> {
         .filter(|m| !m.snr_vs_amplitude.is_empty())
     {
         let svg = series_svg(
-            "SNR against input amplitude",
-            "input amplitude (dBFS)",
-            "SNR (dB)",
+            &format!("{} against input amplitude", figures::SNR.label),
+            &format!("input amplitude ({})", figures::FIT_AMPLITUDE_DBFS.unit),
+            &axis(&figures::SNR),
             &[("lot mean", &m.snr_vs_amplitude)],
             1.0,
         )?;

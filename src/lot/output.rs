@@ -5,7 +5,7 @@
 //!
 //! # Files
 //! - `summary.csv` (lot and per device): `device`, `condition`, `verdict`, `reason`, then every column of
-//!   the result record as [`crate::report::csv::columns`] names them, one row per device and condition,
+//!   the result record as the figure table names them ([`crate::figures::keys`]), one row per device and condition,
 //!   devices in lot order and conditions in plan order.
 //! - `<device>/results.json`: `{"device", "conditions": [{"condition", "fin_hz", "amplitude_dbfs",
 //!   "verdict", "result"}]}` where `result` is the result record exactly as `analyze --json` writes it.
@@ -105,15 +105,6 @@ pub const YIELD_COLUMNS: [&str; 8] = [
     "yield",
 ];
 
-/// The figures shown in the index page's table: (column of the result record, heading).
-const INDEX_FIGURES: [(&str, &str); 5] = [
-    ("spectrum.snr_db", "SNR dB"),
-    ("spectrum.sinad_db", "SINAD dB"),
-    ("spectrum.sfdr_dbc", "SFDR dBc"),
-    ("spectrum.thd_dbc", "THD dB"),
-    ("spectrum.enob_bits", "ENOB bits (spectral)"),
-];
-
 /// The column set of the summaries: the lead columns and the result record's columns.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SummaryColumns {
@@ -134,7 +125,7 @@ impl SummaryColumns {
     /// The columns for results analysed with harmonics up to `harmonics`.
     pub fn new(harmonics: u32) -> SummaryColumns {
         SummaryColumns {
-            figures: crate::report::csv::columns(harmonics),
+            figures: crate::figures::keys(harmonics),
         }
     }
 
@@ -235,9 +226,9 @@ pub(crate) fn index_row(
         verdict.outcome.as_str(),
         escape_html(&verdict.reason)
     );
-    for (key, _) in INDEX_FIGURES {
+    for f in crate::figures::headline() {
         let v = flat
-            .get(key)
+            .get(f.key)
             .and_then(|v| v.parse::<f64>().ok())
             .map(|v| format!("{v:.2}"))
             .unwrap_or_default();
@@ -529,8 +520,8 @@ impl LotWriter {
             let _ = write!(counts, ", {v} {k}");
         }
         let mut heads = String::new();
-        for (_, h) in INDEX_FIGURES {
-            let _ = write!(heads, "<th>{}</th>", escape_html(h));
+        for f in crate::figures::headline() {
+            let _ = write!(heads, "<th>{} {}</th>", escape_html(f.label), f.unit);
         }
         format!(
             "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{title}</title>\n\
@@ -1046,7 +1037,7 @@ fn csv_rows(path: &Path, text: &str) -> Result<Rows> {
         ));
     };
     let verdict = col("verdict");
-    let error = col("error.kind");
+    let error = col(crate::figures::ERROR_KIND.key);
     let mut rows = Vec::new();
     for rec in rdr.records() {
         let rec = rec.map_err(bad_csv)?;

@@ -2,10 +2,20 @@
 //! ENOB against frequency, the effective resolution bandwidth, SNR against amplitude (dynamic range), and
 //! an aperture-jitter estimate from SNR against frequency.
 
+use crate::figures::{self, Figure};
 use crate::{Error, ErrorKind, Location, Result};
 use serde::Serialize;
 use std::collections::BTreeMap;
 use std::path::Path;
+
+/// The figures a sweep follows, in the order of [`SweepPoint`]'s fields: SNR, SINAD, SFDR (dBc) and
+/// spectral ENOB.
+pub const SWEPT: [&Figure; 4] = [
+    &figures::SNR,
+    &figures::SINAD,
+    &figures::SFDR,
+    &figures::ENOB,
+];
 
 /// One device's (or the lot mean's) figures under one condition.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -100,15 +110,10 @@ pub fn read_points(run: &Path) -> Result<Vec<SweepPoint>> {
     let (dev, cond, fin, amp) = (
         need("device")?,
         need("condition")?,
-        need("fit.frequency_hz")?,
-        need("fit.amplitude_dbfs")?,
+        need(figures::FIN.key)?,
+        need(figures::FIT_AMPLITUDE_DBFS.key)?,
     );
-    let figs = [
-        col("spectrum.snr_db"),
-        col("spectrum.sinad_db"),
-        col("spectrum.sfdr_dbc"),
-        col("spectrum.enob_bits"),
-    ];
+    let figs = SWEPT.map(|f| col(f.key));
     let mut out = Vec::new();
     for (i, rec) in rd.records().enumerate() {
         let rec = rec.map_err(|e| bad(i + 2, e.to_string()))?;

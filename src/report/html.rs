@@ -4,6 +4,7 @@
 
 use super::units::{fixed, si};
 use crate::analysis::Analysis;
+use crate::figures::{self, Cells, Figure, Unit};
 use crate::{Error, ErrorKind, Location, Result};
 use std::fmt::Write;
 use std::path::Path;
@@ -144,6 +145,13 @@ section.record ul.msgs { margin: 4px 0 10px; padding-left: 18px; }
 footer { padding: 0 28px 24px; color: #5d636b; font-size: 12px; }
 "#;
 
+/// The figures of the page's table: the input's frequency and level, then the headline figures.
+fn table_figures() -> Vec<&'static Figure> {
+    let mut f = vec![&figures::FIN, &figures::FUNDAMENTAL];
+    f.extend(figures::headline());
+    f
+}
+
 fn status(a: &Analysis) -> (&'static str, String) {
     if a.error.is_some() {
         ("fail", "failed".to_string())
@@ -214,19 +222,27 @@ pub(crate) fn render_with(
     );
 
     h.push_str("<div class=\"wide\">\n<table id=\"records\">\n<thead><tr><th class=\"t\">#</th><th class=\"t\">device</th><th class=\"t\">record</th><th class=\"t\">status</th>");
-    for (name, unit) in [
-        ("fin", ""),
-        ("fundamental", "dBFS"),
-        ("SNR", "dB"),
-        ("SINAD", "dB"),
-        ("THD", "dBc"),
-        ("SFDR", "dBc"),
-        ("ENOB", "bits, spectral"),
-        ("sine-fit ENOB", "bits"),
-    ] {
-        let _ = write!(h, "<th>{name}<span class=\"u\">{unit}</span></th>");
+    let shown = table_figures();
+    for f in &shown {
+        // A frequency's cell carries its unit with an SI prefix; the heading leaves it out.
+        let unit = if f.unit == Unit::Hz {
+            ""
+        } else {
+            f.unit.symbol()
+        };
+        let _ = write!(
+            h,
+            "<th>{}<span class=\"u\">{}</span></th>",
+            escape(f.label),
+            escape(unit)
+        );
     }
-    h.push_str("<th class=\"t\">window</th><th>N</th>");
+    let _ = write!(
+        h,
+        "<th class=\"t\">{}</th><th>{}</th>",
+        escape(figures::WINDOW.label),
+        escape(figures::SAMPLES.label)
+    );
     for k in &extra_keys {
         let _ = write!(h, "<th class=\"t\">{}</th>", escape(k));
     }
@@ -234,8 +250,7 @@ pub(crate) fn render_with(
     for (i, r) in rows.iter().enumerate() {
         let a = &r.analysis;
         let (class, label) = status(a);
-        let sp = a.spectrum.as_ref();
-        let fit = a.fit.as_ref();
+        let cells = Cells::of(a);
         let _ = write!(
             h,
             "<tr class=\"{class}\" id=\"row{i}\"><td class=\"t\"><a href=\"#r{i}\">{}</a></td><td class=\"t\">{}</td><td class=\"t\">{}</td><td class=\"t status\">{}</td>",
@@ -244,23 +259,22 @@ pub(crate) fn render_with(
             escape(&r.record),
             label
         );
-        let cells = [
-            fit.map_or("—".to_string(), |f| si(f.frequency_hz, "Hz", 6)),
-            fixed(sp.and_then(|s| s.fundamental_dbfs), 2),
-            fixed(sp.and_then(|s| s.snr_db), 2),
-            fixed(sp.and_then(|s| s.sinad_db), 2),
-            fixed(sp.and_then(|s| s.thd_dbc), 2),
-            fixed(sp.and_then(|s| s.sfdr_dbc), 2),
-            fixed(sp.and_then(|s| s.enob_bits), 2),
-            fixed(fit.and_then(|f| f.enob_bits), 2),
-        ];
-        for c in &cells {
-            let _ = write!(h, "<td>{}</td>", escape(c));
+        for f in &shown {
+            let v = cells.number(f.key);
+            let c = if f.unit == Unit::Hz {
+                v.map_or("—".to_string(), |v| si(v, f.unit.symbol(), 6))
+            } else {
+                fixed(v, 2)
+            };
+            let _ = write!(h, "<td>{}</td>", escape(&c));
         }
         let _ = write!(
             h,
             "<td class=\"t\">{}</td><td>{}</td>",
-            escape(sp.map_or("—", |s| s.window.as_str())),
+            escape(match cells.text(figures::WINDOW.key) {
+                "" => "—",
+                w => w,
+            }),
             if a.samples > 0 {
                 a.samples.to_string()
             } else {
@@ -316,7 +330,12 @@ pub(crate) fn render_with(
         }
         h.push_str("</section>\n");
     }
-    h.push_str("</main>\n<footer>Made by spurline from the records' codes alone. ENOB spectral = (SINAD − 1.76)/6.02; ENOB fit = N − log2(residual rms / (1/√12)).</footer>\n</body>\n</html>\n");
+    let _ = write!(
+        h,
+        "</main>\n<footer>Made by spurline from the records' codes alone. {} = (SINAD − 1.76)/6.02; {} = N − log2(residual rms / (1/√12)).</footer>\n</body>\n</html>\n",
+        escape(figures::ENOB.label),
+        escape(figures::FIT_ENOB.label)
+    );
     Ok(h)
 }
 

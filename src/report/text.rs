@@ -1,8 +1,14 @@
 //! The readable per-record table that `analyze` prints.
 
-use super::units::{fixed, si};
+use super::units::{fixed, si, with_unit};
 use crate::analysis::{Analysis, ErrorReport};
+use crate::figures::{self, Figure};
 use std::fmt::Write;
+
+/// "label value unit" of one figure ("SNR 71.23 dB").
+fn show(f: &Figure, value: Option<f64>, digits: usize) -> String {
+    format!("{} {}", f.label, with_unit(value, f.unit, digits))
+}
 
 /// Starts the block of one result: a rule naming its source, then, for a result that failed, its error
 /// and warnings. Returns true when that is the whole block (the result failed). Shared by every command
@@ -54,10 +60,10 @@ pub fn render(a: &Analysis) -> String {
         );
         let _ = writeln!(
             s,
-            "             residual {:.4} codes rms · SINAD {} dB · sine-fit ENOB {} bits · {} iterations{}",
-            f.residual_rms_codes,
-            fixed(f.sinad_db, 2),
-            fixed(f.enob_bits, 3),
+            "             {} · {} · {} · {} iterations{}",
+            show(&figures::FIT_RESIDUAL, Some(f.residual_rms_codes), 4),
+            show(&figures::FIT_SINAD, f.sinad_db, 2),
+            show(&figures::FIT_ENOB, f.enob_bits, 3),
             f.iterations,
             if f.converged { "" } else { " (NOT converged)" }
         );
@@ -77,11 +83,11 @@ pub fn render(a: &Analysis) -> String {
         );
         let _ = writeln!(
             s,
-            "             fundamental {} dBFS · SNR {} dB · SINAD {} dB · THD {} dBc",
-            fixed(sp.fundamental_dbfs, 2),
-            fixed(sp.snr_db, 2),
-            fixed(sp.sinad_db, 2),
-            fixed(sp.thd_dbc, 2)
+            "             {} · {} · {} · {}",
+            show(&figures::FUNDAMENTAL, sp.fundamental_dbfs, 2),
+            show(&figures::SNR, sp.snr_db, 2),
+            show(&figures::SINAD, sp.sinad_db, 2),
+            show(&figures::THD, sp.thd_dbc, 2)
         );
         let spur = sp.worst_spur.as_ref().map_or("—".to_string(), |w| {
             format!(
@@ -93,21 +99,21 @@ pub fn render(a: &Analysis) -> String {
         });
         let _ = writeln!(
             s,
-            "             SFDR {} dBc / {} dBFS, worst spur at {spur}",
-            fixed(sp.sfdr_dbc, 2),
-            fixed(sp.sfdr_dbfs, 2)
+            "             {} / {}, worst spur at {spur}",
+            show(&figures::SFDR, sp.sfdr_dbc, 2),
+            with_unit(sp.sfdr_dbfs, figures::SFDR_DBFS.unit, 2)
         );
         let _ = writeln!(
             s,
-            "             ENOB {} bits (spectral) · {} bits (full-scale referred)",
-            fixed(sp.enob_bits, 3),
-            fixed(sp.enob_full_scale_bits, 3)
+            "             {} · {}",
+            show(&figures::ENOB, sp.enob_bits, 3),
+            show(&figures::ENOB_FULL_SCALE, sp.enob_full_scale_bits, 3)
         );
         let _ = writeln!(
             s,
-            "             noise floor {} dBFS per bin · NSD {} dBFS/Hz",
-            fixed(sp.noise_floor_dbfs, 2),
-            fixed(sp.nsd_dbfs_per_hz, 2)
+            "             {} per bin · {}",
+            show(&figures::NOISE_FLOOR, sp.noise_floor_dbfs, 2),
+            show(&figures::NSD, sp.nsd_dbfs_per_hz, 2)
         );
         let _ = writeln!(
             s,

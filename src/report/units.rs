@@ -1,5 +1,7 @@
 //! Number formatting for people: SI prefixes for frequencies, fixed decimals for dB, "—" for absent values.
 
+use crate::figures::Unit;
+
 /// Formats a value with an SI prefix and unit, e.g. `si(10.0e6, "Hz", 4)` → "10.00 MHz".
 pub fn si(value: f64, unit: &str, significant: usize) -> String {
     if !value.is_finite() {
@@ -41,6 +43,17 @@ pub fn fixed(value: Option<f64>, decimals: usize) -> String {
     match value {
         Some(v) if v.is_finite() => format!("{v:.decimals$}"),
         _ => "—".to_string(),
+    }
+}
+
+/// A figure's value with its unit for people: a frequency with an SI prefix and `digits` significant
+/// digits ("10.00 MHz"), any other value with `digits` fixed decimals and the unit's symbol
+/// ("71.23 dB"); "—" stands for an absent value.
+pub fn with_unit(value: Option<f64>, unit: Unit, digits: usize) -> String {
+    match unit {
+        Unit::Hz => value.map_or("—".to_string(), |v| si(v, unit.symbol(), digits)),
+        _ if unit.symbol().is_empty() => fixed(value, digits),
+        _ => format!("{} {}", fixed(value, digits), unit.symbol()),
     }
 }
 

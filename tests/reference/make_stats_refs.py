@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Reference values for the limit statistics (src/limits.rs, module stats), from numpy and scipy.
+"""Reference values for the lot statistics (src/stats.rs), from numpy and scipy.
 
 Writes tests/reference/stats/stats_refs.json: a few data sets shaped like lot results (normal, skewed,
 heavy- and light-tailed, tiny) and, for each, what numpy/scipy compute:

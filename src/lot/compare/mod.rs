@@ -6,49 +6,22 @@
 pub mod output;
 pub mod plots;
 
+use crate::figures;
 use crate::stats::{self, NoTest, Summary, TTest};
 use crate::{Error, ErrorKind, Location, Result};
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
 
-/// Which way a metric improves.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
-#[serde(rename_all = "snake_case")]
-pub enum Better {
-    /// Higher is better (SNR, SINAD, SFDR, ENOB).
-    Higher,
-    /// Lower is better (THD, harmonics, spurs, noise floor).
-    Lower,
-}
+pub use crate::figures::Better;
 
-/// The better direction of a metric column, or `None` when it is not a figure of merit.
+/// The better direction of a metric column, from the figure table, or `None` when it is not a figure
+/// of merit (no better direction, or no unit). Limit tables take their directions from the same rows,
+/// so a metric one side judges the other compares.
 pub fn better_direction(metric: &str) -> Option<Better> {
-    const HIGHER: [&str; 8] = [
-        "spectrum.snr_db",
-        "spectrum.sinad_db",
-        "spectrum.sfdr_dbc",
-        "spectrum.sfdr_dbfs",
-        "spectrum.enob_bits",
-        "spectrum.enob_full_scale_bits",
-        "fit.enob_bits",
-        "fit.sinad_db",
-    ];
-    const LOWER: [&str; 4] = [
-        "spectrum.thd_dbc",
-        "spectrum.noise_floor_dbfs",
-        "spectrum.nsd_dbfs_per_hz",
-        "spectrum.worst_spur.dbc",
-    ];
-    if HIGHER.contains(&metric) {
-        Some(Better::Higher)
-    } else if LOWER.contains(&metric)
-        || (metric.starts_with("spectrum.harmonics.h") && metric.ends_with(".dbc"))
-    {
-        Some(Better::Lower)
-    } else {
-        None
-    }
+    crate::figures::get(metric)
+        .filter(|c| c.figure.is_metric() && c.better() != Better::Neither)
+        .map(|c| c.better())
 }
 
 /// One lot run, as read from its `summary.csv`.
@@ -106,8 +79,12 @@ pub fn read_run(dir: &Path) -> Result<Run> {
             header.join(","),
         ));
     };
-    let error_col = col("error.message");
-    let (bits, fs, fin) = (col("bits"), col("sample_rate_hz"), col("fit.frequency_hz"));
+    let error_col = col(figures::ERROR_MESSAGE.key);
+    let (bits, fs, fin) = (
+        col(figures::BITS.key),
+        col(figures::SAMPLE_RATE.key),
+        col(figures::FIN.key),
+    );
     let metrics: Vec<(usize, &String)> = header
         .iter()
         .enumerate()
@@ -121,7 +98,7 @@ pub fn read_run(dir: &Path) -> Result<Run> {
         error_rows: Vec::new(),
         sources: BTreeMap::new(),
     };
-    let source = col("source");
+    let source = col(figures::SOURCE.key);
     for (i, rec) in rd.records().enumerate() {
         let rec = rec.map_err(|e| {
             Error::new(
@@ -400,6 +377,7 @@ fn judge(
             let improves = match better {
                 Better::Higher => t.difference > 0.0,
                 Better::Lower => t.difference < 0.0,
+                Better::Neither => false,
             };
             if t.p_value >= ALPHA {
                 (

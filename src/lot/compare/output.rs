@@ -3,20 +3,12 @@
 
 use super::plots::{distributions_svg, versus_frequency_svg};
 use super::{Better, Change, Comparison, MetricComparison, Run};
+use crate::figures;
 use crate::report::{escape, write_atomic};
 use crate::stats::{Summary, TTest};
 use crate::Result;
 use std::fmt::Write;
 use std::path::Path;
-
-/// The metrics drawn in the HTML page (all metrics are in the tables).
-pub const PLOTTED: [&str; 5] = [
-    "spectrum.snr_db",
-    "spectrum.sinad_db",
-    "spectrum.thd_dbc",
-    "spectrum.sfdr_dbc",
-    "spectrum.enob_bits",
-];
 
 fn exemplar() -> MetricComparison {
     let s = Summary {
@@ -142,7 +134,7 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A7
             "<tr class=\"{cls}\"><td class=\"l\">{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l v\">{}</td><td class=\"l\">{}</td></tr>",
             escape(&r.condition),
             escape(&r.metric),
-            if r.better == Better::Higher { "higher" } else { "lower" },
+            r.better.as_str(),
             r.a.as_ref().map_or(0, |s| s.n),
             num(r.a.as_ref().map(|s| s.mean), 3),
             num(r.a.as_ref().and_then(|s| s.std), 3),
@@ -164,17 +156,18 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A7
     let _ = writeln!(h, "<h2>Distributions</h2>");
     for cond in &conditions {
         let _ = writeln!(h, "<h3>{}</h3><div class=\"plots\">", escape(cond));
-        for m in PLOTTED {
-            let (va, vb) = (values(a, cond, m), values(b, cond, m));
+        for f in figures::headline() {
+            let (va, vb) = (values(a, cond, f.key), values(b, cond, f.key));
             if va.is_empty() && vb.is_empty() {
                 continue;
             }
-            h.push_str(&distributions_svg(m, unit_of(m), &va, &vb)?);
+            h.push_str(&distributions_svg(f.key, f.unit.symbol(), &va, &vb)?);
         }
         let _ = writeln!(h, "</div>");
     }
     let _ = writeln!(h, "<h2>Against input frequency</h2><div class=\"plots\">");
-    for m in PLOTTED {
+    for f in figures::headline() {
+        let m = f.key;
         let pts = |run: &Run| -> Vec<(f64, f64)> {
             conditions
                 .iter()
@@ -192,7 +185,7 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A7
         };
         let (pa, pb) = (pts(a), pts(b));
         if pa.len() + pb.len() > 0 {
-            h.push_str(&versus_frequency_svg(m, unit_of(m), &pa, &pb)?);
+            h.push_str(&versus_frequency_svg(m, f.unit.symbol(), &pa, &pb)?);
         }
     }
     let _ = writeln!(h, "</div>");
@@ -220,7 +213,7 @@ fn representative(run: &Run, condition: &str) -> Option<(String, String)> {
         .values
         .iter()
         .filter(|((_, c), _)| c == condition)
-        .filter_map(|((d, _), m)| Some((*m.get("spectrum.snr_db")?, d)))
+        .filter_map(|((d, _), m)| Some((*m.get(figures::SNR.key)?, d)))
         .collect();
     v.sort_by(|x, y| x.0.total_cmp(&y.0).then(x.1.cmp(y.1)));
     let (_, d) = v.get(v.len() / 2)?;
@@ -286,18 +279,6 @@ fn overlay(condition: &str, a: &Run, b: &Run) -> std::result::Result<String, Str
         1e6,
     )
     .map_err(|e| e.to_string())
-}
-
-fn unit_of(metric: &str) -> &'static str {
-    if metric.ends_with("_dbc") {
-        "dBc"
-    } else if metric.ends_with("_dbfs") {
-        "dBFS"
-    } else if metric.ends_with("_bits") {
-        "bits"
-    } else {
-        "dB"
-    }
 }
 
 /// Writes `comparison.csv`, `comparison.json` and `comparison.html` into `out` (atomically).

@@ -7,6 +7,8 @@ use super::{
     tick_label, PanelLines, PlotOptions, TickAxis, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
+use crate::figures;
+use crate::report::units::with_unit;
 use crate::Result;
 use plotters::prelude::*;
 use std::f64::consts::PI;
@@ -210,12 +212,12 @@ pub fn histogram_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> 
                 hist[hist.len() - 1].to_string(),
             ),
             (
-                "fitted amplitude".into(),
-                format!("{:.2} codes", fit.amplitude_codes),
+                figures::FIT_AMPLITUDE.label.into(),
+                with_unit(Some(fit.amplitude_codes), figures::FIT_AMPLITUDE.unit, 2),
             ),
             (
-                "fitted offset".into(),
-                format!("{:.3} codes", fit.offset_codes),
+                figures::FIT_OFFSET.label.into(),
+                with_unit(Some(fit.offset_codes), figures::FIT_OFFSET.unit, 3),
             ),
             ("observed".into(), "teal".into()),
             ("ideal sine density".into(), "orange line".into()),

@@ -8,8 +8,9 @@ use super::{
     PlotOptions, TickAxis, Ticks, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
+use crate::figures;
 use crate::fit::FitMethod;
-use crate::report::units::{fixed, si};
+use crate::report::units::with_unit;
 use crate::Result;
 use plotters::prelude::*;
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
@@ -235,27 +236,34 @@ pub fn residual_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             FitMethod::ThreeParameter => "three-parameter",
             FitMethod::FourParameter => "four-parameter",
         };
+        let codes = figures::FIT_RESIDUAL.unit;
         let lines: PanelLines = vec![
-            ("fit".into(), method.to_string()),
+            (figures::FIT_METHOD.label.into(), method.to_string()),
             (
-                "residual rms".into(),
-                format!("{:.4} LSB", fit.residual_rms_codes),
+                figures::FIT_RESIDUAL.label.into(),
+                with_unit(Some(fit.residual_rms_codes), codes, 4),
             ),
-            ("max |residual|".into(), format!("{max_abs:.3} LSB")),
+            ("max |residual|".into(), with_unit(Some(max_abs), codes, 3)),
             (
-                "SINAD (fit)".into(),
-                format!("{} dB", fixed(fit.sinad_db, 2)),
+                figures::FIT_SINAD.label.into(),
+                with_unit(fit.sinad_db, figures::FIT_SINAD.unit, 2),
             ),
             (
-                "sine-fit ENOB".into(),
-                format!("{} bits", fixed(fit.enob_bits, 3)),
+                figures::FIT_ENOB.label.into(),
+                with_unit(fit.enob_bits, figures::FIT_ENOB.unit, 3),
             ),
-            ("fin".into(), si(fit.frequency_hz, "Hz", 9)),
             (
-                "amplitude".into(),
-                format!("{:.3} codes", fit.amplitude_codes),
+                figures::FIN.label.into(),
+                with_unit(Some(fit.frequency_hz), figures::FIN.unit, 9),
             ),
-            ("offset".into(), format!("{:.3} codes", fit.offset_codes)),
+            (
+                figures::FIT_AMPLITUDE.label.into(),
+                with_unit(Some(fit.amplitude_codes), figures::FIT_AMPLITUDE.unit, 3),
+            ),
+            (
+                figures::FIT_OFFSET.label.into(),
+                with_unit(Some(fit.offset_codes), figures::FIT_OFFSET.unit, 3),
+            ),
             ("phase bins".into(), phase_bins.to_string()),
             ("points shown".into(), format!("{} of {n}", shown.len())),
             ("mean per phase".into(), "red line".into()),

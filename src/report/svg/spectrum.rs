@@ -8,7 +8,8 @@ use super::{
     tick_label, PanelLines, PlotOptions, TickAxis, Ticks, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
-use crate::report::units::{fixed, si};
+use crate::figures::{self, Cells};
+use crate::report::units::{si, with_unit};
 use crate::spectrum::tones::Owner;
 use crate::Result;
 use plotters::prelude::*;
@@ -382,30 +383,34 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
                     .map_or("(other)".to_string(), |h| format!("(H{h})"))
             )
         });
-        let lines: PanelLines = vec![
-            ("SNR".into(), format!("{} dB", fixed(sp.snr_db, 2))),
-            ("SINAD".into(), format!("{} dB", fixed(sp.sinad_db, 2))),
-            ("THD".into(), format!("{} dBc", fixed(sp.thd_dbc, 2))),
-            ("SFDR".into(), format!("{} dBc", fixed(sp.sfdr_dbc, 2))),
-            (
-                "ENOB (spectral)".into(),
-                format!("{} bits", fixed(sp.enob_bits, 2)),
-            ),
-            (
-                "fundamental".into(),
-                format!("{} dBFS", fixed(sp.fundamental_dbfs, 2)),
-            ),
-            ("fin".into(), si(sp.fundamental_hz, "Hz", 6)),
-            ("worst spur".into(), spur_text),
-            (
-                "noise floor".into(),
-                format!("{} dBFS", fixed(sp.noise_floor_dbfs, 1)),
-            ),
-            ("window".into(), sp.window.clone()),
-            ("N".into(), format!("{} samples", a.samples)),
-            ("fs".into(), si(a.sample_rate_hz, "Hz", 6)),
-            ("records averaged".into(), sp.records_averaged.to_string()),
-        ];
+        // The headline figures of the spectrum, then the input and the measurement's conditions.
+        let cells = Cells::of(a);
+        let mut lines: PanelLines = figures::headline()
+            .into_iter()
+            .filter(|f| f.key.starts_with("spectrum."))
+            .map(|f| {
+                (
+                    f.label.to_string(),
+                    with_unit(cells.number(f.key), f.unit, 2),
+                )
+            })
+            .collect();
+        let f = &figures::FUNDAMENTAL;
+        lines.push((f.label.into(), with_unit(sp.fundamental_dbfs, f.unit, 2)));
+        let f = &figures::FIN;
+        lines.push((
+            f.label.into(),
+            with_unit(Some(sp.fundamental_hz), f.unit, 6),
+        ));
+        lines.push((figures::WORST_SPUR.label.into(), spur_text));
+        lines.push((figures::WINDOW.label.into(), sp.window.clone()));
+        lines.push((figures::SAMPLES.label.into(), a.samples.to_string()));
+        let f = &figures::SAMPLE_RATE;
+        lines.push((f.label.into(), with_unit(Some(a.sample_rate_hz), f.unit, 6)));
+        lines.push((
+            figures::RECORDS_AVERAGED.label.into(),
+            sp.records_averaged.to_string(),
+        ));
         draw_panel(&right, "Measured", &lines)?;
         root.present().map_err(&err)?;
     }

@@ -1,0 +1,276 @@
+//! Verdicts: one limit applied to one value gives a check (pass, fail, inside the guardband, no value),
+//! a result's checks give its verdict with a one-sentence reason.
+
+use serde::Serialize;
+
+use super::{format_value, Limit, LimitTable};
+use crate::figures::Unit;
+
+/// Which stated limit a check is about.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Bound {
+    /// The low limit.
+    Low,
+    /// The high limit.
+    High,
+}
+
+impl Bound {
+    /// "low" or "high".
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            Bound::Low => "low",
+            Bound::High => "high",
+        }
+    }
+}
+
+/// Outcome of one limit on one result.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum CheckOutcome {
+    /// Inside the tightened limits.
+    Pass,
+    /// Outside a stated limit.
+    Fail,
+    /// Inside the stated limits but outside the tightened ones.
+    Guardband,
+    /// The result has no value for the metric.
+    NoValue,
+}
+
+impl CheckOutcome {
+    /// The outcome as written in the outputs.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            CheckOutcome::Pass => "pass",
+            CheckOutcome::Fail => "fail",
+            CheckOutcome::Guardband => "guardband",
+            CheckOutcome::NoValue => "no_value",
+        }
+    }
+}
+
+/// One limit applied to one result.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Check {
+    /// The limit table's row.
+    pub row: usize,
+    /// The metric's full name.
+    pub metric: String,
+    /// The metric's unit.
+    pub unit: Unit,
+    /// Low limit.
+    pub low: Option<f64>,
+    /// High limit.
+    pub high: Option<f64>,
+    /// Guardband.
+    pub guardband: f64,
+    /// The result's value.
+    pub value: Option<f64>,
+    /// The stated limit nearest the value (the one violated when it fails).
+    pub bound: Option<Bound>,
+    /// Signed distance from that limit, positive inside: value − low or high − value.
+    pub margin: Option<f64>,
+    /// The outcome.
+    pub outcome: CheckOutcome,
+}
+
+impl Limit {
+    /// Applies the limit to a value.
+    pub fn check(&self, value: Option<f64>) -> Check {
+        let sides = [
+            self.low.map(|l| (Bound::Low, l, value.map(|v| v - l))),
+            self.high.map(|h| (Bound::High, h, value.map(|v| h - v))),
+        ];
+        // The nearest bound is the one with the smaller margin (the violated one when failing).
+        let nearest = sides
+            .iter()
+            .flatten()
+            .min_by(|a, b| {
+                let (ma, mb) = (a.2.unwrap_or(0.0), b.2.unwrap_or(0.0));
+                ma.total_cmp(&mb)
+            })
+            .copied();
+        let margin = nearest.and_then(|n| n.2);
+        let outcome = match margin {
+            None => CheckOutcome::NoValue,
+            Some(m) if m < 0.0 => CheckOutcome::Fail,
+            Some(m) if m < self.guardband => CheckOutcome::Guardband,
+            Some(_) => CheckOutcome::Pass,
+        };
+        Check {
+            row: self.row,
+            metric: self.metric.clone(),
+            unit: self.unit,
+            low: self.low,
+            high: self.high,
+            guardband: self.guardband,
+            value,
+            bound: nearest.map(|n| n.0),
+            margin,
+            outcome,
+        }
+    }
+}
+
+/// The verdict on one result.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Outcome {
+    /// Every limit passes.
+    Pass,
+    /// Some limit fails (or has no value).
+    Fail,
+    /// The only failures are inside guardbands.
+    FailGuardband,
+    /// No limit applies.
+    Untested,
+    /// The record could not be analysed.
+    Error,
+}
+
+impl Outcome {
+    /// The verdict as written in the outputs.
+    pub fn as_str(&self) -> &'static str {
+        match self {
+            Outcome::Pass => "pass",
+            Outcome::Fail => "fail",
+            Outcome::FailGuardband => "fail_guardband",
+            Outcome::Untested => "untested",
+            Outcome::Error => "error",
+        }
+    }
+}
+
+/// Pass/fail with the reason, and every check behind it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Verdict {
+    /// The outcome.
+    pub outcome: Outcome,
+    /// One sentence saying why.
+    pub reason: String,
+    /// Every limit applied, in limit-table order.
+    pub checks: Vec<Check>,
+}
+
+/// How many failing checks a reason names before it says "and N more".
+const REASON_LISTS: usize = 3;
+
+impl Verdict {
+    /// The verdict on a record that could not be analysed.
+    pub fn error(message: &str) -> Verdict {
+        Verdict {
+            outcome: Outcome::Error,
+            reason: message.to_string(),
+            checks: Vec::new(),
+        }
+    }
+
+    /// The verdict when no limit applies.
+    pub fn untested(reason: &str) -> Verdict {
+        Verdict {
+            outcome: Outcome::Untested,
+            reason: reason.to_string(),
+            checks: Vec::new(),
+        }
+    }
+
+    /// The verdict from a set of checks.
+    pub fn from_checks(checks: Vec<Check>) -> Verdict {
+        if checks.is_empty() {
+            return Verdict::untested("no limit for this condition");
+        }
+        let hard: Vec<&Check> = checks
+            .iter()
+            .filter(|c| matches!(c.outcome, CheckOutcome::Fail | CheckOutcome::NoValue))
+            .collect();
+        let soft: Vec<&Check> = checks
+            .iter()
+            .filter(|c| c.outcome == CheckOutcome::Guardband)
+            .collect();
+        let n = checks.len();
+        let (outcome, reason) = if !hard.is_empty() {
+            (
+                Outcome::Fail,
+                format!(
+                    "{} of {n} limits fail: {}",
+                    hard.len(),
+                    describe(&hard, &soft)
+                ),
+            )
+        } else if !soft.is_empty() {
+            (
+                Outcome::FailGuardband,
+                format!(
+                    "fails only inside the guardband, {} of {n} limits: {}",
+                    soft.len(),
+                    describe(&soft, &[])
+                ),
+            )
+        } else {
+            (Outcome::Pass, format!("all {n} limits pass"))
+        };
+        Verdict {
+            outcome,
+            reason,
+            checks,
+        }
+    }
+}
+
+/// Names the first failing checks, then any guardband failures, then how many were left out.
+fn describe(first: &[&Check], then: &[&Check]) -> String {
+    let all: Vec<&&Check> = first.iter().chain(then).collect();
+    let mut parts: Vec<String> = all.iter().take(REASON_LISTS).map(|c| say(c)).collect();
+    if all.len() > REASON_LISTS {
+        parts.push(format!("and {} more", all.len() - REASON_LISTS));
+    }
+    parts.join("; ")
+}
+
+fn say(c: &Check) -> String {
+    let limit = |b: Bound| match b {
+        Bound::Low => c.low,
+        Bound::High => c.high,
+    };
+    match (c.outcome, c.value, c.bound) {
+        (CheckOutcome::NoValue, _, _) => format!("{} has no value", c.metric),
+        (CheckOutcome::Guardband, Some(v), Some(b)) => format!(
+            "{} {} {} is within the {} {} guardband of {} {} {}",
+            c.metric,
+            format_value(v),
+            c.unit,
+            format_value(c.guardband),
+            c.unit,
+            b.as_str(),
+            format_value(limit(b).unwrap_or(0.0)),
+            c.unit
+        ),
+        (_, Some(v), Some(b)) => format!(
+            "{} {} {} {} {} {} {}",
+            c.metric,
+            format_value(v),
+            c.unit,
+            if b == Bound::Low { "below" } else { "above" },
+            b.as_str(),
+            format_value(limit(b).unwrap_or(0.0)),
+            c.unit
+        ),
+        _ => c.metric.clone(),
+    }
+}
+
+impl LimitTable {
+    /// The verdict on one result under a condition; `value` gives the result's value of a metric by
+    /// its full name.
+    pub fn judge(&self, condition: &str, value: impl Fn(&str) -> Option<f64>) -> Verdict {
+        let checks = self
+            .for_condition(condition)
+            .into_iter()
+            .map(|l| l.check(value(&l.metric)))
+            .collect();
+        Verdict::from_checks(checks)
+    }
+}
