@@ -24,7 +24,9 @@ mod record;
 
 pub mod analyses;
 pub mod analysis;
+pub mod dft;
 pub mod fit;
+pub mod freq;
 pub mod ingest;
 pub mod lot;
 pub mod plan;

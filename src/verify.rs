@@ -16,7 +16,7 @@ use serde::Serialize;
 
 use crate::analysis::{analyze, AnalysisSettings, Measured as AnalysisMeasured};
 use crate::fit::{fit_four, FourParamOptions};
-use crate::plan::nearest_coherent;
+use crate::freq::nearest_coherent;
 use crate::spectrum::{SpectrumSettings, Window, WindowChoice, DB_PER_BIT, SINE_CREST_DB};
 use crate::synth::{synthesize, SynthFrequency, SynthSettings};
 use crate::Result;

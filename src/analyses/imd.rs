@@ -27,7 +27,7 @@
 
 use crate::analysis::ErrorReport;
 use crate::fit::cycles_std;
-use crate::plan::fold_bin;
+use crate::freq::fold_bin;
 use crate::spectrum::fft::{power_spectrum, real_fft};
 use crate::spectrum::metrics::bin_weight;
 use crate::spectrum::{self, Window, WindowChoice, COHERENCE_SIGMAS, SPECTRAL_CHECK_CYCLES};
@@ -602,7 +602,7 @@ pub fn product_places(f1_hz: f64, f2_hz: f64, sample_rate_hz: f64) -> Vec<Produc
             order: m.unsigned_abs() + n.unsigned_abs(),
             f1_multiple: m,
             f2_multiple: n,
-            frequency_hz: crate::plan::fold_to_first_zone(
+            frequency_hz: crate::freq::fold_to_first_zone(
                 m as f64 * f1 + n as f64 * f2,
                 sample_rate_hz,
             ),

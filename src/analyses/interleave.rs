@@ -27,7 +27,7 @@
 use crate::analyses::imd::{claim, db, fit_linear, measure_spans, phase_at_zero, tone_is_coherent};
 use crate::analysis::ErrorReport;
 use crate::fit::{fit_four, FourParamOptions, SineFit};
-use crate::plan::{fold_bin, fold_to_first_zone};
+use crate::freq::{fold_bin, fold_to_first_zone};
 use crate::spectrum::fft::power_spectrum;
 use crate::spectrum::{self, Window, WindowChoice};
 use crate::{full_scale_power, Error, ErrorKind, Location, Record, Result};

@@ -1,10 +1,10 @@
 //! Leakage diagnosis: how much the record's own spectral leakage, at its actual fractional-bin offset
 //! and under the chosen window, can bias SNR and SFDR, and what would fix it.
 
-use super::fft::power_spectrum;
 use super::metrics::Figures;
 use super::tones::{Claims, Owner};
 use super::{tone_halfwidth, Coherence, Window, AUTO_LADDER, BIAS_WARN_DB};
+use crate::dft::fft::power_spectrum;
 use crate::fit::SineFit;
 use serde::Serialize;
 use std::f64::consts::TAU;
@@ -97,7 +97,7 @@ pub(crate) fn diagnose(
             ));
         }
         if let Ok(c) =
-            crate::plan::nearest_coherent(sample_rate_hz, samples, fit.frequency_hz, false)
+            crate::freq::nearest_coherent(sample_rate_hz, samples, fit.frequency_hz, false)
         {
             fixes.push(format!(
                 "a coherent input: J = {} cycles, {:.6} Hz for N = {samples} at {sample_rate_hz} Hz",

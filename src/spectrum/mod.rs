@@ -10,15 +10,14 @@
 //! 4-term Blackman-Harris (about −87 dBc outside its span) serves up to about 11 bits, and 12- to
 //! 20-bit records get the 7-term Blackman-Harris.
 
-pub mod fft;
 mod leakage;
 pub mod metrics;
 pub mod tones;
-pub mod window;
 
+pub use crate::dft::fft;
+pub use crate::dft::window::*;
 pub use leakage::LeakageDiagnosis;
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
-pub use window::*;
 
 use crate::fit::SineFit;
 use crate::{Error, ErrorKind, Location, Result};
@@ -366,7 +365,7 @@ pub fn measure_consuming(
     }
     if coherence.coherent {
         let j = coherence.cycles.round() as u64;
-        let g = crate::plan::gcd(j, n as u64);
+        let g = crate::freq::gcd(j, n as u64);
         if g != 1 || j % 2 == 0 {
             warnings.push(format!(
                 "coherent with J = {j} cycles, which {}: the record samples only {} distinct phases, so quantisation error piles into harmonics; prefer an odd J coprime with N",

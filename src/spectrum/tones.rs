@@ -1,7 +1,7 @@
 //! Bin claiming: who owns each bin of the one-sided spectrum (DC, the fundamental, a harmonic, or noise),
 //! with harmonics folded into the first Nyquist zone.
 
-use crate::plan::fold_bin;
+use crate::freq::fold_bin;
 use serde::Serialize;
 
 /// Owner of a spectrum bin.
