@@ -2,7 +2,7 @@
 //! spectrum, then one result record that every output format is made from.
 
 use crate::fit::{self, FitOutput, FourParamOptions, SineFit};
-use crate::spectrum::{self, tones::Owner, Spectrum, SpectrumSettings};
+use crate::spectrum::{self, claim::Owner, Spectrum, SpectrumSettings};
 use crate::{Error, ErrorKind, Location, Record, Result};
 use serde::Serialize;
 

@@ -24,12 +24,15 @@
 //! (φ_m − mean φ)/(2π·f) seconds, positive when the channel samples late. Phase differences are taken in
 //! (−π, π], so a timing error of half an input period or more cannot be told from a smaller one.
 
-use crate::analyses::imd::{claim, db, fit_linear, measure_spans, phase_at_zero, tone_is_coherent};
 use crate::analysis::ErrorReport;
-use crate::fit::{fit_four, FourParamOptions, SineFit};
+use crate::dft::fft::power_spectrum;
+use crate::fit::multi_tone::fit_linear;
+use crate::fit::{fit_four, phase_at_zero, wrap_phase, FourParamOptions, SineFit};
 use crate::freq::{fold_bin, fold_to_first_zone};
-use crate::spectrum::fft::power_spectrum;
-use crate::spectrum::{self, Window, WindowChoice};
+use crate::spectrum::claim::{claim, Place, MIN_NOISE_BINS};
+use crate::spectrum::coherence::{self, Unwindowed};
+use crate::spectrum::metrics::db;
+use crate::spectrum::rule::{window_and_powers, WindowChoice};
 use crate::{full_scale_power, Error, ErrorKind, Location, Record, Result};
 use realfft::num_complex::Complex64;
 use serde::Serialize;
@@ -199,14 +202,6 @@ fn dft_coefficient(v: &[Complex64], k: usize) -> Complex64 {
     acc / m as f64
 }
 
-fn wrap(phase: f64) -> f64 {
-    let mut p = phase.rem_euclid(TAU);
-    if p > PI {
-        p -= TAU;
-    }
-    p
-}
-
 /// Analyses a record of an M-channel time-interleaved converter (see the module docs).
 pub fn analyze_interleaved(
     record: &Record,
@@ -307,7 +302,7 @@ pub fn analyze_interleaved(
         ));
     }
     let mean_c = offsets.iter().map(|v| v.re).sum::<f64>() / m as f64;
-    let dphi: Vec<f64> = z.iter().map(|v| wrap(v.arg() - z[0].arg())).collect();
+    let dphi: Vec<f64> = z.iter().map(|v| wrap_phase(v.arg() - z[0].arg())).collect();
     let mean_dphi = dphi.iter().sum::<f64>() / m as f64;
     let estimates: Vec<ChannelEstimate> = raw
         .iter()
@@ -331,47 +326,48 @@ pub fn analyze_interleaved(
         );
     }
 
-    // Spectrum: coherence, window and spans as in the single-tone analysis.
-    let rect = power_spectrum(&y, &vec![1.0; n]);
-    let coherent = tone_is_coherent(fit.cycles, fit.cycles_std, &rect);
-    let (window, window_reason) = spectrum::choose_window(
+    // Spectrum: coherence, window and claims as in the single-tone analysis.
+    let rect = power_spectrum(&y, &[]);
+    let coherent =
+        coherence::decide(fit.cycles, fit.cycles_std, Unwindowed::Spectrum(&rect)).coherent;
+    let (window, window_reason, half, powers) = window_and_powers(
+        &y,
+        rect,
         settings.window,
         coherent,
         bits,
         fit.amplitude_dbfs,
         settings.guard_bins,
     );
-    let half = spectrum::tone_halfwidth(window, coherent, settings.guard_bins);
-    let powers = if window == Window::Rectangular {
-        rect
-    } else {
-        power_spectrum(&y, &window.samples_shared(n))
-    };
     let bins_per_channel_rate = n as f64 / m as f64;
-    let mut spots: Vec<(InterleaveSpurKind, usize, String, f64)> = Vec::new();
+    let mut spots: Vec<(InterleaveSpurKind, usize, Place)> = Vec::new();
     for k in 1..=m / 2 {
         spots.push((
             InterleaveSpurKind::Offset,
             k,
-            format!("{k}*fs/{m}"),
-            fold_bin(k as f64 * bins_per_channel_rate, n),
+            Place::new(
+                format!("{k}*fs/{m}"),
+                fold_bin(k as f64 * bins_per_channel_rate, n),
+            ),
         ));
     }
     for k in 1..m {
         spots.push((
             InterleaveSpurKind::GainTiming,
             k,
-            format!("{k}*fs/{m}+fin"),
-            fold_bin(fit.cycles + k as f64 * bins_per_channel_rate, n),
+            Place::new(
+                format!("{k}*fs/{m}+fin"),
+                fold_bin(fit.cycles + k as f64 * bins_per_channel_rate, n),
+            ),
         ));
     }
-    let tones = [("fundamental".to_string(), fit.cycles)];
-    let named: Vec<(String, f64)> = spots.iter().map(|s| (s.2.clone(), s.3)).collect();
-    let claimed = claim(n, &tones, &named, half, &window.name()).map_err(|e| e.with_path(path))?;
-    let meas = measure_spans(&powers, &claimed, n, 1);
-    let p1 = meas.tones[0];
+    let lines: Vec<Place> = spots.iter().map(|s| s.2.clone()).collect();
+    let claims = claim(n, half, &[Place::new("fundamental", fit.cycles)], &lines)
+        .map_err(|e| e.to_error(&window.name()).with_path(path))?;
+    let meas = claims.measure(&powers);
+    let p1 = meas.tones[0].power();
     let pfs = full_scale_power(bits);
-    let noise_total = meas.noise_per_bin * n as f64 / 2.0;
+    let noise_total = meas.noise_power;
     if p1.is_nan() || p1 <= 10.0 * noise_total {
         return Err(Error::new(
             ErrorKind::NoTone,
@@ -389,9 +385,7 @@ pub fn analyze_interleaved(
     let bin_hz = fs / n as f64;
     let mut spurs = Vec::with_capacity(spots.len());
     let mut masked = Vec::new();
-    for ((kind, k, name, _), (slot, level)) in
-        spots.iter().zip(claimed.spurs.iter().zip(&meas.spurs))
-    {
+    for (i, ((kind, k, place), level)) in spots.iter().zip(&meas.lines).enumerate() {
         let predicted_power = match kind {
             InterleaveSpurKind::Offset => {
                 let c = dft_coefficient(&offsets, *k).norm();
@@ -406,19 +400,20 @@ pub fn analyze_interleaved(
                 c * c / 2.0
             }
         };
-        if let Some(by) = &slot.masked_by {
-            masked.push(format!("{name} on {by}"));
+        let masked_by = claims.masked_by(i).map(str::to_string);
+        if let Some(by) = &masked_by {
+            masked.push(format!("{} on {by}", place.name));
         }
         spurs.push(InterleaveSpur {
             kind: *kind,
             k: *k,
-            name: name.clone(),
-            frequency_hz: slot.bin * bin_hz,
-            dbc: level.and_then(|l| db(l.level / p1)),
-            dbfs: level.and_then(|l| db(l.level / pfs)),
+            name: place.name.clone(),
+            frequency_hz: place.bin * bin_hz,
+            dbc: level.and_then(|l| db(l.level() / p1)),
+            dbfs: level.and_then(|l| db(l.level() / pfs)),
             predicted_dbc: db(predicted_power / p_pred_fund),
             masked: level.is_none(),
-            masked_by: slot.masked_by.clone(),
+            masked_by,
             at_floor: level.is_some_and(|l| l.at_floor),
         });
     }
@@ -428,7 +423,7 @@ pub fn analyze_interleaved(
             masked.join(", ")
         ));
     }
-    if meas.noise_bins < 8 {
+    if meas.noise_bins < MIN_NOISE_BINS {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise floor is poorly determined (use a longer record)",
             meas.noise_bins
@@ -437,9 +432,9 @@ pub fn analyze_interleaved(
     let largest = |kind: InterleaveSpurKind| {
         spots
             .iter()
-            .zip(&meas.spurs)
+            .zip(&meas.lines)
             .filter(|(s, _)| s.0 == kind)
-            .filter_map(|(_, l)| l.filter(|l| !l.at_floor).map(|l| l.level))
+            .filter_map(|(_, l)| l.filter(|l| !l.at_floor).map(|l| l.level()))
             .reduce(f64::max)
             .and_then(|p| db(p / p1))
     };
