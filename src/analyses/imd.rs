@@ -25,7 +25,7 @@
 //! agree; against the two tones' combined power the figures would be 3 dB lower). dBFS refers to a
 //! full-scale sine, 2^(N−1) codes peak.
 
-use crate::analysis::ErrorReport;
+use crate::analysis::RecordResult;
 use crate::dft::fft::{power_spectrum, real_fft};
 use crate::dft::Window;
 use crate::fit::multi_tone::{fit_free, fit_linear, FreeSines};
@@ -259,42 +259,17 @@ pub struct ImdSpectrum {
     pub noise_bins: usize,
 }
 
-/// The result record of one two-tone analysis (what `spurline imd --json` prints).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct ImdResult {
-    /// Where the record came from.
-    pub source: String,
-    /// Samples in the record.
-    pub samples: usize,
-    /// Sample rate, hertz.
-    pub sample_rate_hz: f64,
-    /// Resolution N, bits.
-    pub bits: u32,
+/// What the two-tone analysis finds.
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
+pub struct TwoTone {
     /// The joint fit.
     pub fit: Option<TwoToneFit>,
     /// The spectral figures.
     pub spectrum: Option<ImdSpectrum>,
-    /// Everything the user should know about this record.
-    pub warnings: Vec<String>,
-    /// Set when the record failed; the figures are then absent.
-    pub error: Option<ErrorReport>,
 }
 
-impl ImdResult {
-    /// The result record of a record that could not be analysed.
-    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> ImdResult {
-        ImdResult {
-            source: source.to_string(),
-            samples: 0,
-            sample_rate_hz: 0.0,
-            bits: 0,
-            fit: None,
-            spectrum: None,
-            warnings,
-            error: Some(error.into()),
-        }
-    }
-}
+/// The result record of one two-tone analysis (what `spurline imd --json` prints).
+pub type ImdResult = RecordResult<TwoTone>;
 
 /// Tone-to-median bin power ratio below which a peak is not a tone (40 dB, as the single-tone
 /// location). Common practice, no source.
@@ -616,11 +591,7 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             offset_cycles: t.cycles - t.cycles.round(),
         })
         .collect();
-    Ok(ImdResult {
-        source: record.source.clone(),
-        samples: n,
-        sample_rate_hz: fs,
-        bits,
+    let found = TwoTone {
         fit: Some(TwoToneFit {
             tones: tone_fits,
             offset_codes: free.linear.offset,
@@ -647,9 +618,8 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             noise_floor_dbfs: db(meas.noise_per_bin / pfs),
             noise_bins: meas.noise_bins,
         }),
-        warnings,
-        error: None,
-    })
+    };
+    Ok(ImdResult::of(record, found, warnings))
 }
 
 #[cfg(test)]
@@ -878,7 +848,7 @@ mod tests {
             ..ImdSettings::default()
         };
         let out = analyze_two_tone(&r, &s).unwrap();
-        let fit = out.fit.unwrap();
+        let fit = out.found.fit.unwrap();
         assert!(!fit.refined && fit.iterations == 0);
         assert!((fit.tones[0].cycles - 500.3).abs() < 0.01);
         assert!((fit.tones[1].cycles - 700.8).abs() < 0.01);
@@ -891,7 +861,7 @@ mod tests {
     fn products_on_tones_or_other_products_are_masked() {
         let r = record(16, 4096, [1001.0, 1093.0], [-7.0, -7.0], 1e-3, 1e-3);
         let out = analyze_two_tone(&r, &ImdSettings::default()).unwrap();
-        let sp = out.spectrum.unwrap();
+        let sp = out.found.spectrum.unwrap();
         for (name, by) in [
             ("2f1+f2", "f1"),
             ("2f2+f1", "2f1-f2"),

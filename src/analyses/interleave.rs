@@ -24,7 +24,7 @@
 //! (φ_m − mean φ)/(2π·f) seconds, positive when the channel samples late. Phase differences are taken in
 //! (−π, π], so a timing error of half an input period or more cannot be told from a smaller one.
 
-use crate::analysis::ErrorReport;
+use crate::analysis::RecordResult;
 use crate::dft::fft::power_spectrum;
 use crate::fit::multi_tone::fit_linear;
 use crate::fit::{fit_four, phase_at_zero, wrap_phase, FourParamOptions, SineFit};
@@ -148,17 +148,9 @@ pub struct InterleaveSpectrum {
     pub noise_bins: usize,
 }
 
-/// The result record of one interleaving analysis (what `spurline interleave --json` prints).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct InterleaveResult {
-    /// Where the record came from.
-    pub source: String,
-    /// Samples in the record.
-    pub samples: usize,
-    /// Aggregate sample rate, hertz.
-    pub sample_rate_hz: f64,
-    /// Resolution N, bits.
-    pub bits: u32,
+/// What the interleaving analysis finds.
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
+pub struct Interleaved {
     /// Number of channels M.
     pub channels: usize,
     /// The four-parameter fit of the whole record.
@@ -167,29 +159,11 @@ pub struct InterleaveResult {
     pub channel_estimates: Vec<ChannelEstimate>,
     /// The spectral figures.
     pub spectrum: Option<InterleaveSpectrum>,
-    /// Everything the user should know about this record.
-    pub warnings: Vec<String>,
-    /// Set when the record failed; the figures are then absent.
-    pub error: Option<ErrorReport>,
 }
 
-impl InterleaveResult {
-    /// The result record of a record that could not be analysed.
-    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> InterleaveResult {
-        InterleaveResult {
-            source: source.to_string(),
-            samples: 0,
-            sample_rate_hz: 0.0,
-            bits: 0,
-            channels: 0,
-            fit: None,
-            channel_estimates: Vec::new(),
-            spectrum: None,
-            warnings,
-            error: Some(error.into()),
-        }
-    }
-}
+/// The result record of one interleaving analysis (what `spurline interleave --json` prints); its
+/// sample rate is the aggregate rate.
+pub type InterleaveResult = RecordResult<Interleaved>;
 
 /// The M-point DFT coefficient (1/M)·Σ_m v_m·e^{−j2πkm/M}.
 fn dft_coefficient(v: &[Complex64], k: usize) -> Complex64 {
@@ -438,11 +412,7 @@ pub fn analyze_interleaved(
             .reduce(f64::max)
             .and_then(|p| db(p / p1))
     };
-    Ok(InterleaveResult {
-        source: record.source.clone(),
-        samples: n,
-        sample_rate_hz: fs,
-        bits,
+    let found = Interleaved {
         channels: m,
         fit: Some(fit),
         channel_estimates: estimates,
@@ -459,9 +429,8 @@ pub fn analyze_interleaved(
             noise_floor_dbfs: db(meas.noise_per_bin / pfs),
             noise_bins: meas.noise_bins,
         }),
-        warnings,
-        error: None,
-    })
+    };
+    Ok(InterleaveResult::of(record, found, warnings))
 }
 
 #[cfg(test)]
