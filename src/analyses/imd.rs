@@ -9,15 +9,17 @@
 //! 2. Fit: least squares of y = Σᵢ (aᵢ·cos θᵢ + bᵢ·sin θᵢ) + c, θᵢ = 2π·fᵢ·(n − centre), at the located
 //!    frequencies (the three-parameter fit of IEEE Std 1241 extended to two tones, five parameters),
 //!    then by default Gauss-Newton on the seven parameters (both frequencies free), as the
-//!    four-parameter fit does for one tone.
-//! 3. Spectrum: the window rule, span widths and noise accounting of the single-tone analysis
-//!    ([`crate::spectrum`]). Bins are claimed in the order DC, tone 1, tone 2, the IM2 products
+//!    four-parameter fit does for one tone ([`crate::fit::multi_tone`]).
+//! 3. Spectrum: the coherence decision, window rule and tone bins of the single-tone analysis, and its
+//!    claiming engine ([`crate::spectrum::claim`]). Bins are claimed in the order DC, tone 1, tone 2,
+//!    then the derived lines: the IM2 products
 //!    f2−f1, f1+f2, the IM3 products 2f1−f2, 2f2−f1, 2f1+f2, 2f2+f1, then the harmonics 2f1, 2f2, 3f1,
 //!    3f2 (so that they are not counted as noise); everything else is noise. A product whose centre bin
 //!    is already claimed (DC, a tone, an earlier product) is reported as masked and not measured.
-//! 4. Levels: a product's power is the sum of its span minus the noise expected there (mean noise bin
-//!    times the span's weight); when that correction leaves no more than the expected noise, the product
-//!    is at the floor and its raw span power is reported as an upper bound (as for harmonics).
+//! 4. Levels: a product's power is the sum over its bins minus the noise expected there (mean noise
+//!    per unit bin weight times their weight); when that correction leaves no more than the expected
+//!    noise, the product is at the floor and the raw power of its bins is reported as an upper bound (as
+//!    for harmonics).
 //!
 //! # References of the dBc figures
 //! Tone 1 is the lower-frequency tone. `dbc_f1` and `dbc_f2` refer to tone 1 and tone 2 respectively;
@@ -47,7 +49,7 @@ use serde::Serialize;
 pub struct ImdSettings {
     /// The window choice (the rule of [`crate::spectrum`] for `Auto`, decided on the stronger tone).
     pub window: WindowChoice,
-    /// Extra bins on each side of every span; `None`: 0 coherent, 1 non-coherent.
+    /// Guard bins on each side of every tone's and product's bins; `None`: 0 coherent, 1 non-coherent.
     pub guard_bins: Option<usize>,
     /// Refine both frequencies by Gauss-Newton (otherwise the fit stays at the located frequencies).
     pub refine_frequencies: bool,
@@ -174,7 +176,7 @@ pub struct TwoToneFit {
 pub struct ToneLevel {
     /// Frequency (from the fit), hertz.
     pub frequency_hz: f64,
-    /// Power summed over its span, noise subtracted, relative to full scale.
+    /// Power summed over its bins, noise subtracted, relative to full scale.
     pub dbfs: Option<f64>,
     /// Whether this tone is coherent (see the single-tone rule).
     pub coherent: bool,
@@ -205,7 +207,7 @@ pub struct ProductFigure {
     pub masked: bool,
     /// What masks it: "dc", "f1", "f2" or a product name.
     pub masked_by: Option<String>,
-    /// True when no more than the noise expected in its span: the level is then an upper bound.
+    /// True when no more than the noise expected under its bins: the level is then an upper bound.
     pub at_floor: bool,
 }
 
@@ -233,7 +235,7 @@ pub struct ImdSpectrum {
     pub coherent: bool,
     /// Bin width fs/N, hertz.
     pub bin_width_hz: f64,
-    /// Half-width of every span, bins.
+    /// Half-width of the bins of every tone and product (main lobe plus guard bins).
     pub tone_halfwidth_bins: usize,
     /// The two tones, lower frequency first.
     pub tones: Vec<ToneLevel>,
@@ -798,7 +800,7 @@ mod tests {
     }
 
     // Non-coherent, unequal tones, 18 bits: the auto rule picks the 7-term Blackman-Harris (leakage
-    // below −180 dBc) and products sum over 17-bin spans.
+    // below −180 dBc) and products sum over 17 bins each.
     #[test]
     fn polynomial_products_recovered_on_a_windowed_record() {
         let bits = 18;

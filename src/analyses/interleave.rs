@@ -14,7 +14,8 @@
 //!
 //! This holds exactly for a sine input; the usual small-mismatch forms follow with
 //! Z_m ≈ A·e^{jφ}·(1 + g_m + j·2π·f·τ_m). (Standard small-mismatch analysis, from memory.) Each spur is
-//! reported as measured (spans, noise correction and masking as in the two-tone analysis) and as
+//! reported as measured (claimed, noise-corrected and masked by the engine the other analyses use,
+//! [`crate::spectrum::claim`]) and as
 //! predicted from the channel estimates by these formulas.
 //!
 //! # Estimates
@@ -48,12 +49,12 @@ pub struct InterleaveSettings {
     pub channels: usize,
     /// The window choice (the rule of [`crate::spectrum`] for `Auto`).
     pub window: WindowChoice,
-    /// Extra bins on each side of every span; `None`: 0 coherent, 1 non-coherent.
+    /// Guard bins on each side of every tone's and spur's bins; `None`: 0 coherent, 1 non-coherent.
     pub guard_bins: Option<usize>,
 }
 
 impl InterleaveSettings {
-    /// Settings for M channels with the automatic window and default spans.
+    /// Settings for M channels with the automatic window and default guard bins.
     pub fn new(channels: usize) -> Self {
         InterleaveSettings {
             channels,
@@ -117,7 +118,7 @@ pub struct InterleaveSpur {
     pub masked: bool,
     /// What masks it.
     pub masked_by: Option<String>,
-    /// True when no more than the noise expected in its span: the level is then an upper bound.
+    /// True when no more than the noise expected under its bins: the level is then an upper bound.
     pub at_floor: bool,
 }
 
@@ -132,9 +133,9 @@ pub struct InterleaveSpectrum {
     pub coherent: bool,
     /// Bin width fs/N, hertz.
     pub bin_width_hz: f64,
-    /// Half-width of every span, bins.
+    /// Half-width of the bins of the fundamental and every spur (main lobe plus guard bins).
     pub tone_halfwidth_bins: usize,
-    /// Fundamental level (span power, noise subtracted), dBFS.
+    /// Fundamental level (power of its bins, noise subtracted), dBFS.
     pub fundamental_dbfs: Option<f64>,
     /// Offset spurs (k = 1..=M/2), then gain/timing spurs (k = 1..M−1).
     pub spurs: Vec<InterleaveSpur>,
@@ -661,11 +662,11 @@ mod tests {
         }
     }
 
-    // A non-coherent record (7-term Blackman-Harris, spans of ±8 bins) with fin 3.3 bins below fs/4:
-    // with M = 2 the image fs/2 − fin lies 6.6 bins from the fundamental, inside its span, so it is
+    // A non-coherent record (7-term Blackman-Harris, tone bins of ±8) with fin 3.3 bins below fs/4:
+    // with M = 2 the image fs/2 − fin lies 6.6 bins from the fundamental, inside its bins, so it is
     // flagged masked and not measured (claiming rule of the module docs).
     #[test]
-    fn an_image_inside_the_fundamental_span_is_masked() {
+    fn an_image_inside_the_fundamental_bins_is_masked() {
         let rec = interleaved(&InterleavedSettings {
             bits: 16,
             sample_rate_hz: FS,
