@@ -190,8 +190,6 @@ pub fn measure_consuming(
         settings.guard_bins,
     );
     let half = tone_halfwidth(window, coherence.coherent, settings.guard_bins);
-    let claims = claim_one_tone(n, fit.cycles, settings.harmonics.max(1), half)
-        .map_err(|e| e.to_error(&window.name()))?;
     // The rectangular window is never materialised: a 2^24-sample record saves 128 MB.
     let w: std::sync::Arc<[f64]> = if window == Window::Rectangular {
         Vec::new().into()
@@ -213,6 +211,10 @@ pub fn measure_consuming(
         let m = count as f64;
         powers.iter_mut().for_each(|p| *p /= m);
     }
+    // Claimed after the transforms, so that the owners (32 MB at 2^24 samples) are not held beside the
+    // FFT's buffers at their peak.
+    let claims = claim_one_tone(n, fit.cycles, settings.harmonics.max(1), half)
+        .map_err(|e| e.to_error(&window.name()))?;
     let measured = claims.measure(&powers);
     let figs = metrics::figures(&claims, &measured, sample_rate_hz, bits);
     let mut warnings = Vec::new();
