@@ -382,33 +382,33 @@ impl Claims {
     pub fn measure(&self, powers: &[f64]) -> Measurement {
         debug_assert_eq!(powers.len(), self.owner.len());
         let samples = self.samples;
-        // One pass over the bins in order gathers every sum (each claim's sum in ascending bin order).
-        let (mut noise_sum, mut noise_w, mut noise_bins) = (0.0, 0.0, 0usize);
-        let mut dc = (0.0, 0.0);
-        let mut tones = vec![(0.0, 0.0); self.tones.len()];
-        let mut lines = vec![(0.0, 0.0); self.lines.len()];
+        // One pass over the bins gathers the noise; each claim's power is then summed over its own bins
+        // (ascending, as the pass would meet them). The noise bins, nearly all of them, have their weight
+        // counted afterwards: sums of ones and halves are exact, so the total is the same as adding each
+        // bin's weight in turn.
+        let (mut noise_sum, mut noise_bins) = (0.0, 0usize);
         let mut largest = 0.0;
-        let mut peak = None;
+        let mut peak = usize::MAX;
         for (k, (&p, &o)) in powers.iter().zip(&self.owner).enumerate() {
-            let w = bin_weight(k, samples);
-            let acc = match o {
-                Owner::Noise => {
-                    noise_sum += p;
-                    noise_w += w;
-                    noise_bins += 1;
-                    if p > largest {
-                        largest = p;
-                        peak = Some(k);
-                    }
-                    continue;
+            if o == Owner::Noise {
+                noise_sum += p;
+                noise_bins += 1;
+                if p > largest {
+                    largest = p;
+                    peak = k;
                 }
-                Owner::Dc => &mut dc,
-                Owner::Tone(i) => &mut tones[i as usize],
-                Owner::Line(i) => &mut lines[i as usize],
-            };
-            acc.0 += p;
-            acc.1 += w;
+            }
         }
+        let peak = (peak != usize::MAX).then_some(peak);
+        let sum_over = |bins: &mut dyn Iterator<Item = usize>| {
+            bins.fold((0.0, 0.0), |(p, w), k| {
+                (p + powers[k], w + bin_weight(k, samples))
+            })
+        };
+        let dc = sum_over(&mut (0..=self.tone_halfwidth.min(powers.len() - 1)));
+        // Bin 0 is always DC's; the one other half-weight bin is N/2 of an even N.
+        let nyquist_is_noise = samples % 2 == 0 && self.owner.last() == Some(&Owner::Noise);
+        let noise_w = noise_bins as f64 - if nyquist_is_noise { 0.5 } else { 0.0 };
         let noise_per_bin = if noise_w > 0.0 {
             noise_sum / noise_w
         } else {
@@ -428,18 +428,22 @@ impl Claims {
             noise_bins,
             noise_power: noise_per_bin * samples as f64 / 2.0,
             dc: Measured::of(dc.0, dc.1, noise_per_bin),
-            tones: tones
+            tones: self
+                .tones
                 .iter()
-                .map(|&(p, w)| Measured::of(p, w, noise_per_bin))
+                .map(|c| {
+                    let (p, w) = sum_over(&mut c.bins.iter().copied());
+                    Measured::of(p, w, noise_per_bin)
+                })
                 .collect(),
             lines: self
                 .lines
                 .iter()
-                .zip(&lines)
-                .map(|(c, &(p, w))| {
-                    c.masked_by
-                        .is_none()
-                        .then(|| Measured::of(p, w, noise_per_bin))
+                .map(|c| {
+                    c.masked_by.is_none().then(|| {
+                        let (p, w) = sum_over(&mut c.bins.iter().copied());
+                        Measured::of(p, w, noise_per_bin)
+                    })
                 })
                 .collect(),
             largest_noise_bin: peak.map(|k| (k, largest)),
