@@ -9,7 +9,7 @@
 //! 2. Fit: least squares of y = Σᵢ (aᵢ·cos θᵢ + bᵢ·sin θᵢ) + c, θᵢ = 2π·fᵢ·(n − centre), at the located
 //!    frequencies (the three-parameter fit of IEEE Std 1241 extended to two tones, five parameters),
 //!    then by default Gauss-Newton on the seven parameters (both frequencies free), as the
-//!    four-parameter fit does for one tone ([`crate::fit::multi_tone`]).
+//!    four-parameter fit does for one tone (`fit/multi_tone.rs`).
 //! 3. Spectrum: the coherence decision, window rule and tone bins of the single-tone analysis, and its
 //!    claiming engine ([`crate::spectrum::claim`]). Bins are claimed in the order DC, tone 1, tone 2,
 //!    then the derived lines: the IM2 products

@@ -378,7 +378,8 @@ impl Claims {
         self.lines[i].masked_by.map(|o| self.name_of(o))
     }
 
-    /// Measures every claim on bin powers 0..=N/2 (scaled as in [`crate::dft::fft::power_spectrum`]).
+    /// Measures every claim on bin powers 0..=N/2 (scaled as in [`crate::dft::fft::power_spectrum`]);
+    /// `powers` holds one power per bin of [`Claims::owner`].
     pub fn measure(&self, powers: &[f64]) -> Measurement {
         debug_assert_eq!(powers.len(), self.owner.len());
         let samples = self.samples;
@@ -405,7 +406,7 @@ impl Claims {
                 (p + powers[k], w + bin_weight(k, samples))
             })
         };
-        let dc = sum_over(&mut (0..=self.tone_halfwidth.min(powers.len() - 1)));
+        let dc = sum_over(&mut (0..=self.tone_halfwidth.min(self.owner.len() - 1)));
         // Bin 0 is always DC's; the one other half-weight bin is N/2 of an even N.
         let nyquist_is_noise = samples % 2 == 0 && self.owner.last() == Some(&Owner::Noise);
         let noise_w = noise_bins as f64 - if nyquist_is_noise { 0.5 } else { 0.0 };
