@@ -2,7 +2,7 @@
 //! spectrum, then one result record that every output format is made from.
 
 use crate::fit::{self, FitOutput, FourParamOptions, SineFit};
-use crate::spectrum::{self, tones::Owner, Spectrum, SpectrumSettings};
+use crate::spectrum::{self, claim::Owner, Spectrum, SpectrumSettings};
 use crate::{Error, ErrorKind, Location, Record, Result};
 use serde::Serialize;
 
@@ -47,9 +47,11 @@ impl From<&Error> for ErrorReport {
     }
 }
 
-/// The result record of one analysis: every output (text, JSON, CSV, HTML) is made from this.
+/// The envelope of every result record of one record's analysis (one tone, two tones, interleaving):
+/// where the record came from, its length, rate and resolution, what was found (`T`), the warnings and
+/// the error. Serialised flat, in that order: the keys of `T` sit between `bits` and `warnings`.
 #[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct Analysis {
+pub struct RecordResult<T> {
     /// Where the record came from (the first one, when several were averaged).
     pub source: String,
     /// Samples per record.
@@ -58,34 +60,73 @@ pub struct Analysis {
     pub sample_rate_hz: f64,
     /// Resolution N, bits.
     pub bits: u32,
-    /// Full-scale range when known, volts peak-to-peak.
-    pub full_scale_vpp: Option<f64>,
-    /// The sine fit (of the first record when several were averaged).
-    pub fit: Option<SineFit>,
-    /// The spectral figures.
-    pub spectrum: Option<Spectrum>,
+    /// What the analysis found; all absent (`T::default()`) when the record failed.
+    #[serde(flatten)]
+    pub found: T,
     /// Everything the user should know about this record, each with its count or value.
     pub warnings: Vec<String>,
     /// Set when the record failed; the figures are then absent.
     pub error: Option<ErrorReport>,
 }
 
-impl Analysis {
+impl<T> RecordResult<T> {
+    /// The result of analysing `record`: its source, length, rate and resolution around `found`.
+    pub fn of(record: &Record, found: T, warnings: Vec<String>) -> RecordResult<T> {
+        RecordResult {
+            source: record.source.clone(),
+            samples: record.len(),
+            sample_rate_hz: record.sample_rate_hz,
+            bits: record.bits,
+            found,
+            warnings,
+            error: None,
+        }
+    }
+}
+
+impl<T: Default> RecordResult<T> {
     /// The result record of a record that could not be analysed.
-    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> Analysis {
-        Analysis {
+    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> RecordResult<T> {
+        RecordResult {
             source: source.to_string(),
             samples: 0,
             sample_rate_hz: 0.0,
             bits: 0,
-            full_scale_vpp: None,
-            fit: None,
-            spectrum: None,
+            found: T::default(),
             warnings,
             error: Some(error.into()),
         }
     }
 }
+
+// The envelope reads through to what was found, so `result.fit` and `result.spectrum` name the found
+// fit and spectrum whichever analysis made them.
+impl<T> std::ops::Deref for RecordResult<T> {
+    type Target = T;
+    fn deref(&self) -> &T {
+        &self.found
+    }
+}
+
+impl<T> std::ops::DerefMut for RecordResult<T> {
+    fn deref_mut(&mut self) -> &mut T {
+        &mut self.found
+    }
+}
+
+/// What the one-tone analysis finds.
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
+pub struct OneTone {
+    /// Full-scale range when known, volts peak-to-peak.
+    pub full_scale_vpp: Option<f64>,
+    /// The sine fit (of the first record when several were averaged).
+    pub fit: Option<SineFit>,
+    /// The spectral figures.
+    pub spectrum: Option<Spectrum>,
+}
+
+/// The result record of one analysis: every output (text, JSON, CSV, HTML) is made from this.
+pub type Analysis = RecordResult<OneTone>;
 
 /// Per-sample and per-bin data behind an analysis, kept for the plots and not serialised.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -249,14 +290,15 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
     Ok(Measured {
         analysis: Analysis {
             source: src,
-            samples: first.len(),
-            sample_rate_hz: first.sample_rate_hz,
-            bits: first.bits,
-            full_scale_vpp: first.full_scale_vpp,
-            fit: Some(fit),
-            spectrum: Some(spec.spectrum),
-            warnings,
-            error: None,
+            ..Analysis::of(
+                first,
+                OneTone {
+                    full_scale_vpp: first.full_scale_vpp,
+                    fit: Some(fit),
+                    spectrum: Some(spec.spectrum),
+                },
+                warnings,
+            )
         },
         traces: Traces {
             residual,

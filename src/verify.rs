@@ -16,7 +16,7 @@ use serde::Serialize;
 
 use crate::analysis::{analyze, AnalysisSettings, Measured as AnalysisMeasured};
 use crate::fit::{fit_four, FourParamOptions};
-use crate::plan::nearest_coherent;
+use crate::freq::nearest_coherent;
 use crate::spectrum::{SpectrumSettings, Window, WindowChoice, DB_PER_BIT, SINE_CREST_DB};
 use crate::synth::{synthesize, SynthFrequency, SynthSettings};
 use crate::Result;
@@ -291,7 +291,7 @@ fn ideal_quantiser(out: &mut Vec<Measurement>) {
             ideal_snr_db(bits) + level,
             HANDBOOK_DB,
             m.map_err(|e| e.to_string())
-                .and_then(|m| present(m.analysis.spectrum.and_then(|s| s.sinad_db), "SINAD")),
+                .and_then(|m| present(m.analysis.found.spectrum.and_then(|s| s.sinad_db), "SINAD")),
         );
     }
     // 65536 samples: the residual rms of a near-uniform error has a relative std of 0.17 %; 1 % is
@@ -308,7 +308,7 @@ fn ideal_quantiser(out: &mut Vec<Measurement>) {
         q,
         0.01 * q,
         m.map_err(|e| e.to_string())
-            .and_then(|m| present(m.analysis.fit.map(|f| f.residual_rms_codes), "fit")),
+            .and_then(|m| present(m.analysis.found.fit.map(|f| f.residual_rms_codes), "fit")),
     );
 }
 
@@ -326,6 +326,7 @@ fn analytic_records(out: &mut Vec<Measurement>) {
         .map_err(|e| e.to_string())
         .and_then(|m| {
             m.analysis
+                .found
                 .spectrum
                 .ok_or_else(|| "the analysis reported no spectrum".to_string())
         });
@@ -379,7 +380,7 @@ fn analytic_records(out: &mut Vec<Measurement>) {
         HANDBOOK_DB,
         simulate(&s, &AnalysisSettings::default())
             .map_err(|e| e.to_string())
-            .and_then(|m| present(m.analysis.spectrum.and_then(|s| s.snr_db), "SNR")),
+            .and_then(|m| present(m.analysis.found.spectrum.and_then(|s| s.snr_db), "SNR")),
     );
 
     // Noise floor per bin = −SNR − 10·log10(N/2) (handbook formula): −107.1 dBFS for an ideal 12-bit
@@ -398,7 +399,7 @@ fn analytic_records(out: &mut Vec<Measurement>) {
         .map_err(|e| e.to_string())
         .and_then(|m| {
             present(
-                m.analysis.spectrum.and_then(|s| s.noise_floor_dbfs),
+                m.analysis.found.spectrum.and_then(|s| s.noise_floor_dbfs),
                 "noise floor",
             )
         }),
@@ -468,7 +469,10 @@ fn analytic_records(out: &mut Vec<Measurement>) {
             .map_err(|e| e.to_string())
             .and_then(|m| {
                 present(
-                    m.analysis.spectrum.map(|s| s.leakage.scalloping_loss_db),
+                    m.analysis
+                        .found
+                        .spectrum
+                        .map(|s| s.leakage.scalloping_loss_db),
                     "leakage diagnosis",
                 )
             }),

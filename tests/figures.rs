@@ -5,7 +5,7 @@
 //! value disagrees with the JSON the record writes.
 
 use serde_json::Value;
-use spurline::analysis::{Analysis, ErrorReport};
+use spurline::analysis::{Analysis, ErrorReport, OneTone};
 use spurline::figures::{self, Kind};
 use spurline::fit::{FitMethod, SineFit};
 use spurline::spectrum::{Coherence, HarmonicFigure, LeakageDiagnosis, Spectrum, Spur};
@@ -91,9 +91,11 @@ fn populated() -> Analysis {
         samples: 1024,
         sample_rate_hz: 1.0e7,
         bits: 12,
-        full_scale_vpp: Some(2.0),
-        fit: Some(fit),
-        spectrum: Some(spectrum),
+        found: OneTone {
+            full_scale_vpp: Some(2.0),
+            fit: Some(fit),
+            spectrum: Some(spectrum),
+        },
         warnings: vec!["one".into(), "two".into()],
         error: Some(ErrorReport {
             kind: ErrorKind::Io,

@@ -37,7 +37,7 @@ fn ideal_quantiser_sinad_is_602n_plus_176() {
     for bits in 8..=16 {
         let s = ideal(bits, 8192, -0.1, 10.3e6);
         let m = run(&s, &AnalysisSettings::default());
-        let sp = m.analysis.spectrum.unwrap();
+        let sp = m.analysis.found.spectrum.unwrap();
         let expected = 20.0 * (2f64.powi(bits as i32 - 1) * 6f64.sqrt()).log10() - 0.1;
         let got = sp.sinad_db.unwrap();
         assert!(
@@ -65,12 +65,12 @@ fn spectral_sinad_matches_time_domain_error() {
     };
     let made = synthesize(&s).unwrap();
     let m = analyze(&made.record, &AnalysisSettings::default()).unwrap();
-    let fit = m.analysis.fit.unwrap();
+    let fit = m.analysis.found.fit.unwrap();
     // Residual of the fit = everything but the fundamental and offset (time domain).
     let err_power: f64 = m.traces.residual.iter().map(|r| r * r).sum::<f64>() / 4096.0;
     let sig = fit.amplitude_codes.powi(2) / 2.0;
     let time_sinad = 10.0 * (sig / err_power).log10();
-    let sp = m.analysis.spectrum.unwrap();
+    let sp = m.analysis.found.spectrum.unwrap();
     assert!(
         (sp.sinad_db.unwrap() - time_sinad).abs() < SELF_CONSISTENCY_DB,
         "{} vs {time_sinad}",
@@ -87,6 +87,7 @@ fn ideal_12_bit_noise_floor() {
     let s = ideal(12, 4096, -0.05, 10.1e6);
     let sp = run(&s, &AnalysisSettings::default())
         .analysis
+        .found
         .spectrum
         .unwrap();
     let expected = -(6.02 * 12.0 + 1.76) - 10.0 * 2048f64.log10();
@@ -104,8 +105,8 @@ fn ideal_12_bit_noise_floor() {
 fn enob_forms_at_half_scale() {
     let s = ideal(12, 8192, -6.02, 13.3e6);
     let a = run(&s, &AnalysisSettings::default()).analysis;
-    let sp = a.spectrum.unwrap();
-    let fit = a.fit.unwrap();
+    let sp = a.found.spectrum.unwrap();
+    let fit = a.found.fit.unwrap();
     assert!(
         (sp.enob_bits.unwrap() - 11.0).abs() < HANDBOOK_BITS,
         "{:?}",
@@ -133,8 +134,8 @@ fn harmonics_are_recovered_and_folded() {
         ..ideal(20, 8192, -1.0, 37.3e6)
     };
     let a = run(&s, &AnalysisSettings::default()).analysis;
-    let fin = a.fit.unwrap().frequency_hz;
-    let sp = a.spectrum.unwrap();
+    let fin = a.found.fit.unwrap().frequency_hz;
+    let sp = a.found.spectrum.unwrap();
     for (order, level) in [(2u32, -70.0), (3, -80.0), (5, -90.0)] {
         let h = sp.harmonics.iter().find(|h| h.order == order).unwrap();
         assert!(
@@ -181,6 +182,7 @@ fn non_coherent_auto_window_agrees_with_coherent() {
     };
     let coh = run(&base, &AnalysisSettings::default())
         .analysis
+        .found
         .spectrum
         .unwrap();
     let non = SynthSettings {
@@ -189,7 +191,7 @@ fn non_coherent_auto_window_agrees_with_coherent() {
         ..base.clone()
     };
     let a = run(&non, &AnalysisSettings::default()).analysis;
-    let sp = a.spectrum.unwrap();
+    let sp = a.found.spectrum.unwrap();
     assert!(!sp.coherent);
     assert_ne!(sp.window, "rectangular");
     assert!(
@@ -242,7 +244,7 @@ fn non_coherent_rectangular_warns() {
         "{:?}",
         a.warnings
     );
-    assert!(a.spectrum.unwrap().leakage.significant);
+    assert!(a.found.spectrum.unwrap().leakage.significant);
 }
 
 /// Jitter-limited SNR = −20·log10(2π·f·σ) (handbook): 10 MHz with 1 ps gives 84.04 dB; at 20 bits the
@@ -254,9 +256,9 @@ fn jitter_limited_snr() {
         ..ideal(20, 16384, -0.5, 10.0e6)
     };
     let a = run(&s, &AnalysisSettings::default()).analysis;
-    let f = a.fit.unwrap().frequency_hz;
+    let f = a.found.fit.unwrap().frequency_hz;
     let expected = -20.0 * (std::f64::consts::TAU * f * 1e-12).log10();
-    let snr = a.spectrum.unwrap().snr_db.unwrap();
+    let snr = a.found.spectrum.unwrap().snr_db.unwrap();
     assert!((snr - expected).abs() < HANDBOOK_DB, "{snr} vs {expected}");
 }
 
@@ -271,6 +273,7 @@ fn three_and_four_parameter_fits_agree() {
     let four = analyze(&made.record, &AnalysisSettings::default())
         .unwrap()
         .analysis
+        .found
         .fit
         .unwrap();
     let three = analyze(
@@ -282,6 +285,7 @@ fn three_and_four_parameter_fits_agree() {
     )
     .unwrap()
     .analysis
+    .found
     .fit
     .unwrap();
     assert!((four.frequency_hz - made.frequency_hz).abs() < 5.0 * four.cycles_std * 100e6 / 4096.0);
@@ -306,11 +310,13 @@ fn averaging_counts_records() {
     let one = analyze(&recs[0], &AnalysisSettings::default())
         .unwrap()
         .analysis
+        .found
         .spectrum
         .unwrap();
     let avg = analyze_averaged(&recs, &AnalysisSettings::default())
         .unwrap()
         .analysis
+        .found
         .spectrum
         .unwrap();
     assert_eq!(avg.records_averaged, 4);
@@ -328,7 +334,7 @@ fn json_has_no_nan_for_masked_harmonics() {
     let a = run(&s, &AnalysisSettings::default()).analysis;
     let json = serde_json::to_string(&a).unwrap();
     assert!(!json.contains("NaN") && !json.contains("inf"));
-    let sp = a.spectrum.unwrap();
+    let sp = a.found.spectrum.unwrap();
     assert!(sp.harmonics.iter().find(|h| h.order == 3).unwrap().masked);
     assert!(sp.harmonics.iter().find(|h| h.order == 4).unwrap().masked);
 }
@@ -361,7 +367,7 @@ fn strong_harmonic_does_not_break_coherence() {
         ..ideal(16, 4096, -1.0, 0.0)
     };
     let a = run(&s, &AnalysisSettings::default()).analysis;
-    let sp = a.spectrum.unwrap();
+    let sp = a.found.spectrum.unwrap();
     assert!(sp.coherent, "{:?}", sp.coherence);
     // The fit alone would have called it non-coherent: the spectrum decided.
     assert_eq!(sp.coherence.decided_by, "spectrum", "{:?}", sp.coherence);

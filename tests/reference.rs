@@ -8,8 +8,8 @@ use rand_distr::{Distribution, StandardNormal};
 use serde_json::Value;
 use spurline::analysis::{analyze, AnalysisSettings, Measured};
 use spurline::fit::{fit_four, fit_three, FourParamOptions};
+use spurline::freq::{gcd, is_prime, nearest_coherent};
 use spurline::ingest::{read_record, IngestSettings, Metadata};
-use spurline::plan::{gcd, is_prime, nearest_coherent};
 use spurline::spectrum::{SpectrumSettings, Window, WindowChoice, DB_PER_BIT, SINE_CREST_DB};
 use spurline::synth::{synthesize, SynthFrequency, SynthSettings};
 use std::f64::consts::TAU;
@@ -85,7 +85,7 @@ fn ideal_quantiser_snr_8_to_16_bits() {
             &ideal(bits, 8192, -0.1, 100e6, 10.3e6),
             &AnalysisSettings::default(),
         );
-        let sp = m.analysis.spectrum.unwrap();
+        let sp = m.analysis.found.spectrum.unwrap();
         let expected = ideal_snr_exact(bits) - 0.1;
         let snr = sp.snr_db.unwrap();
         assert!(
@@ -104,7 +104,7 @@ fn ideal_quantiser_32_bits_shows_the_pipeline_floor_is_far_below() {
         &ideal(32, 8192, -0.1, 100e6, 10.3e6),
         &AnalysisSettings::default(),
     );
-    let sp = m.analysis.spectrum.unwrap();
+    let sp = m.analysis.found.spectrum.unwrap();
     let expected = ideal_snr_exact(32) - 0.1;
     assert!((ideal_snr_exact(32) - 194.4).abs() < 0.05);
     for (what, got) in [("SNR", sp.snr_db), ("SINAD", sp.sinad_db)] {
@@ -116,7 +116,7 @@ fn ideal_quantiser_32_bits_shows_the_pipeline_floor_is_far_below() {
     }
     assert!((sp.enob_full_scale_bits.unwrap() - 32.0).abs() < HANDBOOK_BITS);
     // The fit's residual is the quantisation error alone: q/√12 even at 2^31 codes of amplitude.
-    let rms = m.analysis.fit.unwrap().residual_rms_codes;
+    let rms = m.analysis.found.fit.unwrap().residual_rms_codes;
     assert!(
         (rms * 12f64.sqrt() - 1.0).abs() < QUANT_NOISE_REL * 3.0,
         "{rms}"
@@ -132,7 +132,7 @@ fn quantisation_noise_is_q_over_sqrt12() {
             &ideal(bits, 65_536, -0.3, 100e6, 7.1e6),
             &AnalysisSettings::default(),
         );
-        let fit = m.analysis.fit.unwrap();
+        let fit = m.analysis.found.fit.unwrap();
         let ratio = fit.residual_rms_codes / (1.0 / 12f64.sqrt());
         assert!(
             (ratio - 1.0).abs() < QUANT_NOISE_REL,
@@ -157,6 +157,7 @@ fn noise_floor_per_bin() {
             &AnalysisSettings::default(),
         )
         .analysis
+        .found
         .spectrum
         .unwrap();
         // The floor is per unit of input level: refer it to 0 dBFS like the formula.
@@ -181,10 +182,10 @@ fn jitter_limited_snr_100_mhz_100_fs() {
         ..ideal(20, 65_536, -0.5, 250e6, 100e6)
     };
     let a = run(&s, &AnalysisSettings::default()).analysis;
-    let f = a.fit.unwrap().frequency_hz;
+    let f = a.found.fit.unwrap().frequency_hz;
     assert!((f - 100e6).abs() < 5e3, "{f}");
     let expected = formula(f, 100e-15);
-    let snr = a.spectrum.unwrap().snr_db.unwrap();
+    let snr = a.found.spectrum.unwrap().snr_db.unwrap();
     assert!((snr - expected).abs() < HANDBOOK_DB, "{snr} vs {expected}");
 }
 
@@ -203,6 +204,7 @@ fn enob_of_62_db_is_10_bits() {
     };
     let sp = run(&s, &AnalysisSettings::default())
         .analysis
+        .found
         .spectrum
         .unwrap();
     let sinad = sp.sinad_db.unwrap();
@@ -234,6 +236,7 @@ fn worked_example_44_mhz() {
     };
     let sp = run(&s, &AnalysisSettings::default())
         .analysis
+        .found
         .spectrum
         .unwrap();
     assert!(sp.coherent);
@@ -270,6 +273,7 @@ fn audio_rate_bins_through_the_analysis() {
         };
         let sp = run(&s, &AnalysisSettings::default())
             .analysis
+            .found
             .spectrum
             .unwrap();
         assert_eq!(sp.bin_width_hz, 31.25);
@@ -518,8 +522,8 @@ fn pipeline_matches_numpy() {
             .unwrap_or_else(|e| panic!("{file}: {e}"))
             .analysis;
         let want = &r["expected"];
-        let sp = a.spectrum.unwrap();
-        let fit = a.fit.unwrap();
+        let sp = a.found.spectrum.unwrap();
+        let fit = a.found.fit.unwrap();
         assert_eq!(sp.window, want["window"].as_str().unwrap(), "{file}");
         assert_eq!(sp.coherent, want["coherent"].as_bool().unwrap(), "{file}");
         assert_eq!(

@@ -9,15 +9,17 @@
 //! 2. Fit: least squares of y = Σᵢ (aᵢ·cos θᵢ + bᵢ·sin θᵢ) + c, θᵢ = 2π·fᵢ·(n − centre), at the located
 //!    frequencies (the three-parameter fit of IEEE Std 1241 extended to two tones, five parameters),
 //!    then by default Gauss-Newton on the seven parameters (both frequencies free), as the
-//!    four-parameter fit does for one tone.
-//! 3. Spectrum: the window rule, span widths and noise accounting of the single-tone analysis
-//!    ([`crate::spectrum`]). Bins are claimed in the order DC, tone 1, tone 2, the IM2 products
+//!    four-parameter fit does for one tone (`fit/multi_tone.rs`).
+//! 3. Spectrum: the coherence decision, window rule and tone bins of the single-tone analysis, and its
+//!    claiming engine ([`crate::spectrum::claim`]). Bins are claimed in the order DC, tone 1, tone 2,
+//!    then the derived lines: the IM2 products
 //!    f2−f1, f1+f2, the IM3 products 2f1−f2, 2f2−f1, 2f1+f2, 2f2+f1, then the harmonics 2f1, 2f2, 3f1,
 //!    3f2 (so that they are not counted as noise); everything else is noise. A product whose centre bin
 //!    is already claimed (DC, a tone, an earlier product) is reported as masked and not measured.
-//! 4. Levels: a product's power is the sum of its span minus the noise expected there (mean noise bin
-//!    times the span's weight); when that correction leaves no more than the expected noise, the product
-//!    is at the floor and its raw span power is reported as an upper bound (as for harmonics).
+//! 4. Levels: a product's power is the sum over its bins minus the noise expected there (mean noise
+//!    per unit bin weight times their weight); when that correction leaves no more than the expected
+//!    noise, the product is at the floor and the raw power of its bins is reported as an upper bound (as
+//!    for harmonics).
 //!
 //! # References of the dBc figures
 //! Tone 1 is the lower-frequency tone. `dbc_f1` and `dbc_f2` refer to tone 1 and tone 2 respectively;
@@ -25,494 +27,20 @@
 //! agree; against the two tones' combined power the figures would be 3 dB lower). dBFS refers to a
 //! full-scale sine, 2^(N−1) codes peak.
 
-use crate::analysis::ErrorReport;
-use crate::fit::cycles_std;
-use crate::plan::fold_bin;
-use crate::spectrum::fft::{power_spectrum, real_fft};
-use crate::spectrum::metrics::bin_weight;
-use crate::spectrum::{self, Window, WindowChoice, COHERENCE_SIGMAS, SPECTRAL_CHECK_CYCLES};
+use crate::analysis::RecordResult;
+use crate::dft::fft::{power_spectrum, real_fft};
+use crate::dft::Window;
+use crate::fit::multi_tone::{fit_free, fit_linear, FreeSines};
+use crate::fit::{cycles_std, phase_at_zero};
+use crate::freq::fold_bin;
+use crate::spectrum::claim::{claim, Place, SpurAt, MIN_NOISE_BINS};
+use crate::spectrum::coherence::{self, Unwindowed};
+use crate::spectrum::metrics::db;
+use crate::spectrum::rule::{window_and_powers, WindowChoice};
 use crate::{
     full_scale_amplitude_codes, full_scale_power, Error, ErrorKind, Location, Record, Result,
 };
-use nalgebra::{DMatrix, DVector};
 use serde::Serialize;
-use std::f64::consts::{PI, TAU};
-
-// ───────────────────────── shared sine-model machinery (also used by `interleave`) ─────────────────────────
-
-/// frac(f·t) with the rounding error of the product folded back in (two-product by FMA): exact to
-/// about 1e-16 cycles however large f·t is.
-pub(crate) fn reduced_cycles(f: f64, t: f64) -> f64 {
-    let p = f * t;
-    let e = f.mul_add(t, -p);
-    let r = (p - p.floor()) + e;
-    r - r.floor()
-}
-
-/// Phase at sample 0, in (−π, π], of a·cos θ + b·sin θ with θ = 2π·f·(n − centre).
-pub(crate) fn phase_at_zero(a: f64, b: f64, cycles_per_sample: f64, centre: f64) -> f64 {
-    let mut phase = (-b).atan2(a) - TAU * reduced_cycles(cycles_per_sample, centre);
-    phase = phase.rem_euclid(TAU);
-    if phase > PI {
-        phase -= TAU;
-    }
-    phase
-}
-
-/// Linear least-squares sines at known frequencies.
-#[derive(Debug, Clone, PartialEq)]
-pub(crate) struct LinearSines {
-    /// (a, b) of each frequency, centred frame.
-    pub coeffs: Vec<(f64, f64)>,
-    /// The offset c.
-    pub offset: f64,
-    /// Sum of squared residuals.
-    pub rss: f64,
-}
-
-/// Solves a symmetric positive definite system with Jacobi scaling (the columns may differ by many
-/// orders of magnitude); `None` when it is singular.
-fn solve_scaled(m: &DMatrix<f64>, g: &DVector<f64>) -> Option<DVector<f64>> {
-    let p = m.nrows();
-    let scale = DVector::from_fn(p, |i, _| 1.0 / m[(i, i)].sqrt());
-    if scale.iter().any(|v| !v.is_finite()) {
-        return None;
-    }
-    let ms = DMatrix::from_fn(p, p, |i, j| m[(i, j)] * scale[i] * scale[j]);
-    let chol = ms.cholesky()?;
-    // A nearly singular system (a tone at DC or Nyquist, two tones within a bin) has a tiny pivot.
-    let l = chol.l();
-    let (mut lo, mut hi) = (f64::INFINITY, 0.0f64);
-    for i in 0..p {
-        lo = lo.min(l[(i, i)].abs());
-        hi = hi.max(l[(i, i)].abs());
-    }
-    if lo.is_nan() || lo <= 1e-7 * hi {
-        return None;
-    }
-    Some(chol.solve(&g.component_mul(&scale)).component_mul(&scale))
-}
-
-/// Least squares of y[j] ≈ Σᵢ (aᵢ·cos θᵢ + bᵢ·sin θᵢ) + c, θᵢ = 2π·fᵢ·(n − centre), n = start + j·stride
-/// (fᵢ in cycles per sample of the full record). `None` when the normal equations are singular.
-pub(crate) fn fit_linear(
-    y: &[f64],
-    start: usize,
-    stride: usize,
-    centre: f64,
-    freqs: &[f64],
-) -> Option<LinearSines> {
-    let k = freqs.len();
-    let p = 2 * k + 1;
-    let mut m = DMatrix::<f64>::zeros(p, p);
-    let mut g = DVector::<f64>::zeros(p);
-    let mut basis = vec![0.0; p];
-    let fill = |j: usize, basis: &mut [f64]| {
-        let t = (start + j * stride) as f64 - centre;
-        for (i, &f) in freqs.iter().enumerate() {
-            let (s, c) = (TAU * reduced_cycles(f, t)).sin_cos();
-            basis[2 * i] = c;
-            basis[2 * i + 1] = s;
-        }
-        basis[2 * k] = 1.0;
-    };
-    for (j, &v) in y.iter().enumerate() {
-        fill(j, &mut basis);
-        for r in 0..p {
-            g[r] += basis[r] * v;
-            for c in r..p {
-                m[(r, c)] += basis[r] * basis[c];
-            }
-        }
-    }
-    for r in 0..p {
-        for c in 0..r {
-            m[(r, c)] = m[(c, r)];
-        }
-    }
-    let x = solve_scaled(&m, &g)?;
-    let mut rss = 0.0;
-    for (j, &v) in y.iter().enumerate() {
-        fill(j, &mut basis);
-        let model: f64 = basis.iter().zip(x.iter()).map(|(b, x)| b * x).sum();
-        rss += (v - model) * (v - model);
-    }
-    Some(LinearSines {
-        coeffs: (0..k).map(|i| (x[2 * i], x[2 * i + 1])).collect(),
-        offset: x[2 * k],
-        rss,
-    })
-}
-
-/// A fit of several sines with free frequencies.
-#[derive(Debug, Clone, PartialEq)]
-struct FreeSines {
-    linear: LinearSines,
-    freqs: Vec<f64>,
-    iterations: u32,
-    converged: bool,
-}
-
-/// A relative residual change below this counts as none: the sums carry rounding of a few ulps per
-/// sample (the four-parameter fit's stop rule).
-const RESIDUAL_REL_TOL: f64 = 1e-13;
-
-/// One Gauss-Newton pass at (linear, freqs): the sum of squares and the step (coefficients, offset,
-/// then ω of each tone in radians per sample).
-fn gauss_newton_pass(y: &[f64], lin: &LinearSines, freqs: &[f64]) -> (f64, Option<DVector<f64>>) {
-    let k = freqs.len();
-    let p = 3 * k + 1;
-    let centre = (y.len() as f64 - 1.0) / 2.0;
-    let mut m = DMatrix::<f64>::zeros(p, p);
-    let mut g = DVector::<f64>::zeros(p);
-    let mut basis = vec![0.0; p];
-    let mut rss = 0.0;
-    for (n, &v) in y.iter().enumerate() {
-        let t = n as f64 - centre;
-        let mut model = lin.offset;
-        for (i, &f) in freqs.iter().enumerate() {
-            let (s, c) = (TAU * reduced_cycles(f, t)).sin_cos();
-            let (a, b) = lin.coeffs[i];
-            model += a * c + b * s;
-            basis[2 * i] = c;
-            basis[2 * i + 1] = s;
-            basis[2 * k + 1 + i] = t * (b * c - a * s);
-        }
-        basis[2 * k] = 1.0;
-        let r = v - model;
-        rss += r * r;
-        for a in 0..p {
-            g[a] += basis[a] * r;
-            for b in a..p {
-                m[(a, b)] += basis[a] * basis[b];
-            }
-        }
-    }
-    for a in 0..p {
-        for b in 0..a {
-            m[(a, b)] = m[(b, a)];
-        }
-    }
-    (rss, solve_scaled(&m, &g))
-}
-
-/// Fits sines with free frequencies from `start` (cycles per sample): linear solve, Gauss-Newton with
-/// step halving until the residual stops falling, then a last linear solve at the final frequencies.
-fn fit_free(y: &[f64], start: &[f64], max_iterations: u32) -> Result<FreeSines> {
-    let centre = (y.len() as f64 - 1.0) / 2.0;
-    let degenerate = || {
-        Error::new(
-            ErrorKind::DegenerateFit,
-            "",
-            Location::Whole,
-            "solvable normal equations of the two-tone fit (tones apart from each other, DC and Nyquist)",
-            format!(
-                "a singular system at {:?} cycles",
-                start.iter().map(|f| f * y.len() as f64).collect::<Vec<_>>()
-            ),
-        )
-    };
-    let mut freqs = start.to_vec();
-    let mut lin = fit_linear(y, 0, 1, centre, &freqs).ok_or_else(degenerate)?;
-    let (mut rss, mut step) = gauss_newton_pass(y, &lin, &freqs);
-    let k = freqs.len();
-    let mut iterations = 0;
-    let mut converged = false;
-    while iterations < max_iterations {
-        let Some(delta) = step else {
-            return Err(degenerate());
-        };
-        iterations += 1;
-        let df: Vec<f64> = (0..k).map(|i| delta[2 * k + 1 + i] / TAU).collect();
-        if df
-            .iter()
-            .zip(&freqs)
-            .all(|(d, f)| d.abs() <= 4.0 * f64::EPSILON * f.abs())
-        {
-            converged = true;
-            break;
-        }
-        let mut lambda = 1.0;
-        let mut accepted = None;
-        for _ in 0..12 {
-            let trial = LinearSines {
-                coeffs: (0..k)
-                    .map(|i| {
-                        (
-                            lin.coeffs[i].0 + lambda * delta[2 * i],
-                            lin.coeffs[i].1 + lambda * delta[2 * i + 1],
-                        )
-                    })
-                    .collect(),
-                offset: lin.offset + lambda * delta[2 * k],
-                rss: 0.0,
-            };
-            let tf: Vec<f64> = freqs.iter().zip(&df).map(|(f, d)| f + lambda * d).collect();
-            let (rss_t, step_t) = gauss_newton_pass(y, &trial, &tf);
-            if rss_t <= rss {
-                accepted = Some((trial, tf, rss_t, step_t));
-                break;
-            }
-            lambda *= 0.5;
-        }
-        let Some((trial, tf, rss_t, step_t)) = accepted else {
-            converged = true;
-            break;
-        };
-        let change = rss - rss_t;
-        let was = rss;
-        lin = trial;
-        freqs = tf;
-        rss = rss_t;
-        step = step_t;
-        if change <= RESIDUAL_REL_TOL * was {
-            converged = true;
-            break;
-        }
-    }
-    let lin = fit_linear(y, 0, 1, centre, &freqs).ok_or_else(degenerate)?;
-    Ok(FreeSines {
-        linear: lin,
-        freqs,
-        iterations,
-        converged,
-    })
-}
-
-// ───────────────────────── bin claiming and span measurement (also used by `interleave`) ─────────────────────────
-
-/// Owner of a bin in a multi-tone claim.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub(crate) enum Bin {
-    Dc,
-    Tone(usize),
-    Spur(usize),
-    Noise,
-}
-
-/// One named spur's place and the bins it owns.
-#[derive(Debug, Clone, PartialEq)]
-pub(crate) struct SpurClaim {
-    /// Folded fractional bin.
-    pub bin: f64,
-    /// What hides it, when its centre bin was already claimed.
-    pub masked_by: Option<String>,
-    /// The bins it owns (empty when masked).
-    pub bins: Vec<usize>,
-}
-
-/// The result of claiming.
-#[derive(Debug, Clone, PartialEq)]
-pub(crate) struct Claimed {
-    pub owner: Vec<Bin>,
-    pub half: usize,
-    pub spurs: Vec<SpurClaim>,
-}
-
-/// Claims bins in the order DC, the tones (fractional bins, named for messages), then the spurs (names
-/// and folded fractional bins); a bin is never claimed twice. Errors when a tone lands in the DC span or
-/// when two tones' spans overlap (their powers could not be told apart).
-pub(crate) fn claim(
-    samples: usize,
-    tones: &[(String, f64)],
-    spurs: &[(String, f64)],
-    half: usize,
-    window: &str,
-) -> Result<Claimed> {
-    let bins = samples / 2 + 1;
-    let last = bins - 1;
-    let mut owner = vec![Bin::Noise; bins];
-    for o in owner.iter_mut().take((half + 1).min(bins)) {
-        *o = Bin::Dc;
-    }
-    let span = |centre: usize| centre.saturating_sub(half)..=(centre + half).min(last);
-    for (i, (name, b)) in tones.iter().enumerate() {
-        let centre = (b.round().max(0.0) as usize).min(last);
-        if owner[centre] == Bin::Dc {
-            return Err(Error::new(
-                ErrorKind::ToneAtEdge,
-                "",
-                Location::Whole,
-                format!("{name} outside the DC span (bins 0..={half} under the {window} window)"),
-                format!("{name} at bin {b:.2}: use a longer record or a higher input frequency"),
-            ));
-        }
-        for k in span(centre) {
-            match owner[k] {
-                Bin::Tone(j) => {
-                    return Err(Error::new(
-                        ErrorKind::ToneAtEdge,
-                        "",
-                        Location::Whole,
-                        format!(
-                            "tones whose spans do not overlap (more than {} bins apart under the {window} window)",
-                            2 * half
-                        ),
-                        format!(
-                            "{} at bin {:.2} and {name} at bin {b:.2}",
-                            tones[j].0, tones[j].1
-                        ),
-                    ))
-                }
-                Bin::Noise => owner[k] = Bin::Tone(i),
-                _ => {}
-            }
-        }
-    }
-    let mut claims = Vec::with_capacity(spurs.len());
-    for (i, (_, b)) in spurs.iter().enumerate() {
-        let centre = (b.round().max(0.0) as usize).min(last);
-        let masked_by = match owner[centre] {
-            Bin::Dc => Some("dc".to_string()),
-            Bin::Tone(j) => Some(tones[j].0.clone()),
-            Bin::Spur(j) => Some(spurs[j].0.clone()),
-            Bin::Noise => None,
-        };
-        let mut mine = Vec::new();
-        if masked_by.is_none() {
-            for k in span(centre) {
-                if owner[k] == Bin::Noise {
-                    owner[k] = Bin::Spur(i);
-                    mine.push(k);
-                }
-            }
-        }
-        claims.push(SpurClaim {
-            bin: *b,
-            masked_by,
-            bins: mine,
-        });
-    }
-    Ok(Claimed {
-        owner,
-        half,
-        spurs: claims,
-    })
-}
-
-/// A measured spur (or tone) power.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub(crate) struct SpanLevel {
-    /// The reported power, codes²: noise-corrected, or the raw span power when at the floor.
-    pub level: f64,
-    /// True when the corrected power is no more than the noise expected in the span.
-    pub at_floor: bool,
-}
-
-/// Span measurements of a claimed spectrum.
-#[derive(Debug, Clone, PartialEq)]
-pub(crate) struct SpanMeasures {
-    /// Mean noise power per unit bin weight, codes².
-    pub noise_per_bin: f64,
-    /// Bins the mean came from.
-    pub noise_bins: usize,
-    /// Noise-corrected power of each tone, codes² (never negative).
-    pub tones: Vec<f64>,
-    /// Each spur's level (`None` when masked).
-    pub spurs: Vec<Option<SpanLevel>>,
-    /// The largest noise bin and the summed noise bins of its lobe: (power, bin).
-    pub largest_lobe: Option<(f64, usize)>,
-}
-
-/// Measures tones and spurs as the single-tone figures do (see [`crate::spectrum::metrics`]).
-pub(crate) fn measure_spans(
-    powers: &[f64],
-    c: &Claimed,
-    samples: usize,
-    tones: usize,
-) -> SpanMeasures {
-    let weight = |k: usize| bin_weight(k, samples);
-    let (mut noise_sum, mut noise_w, mut noise_bins) = (0.0, 0.0, 0usize);
-    let mut tone_raw = vec![(0.0, 0.0); tones];
-    for (k, (&p, &o)) in powers.iter().zip(&c.owner).enumerate() {
-        match o {
-            Bin::Noise => {
-                noise_sum += p;
-                noise_w += weight(k);
-                noise_bins += 1;
-            }
-            Bin::Tone(i) => {
-                tone_raw[i].0 += p;
-                tone_raw[i].1 += weight(k);
-            }
-            _ => {}
-        }
-    }
-    let noise_per_bin = if noise_w > 0.0 {
-        noise_sum / noise_w
-    } else {
-        0.0
-    };
-    let tones = tone_raw
-        .iter()
-        .map(|(p, w)| (p - noise_per_bin * w).max(0.0))
-        .collect();
-    let spurs = c
-        .spurs
-        .iter()
-        .map(|s| {
-            if s.masked_by.is_some() {
-                return None;
-            }
-            let (raw, w) = s
-                .bins
-                .iter()
-                .fold((0.0, 0.0), |(p, w), &k| (p + powers[k], w + weight(k)));
-            let expected = noise_per_bin * w;
-            let corrected = raw - expected;
-            let at_floor = corrected <= expected;
-            Some(SpanLevel {
-                level: if at_floor { raw } else { corrected },
-                at_floor,
-            })
-        })
-        .collect();
-    let mut peak: Option<(f64, usize)> = None;
-    for (k, &p) in powers.iter().enumerate() {
-        if c.owner[k] == Bin::Noise && p > peak.map_or(0.0, |x| x.0) {
-            peak = Some((p, k));
-        }
-    }
-    let largest_lobe = peak.map(|(_, k)| {
-        let lo = k.saturating_sub(c.half);
-        let hi = (k + c.half).min(powers.len() - 1);
-        let lobe = (lo..=hi)
-            .filter(|&j| c.owner[j] == Bin::Noise)
-            .map(|j| powers[j])
-            .sum();
-        (lobe, k)
-    });
-    SpanMeasures {
-        noise_per_bin,
-        noise_bins,
-        tones,
-        spurs,
-        largest_lobe,
-    }
-}
-
-/// Coherence of one tone: its fitted cycle count within 4σ (σ from the Cramér-Rao form of
-/// [`crate::fit::cycles_std`], at least 1e-9 cycles) of an integer, or, for offsets below 0.01 cycles,
-/// an unwindowed spectrum whose two neighbour bins hold less than a tenth of the leakage a real offset
-/// would put there (the single-tone analysis's rule; `rect` is the rectangular power spectrum).
-pub(crate) fn tone_is_coherent(cycles: f64, sigma: f64, rect: &[f64]) -> bool {
-    let offset = cycles - cycles.round();
-    if offset.abs() <= (COHERENCE_SIGMAS * sigma).max(1e-9) {
-        return true;
-    }
-    let k0 = cycles.round() as usize;
-    if offset.abs() > SPECTRAL_CHECK_CYCLES || k0 < 2 || k0 + 2 > rect.len() {
-        return false;
-    }
-    let d = offset.abs();
-    let predicted = rect[k0] * ((d / (1.0 - d)).powi(2) + (d / (1.0 + d)).powi(2));
-    rect[k0 - 1] + rect[k0 + 1] < 0.1 * predicted
-}
-
-/// 10·log10 of a power ratio, `None` unless positive and finite.
-pub(crate) fn db(x: f64) -> Option<f64> {
-    (x > 0.0 && x.is_finite()).then(|| 10.0 * x.log10())
-}
 
 // ───────────────────────── the two-tone analysis ─────────────────────────
 
@@ -521,7 +49,7 @@ pub(crate) fn db(x: f64) -> Option<f64> {
 pub struct ImdSettings {
     /// The window choice (the rule of [`crate::spectrum`] for `Auto`, decided on the stronger tone).
     pub window: WindowChoice,
-    /// Extra bins on each side of every span; `None`: 0 coherent, 1 non-coherent.
+    /// Guard bins on each side of every tone's and product's bins; `None`: 0 coherent, 1 non-coherent.
     pub guard_bins: Option<usize>,
     /// Refine both frequencies by Gauss-Newton (otherwise the fit stays at the located frequencies).
     pub refine_frequencies: bool,
@@ -602,7 +130,7 @@ pub fn product_places(f1_hz: f64, f2_hz: f64, sample_rate_hz: f64) -> Vec<Produc
             order: m.unsigned_abs() + n.unsigned_abs(),
             f1_multiple: m,
             f2_multiple: n,
-            frequency_hz: crate::plan::fold_to_first_zone(
+            frequency_hz: crate::freq::fold_to_first_zone(
                 m as f64 * f1 + n as f64 * f2,
                 sample_rate_hz,
             ),
@@ -648,7 +176,7 @@ pub struct TwoToneFit {
 pub struct ToneLevel {
     /// Frequency (from the fit), hertz.
     pub frequency_hz: f64,
-    /// Power summed over its span, noise subtracted, relative to full scale.
+    /// Power summed over its bins, noise subtracted, relative to full scale.
     pub dbfs: Option<f64>,
     /// Whether this tone is coherent (see the single-tone rule).
     pub coherent: bool,
@@ -679,7 +207,7 @@ pub struct ProductFigure {
     pub masked: bool,
     /// What masks it: "dc", "f1", "f2" or a product name.
     pub masked_by: Option<String>,
-    /// True when no more than the noise expected in its span: the level is then an upper bound.
+    /// True when no more than the noise expected under its bins: the level is then an upper bound.
     pub at_floor: bool,
 }
 
@@ -707,7 +235,7 @@ pub struct ImdSpectrum {
     pub coherent: bool,
     /// Bin width fs/N, hertz.
     pub bin_width_hz: f64,
-    /// Half-width of every span, bins.
+    /// Half-width of the bins of every tone and product (main lobe plus guard bins).
     pub tone_halfwidth_bins: usize,
     /// The two tones, lower frequency first.
     pub tones: Vec<ToneLevel>,
@@ -733,42 +261,17 @@ pub struct ImdSpectrum {
     pub noise_bins: usize,
 }
 
-/// The result record of one two-tone analysis (what `spurline imd --json` prints).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct ImdResult {
-    /// Where the record came from.
-    pub source: String,
-    /// Samples in the record.
-    pub samples: usize,
-    /// Sample rate, hertz.
-    pub sample_rate_hz: f64,
-    /// Resolution N, bits.
-    pub bits: u32,
+/// What the two-tone analysis finds.
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
+pub struct TwoTone {
     /// The joint fit.
     pub fit: Option<TwoToneFit>,
     /// The spectral figures.
     pub spectrum: Option<ImdSpectrum>,
-    /// Everything the user should know about this record.
-    pub warnings: Vec<String>,
-    /// Set when the record failed; the figures are then absent.
-    pub error: Option<ErrorReport>,
 }
 
-impl ImdResult {
-    /// The result record of a record that could not be analysed.
-    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> ImdResult {
-        ImdResult {
-            source: source.to_string(),
-            samples: 0,
-            sample_rate_hz: 0.0,
-            bits: 0,
-            fit: None,
-            spectrum: None,
-            warnings,
-            error: Some(error.into()),
-        }
-    }
-}
+/// The result record of one two-tone analysis (what `spurline imd --json` prints).
+pub type ImdResult = RecordResult<TwoTone>;
 
 /// Tone-to-median bin power ratio below which a peak is not a tone (40 dB, as the single-tone
 /// location). Common practice, no source.
@@ -952,15 +455,12 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
     }
 
     // Coherence of each tone, then the window on the stronger tone's level.
-    let rect = power_spectrum(&y, &vec![1.0; n]);
+    let rect = power_spectrum(&y, &[]);
     let coherent: Vec<bool> = tone_fits
         .iter()
         .map(|t| {
-            tone_is_coherent(
-                t.cycles,
-                cycles_std(t.amplitude_codes, residual_rms, n),
-                &rect,
-            )
+            let sigma = cycles_std(t.amplitude_codes, residual_rms, n);
+            coherence::decide(t.cycles, sigma, Unwindowed::Spectrum(&rect)).coherent
         })
         .collect();
     let all_coherent = coherent.iter().all(|&c| c);
@@ -968,33 +468,30 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
         .iter()
         .filter_map(|t| t.amplitude_dbfs)
         .fold(f64::NEG_INFINITY, f64::max);
-    let (window, window_reason) = spectrum::choose_window(
+    let (window, window_reason, half, powers) = window_and_powers(
+        &y,
+        rect,
         settings.window,
         all_coherent,
         bits,
         strongest_dbfs,
         settings.guard_bins,
     );
-    let half = spectrum::tone_halfwidth(window, all_coherent, settings.guard_bins);
-    let powers = if window == Window::Rectangular {
-        rect
-    } else {
-        power_spectrum(&y, &window.samples_shared(n))
-    };
 
     let c1 = tone_fits[0].cycles;
     let c2 = tone_fits[1].cycles;
-    let tones = [("f1".to_string(), c1), ("f2".to_string(), c2)];
-    let spurs: Vec<(String, f64)> = PRODUCTS
+    let tones = [Place::new("f1", c1), Place::new("f2", c2)];
+    let lines: Vec<Place> = PRODUCTS
         .iter()
-        .map(|&(name, _, m, k)| (name.to_string(), fold_bin(m as f64 * c1 + k as f64 * c2, n)))
+        .map(|&(name, _, m, k)| Place::new(name, fold_bin(m as f64 * c1 + k as f64 * c2, n)))
         .collect();
-    let claimed = claim(n, &tones, &spurs, half, &window.name()).map_err(|e| e.with_path(path))?;
-    let meas = measure_spans(&powers, &claimed, n, 2);
+    let claims =
+        claim(n, half, &tones, &lines).map_err(|e| e.to_error(&window.name()).with_path(path))?;
+    let meas = claims.measure(&powers);
     let pfs = full_scale_power(bits);
-    let (p1, p2) = (meas.tones[0], meas.tones[1]);
+    let (p1, p2) = (meas.tones[0].power(), meas.tones[1].power());
     let pref = p1.max(p2);
-    let noise_total = meas.noise_per_bin * n as f64 / 2.0;
+    let noise_total = meas.noise_power;
     for (p, name) in [(p1, "f1"), (p2, "f2")] {
         if p.is_nan() || p <= 10.0 * noise_total {
             return Err(Error::new(
@@ -1009,7 +506,7 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             ));
         }
     }
-    if meas.noise_bins < 8 {
+    if meas.noise_bins < MIN_NOISE_BINS {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise floor is poorly determined (use a longer record)",
             meas.noise_bins
@@ -1017,57 +514,28 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
     }
     let bin_hz = fs / n as f64;
     let mut products = Vec::with_capacity(PRODUCTS.len());
-    let mut worst: Option<(f64, f64, Option<String>)> = None;
     let mut masked = Vec::new();
-    for ((&(name, kind, m, k), slot), level) in PRODUCTS.iter().zip(&claimed.spurs).zip(&meas.spurs)
-    {
-        let frequency_hz = slot.bin * bin_hz;
+    for (i, (&(name, kind, m, k), level)) in PRODUCTS.iter().zip(&meas.lines).enumerate() {
+        let frequency_hz = claims.lines[i].bin * bin_hz;
         let order = m.unsigned_abs() + k.unsigned_abs();
-        let fig = match level {
-            None => {
-                masked.push(format!(
-                    "{name} on {}",
-                    slot.masked_by.as_deref().unwrap_or("?")
-                ));
-                ProductFigure {
-                    name: name.to_string(),
-                    kind,
-                    order,
-                    frequency_hz,
-                    dbc: None,
-                    dbc_f1: None,
-                    dbc_f2: None,
-                    dbfs: None,
-                    masked: true,
-                    masked_by: slot.masked_by.clone(),
-                    at_floor: false,
-                }
-            }
-            Some(l) => {
-                if worst.as_ref().is_none_or(|(p, _, _)| l.level > *p) {
-                    worst = Some((l.level, frequency_hz, Some(name.to_string())));
-                }
-                ProductFigure {
-                    name: name.to_string(),
-                    kind,
-                    order,
-                    frequency_hz,
-                    dbc: db(l.level / pref),
-                    dbc_f1: db(l.level / p1),
-                    dbc_f2: db(l.level / p2),
-                    dbfs: db(l.level / pfs),
-                    masked: false,
-                    masked_by: None,
-                    at_floor: l.at_floor,
-                }
-            }
-        };
-        products.push(fig);
-    }
-    if let Some((lobe, k)) = meas.largest_lobe {
-        if worst.as_ref().is_none_or(|(p, _, _)| lobe > *p) {
-            worst = Some((lobe, k as f64 * bin_hz, None));
+        let masked_by = claims.masked_by(i).map(str::to_string);
+        if let Some(by) = &masked_by {
+            masked.push(format!("{name} on {by}"));
         }
+        let level = level.map(|l| l.level());
+        products.push(ProductFigure {
+            name: name.to_string(),
+            kind,
+            order,
+            frequency_hz,
+            dbc: level.and_then(|l| db(l / pref)),
+            dbc_f1: level.and_then(|l| db(l / p1)),
+            dbc_f2: level.and_then(|l| db(l / p2)),
+            dbfs: level.and_then(|l| db(l / pfs)),
+            masked: masked_by.is_some(),
+            masked_by,
+            at_floor: meas.lines[i].is_some_and(|l| l.at_floor),
+        });
     }
     if !masked.is_empty() {
         warnings.push(format!(
@@ -1078,9 +546,9 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
     let largest = |kind: ProductKind| -> Option<f64> {
         PRODUCTS
             .iter()
-            .zip(&meas.spurs)
+            .zip(&meas.lines)
             .filter(|((_, k, _, _), _)| *k == kind)
-            .filter_map(|(_, l)| l.filter(|l| !l.at_floor).map(|l| l.level))
+            .filter_map(|(_, l)| l.filter(|l| !l.at_floor).map(|l| l.level()))
             .reduce(f64::max)
     };
     let im2 = largest(ProductKind::Im2);
@@ -1102,12 +570,16 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             "the tones differ by {level_gap:.2} dB: dbc refers to the stronger tone, dbc_f1 and dbc_f2 to each"
         ));
     }
-    let worst_spur = worst.and_then(|(p, f, name)| {
+    let worst_spur = meas.largest_spur().and_then(|(p, at)| {
+        let (frequency_hz, product) = match at {
+            SpurAt::Line(i) => (products[i].frequency_hz, Some(products[i].name.clone())),
+            SpurAt::Bin(k) => (k as f64 * bin_hz, None),
+        };
         Some(TwoToneSpur {
-            frequency_hz: f,
+            frequency_hz,
             dbc: db(p / pref)?,
             dbfs: db(p / pfs)?,
-            product: name,
+            product,
         })
     });
     let tone_levels = tone_fits
@@ -1121,11 +593,7 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             offset_cycles: t.cycles - t.cycles.round(),
         })
         .collect();
-    Ok(ImdResult {
-        source: record.source.clone(),
-        samples: n,
-        sample_rate_hz: fs,
-        bits,
+    let found = TwoTone {
         fit: Some(TwoToneFit {
             tones: tone_fits,
             offset_codes: free.linear.offset,
@@ -1152,9 +620,8 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             noise_floor_dbfs: db(meas.noise_per_bin / pfs),
             noise_bins: meas.noise_bins,
         }),
-        warnings,
-        error: None,
-    })
+    };
+    Ok(ImdResult::of(record, found, warnings))
 }
 
 #[cfg(test)]
@@ -1333,7 +800,7 @@ mod tests {
     }
 
     // Non-coherent, unequal tones, 18 bits: the auto rule picks the 7-term Blackman-Harris (leakage
-    // below −180 dBc) and products sum over 17-bin spans.
+    // below −180 dBc) and products sum over 17 bins each.
     #[test]
     fn polynomial_products_recovered_on_a_windowed_record() {
         let bits = 18;
@@ -1373,52 +840,6 @@ mod tests {
         assert!(out.warnings.iter().any(|w| w.contains("differ by")));
     }
 
-    // Slow, obvious reference for the linear part of the fit: dense least squares (QR of the N×5 design
-    // matrix) on noisy data with a fixed seed.
-    #[test]
-    fn linear_fit_agrees_with_dense_least_squares() {
-        use rand::{Rng, SeedableRng};
-        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(3);
-        let n = 2001;
-        let f = [0.0312, 0.0871];
-        let centre = (n as f64 - 1.0) / 2.0;
-        let y: Vec<f64> = (0..n)
-            .map(|k| {
-                let t = k as f64;
-                900.0 * (TAU * f[0] * t + 0.3).cos()
-                    + 400.0 * (TAU * f[1] * t - 2.0).cos()
-                    + 7.0
-                    + rng.gen_range(-3.0..3.0)
-            })
-            .collect();
-        let got = fit_linear(&y, 0, 1, centre, &f).unwrap();
-        let mut d = DMatrix::<f64>::zeros(n, 5);
-        for k in 0..n {
-            let t = k as f64 - centre;
-            for i in 0..2 {
-                d[(k, 2 * i)] = (TAU * f[i] * t).cos();
-                d[(k, 2 * i + 1)] = (TAU * f[i] * t).sin();
-            }
-            d[(k, 4)] = 1.0;
-        }
-        let yv = DVector::from_vec(y);
-        let qr = d.clone().qr();
-        let x = qr
-            .r()
-            .solve_upper_triangular(&(qr.q().transpose() * &yv))
-            .unwrap();
-        for i in 0..2 {
-            assert!((got.coeffs[i].0 - x[2 * i]).abs() < 1e-8 * 900.0);
-            assert!((got.coeffs[i].1 - x[2 * i + 1]).abs() < 1e-8 * 900.0);
-        }
-        assert!((got.offset - x[4]).abs() < 1e-8);
-        let rss = (&yv - &d * &x).norm_squared();
-        assert!((got.rss / rss - 1.0).abs() < 1e-9);
-        // The reported phase is that of the generating sine at sample 0.
-        let (a, b) = got.coeffs[0];
-        assert!((phase_at_zero(a, b, f[0], centre) - 0.3).abs() < 0.01);
-    }
-
     // Without refinement the frequencies are the Hann interpolator's, within 0.01 bin of the truth
     // when the other tone is 200 bins away (its Hann leakage there is below −100 dB).
     #[test]
@@ -1429,7 +850,7 @@ mod tests {
             ..ImdSettings::default()
         };
         let out = analyze_two_tone(&r, &s).unwrap();
-        let fit = out.fit.unwrap();
+        let fit = out.found.fit.unwrap();
         assert!(!fit.refined && fit.iterations == 0);
         assert!((fit.tones[0].cycles - 500.3).abs() < 0.01);
         assert!((fit.tones[1].cycles - 700.8).abs() < 0.01);
@@ -1442,7 +863,7 @@ mod tests {
     fn products_on_tones_or_other_products_are_masked() {
         let r = record(16, 4096, [1001.0, 1093.0], [-7.0, -7.0], 1e-3, 1e-3);
         let out = analyze_two_tone(&r, &ImdSettings::default()).unwrap();
-        let sp = out.spectrum.unwrap();
+        let sp = out.found.spectrum.unwrap();
         for (name, by) in [
             ("2f1+f2", "f1"),
             ("2f2+f1", "2f1-f2"),

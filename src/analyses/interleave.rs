@@ -14,7 +14,8 @@
 //!
 //! This holds exactly for a sine input; the usual small-mismatch forms follow with
 //! Z_m ≈ A·e^{jφ}·(1 + g_m + j·2π·f·τ_m). (Standard small-mismatch analysis, from memory.) Each spur is
-//! reported as measured (spans, noise correction and masking as in the two-tone analysis) and as
+//! reported as measured (claimed, noise-corrected and masked by the engine the other analyses use,
+//! [`crate::spectrum::claim`]) and as
 //! predicted from the channel estimates by these formulas.
 //!
 //! # Estimates
@@ -24,12 +25,15 @@
 //! (φ_m − mean φ)/(2π·f) seconds, positive when the channel samples late. Phase differences are taken in
 //! (−π, π], so a timing error of half an input period or more cannot be told from a smaller one.
 
-use crate::analyses::imd::{claim, db, fit_linear, measure_spans, phase_at_zero, tone_is_coherent};
-use crate::analysis::ErrorReport;
-use crate::fit::{fit_four, FourParamOptions, SineFit};
-use crate::plan::{fold_bin, fold_to_first_zone};
-use crate::spectrum::fft::power_spectrum;
-use crate::spectrum::{self, Window, WindowChoice};
+use crate::analysis::RecordResult;
+use crate::dft::fft::power_spectrum;
+use crate::fit::multi_tone::fit_linear;
+use crate::fit::{fit_four, phase_at_zero, wrap_phase, FourParamOptions, SineFit};
+use crate::freq::{fold_bin, fold_to_first_zone};
+use crate::spectrum::claim::{claim, Place, MIN_NOISE_BINS};
+use crate::spectrum::coherence::{self, Unwindowed};
+use crate::spectrum::metrics::db;
+use crate::spectrum::rule::{window_and_powers, WindowChoice};
 use crate::{full_scale_power, Error, ErrorKind, Location, Record, Result};
 use realfft::num_complex::Complex64;
 use serde::Serialize;
@@ -45,12 +49,12 @@ pub struct InterleaveSettings {
     pub channels: usize,
     /// The window choice (the rule of [`crate::spectrum`] for `Auto`).
     pub window: WindowChoice,
-    /// Extra bins on each side of every span; `None`: 0 coherent, 1 non-coherent.
+    /// Guard bins on each side of every tone's and spur's bins; `None`: 0 coherent, 1 non-coherent.
     pub guard_bins: Option<usize>,
 }
 
 impl InterleaveSettings {
-    /// Settings for M channels with the automatic window and default spans.
+    /// Settings for M channels with the automatic window and default guard bins.
     pub fn new(channels: usize) -> Self {
         InterleaveSettings {
             channels,
@@ -114,7 +118,7 @@ pub struct InterleaveSpur {
     pub masked: bool,
     /// What masks it.
     pub masked_by: Option<String>,
-    /// True when no more than the noise expected in its span: the level is then an upper bound.
+    /// True when no more than the noise expected under its bins: the level is then an upper bound.
     pub at_floor: bool,
 }
 
@@ -129,9 +133,9 @@ pub struct InterleaveSpectrum {
     pub coherent: bool,
     /// Bin width fs/N, hertz.
     pub bin_width_hz: f64,
-    /// Half-width of every span, bins.
+    /// Half-width of the bins of the fundamental and every spur (main lobe plus guard bins).
     pub tone_halfwidth_bins: usize,
-    /// Fundamental level (span power, noise subtracted), dBFS.
+    /// Fundamental level (power of its bins, noise subtracted), dBFS.
     pub fundamental_dbfs: Option<f64>,
     /// Offset spurs (k = 1..=M/2), then gain/timing spurs (k = 1..M−1).
     pub spurs: Vec<InterleaveSpur>,
@@ -145,17 +149,9 @@ pub struct InterleaveSpectrum {
     pub noise_bins: usize,
 }
 
-/// The result record of one interleaving analysis (what `spurline interleave --json` prints).
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct InterleaveResult {
-    /// Where the record came from.
-    pub source: String,
-    /// Samples in the record.
-    pub samples: usize,
-    /// Aggregate sample rate, hertz.
-    pub sample_rate_hz: f64,
-    /// Resolution N, bits.
-    pub bits: u32,
+/// What the interleaving analysis finds.
+#[derive(Debug, Clone, PartialEq, Default, Serialize)]
+pub struct Interleaved {
     /// Number of channels M.
     pub channels: usize,
     /// The four-parameter fit of the whole record.
@@ -164,29 +160,11 @@ pub struct InterleaveResult {
     pub channel_estimates: Vec<ChannelEstimate>,
     /// The spectral figures.
     pub spectrum: Option<InterleaveSpectrum>,
-    /// Everything the user should know about this record.
-    pub warnings: Vec<String>,
-    /// Set when the record failed; the figures are then absent.
-    pub error: Option<ErrorReport>,
 }
 
-impl InterleaveResult {
-    /// The result record of a record that could not be analysed.
-    pub fn failed(source: &str, error: &Error, warnings: Vec<String>) -> InterleaveResult {
-        InterleaveResult {
-            source: source.to_string(),
-            samples: 0,
-            sample_rate_hz: 0.0,
-            bits: 0,
-            channels: 0,
-            fit: None,
-            channel_estimates: Vec::new(),
-            spectrum: None,
-            warnings,
-            error: Some(error.into()),
-        }
-    }
-}
+/// The result record of one interleaving analysis (what `spurline interleave --json` prints); its
+/// sample rate is the aggregate rate.
+pub type InterleaveResult = RecordResult<Interleaved>;
 
 /// The M-point DFT coefficient (1/M)·Σ_m v_m·e^{−j2πkm/M}.
 fn dft_coefficient(v: &[Complex64], k: usize) -> Complex64 {
@@ -197,14 +175,6 @@ fn dft_coefficient(v: &[Complex64], k: usize) -> Complex64 {
         acc += z * Complex64::from_polar(1.0, th);
     }
     acc / m as f64
-}
-
-fn wrap(phase: f64) -> f64 {
-    let mut p = phase.rem_euclid(TAU);
-    if p > PI {
-        p -= TAU;
-    }
-    p
 }
 
 /// Analyses a record of an M-channel time-interleaved converter (see the module docs).
@@ -307,7 +277,7 @@ pub fn analyze_interleaved(
         ));
     }
     let mean_c = offsets.iter().map(|v| v.re).sum::<f64>() / m as f64;
-    let dphi: Vec<f64> = z.iter().map(|v| wrap(v.arg() - z[0].arg())).collect();
+    let dphi: Vec<f64> = z.iter().map(|v| wrap_phase(v.arg() - z[0].arg())).collect();
     let mean_dphi = dphi.iter().sum::<f64>() / m as f64;
     let estimates: Vec<ChannelEstimate> = raw
         .iter()
@@ -331,47 +301,48 @@ pub fn analyze_interleaved(
         );
     }
 
-    // Spectrum: coherence, window and spans as in the single-tone analysis.
-    let rect = power_spectrum(&y, &vec![1.0; n]);
-    let coherent = tone_is_coherent(fit.cycles, fit.cycles_std, &rect);
-    let (window, window_reason) = spectrum::choose_window(
+    // Spectrum: coherence, window and claims as in the single-tone analysis.
+    let rect = power_spectrum(&y, &[]);
+    let coherent =
+        coherence::decide(fit.cycles, fit.cycles_std, Unwindowed::Spectrum(&rect)).coherent;
+    let (window, window_reason, half, powers) = window_and_powers(
+        &y,
+        rect,
         settings.window,
         coherent,
         bits,
         fit.amplitude_dbfs,
         settings.guard_bins,
     );
-    let half = spectrum::tone_halfwidth(window, coherent, settings.guard_bins);
-    let powers = if window == Window::Rectangular {
-        rect
-    } else {
-        power_spectrum(&y, &window.samples_shared(n))
-    };
     let bins_per_channel_rate = n as f64 / m as f64;
-    let mut spots: Vec<(InterleaveSpurKind, usize, String, f64)> = Vec::new();
+    let mut spots: Vec<(InterleaveSpurKind, usize, Place)> = Vec::new();
     for k in 1..=m / 2 {
         spots.push((
             InterleaveSpurKind::Offset,
             k,
-            format!("{k}*fs/{m}"),
-            fold_bin(k as f64 * bins_per_channel_rate, n),
+            Place::new(
+                format!("{k}*fs/{m}"),
+                fold_bin(k as f64 * bins_per_channel_rate, n),
+            ),
         ));
     }
     for k in 1..m {
         spots.push((
             InterleaveSpurKind::GainTiming,
             k,
-            format!("{k}*fs/{m}+fin"),
-            fold_bin(fit.cycles + k as f64 * bins_per_channel_rate, n),
+            Place::new(
+                format!("{k}*fs/{m}+fin"),
+                fold_bin(fit.cycles + k as f64 * bins_per_channel_rate, n),
+            ),
         ));
     }
-    let tones = [("fundamental".to_string(), fit.cycles)];
-    let named: Vec<(String, f64)> = spots.iter().map(|s| (s.2.clone(), s.3)).collect();
-    let claimed = claim(n, &tones, &named, half, &window.name()).map_err(|e| e.with_path(path))?;
-    let meas = measure_spans(&powers, &claimed, n, 1);
-    let p1 = meas.tones[0];
+    let lines: Vec<Place> = spots.iter().map(|s| s.2.clone()).collect();
+    let claims = claim(n, half, &[Place::new("fundamental", fit.cycles)], &lines)
+        .map_err(|e| e.to_error(&window.name()).with_path(path))?;
+    let meas = claims.measure(&powers);
+    let p1 = meas.tones[0].power();
     let pfs = full_scale_power(bits);
-    let noise_total = meas.noise_per_bin * n as f64 / 2.0;
+    let noise_total = meas.noise_power;
     if p1.is_nan() || p1 <= 10.0 * noise_total {
         return Err(Error::new(
             ErrorKind::NoTone,
@@ -389,9 +360,7 @@ pub fn analyze_interleaved(
     let bin_hz = fs / n as f64;
     let mut spurs = Vec::with_capacity(spots.len());
     let mut masked = Vec::new();
-    for ((kind, k, name, _), (slot, level)) in
-        spots.iter().zip(claimed.spurs.iter().zip(&meas.spurs))
-    {
+    for (i, ((kind, k, place), level)) in spots.iter().zip(&meas.lines).enumerate() {
         let predicted_power = match kind {
             InterleaveSpurKind::Offset => {
                 let c = dft_coefficient(&offsets, *k).norm();
@@ -406,19 +375,20 @@ pub fn analyze_interleaved(
                 c * c / 2.0
             }
         };
-        if let Some(by) = &slot.masked_by {
-            masked.push(format!("{name} on {by}"));
+        let masked_by = claims.masked_by(i).map(str::to_string);
+        if let Some(by) = &masked_by {
+            masked.push(format!("{} on {by}", place.name));
         }
         spurs.push(InterleaveSpur {
             kind: *kind,
             k: *k,
-            name: name.clone(),
-            frequency_hz: slot.bin * bin_hz,
-            dbc: level.and_then(|l| db(l.level / p1)),
-            dbfs: level.and_then(|l| db(l.level / pfs)),
+            name: place.name.clone(),
+            frequency_hz: place.bin * bin_hz,
+            dbc: level.and_then(|l| db(l.level() / p1)),
+            dbfs: level.and_then(|l| db(l.level() / pfs)),
             predicted_dbc: db(predicted_power / p_pred_fund),
             masked: level.is_none(),
-            masked_by: slot.masked_by.clone(),
+            masked_by,
             at_floor: level.is_some_and(|l| l.at_floor),
         });
     }
@@ -428,7 +398,7 @@ pub fn analyze_interleaved(
             masked.join(", ")
         ));
     }
-    if meas.noise_bins < 8 {
+    if meas.noise_bins < MIN_NOISE_BINS {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise floor is poorly determined (use a longer record)",
             meas.noise_bins
@@ -437,17 +407,13 @@ pub fn analyze_interleaved(
     let largest = |kind: InterleaveSpurKind| {
         spots
             .iter()
-            .zip(&meas.spurs)
+            .zip(&meas.lines)
             .filter(|(s, _)| s.0 == kind)
-            .filter_map(|(_, l)| l.filter(|l| !l.at_floor).map(|l| l.level))
+            .filter_map(|(_, l)| l.filter(|l| !l.at_floor).map(|l| l.level()))
             .reduce(f64::max)
             .and_then(|p| db(p / p1))
     };
-    Ok(InterleaveResult {
-        source: record.source.clone(),
-        samples: n,
-        sample_rate_hz: fs,
-        bits,
+    let found = Interleaved {
         channels: m,
         fit: Some(fit),
         channel_estimates: estimates,
@@ -464,9 +430,8 @@ pub fn analyze_interleaved(
             noise_floor_dbfs: db(meas.noise_per_bin / pfs),
             noise_bins: meas.noise_bins,
         }),
-        warnings,
-        error: None,
-    })
+    };
+    Ok(InterleaveResult::of(record, found, warnings))
 }
 
 #[cfg(test)]
@@ -697,11 +662,11 @@ mod tests {
         }
     }
 
-    // A non-coherent record (7-term Blackman-Harris, spans of ±8 bins) with fin 3.3 bins below fs/4:
-    // with M = 2 the image fs/2 − fin lies 6.6 bins from the fundamental, inside its span, so it is
+    // A non-coherent record (7-term Blackman-Harris, tone bins of ±8) with fin 3.3 bins below fs/4:
+    // with M = 2 the image fs/2 − fin lies 6.6 bins from the fundamental, inside its bins, so it is
     // flagged masked and not measured (claiming rule of the module docs).
     #[test]
-    fn an_image_inside_the_fundamental_span_is_masked() {
+    fn an_image_inside_the_fundamental_bins_is_masked() {
         let rec = interleaved(&InterleavedSettings {
             bits: 16,
             sample_rate_hz: FS,

@@ -69,18 +69,6 @@ pub fn run(args: ImdArgs) -> i32 {
     )
 }
 
-impl super::FileResult for ImdResult {
-    fn failed(source: &str, e: &spurline::Error, warnings: Vec<String>) -> Self {
-        ImdResult::failed(source, e, warnings)
-    }
-    fn warnings_mut(&mut self) -> &mut Vec<String> {
-        &mut self.warnings
-    }
-    fn error_message(&self) -> Option<&str> {
-        self.error.as_ref().map(|e| e.message.as_str())
-    }
-}
-
 /// Renders one result as a block of labelled lines.
 pub fn render(r: &ImdResult) -> String {
     let mut s = String::new();

@@ -58,18 +58,6 @@ pub fn run(args: InterleaveArgs) -> i32 {
     )
 }
 
-impl super::FileResult for InterleaveResult {
-    fn failed(source: &str, e: &spurline::Error, warnings: Vec<String>) -> Self {
-        InterleaveResult::failed(source, e, warnings)
-    }
-    fn warnings_mut(&mut self) -> &mut Vec<String> {
-        &mut self.warnings
-    }
-    fn error_message(&self) -> Option<&str> {
-        self.error.as_ref().map(|e| e.message.as_str())
-    }
-}
-
 /// Renders one result as a block of labelled lines.
 pub fn render(r: &InterleaveResult) -> String {
     let mut s = String::new();

@@ -16,6 +16,7 @@ mod synth;
 mod verify;
 
 use clap::{Args, Parser, Subcommand};
+use spurline::analysis::RecordResult;
 
 /// Exit status: all records analysed and every limit passed.
 pub const EXIT_OK: i32 = 0;
@@ -93,38 +94,29 @@ pub fn run(cli: Cli) -> i32 {
     }
 }
 
-/// A per-record result of the commands that analyse each file on its own (`imd`, `interleave`).
-pub(crate) trait FileResult: serde::Serialize {
-    /// The result of a record that could not be read or analysed.
-    fn failed(source: &str, e: &spurline::Error, warnings: Vec<String>) -> Self;
-    /// Its warnings, to put the reader's before the analysis's.
-    fn warnings_mut(&mut self) -> &mut Vec<String>;
-    /// Its error message, if it failed.
-    fn error_message(&self) -> Option<&str>;
-}
-
 /// Reads and analyses each file in order (one bad file is a failed result, the rest go on), prints
 /// one JSON array or the text blocks, repeats the errors on stderr, and gives the exit status.
-pub(crate) fn run_files<R: FileResult>(
+pub(crate) fn run_files<T: Default + serde::Serialize>(
     files: &[std::path::PathBuf],
     ingest: &spurline::ingest::IngestSettings,
     json: bool,
-    analyse: impl Fn(&spurline::Record) -> spurline::Result<R>,
-    render: impl Fn(&R) -> String,
+    analyse: impl Fn(&spurline::Record) -> spurline::Result<RecordResult<T>>,
+    render: impl Fn(&RecordResult<T>) -> String,
 ) -> i32 {
     let mut results = Vec::with_capacity(files.len());
     for path in files {
         let shown = path.display().to_string();
         let r = match spurline::ingest::read_record(path, ingest) {
-            Err(e) => R::failed(&shown, &e, Vec::new()),
+            Err(e) => RecordResult::failed(&shown, &e, Vec::new()),
             Ok(ing) => match analyse(&ing.record) {
                 Ok(mut r) => {
+                    // The reader's warnings come before the analysis's.
                     let mut w = ing.warnings;
-                    w.append(r.warnings_mut());
-                    *r.warnings_mut() = w;
+                    w.append(&mut r.warnings);
+                    r.warnings = w;
                     r
                 }
-                Err(e) => R::failed(&shown, &e, ing.warnings),
+                Err(e) => RecordResult::failed(&shown, &e, ing.warnings),
             },
         };
         results.push(r);
@@ -140,7 +132,10 @@ pub(crate) fn run_files<R: FileResult>(
         }
     }
     let mut any_error = false;
-    for m in results.iter().filter_map(|r| r.error_message()) {
+    for m in results
+        .iter()
+        .filter_map(|r| r.error.as_ref().map(|e| e.message.as_str()))
+    {
         any_error = true;
         eprintln!("spurline: error: {m}");
     }

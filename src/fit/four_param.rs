@@ -9,8 +9,8 @@ use super::sums::{
 };
 use super::three_param::solve_three;
 use super::{
-    centre_of, cycles_std, finish, residual_of, residual_pass, Centred, Ending, FitMethod,
-    FitOutput, SineFit,
+    centre_of, cycles_std, edge_warnings, finish, residual_of, residual_pass, Centred, Ending,
+    FitMethod, FitOutput,
 };
 use crate::{Error, ErrorKind, Location, Result};
 use nalgebra::{Matrix4, Vector4};
@@ -458,22 +458,6 @@ pub fn fit_four(
         residual,
         warnings,
     })
-}
-
-/// Warnings for fits near the edges where the sine model is poorly determined.
-pub(crate) fn edge_warnings(fit: &SineFit, samples: usize, warnings: &mut Vec<String>) {
-    let half = samples as f64 / 2.0;
-    if fit.cycles < 2.0 {
-        warnings.push(format!(
-            "only {:.2} cycles in the record (within 2 bins of DC): fit and spectrum are poorly determined",
-            fit.cycles
-        ));
-    } else if half - fit.cycles < 2.0 {
-        warnings.push(format!(
-            "tone within 2 bins of Nyquist ({:.2} bins away): fit and spectrum are poorly determined",
-            half - fit.cycles
-        ));
-    }
 }
 
 #[cfg(test)]

@@ -1,8 +1,10 @@
 //! Sine fits (IEEE Std 1241 / IEEE Std 1057): three-parameter at a known frequency, four-parameter when
-//! the frequency must be found. Both work on a centred time index in f64.
+//! the frequency must be found, and the fit of several sines at once (`multi_tone`). All work on a
+//! centred time index in f64.
 
 mod closed;
 mod four_param;
+pub(crate) mod multi_tone;
 mod start;
 mod sums;
 mod three_param;
@@ -113,14 +115,7 @@ pub(crate) fn finish(
         converged,
     } = ending;
     let amplitude = p.a.hypot(p.b);
-    // In the centred frame the phase is atan2(−b, a); move the origin back to n = 0.
-    let centred_phase = (-p.b).atan2(p.a);
-    let shift = sums::reduced_product(p.cycles_per_sample, centre_of(samples));
-    let mut phase = centred_phase - TAU * shift;
-    phase = phase.rem_euclid(TAU);
-    if phase > PI {
-        phase -= TAU;
-    }
+    let phase = phase_at_zero(p.a, p.b, p.cycles_per_sample, centre_of(samples));
     let fs_amp = crate::full_scale_amplitude_codes(bits);
     let (sinad_db, enob_bits) = if residual_rms > 0.0 && amplitude > 0.0 {
         let sinad = 20.0 * ((amplitude / 2f64.sqrt()) / residual_rms).log10();
@@ -147,6 +142,22 @@ pub(crate) fn finish(
     }
 }
 
+/// A phase wrapped into (−π, π].
+pub fn wrap_phase(phase: f64) -> f64 {
+    let mut p = phase.rem_euclid(TAU);
+    if p > PI {
+        p -= TAU;
+    }
+    p
+}
+
+/// Phase at sample 0, in (−π, π], of a·cos θ + b·sin θ with θ = 2π·f·(n − centre) (f in cycles per
+/// sample): in the centred frame the phase is atan2(−b, a), and the origin moves back to n = 0 by the
+/// exactly reduced turns f·centre.
+pub fn phase_at_zero(a: f64, b: f64, cycles_per_sample: f64, centre: f64) -> f64 {
+    wrap_phase((-b).atan2(a) - TAU * sums::reduced_product(cycles_per_sample, centre))
+}
+
 /// One-sigma uncertainty of the cycle count of a real sine of amplitude A in real white noise of rms σ
 /// over N samples: the Cramér-Rao bound var(ω) = 12 / (SNR·N·(N²−1)) rad²/sample² with SNR = A²/(2σ²),
 /// i.e. 24σ² / (A²·N·(N²−1)), times N/(2π). (Rife & Boorstyn 1974 write 12σ²/(b²N(N²−1)) for a complex
@@ -160,6 +171,22 @@ pub fn cycles_std(amplitude: f64, noise_rms: f64, samples: usize) -> f64 {
     }
     let var_omega = 24.0 * noise_rms * noise_rms / (amplitude * amplitude * n * (n * n - 1.0));
     var_omega.sqrt() * n / TAU
+}
+
+/// Warnings for fits near the edges where the sine model is poorly determined.
+pub(crate) fn edge_warnings(fit: &SineFit, samples: usize, warnings: &mut Vec<String>) {
+    let half = samples as f64 / 2.0;
+    if fit.cycles < 2.0 {
+        warnings.push(format!(
+            "only {:.2} cycles in the record (within 2 bins of DC): fit and spectrum are poorly determined",
+            fit.cycles
+        ));
+    } else if half - fit.cycles < 2.0 {
+        warnings.push(format!(
+            "tone within 2 bins of Nyquist ({:.2} bins away): fit and spectrum are poorly determined",
+            half - fit.cycles
+        ));
+    }
 }
 
 /// The residual of the centred model with its sums: Σr², and [Σr, Σr·cos, Σr·sin, Σt·r·cos, Σt·r·sin]

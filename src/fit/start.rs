@@ -1,7 +1,8 @@
 //! Starting frequency for the four-parameter fit: the Hann-windowed FFT peak refined by the exact
 //! three-bin Hann interpolator.
 
-use crate::spectrum::fft::real_fft;
+use crate::dft::fft::real_fft;
+use crate::dft::Window;
 use crate::{Error, ErrorKind, Location, Result};
 
 /// Longest stretch used to locate the tone. The Hann three-bin interpolator is exact for a lone tone, so
@@ -27,7 +28,7 @@ pub fn estimate_frequency(y: &[f64], hint_cycles_per_sample: Option<f64>) -> Res
     // A hint above fs/2 (an undersampled input) names the alias in the first Nyquist zone; folding it
     // there also keeps the search window inside the spectrum. A non-finite hint is no hint.
     let hint_cycles_per_sample = hint_cycles_per_sample
-        .map(|h| crate::plan::fold_to_first_zone(h, 1.0))
+        .map(|h| crate::freq::fold_to_first_zone(h, 1.0))
         .filter(|h| h.is_finite());
     if y.len() > START_LEN {
         if let Ok(f) = locate(&y[..START_LEN], hint_cycles_per_sample, y.len()) {
@@ -59,7 +60,7 @@ fn locate(seg: &[f64], hint_cycles_per_sample: Option<f64>, n: usize) -> Result<
         }
     }
     let mean = crate::fit::sums::total(&lanes) / m as f64;
-    let hann = crate::spectrum::Window::Hann.samples_shared(m);
+    let hann = Window::Hann.samples_shared(m);
     let mut buf: Vec<f64> = seg
         .iter()
         .zip(hann.iter())

@@ -73,7 +73,7 @@ pub fn fit_three(
         },
     );
     let mut warnings = Vec::new();
-    super::four_param::edge_warnings(&fit, y.len(), &mut warnings);
+    super::edge_warnings(&fit, y.len(), &mut warnings);
     Ok(FitOutput {
         fit,
         residual,

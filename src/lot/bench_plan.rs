@@ -719,7 +719,7 @@ impl BenchPlan {
     pub fn ingest_for(&self, condition: &Condition) -> IngestSettings {
         let mut s = self.ingest.clone();
         let fs = s.meta.sample_rate_hz.unwrap_or(f64::NAN);
-        let folded = crate::plan::fold_to_first_zone(condition.fin_hz, fs);
+        let folded = crate::freq::fold_to_first_zone(condition.fin_hz, fs);
         // A tone folded onto DC or Nyquist gives no usable hint; the fit then searches the band.
         s.meta.fin_hz = (folded > 0.0 && folded < fs / 2.0).then_some(folded);
         s

@@ -376,7 +376,7 @@ fn plan_checks(cond: &Condition, a: &Analysis) -> Vec<String> {
     }
     if a.samples > 0 && a.sample_rate_hz > 0.0 {
         let bin = a.sample_rate_hz / a.samples as f64;
-        let expected = crate::plan::fold_to_first_zone(cond.fin_hz, a.sample_rate_hz);
+        let expected = crate::freq::fold_to_first_zone(cond.fin_hz, a.sample_rate_hz);
         let off = (fit.frequency_hz - expected) / bin;
         if off.abs() > FREQUENCY_WARN_BINS {
             out.push(format!(

@@ -1,13 +1,18 @@
 //! Leakage diagnosis: how much the record's own spectral leakage, at its actual fractional-bin offset
 //! and under the chosen window, can bias SNR and SFDR, and what would fix it.
 
-use super::fft::power_spectrum;
+use super::claim::Claims;
+use super::coherence::Coherence;
 use super::metrics::Figures;
-use super::tones::{Claims, Owner};
-use super::{tone_halfwidth, Coherence, Window, AUTO_LADDER, BIAS_WARN_DB};
+use super::rule::{tone_halfwidth, AUTO_LADDER};
+use crate::dft::fft::power_spectrum;
+use crate::dft::{Leakage, Window};
 use crate::fit::SineFit;
 use serde::Serialize;
 use std::f64::consts::TAU;
+
+/// A bias above this (dB) in SNR or SFDR raises a leakage warning.
+pub const BIAS_WARN_DB: f64 = 0.1;
 
 /// The leakage figures of one analysis (`spectrum.leakage` in the JSON).
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -15,10 +20,10 @@ pub struct LeakageDiagnosis {
     /// Tone offset from its centre bin used for the diagnosis, in bins (−0.5..0.5): 0 for a record judged
     /// coherent, whose fitted offset (`coherence.offset_cycles`) is within the fit's own uncertainty.
     pub offset_bins: f64,
-    /// Fundamental power that falls outside its span, relative to the fundamental (from the window's
+    /// Fundamental power that falls outside its bins, relative to the fundamental (from the window's
     /// known spectrum at this offset); `None` when below the rounding floor.
     pub outside_tone_bins_dbc: Option<f64>,
-    /// The largest single leaked bin outside the span, dBc.
+    /// The largest single leaked bin outside the fundamental's bins, dBc.
     pub worst_bin_dbc: Option<f64>,
     /// Loss of the peak bin against a bin-centred tone at this offset (scalloping), dB.
     pub scalloping_loss_db: f64,
@@ -41,7 +46,7 @@ fn bias_db(measured: f64, unwanted: f64) -> f64 {
     (10.0 * (measured / clean).log10()).min(100.0)
 }
 
-fn biases(window: Window, half: usize, offset: f64, figs: &Figures) -> (f64, f64, super::Leakage) {
+fn biases(window: Window, half: usize, offset: f64, figs: &Figures) -> (f64, f64, Leakage) {
     let leak = window.leakage(offset, half);
     let to_power =
         |dbc: Option<f64>| dbc.map_or(0.0, |d| figs.fundamental_power * 10f64.powf(d / 10.0));
@@ -97,7 +102,7 @@ pub(crate) fn diagnose(
             ));
         }
         if let Ok(c) =
-            crate::plan::nearest_coherent(sample_rate_hz, samples, fit.frequency_hz, false)
+            crate::freq::nearest_coherent(sample_rate_hz, samples, fit.frequency_hz, false)
         {
             fixes.push(format!(
                 "a coherent input: J = {} cycles, {:.6} Hz for N = {samples} at {sample_rate_hz} Hz",
@@ -129,7 +134,7 @@ pub(crate) fn diagnose(
     }
 }
 
-/// A warning for a fundamental whose span meets the DC span or reaches Nyquist, where the window's main
+/// A warning for a fundamental whose bins meet the DC bins or reach Nyquist, where the window's main
 /// lobe shares bins with DC or with the tone's own mirror image (the one-sided spectrum folds the lobe
 /// beyond fs/2, or below 0, back onto itself, and in shared bins the two add as complex values). The
 /// level error is computed, not bounded: the fitted sine alone goes through the same window and bin
@@ -144,7 +149,7 @@ pub(crate) fn edge_warning(
     claims: &Claims,
     warnings: &mut Vec<String>,
 ) {
-    let (k, half, last) = (claims.fundamental_bin, claims.tone_halfwidth, n / 2);
+    let (k, half, last) = (claims.tones[0].centre, claims.tone_halfwidth, n / 2);
     let near_dc = k <= 2 * half;
     let near_nyquist = k + half >= last;
     if !(near_dc || near_nyquist) || fit.amplitude_codes <= 0.0 {
@@ -158,12 +163,7 @@ pub(crate) fn edge_warning(
         })
         .collect();
     let powers = power_spectrum(&model, w);
-    let claimed: f64 = powers
-        .iter()
-        .zip(&claims.owner)
-        .filter(|(_, o)| **o == Owner::Fundamental)
-        .map(|(p, _)| p)
-        .sum();
+    let claimed: f64 = claims.tones[0].bins.iter().map(|&k| powers[k]).sum();
     let expected = 0.5 * fit.amplitude_codes * fit.amplitude_codes;
     let Some(bias) = (claimed > 0.0).then(|| 10.0 * (claimed / expected).log10()) else {
         return;

@@ -1,13 +1,12 @@
-//! The dynamic figures from a claimed power spectrum: fundamental, SNR, SINAD, THD, SFDR, ENOB, the
-//! noise floor and a table per harmonic.
+//! The dynamic figures of a one-tone record from its measured claim: fundamental, SNR, SINAD, THD, SFDR,
+//! ENOB, the noise floor and a table per harmonic.
 //!
-//! Accounting of excluded bins: every bin carries a weight u_k (½ for bin 0 and, for even N, bin N/2;
-//! 1 otherwise), so that white noise has the same expected power per unit of weight everywhere. The mean
-//! noise power per unit weight comes from the noise bins alone; the noise hidden under the DC, fundamental
-//! and harmonic spans is that mean times their weight. Total noise is the mean times N/2, the weight of the
-//! whole band 0..fs/2. Harmonic and fundamental powers have their span's share of noise subtracted.
+//! Accounting of excluded bins (see [`super::claim`]): the noise hidden under the DC, fundamental and
+//! harmonic bins is the mean noise per unit bin weight times their weight, so the total noise is that
+//! mean times N/2, the weight of the whole band 0..fs/2. Harmonic and fundamental powers have the noise
+//! expected under their bins subtracted.
 
-use super::tones::{Claims, Owner};
+use super::claim::{Claims, Measurement, SpurAt};
 use crate::full_scale_power;
 use serde::Serialize;
 
@@ -23,7 +22,7 @@ pub struct HarmonicFigure {
     pub order: u32,
     /// Folded frequency in hertz.
     pub frequency_hz: f64,
-    /// Level relative to the fundamental (noise in its span subtracted); `None` when masked.
+    /// Level relative to the fundamental (noise under its bins subtracted); `None` when masked.
     pub dbc: Option<f64>,
     /// Level relative to full scale; `None` when masked.
     pub dbfs: Option<f64>,
@@ -31,8 +30,8 @@ pub struct HarmonicFigure {
     pub masked: bool,
     /// What masks it ("dc", "fundamental", "harmonic K").
     pub masked_by: Option<String>,
-    /// True when the harmonic is no more than the noise expected in its span: its level is then an upper
-    /// bound (the raw span power) and it adds nothing to THD.
+    /// True when the harmonic is no more than the noise expected under its bins: its level is then an upper
+    /// bound (the raw power of its bins) and it adds nothing to THD.
     pub at_floor: bool,
 }
 
@@ -52,7 +51,7 @@ pub struct Spur {
 /// Figures computed from one claimed spectrum (before the window and coherence information is added).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Figures {
-    /// Fundamental power in codes² (noise in its span subtracted).
+    /// Fundamental power in codes² (noise under its bins subtracted).
     pub fundamental_power: f64,
     /// Fundamental level in dBFS.
     pub fundamental_dbfs: f64,
@@ -86,154 +85,76 @@ pub struct Figures {
     pub harmonics: Vec<HarmonicFigure>,
     /// Number of noise bins the noise mean came from.
     pub noise_bins: usize,
-    /// Power of the largest single noise bin outside every claimed span, codes² (for the leakage check).
-    pub largest_noise_bin: f64,
 }
 
-/// Weight of bin k in units of one full interior bin (see the module docs).
-pub fn bin_weight(k: usize, samples: usize) -> f64 {
-    if k == 0 || (samples % 2 == 0 && k == samples / 2) {
-        0.5
-    } else {
-        1.0
-    }
-}
-
-fn db(x: f64) -> Option<f64> {
+/// 10·log10 of a power ratio, `None` unless positive and finite.
+pub(crate) fn db(x: f64) -> Option<f64> {
     (x > 0.0 && x.is_finite()).then(|| 10.0 * x.log10())
 }
 
-/// Computes the figures from bin powers (scaled as in [`crate::spectrum::fft::power_spectrum`]).
-pub fn figures(
-    powers: &[f64],
-    claims: &Claims,
-    samples: usize,
-    sample_rate_hz: f64,
-    bits: u32,
-) -> Figures {
+/// Computes the figures of a one-tone claim (see [`super::claim_one_tone`]) from its measurement.
+pub fn figures(claims: &Claims, measured: &Measurement, sample_rate_hz: f64, bits: u32) -> Figures {
     let pfs = full_scale_power(bits);
-    let bin_hz = sample_rate_hz / samples as f64;
-    let weight = |k: usize| bin_weight(k, samples);
-
-    // One pass over the bins gathers the noise, the fundamental's span and the largest noise bin.
-    let (mut noise_sum, mut noise_w, mut noise_bins) = (0.0, 0.0, 0usize);
-    let (mut f_raw, mut f_w) = (0.0, 0.0);
-    let mut largest_noise_bin = 0.0;
-    let mut peak_k = None;
-    for (k, (&p, &o)) in powers.iter().zip(&claims.owner).enumerate() {
-        match o {
-            Owner::Noise => {
-                noise_sum += p;
-                noise_w += weight(k);
-                noise_bins += 1;
-                if p > largest_noise_bin {
-                    largest_noise_bin = p;
-                    peak_k = Some(k);
-                }
-            }
-            Owner::Fundamental => {
-                f_raw += p;
-                f_w += weight(k);
-            }
-            _ => {}
-        }
-    }
-    let noise_per_bin = if noise_w > 0.0 {
-        noise_sum / noise_w
-    } else {
-        0.0
-    };
-    let noise_power = noise_per_bin * samples as f64 / 2.0;
-
-    let span_power = |set: &mut dyn Iterator<Item = usize>| -> (f64, f64) {
-        set.fold((0.0, 0.0), |(p, w), k| (p + powers[k], w + weight(k)))
-    };
-    let fundamental_power = (f_raw - noise_per_bin * f_w).max(0.0);
+    let bin_hz = sample_rate_hz / claims.samples as f64;
+    let noise_per_bin = measured.noise_per_bin;
+    let noise_power = measured.noise_power;
+    let fundamental_power = measured.tones[0].power();
     let fundamental_dbfs = db(fundamental_power / pfs).unwrap_or(f64::NEG_INFINITY);
 
-    let mut harmonics = Vec::new();
+    let mut harmonics = Vec::with_capacity(claims.lines.len());
     let mut harmonic_power_signed = 0.0;
     let mut thd_sum = 0.0;
-    let mut worst: Option<(f64, usize, Option<u32>)> = None;
-    for slot in &claims.harmonics {
+    for (i, (slot, m)) in claims.lines.iter().zip(&measured.lines).enumerate() {
+        let order = i as u32 + 2;
         let frequency_hz = slot.bin * bin_hz;
-        if let Some(by) = &slot.masked_by {
+        let Some(m) = m else {
             harmonics.push(HarmonicFigure {
-                order: slot.order,
+                order,
                 frequency_hz,
                 dbc: None,
                 dbfs: None,
                 masked: true,
-                masked_by: Some(by.clone()),
+                masked_by: claims.masked_by(i).map(str::to_string),
                 at_floor: false,
             });
             continue;
+        };
+        harmonic_power_signed += m.corrected;
+        // At the floor the corrected power is not a measurement; the raw power of the harmonic's bins is
+        // an upper bound (and compares like for like with the raw noise bins in the worst-spur search).
+        if !m.at_floor {
+            thd_sum += m.corrected;
         }
-        let (raw, w) = span_power(&mut slot.bins.iter().copied());
-        let expected_noise = noise_per_bin * w;
-        let corrected = raw - expected_noise;
-        harmonic_power_signed += corrected;
-        let at_floor = corrected <= expected_noise;
-        // At the floor the corrected power is not a measurement; the raw span power is an upper bound
-        // (and compares like for like with the raw noise bins in the worst-spur search).
-        let level = if at_floor { raw } else { corrected };
-        if !at_floor {
-            thd_sum += corrected;
-        }
-        let peak = slot
-            .bins
-            .iter()
-            .copied()
-            .max_by(|a, b| powers[*a].total_cmp(&powers[*b]))
-            .unwrap_or(0);
-        if worst.is_none_or(|(p, _, _)| level > p) {
-            worst = Some((level, peak, Some(slot.order)));
-        }
+        let level = m.level();
         harmonics.push(HarmonicFigure {
-            order: slot.order,
+            order,
             frequency_hz,
             dbc: db(level / fundamental_power),
             dbfs: db(level / pfs),
             masked: false,
             masked_by: None,
-            at_floor,
+            at_floor: m.at_floor,
         });
     }
 
-    // Non-harmonic spurs: the largest noise bin, with the noise bins of its lobe.
-    if let Some(k) = peak_k {
-        let lo = k.saturating_sub(claims.tone_halfwidth);
-        let hi = (k + claims.tone_halfwidth).min(powers.len() - 1);
-        let lobe: f64 = (lo..=hi)
-            .filter(|&j| claims.owner[j] == Owner::Noise)
-            .map(|j| powers[j])
-            .sum();
-        if worst.is_none_or(|(p, _, _)| lobe > p) {
-            worst = Some((lobe, k, None));
-        }
-    }
-
     let snr = fundamental_power / noise_power;
-    // Equals the measured power outside DC and the fundamental plus the noise under their spans: never negative.
+    // Equals the measured power outside DC and the fundamental plus the noise under their bins: never
+    // negative.
     let sinad_den = noise_power + harmonic_power_signed;
     let sinad = fundamental_power / sinad_den;
     let sinad_db = db(sinad);
     let enob = sinad_db.map(|s| (s - SINE_CREST_DB) / DB_PER_BIT);
     let enob_fs = sinad_db.map(|s| (s - fundamental_dbfs - SINE_CREST_DB) / DB_PER_BIT);
-    let worst_spur = worst.and_then(|(p, k, h)| {
+    let worst_spur = measured.largest_spur().and_then(|(p, at)| {
+        let (frequency_hz, harmonic) = match at {
+            SpurAt::Line(i) => (claims.lines[i].bin * bin_hz, Some(i as u32 + 2)),
+            SpurAt::Bin(k) => (k as f64 * bin_hz, None),
+        };
         Some(Spur {
-            frequency_hz: match h {
-                Some(order) => claims
-                    .harmonics
-                    .iter()
-                    .find(|s| s.order == order)
-                    .map(|s| s.bin * bin_hz)
-                    .unwrap_or(k as f64 * bin_hz),
-                None => k as f64 * bin_hz,
-            },
+            frequency_hz,
             dbc: db(p / fundamental_power)?,
             dbfs: db(p / pfs)?,
-            harmonic: h,
+            harmonic,
         })
     });
     Figures {
@@ -253,30 +174,29 @@ pub fn figures(
         nsd_dbfs_per_hz: db(noise_power / pfs / (sample_rate_hz / 2.0)),
         worst_spur,
         harmonics,
-        noise_bins,
-        largest_noise_bin,
+        noise_bins: measured.noise_bins,
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::spectrum::tones::claim_bins;
+    use crate::spectrum::claim_one_tone;
 
     // White noise of 1 code² per unit weight (so ½ in the half-weight Nyquist bin), a fundamental in
     // bin 5, H2 in bin 10 at the floor (raw 1.5 against 1.0 expected) and H3 in bin 15 well above it.
     // Conventions of the module docs and of HarmonicFigure::at_floor: an at-floor harmonic reports its
-    // raw span power (an upper bound) and adds nothing to THD; the others report the corrected power.
+    // raw power (an upper bound) and adds nothing to THD; the others report the corrected power.
     #[test]
-    fn at_floor_harmonic_reports_its_raw_span_power() {
+    fn at_floor_harmonic_reports_its_raw_power() {
         let n = 64;
-        let claims = claim_bins(n, 5.0, 3, 0);
+        let claims = claim_one_tone(n, 5.0, 3, 0).unwrap();
         let mut p = vec![1.0; n / 2 + 1];
         p[n / 2] = 0.5;
         p[5] = 1001.0;
         p[10] = 1.5;
         p[15] = 11.0;
-        let f = figures(&p, &claims, n, 1.0, 12);
+        let f = figures(&claims, &claims.measure(&p), 1.0, 12);
         assert!((f.noise_per_bin - 1.0).abs() < 1e-12);
         let p1 = 1000.0;
         assert!((f.fundamental_power - p1).abs() < 1e-9);

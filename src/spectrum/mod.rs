@@ -1,37 +1,32 @@
-//! Spectral analysis: real FFTs, windows, bin claiming, the dynamic figures, and the leakage diagnosis
-//! that says how far a record's own leakage can bias them.
+//! Spectral analysis of a one-tone record: the window rule ([`rule`]), the coherence decision
+//! ([`coherence`]), the bin-claiming engine ([`claim`], shared with the two-tone and interleaving
+//! analyses), the dynamic figures ([`metrics`]), and the leakage diagnosis that says how far a record's
+//! own leakage can bias them.
 //!
-//! # Window rule (`--window auto`)
-//! A coherent record (fitted cycle count within 4σ of an integer, σ from the fit's own residual) is
-//! analysed unwindowed: each tone then sits in one bin. A non-coherent record gets the first window of
-//! the ladder Hann → 4-term Blackman-Harris → 7-term Blackman-Harris whose worst-case leakage (tone half a
-//! bin off, power outside the tone's span) lies 16.4 dB below the ideal quantisation noise expected at
-//! the record's resolution and amplitude; 16.4 dB below is what keeps the SNR bias under 0.1 dB. So the
-//! 4-term Blackman-Harris (about −87 dBc outside its span) serves up to about 11 bits, and 12- to
-//! 20-bit records get the 7-term Blackman-Harris.
+//! The one-tone claim: DC, the fundamental (the tone), then harmonics 2..H folded into the first Nyquist
+//! zone (the derived lines, named "harmonic K"); what is left is noise.
 
-pub mod fft;
+pub mod claim;
+pub mod coherence;
 mod leakage;
 pub mod metrics;
-pub mod tones;
-pub mod window;
+pub mod rule;
 
-pub use leakage::LeakageDiagnosis;
+pub use crate::dft::fft;
+pub use crate::dft::window::*;
+pub use coherence::{Coherence, COHERENCE_SIGMAS, SPECTRAL_CHECK_CYCLES};
+pub use leakage::{LeakageDiagnosis, BIAS_WARN_DB};
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
-pub use window::*;
+pub use rule::{
+    choose_window, ideal_snr_db, tone_halfwidth, WindowChoice, AUTO_LADDER, LEAKAGE_MARGIN_DB,
+};
 
 use crate::fit::SineFit;
+use crate::freq::fold_bin;
 use crate::{Error, ErrorKind, Location, Result};
+use claim::{Owner, Place};
+use coherence::Unwindowed;
 use serde::Serialize;
-
-/// How the window is chosen.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub enum WindowChoice {
-    /// By the rule in the module docs.
-    Auto,
-    /// Always this window.
-    Fixed(Window),
-}
 
 /// Settings of the spectral stage.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -55,127 +50,38 @@ impl Default for SpectrumSettings {
     }
 }
 
-/// Margin below the expected noise that a window's leakage must keep to bias SNR by < 0.1 dB:
-/// 10·log10(10^(0.1/10) − 1) = −16.33 dB, rounded out.
-pub const LEAKAGE_MARGIN_DB: f64 = 16.4;
-/// A bias above this (dB) in SNR or SFDR raises a leakage warning.
-pub const BIAS_WARN_DB: f64 = 0.1;
-/// Coherence tolerance in standard deviations of the fitted cycle count.
-pub const COHERENCE_SIGMAS: f64 = 4.0;
+/// Owner of the fundamental's bins in a one-tone claim.
+pub const FUNDAMENTAL: Owner = Owner::Tone(0);
 
-/// The windows `auto` may pick for non-coherent records, narrowest first.
-pub const AUTO_LADDER: [Window; 3] = [
-    Window::Hann,
-    Window::BlackmanHarris4,
-    Window::BlackmanHarris7,
-];
-
-/// Whether a record is coherent, decided from the fitted cycle count.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-pub struct Coherence {
-    /// True when the cycle count is an integer within the tolerance.
-    pub coherent: bool,
-    /// Fitted cycles in the record.
-    pub cycles: f64,
-    /// Distance from the nearest integer, cycles.
-    pub offset_cycles: f64,
-    /// The tolerance used: 4σ of the fitted cycle count (at least 1e-9 cycles).
-    pub tolerance_cycles: f64,
-    /// How it was decided: "fit" (cycle count within tolerance, or clearly off an integer) or
-    /// "spectrum" (a fit offset below 0.01 cycles that the unwindowed spectrum shows to be a fit bias).
-    pub decided_by: &'static str,
+/// Owner of harmonic `order`'s bins (2..=H) in a one-tone claim: the harmonics are its lines, in order.
+pub fn harmonic_owner(order: u32) -> Owner {
+    Owner::Line(order.saturating_sub(2).min(u16::MAX as u32) as u16)
 }
 
-/// Decides coherence from a fit.
-pub fn coherence_of(fit: &SineFit) -> Coherence {
-    let offset = fit.cycles - fit.cycles.round();
-    let tol = (COHERENCE_SIGMAS * fit.cycles_std).max(1e-9);
-    Coherence {
-        coherent: offset.abs() <= tol,
-        cycles: fit.cycles,
-        offset_cycles: offset,
-        tolerance_cycles: tol,
-        decided_by: "fit",
-    }
-}
-
-/// Fit offsets below this (cycles) are checked against the unwindowed spectrum before the record is
-/// called non-coherent: strong low-order harmonics pull a sine fit's frequency by up to ~1e-4 cycles on
-/// short records, because the frequency column of the fit is not orthogonal to them.
-pub const SPECTRAL_CHECK_CYCLES: f64 = 0.01;
-
-/// Checks a small fit offset against the unwindowed spectrum of `record`. A tone really δ cycles off an
-/// integer leaks about δ²·P into each neighbour of its bin (rectangular window, |sinc(1 ∓ δ)|²); when the
-/// neighbours hold less than a tenth of that, the offset is a fit bias and the record is coherent.
-fn spectral_coherence(record: &[f64], mut c: Coherence) -> Coherence {
-    let n = record.len();
-    let k0 = c.cycles.round() as usize;
-    if c.coherent || c.offset_cycles.abs() > SPECTRAL_CHECK_CYCLES || k0 < 2 || k0 + 2 > n / 2 {
-        return c;
-    }
-    let p = fft::power_spectrum(record, &[]);
-    let d = c.offset_cycles.abs();
-    let predicted = p[k0] * ((d / (1.0 - d)).powi(2) + (d / (1.0 + d)).powi(2));
-    let measured = p[k0 - 1] + p[k0 + 1];
-    if measured < 0.1 * predicted {
-        c.coherent = true;
-        c.decided_by = "spectrum";
-    }
-    c
-}
-
-/// Half-width of the bins given to each tone (main lobe plus guard bins) for a window.
-pub fn tone_halfwidth(window: Window, coherent: bool, guard: Option<usize>) -> usize {
-    let null = window.null_halfwidth_bins();
-    let guard = guard.unwrap_or(if coherent { 0 } else { 1 });
-    // A coherent tone under a K-term cosine sum occupies exactly k0 ± (K−1).
-    let lobe = match (coherent, window.coefficients()) {
-        (true, Some(a)) => a.len() - 1,
-        _ => null.ceil() as usize,
-    };
-    lobe + guard
-}
-
-/// Ideal quantisation SNR of an N-bit converter for a sine at `amplitude_dbfs`: 6.02N + 1.76 dB + level.
-pub fn ideal_snr_db(bits: u32, amplitude_dbfs: f64) -> f64 {
-    DB_PER_BIT * bits as f64 + SINE_CREST_DB + amplitude_dbfs
-}
-
-/// Picks the window, and says why.
-pub fn choose_window(
-    choice: WindowChoice,
-    coherent: bool,
-    bits: u32,
-    amplitude_dbfs: f64,
-    guard: Option<usize>,
-) -> (Window, String) {
-    match choice {
-        WindowChoice::Fixed(w) => (w, "given".to_string()),
-        WindowChoice::Auto if coherent => (
-            Window::Rectangular,
-            "auto: coherent record, no window needed".to_string(),
-        ),
-        WindowChoice::Auto => {
-            let need = -(ideal_snr_db(bits, amplitude_dbfs.min(0.0)) + LEAKAGE_MARGIN_DB);
-            for w in AUTO_LADDER {
-                let leak = w.leakage(0.5, tone_halfwidth(w, false, guard));
-                if leak.outside_tone_bins_dbc.is_none_or(|l| l <= need) {
-                    return (
-                        w,
-                        format!(
-                            "auto: non-coherent record; worst-case leakage {} dBc is below the {need:.1} dBc that {bits}-bit quantisation noise allows",
-                            leak.outside_tone_bins_dbc.map_or("< -300".to_string(), |l| format!("{l:.1}"))
-                        ),
-                    );
-                }
-            }
-            let w = *AUTO_LADDER.last().expect("ladder is not empty");
-            (
-                w,
-                format!("auto: non-coherent record; no offered window leaks less than the {need:.1} dBc that {bits}-bit noise allows, so leakage may bias the figures: use a coherent record"),
+/// The one-tone claim: DC, the fundamental at fractional bin `tone_bin`, then harmonics 2..=`harmonics`
+/// folded into 0..=N/2.
+pub fn claim_one_tone(
+    samples: usize,
+    tone_bin: f64,
+    harmonics: u32,
+    tone_halfwidth: usize,
+) -> std::result::Result<claim::Claims, claim::ClaimError> {
+    // Owner indices are u16: orders 2..=65,537 at most (the settings allow up to 100).
+    let harmonics = harmonics.min(u16::MAX as u32 + 1);
+    let lines: Vec<Place> = (2..=harmonics)
+        .map(|order| {
+            Place::new(
+                format!("harmonic {order}"),
+                fold_bin(order as f64 * tone_bin, samples),
             )
-        }
-    }
+        })
+        .collect();
+    claim::claim(
+        samples,
+        tone_halfwidth,
+        &[Place::new("fundamental", tone_bin)],
+        &lines,
+    )
 }
 
 /// The spectral figures of one record (or several power-averaged records of one condition).
@@ -235,7 +141,7 @@ pub struct SpectrumOutput {
     /// Averaged bin powers, bins 0..=N/2.
     pub powers: Vec<f64>,
     /// Owner of each bin.
-    pub owner: Vec<tones::Owner>,
+    pub owner: Vec<Owner>,
     /// Warnings.
     pub warnings: Vec<String>,
 }
@@ -275,10 +181,7 @@ pub fn measure_consuming(
             ),
         ));
     }
-    let coherence = match settings.window {
-        WindowChoice::Auto => spectral_coherence(&records[0], coherence_of(fit)),
-        WindowChoice::Fixed(_) => coherence_of(fit),
-    };
+    let coherence = coherence::decide(fit.cycles, fit.cycles_std, Unwindowed::Record(&records[0]));
     let (window, window_reason) = choose_window(
         settings.window,
         coherence.coherent,
@@ -308,26 +211,15 @@ pub fn measure_consuming(
         let m = count as f64;
         powers.iter_mut().for_each(|p| *p /= m);
     }
-    let claims = tones::claim_bins(n, fit.cycles, settings.harmonics.max(1), half);
-    if claims.owner[claims.fundamental_bin] == tones::Owner::Dc {
-        return Err(Error::new(
-            ErrorKind::ToneAtEdge,
-            "",
-            Location::Whole,
-            format!(
-                "a tone outside the DC bins (0..={half} under the {} window)",
-                window.name()
-            ),
-            format!(
-                "the fundamental at bin {:.2} ({:.1} cycles): use a longer record, a higher input frequency, or a coherent input analysed unwindowed",
-                fit.cycles, fit.cycles
-            ),
-        ));
-    }
-    let figs = metrics::figures(&powers, &claims, n, sample_rate_hz, bits);
+    // Claimed after the transforms, so that the owners (32 MB at 2^24 samples) are not held beside the
+    // FFT's buffers at their peak.
+    let claims = claim_one_tone(n, fit.cycles, settings.harmonics.max(1), half)
+        .map_err(|e| e.to_error(&window.name()))?;
+    let measured = claims.measure(&powers);
+    let figs = metrics::figures(&claims, &measured, sample_rate_hz, bits);
     let mut warnings = Vec::new();
     leakage::edge_warning(window, &w, n, fit, &claims, &mut warnings);
-    if figs.noise_bins < 8 {
+    if figs.noise_bins < claim::MIN_NOISE_BINS {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise figures are poorly determined (use a longer record or fewer harmonics)",
             figs.noise_bins
@@ -366,7 +258,7 @@ pub fn measure_consuming(
     }
     if coherence.coherent {
         let j = coherence.cycles.round() as u64;
-        let g = crate::plan::gcd(j, n as u64);
+        let g = crate::freq::gcd(j, n as u64);
         if g != 1 || j % 2 == 0 {
             warnings.push(format!(
                 "coherent with J = {j} cycles, which {}: the record samples only {} distinct phases, so quantisation error piles into harmonics; prefer an odd J coprime with N",
@@ -418,4 +310,54 @@ pub fn measure_consuming(
         owner: claims.owner,
         warnings,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    // fin = fs/4: H2 lands on Nyquist, H3 folds onto the fundamental, H4 onto DC (common practice).
+    #[test]
+    fn quarter_rate_masks_harmonics() {
+        let c = claim_one_tone(1024, 256.0, 5, 0).unwrap();
+        let h = |order: u32| (order - 2) as usize;
+        assert_eq!(c.lines[h(2)].bin, 512.0);
+        assert!(c.masked_by(h(2)).is_none());
+        assert_eq!(c.masked_by(h(3)), Some("fundamental"));
+        assert_eq!(c.masked_by(h(4)), Some("dc"));
+        assert_eq!(c.masked_by(h(5)), Some("fundamental"));
+        // A bin is never counted twice.
+        let owned: usize = c.lines.iter().map(|s| s.bins.len()).sum();
+        assert_eq!(owned, 1);
+    }
+
+    #[test]
+    fn harmonic_bins_do_not_overlap() {
+        let c = claim_one_tone(4096, 100.3, 10, 5).unwrap();
+        let mut seen = std::collections::HashSet::new();
+        for (i, s) in c.lines.iter().enumerate() {
+            for b in &s.bins {
+                assert!(seen.insert(*b));
+                assert_eq!(c.owner[*b], harmonic_owner(i as u32 + 2));
+            }
+        }
+        assert_eq!(c.owner[100], FUNDAMENTAL);
+        assert_eq!(c.owner[5], Owner::Dc);
+        assert_eq!(c.owner[6], Owner::Noise);
+    }
+
+    // Eighth-rate input: H7 folds onto the fundamental's mirror (7/8 − 1 = −1/8) and H9 onto the
+    // fundamental itself; H8 lands on DC (first-zone folding, common practice, no source). A masked
+    // harmonic names what masks it, and an earlier harmonic masks a later one: with fin = fs/6, H4
+    // folds onto H2 (4/6 → 2/6).
+    #[test]
+    fn harmonics_masked_by_earlier_harmonics_name_them() {
+        let c = claim_one_tone(1200, 150.0, 9, 0).unwrap();
+        assert_eq!(c.masked_by(7 - 2), Some("fundamental"));
+        assert_eq!(c.masked_by(8 - 2), Some("dc"));
+        assert_eq!(c.masked_by(9 - 2), Some("fundamental"));
+        let c = claim_one_tone(1200, 200.0, 4, 0).unwrap();
+        assert_eq!(c.masked_by(4 - 2), Some("harmonic 2"));
+        assert_eq!(c.lines[4 - 2].masked_by, Some(harmonic_owner(2)));
+    }
 }

@@ -27,7 +27,7 @@ use rand_distr::{Distribution, StandardNormal};
 use serde::{Deserialize, Serialize};
 
 use crate::error::{Error, ErrorKind, Location, Result};
-use crate::plan;
+use crate::freq;
 use crate::record::{full_scale_amplitude_codes, max_code, min_code, Record};
 
 /// Longest record the simulator makes: 2^26 samples.
@@ -50,7 +50,7 @@ pub enum SynthFrequency {
     /// Exactly this frequency in hertz.
     Hz(f64),
     /// The coherent frequency nearest this target in hertz (odd cycle count coprime with N,
-    /// see [`plan::nearest_coherent`]).
+    /// see [`freq::nearest_coherent`]).
     NearestCoherent(f64),
 }
 
@@ -232,7 +232,7 @@ impl Model {
                 f
             }
             SynthFrequency::NearestCoherent(target) => {
-                plan::nearest_coherent(fs, s.samples, target, false)
+                freq::nearest_coherent(fs, s.samples, target, false)
                     .map_err(|e| Error {
                         location: Location::Key("frequency".to_string()),
                         ..e

@@ -10,7 +10,8 @@ use super::{
 use crate::analysis::{Analysis, Traces};
 use crate::figures::{self, Cells};
 use crate::report::units::{si, with_unit};
-use crate::spectrum::tones::Owner;
+use crate::spectrum::claim::Owner;
+use crate::spectrum::{harmonic_owner, FUNDAMENTAL};
 use crate::Result;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
@@ -319,14 +320,14 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
         // (bin, label, colour, measured above the floor)
         type Mark = (usize, String, (u8, u8, u8), bool);
         let mut marks: Vec<Mark> = Vec::new();
-        if let Some(k) = peak_of(Owner::Fundamental) {
+        if let Some(k) = peak_of(FUNDAMENTAL) {
             marks.push((k, "H1".to_string(), palette::FUNDAMENTAL, true));
         }
         for hf in &sp.harmonics {
             if hf.masked {
                 continue;
             }
-            if let Some(k) = peak_of(Owner::Harmonic(hf.order as u16)) {
+            if let Some(k) = peak_of(harmonic_owner(hf.order)) {
                 marks.push((k, format!("H{}", hf.order), palette::HARMONIC, !hf.at_floor));
             }
         }
@@ -351,7 +352,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
         // The worst spur: a ring on its peak bin and a label above the order label.
         if let Some(spur) = &sp.worst_spur {
             let k = match spur.harmonic {
-                Some(order) => peak_of(Owner::Harmonic(order as u16)),
+                Some(order) => peak_of(harmonic_owner(order)),
                 None => {
                     let centre = (spur.frequency_hz / bin_hz).round() as usize;
                     let half = sp.tone_halfwidth_bins;

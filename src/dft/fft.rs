@@ -126,7 +126,7 @@ mod tests {
     fn in_place_and_copying_forms_agree() {
         for &n in &[1000usize, 4096, (1 << 20) + 2, 4096] {
             let x: Vec<f64> = (0..n).map(|i| ((i * 7919 % 1013) as f64) - 500.0).collect();
-            let w = crate::spectrum::Window::Hann.samples(n);
+            let w = crate::dft::Window::Hann.samples(n);
             for win in [&[][..], &w[..]] {
                 let a = power_spectrum(&x, win);
                 let b = power_spectrum_in_place(&mut x.clone(), win);
