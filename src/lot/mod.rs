@@ -32,6 +32,7 @@
 //! # Ok::<(), spurline::Error>(())
 //! ```
 
+mod array_task;
 mod bench_plan;
 pub mod compare;
 pub mod limits;
@@ -39,8 +40,10 @@ mod merge;
 mod output;
 mod run;
 mod shard;
+mod status;
 pub mod sweep;
 
+pub use array_task::{shard_from_env, ArrayTask, Scheduler, SHARDS_VAR, SHARD_FIRST_VAR};
 pub use bench_plan::{
     natural_cmp, BenchPlan, Condition, ListedRecord, Lot, RecordSource,
     DEFAULT_AMPLITUDE_TOLERANCE_DB,
@@ -55,5 +58,7 @@ pub use run::{
     FREQUENCY_WARN_BINS, KEPT_ERRORS, REWRITE_EVERY,
 };
 pub use shard::{
-    lot_fingerprint, run_fingerprint, run_shard, Shard, ShardManifest, SHARD_FORMAT, SHARD_MANIFEST,
+    lot_fingerprint, run_fingerprint, run_shard, Shard, ShardManifest, SHARD_FORMAT,
+    SHARD_MANIFEST, SHARD_START_NOTE,
 };
+pub use status::{lot_progress, LotProgress, ShardProgress, ShardState};
