@@ -5,6 +5,7 @@
 # of shards). The figures in the README's performance section come from it.
 #
 #   benches/large_lot.sh [FOLDER]    (default /tmp/spurline-large-lot; removed at the end unless KEEP=1)
+#   MERGE_TO=/dev/shm benches/large_lot.sh     (the merged reports on tmpfs)
 #
 # RECORDS (100000), CONDITIONS (4), SAMPLES (16384), SHARDS (16) and JOBS (spurline --jobs, default
 # the number of CPUs) set the size. Each line gives wall time, CPU time (user + system) and peak
@@ -18,6 +19,9 @@ dir=${1:-/tmp/spurline-large-lot}
 records=${RECORDS:-100000} conditions=${CONDITIONS:-4} samples=${SAMPLES:-16384}
 shards=${SHARDS:-16} jobs=${JOBS:-$(nproc)}
 devices=$((records / conditions))
+# MERGE_TO: where the merged reports go (default FOLDER). Merging is mostly creating files (two per
+# device), so a slow file system shows there first; /dev/shm measures spurline's own part.
+merge_to=${MERGE_TO:-$dir}
 bin=${SPURLINE:-$repo/target/release/spurline}
 if [ -z "${SPURLINE:-}" ] && [ ! -x "$bin" ]; then (cd "$repo" && cargo build --release --bin spurline); fi
 [ -e "$dir" ] && { echo "large_lot.sh: $dir exists; give another folder or remove it" >&2; exit 2; }
@@ -26,7 +30,7 @@ cleanup() { if [ "${KEEP:-0}" != 1 ]; then rm -rf "$dir"; fi; }
 trap cleanup EXIT
 need=$((records * samples * 2 / 1000000))
 echo "lot: $devices devices × $conditions conditions = $records records of $samples samples ($need MB) in $dir"
-df -h "$dir" | tail -1
+df -hT "$dir" "$merge_to" | tail -n +2
 
 # ── the records: one synth call each, spread over the CPUs ──
 t=$(date +%s.%N)
@@ -88,9 +92,9 @@ run_lot() { # PLAN NAME: the lot's shards one after another, then the merge
   done
   # The merge three times, each into a fresh folder: the machine may be shared.
   for try in 1 2 3; do
-    read -r s cpu kb rc < <(timed "$dir/$name-merge.log" "$bin" merge "$dir/$name/lot" "$dir/$name"/shards/*)
+    read -r s cpu kb rc < <(timed "$dir/$name-merge.log" "$bin" merge "$merge_to/$name-lot" "$dir/$name"/shards/*)
     echo "$name merge ($try): $s s (CPU $cpu s), peak $((kb / 1024)) MiB, exit status $rc"
-    rm -rf "${dir:?}/$name/lot"
+    rm -rf "${merge_to:?}/$name-lot"
   done
   rm -rf "${dir:?}/$name"
 }

@@ -329,7 +329,8 @@ fn copy_folder(from: &Path, to: &Path) -> Result<()> {
 ///
 /// Errors: no folder given; a folder without `shard.json` (not a finished shard) or whose manifest
 /// does not parse; shards of another run (M, plan and limits, version, plots, title, conditions or
-/// lot differ: the error names the field); a shard given twice or missing; a device in two shards;
+/// lot differ: the error names the field); a shard given twice; a shard missing or not finished (the
+/// error names each, with the command that runs it again); a device in two shards;
 /// a shard whose lot files do not match its manifest (naming file and row); a device folder missing;
 /// `out` being one of the shard folders; outputs that cannot be written.
 pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {

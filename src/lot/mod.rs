@@ -2,7 +2,8 @@
 //! lot of devices × conditions; each is read, analysed and judged against a limit table on a local
 //! thread pool, and per-device and lot summaries are written as the lot goes. A lot can be split into
 //! shards run on separate machines ([`run_shard`]) and the shards merged into the report an unsharded
-//! run writes ([`merge_shards`]).
+//! run writes ([`merge_shards`]); a task of a scheduler's job array finds its shard with
+//! [`shard_from_env`], and [`lot_progress`] says how far the shards have got.
 //!
 //! ```no_run
 //! use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
