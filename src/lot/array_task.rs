@@ -366,7 +366,9 @@ mod tests {
     }
 
     // The Slurm variables as `sbatch --array` sets them (Slurm's job array documentation and the
-    // sbatch manual; the single-index resubmission observed on Slurm 22.05, see tests/cluster/slurm.sh).
+    // sbatch manual). Observed on Slurm 22.05.8 (Debian 12): --array=0-6:3 gives MIN 0, MAX 6,
+    // STEP 3, COUNT 3; the list --array=1,2,4 gives MIN 1, MAX 4, STEP 1, COUNT 3; a single index
+    // submitted again, --array=3, gives MIN = MAX = 3, COUNT 1 (tests/cluster/slurm.sh runs it).
     type Vars = Vec<(&'static str, &'static str)>;
 
     fn slurm(id: &'static str, min: &'static str, max: &'static str, count: &'static str) -> Vars {
@@ -442,7 +444,7 @@ mod tests {
         let (key, msg) = refused(&with(slurm("5", "5", "5", "1"), &[(SHARDS_VAR, "4")]));
         assert_eq!(key, "SLURM_ARRAY_TASK_ID");
         assert!(msg.contains("index 5"), "{msg}");
-        // A list of indices (1,2,4): three tasks in 1..4 is no evenly spaced range.
+        // A list of indices (--array=1,2,4: MIN 1, MAX 4, STEP 1, COUNT 3) is no evenly spaced range.
         let (key, msg) = refused(&with(slurm("4", "1", "4", "3"), &[]));
         assert_eq!(key, "SLURM_ARRAY_TASK_ID");
         assert!(msg.contains(SHARDS_VAR), "{msg}");
