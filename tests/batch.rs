@@ -1856,3 +1856,240 @@ fn limits_reads_a_batch_run_back() {
     );
     assert!(text.contains("too few values to judge"), "{text}");
 }
+
+// ─────────────────── shards on a scheduler: --shard auto, status, resume ───────────────────
+
+/// Every variable `--shard auto` reads (src/lot/array_task.rs), so that a test run inside a job
+/// array of its own is not steered by it.
+const ARRAY_VARS: [&str; 16] = [
+    "SPURLINE_SHARDS",
+    "SPURLINE_SHARD_FIRST",
+    "SLURM_ARRAY_TASK_ID",
+    "SLURM_ARRAY_TASK_MIN",
+    "SLURM_ARRAY_TASK_MAX",
+    "SLURM_ARRAY_TASK_STEP",
+    "SLURM_ARRAY_TASK_COUNT",
+    "PBS_ARRAY_INDEX",
+    "PBS_ARRAYID",
+    "LSB_JOBINDEX",
+    "LSB_JOBINDEX_END",
+    "LSB_JOBINDEX_STEP",
+    "SGE_TASK_ID",
+    "SGE_TASK_FIRST",
+    "SGE_TASK_LAST",
+    "SGE_TASK_STEPSIZE",
+];
+
+/// `spurline batch PLAN --limits LIMITS --out OUT --shard auto` as a job-array task with `vars` (the
+/// test process's own environment is left alone).
+fn array_task(lot: &Path, out: &Path, jobs: &str, vars: &[(&str, &str)]) -> std::process::Command {
+    let mut c = std::process::Command::new(assert_cmd::cargo::cargo_bin!("spurline"));
+    c.arg("batch")
+        .arg(lot.join("plan.toml"))
+        .arg("--limits")
+        .arg(lot.join("limits.csv"))
+        .arg("--out")
+        .arg(out)
+        .args(["--jobs", jobs, "--shard", "auto"]);
+    for v in ARRAY_VARS {
+        c.env_remove(v);
+    }
+    for (k, v) in vars {
+        c.env(k, v);
+    }
+    c
+}
+
+fn status(folders: &[&Path]) -> std::process::Output {
+    let o = spurline()
+        .args(["merge", "--status"])
+        .args(folders)
+        .output()
+        .unwrap();
+    assert!(!String::from_utf8_lossy(&o.stderr).contains("panicked"));
+    o
+}
+
+#[test]
+fn shard_auto_outside_an_array_names_the_variables() {
+    // Outside a job array there is nothing to read: exit 2, naming each scheduler's variable.
+    let lot = make_lot();
+    let p = lot.path();
+    let o = array_task(p, &p.join("out"), "1", &[]).output().unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr);
+    for v in [
+        "SLURM_ARRAY_TASK_ID",
+        "PBS_ARRAY_INDEX",
+        "LSB_JOBINDEX",
+        "SGE_TASK_ID",
+    ] {
+        assert!(err.contains(v), "{err}");
+    }
+    assert!(!p.join("out").exists(), "nothing is written");
+    // A single Slurm task submitted again, without our count: refused, naming SPURLINE_SHARDS.
+    let again = [
+        ("SLURM_ARRAY_TASK_ID", "3"),
+        ("SLURM_ARRAY_TASK_MIN", "3"),
+        ("SLURM_ARRAY_TASK_MAX", "3"),
+        ("SLURM_ARRAY_TASK_COUNT", "1"),
+    ];
+    let o = array_task(p, &p.join("out"), "1", &again).output().unwrap();
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("SPURLINE_SHARDS"));
+}
+
+#[test]
+fn a_killed_shard_is_named_with_its_command_and_resumes_to_the_same_report() {
+    // Issue 17's resume (no outside source: the unsharded run is the reference). Shard 2 of 3 runs as
+    // a Slurm array task and is killed midway; status and merge say what is missing; the command the
+    // merge names runs it again, shard 3 runs as a single task submitted again, and the merge equals
+    // the unsharded report byte for byte.
+    let lot = make_big_lot(3000);
+    let p = lot.path();
+    let full = p.join("full");
+    let l = p.join("limits.csv");
+    let o = run_batch(p, &full, &["--limits", l.to_str().unwrap(), "--jobs", "2"]);
+    assert!(o.status.code() == Some(0) || o.status.code() == Some(1));
+    let shards = p.join("shards");
+    let dir = |k: usize| shards.join(k.to_string());
+    let task = |k: &'static str| {
+        [
+            ("SLURM_ARRAY_TASK_ID", k),
+            ("SLURM_ARRAY_TASK_MIN", "1"),
+            ("SLURM_ARRAY_TASK_MAX", "3"),
+            ("SLURM_ARRAY_TASK_STEP", "1"),
+            ("SLURM_ARRAY_TASK_COUNT", "3"),
+        ]
+    };
+    let o = array_task(p, &dir(1), "2", &task("1")).output().unwrap();
+    assert!(o.status.code().is_some_and(|c| c < 2), "{o:?}");
+    assert!(String::from_utf8_lossy(&o.stderr).contains("shard 1/3 (Slurm array task"));
+
+    // Shard 2, on one thread, killed once its summary lists a few devices.
+    let mut child = array_task(p, &dir(2), "1", &task("2"))
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    let start = std::time::Instant::now();
+    loop {
+        let rows = std::fs::read_to_string(dir(2).join("summary.csv"))
+            .map_or(0, |t| t.lines().count().saturating_sub(1));
+        if rows >= 4 {
+            break;
+        }
+        if start.elapsed() > std::time::Duration::from_secs(60) {
+            let _ = child.kill();
+            panic!("no summary rows after 60 s");
+        }
+        std::thread::sleep(std::time::Duration::from_millis(10));
+    }
+    child.kill().unwrap();
+    assert_eq!(child.wait().unwrap().code(), None, "killed, not finished");
+    assert!(!dir(2).join("shard.json").exists());
+    assert!(dir(2).join("shard-start.json").is_file());
+
+    // Status from the folder holding the shard folders: exit 1, each shard's state, the devices.
+    let o = status(&[&shards]);
+    assert_eq!(o.status.code(), Some(1));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        text.contains("3000 devices × 2 conditions in 3 shards"),
+        "{text}"
+    );
+    assert!(text.contains("shard 1/3: finished, 1000 devices"), "{text}");
+    assert!(text.contains("shard 2/3: started, "), "{text}");
+    assert!(
+        text.contains("shard 3/3: not started, 1000 devices"),
+        "{text}"
+    );
+    assert!(
+        text.lines().last() == Some("unfinished shards: 2,3"),
+        "{text}"
+    );
+    // The devices done: shard 1's 1000 and shard 2's rows so far over its two conditions.
+    let rows2 = read_csv(&dir(2).join("summary.csv")).1.len();
+    assert!(
+        text.contains(&format!("{} of 3000 devices done", 1000 + rows2 / 2)),
+        "{text}"
+    );
+
+    // The merge refuses, naming both shards and the command that runs each again.
+    let merged = p.join("merged");
+    let o = merge(&merged, &[&dir(1), &dir(2)]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&o.stderr).to_string();
+    assert!(err.contains("shard 2/3 started in"), "{err}");
+    assert!(
+        err.contains("no folder of shard 3/3 among the 2 given"),
+        "{err}"
+    );
+    let commands: Vec<String> = err
+        .split("run it again: ")
+        .skip(1)
+        .map(|s| s.split(';').next().unwrap().trim().to_string())
+        .collect();
+    assert_eq!(commands.len(), 2, "{err}");
+    for (k, c) in [(2, &commands[0]), (3, &commands[1])] {
+        let want = format!("--shard {k}/3 --out {}", dir(k).display());
+        assert!(c.ends_with(&want), "{c}");
+    }
+
+    // Shard 3 as a single task submitted again (Slurm then describes an array of one task; the
+    // job script's SPURLINE_SHARDS gives the split), shard 2 by the command the merge named.
+    let again = [
+        ("SLURM_ARRAY_TASK_ID", "3"),
+        ("SLURM_ARRAY_TASK_MIN", "3"),
+        ("SLURM_ARRAY_TASK_MAX", "3"),
+        ("SLURM_ARRAY_TASK_COUNT", "1"),
+        ("SPURLINE_SHARDS", "3"),
+    ];
+    let o = array_task(p, &dir(3), "2", &again).output().unwrap();
+    assert!(o.status.code().is_some_and(|c| c < 2), "{o:?}");
+    let bin = assert_cmd::cargo::cargo_bin!("spurline");
+    let rerun = commands[0].replacen("spurline", bin.to_str().unwrap(), 1);
+    let o = std::process::Command::new("sh")
+        .args(["-c", &rerun])
+        .output()
+        .unwrap();
+    assert!(o.status.code().is_some_and(|c| c < 2), "{rerun}: {o:?}");
+    assert!(!dir(2).join("shard-start.json").exists());
+
+    let o = status(&[&shards]);
+    assert_eq!(o.status.code(), Some(0));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(
+        text.contains("3 of 3 shards finished, 3000 of 3000 devices done"),
+        "{text}"
+    );
+    assert!(!text.contains("unfinished"), "{text}");
+    let o = merge(&merged, &[&dir(3), &dir(1), &dir(2)]);
+    assert!(o.status.code().is_some_and(|c| c < 2), "{o:?}");
+    assert_same_files(&full, &merged);
+}
+
+#[test]
+fn status_refuses_what_is_no_lot_in_progress() {
+    let lot = make_lot();
+    let p = lot.path();
+    // A folder with no shard in it: exit 2, naming it.
+    std::fs::create_dir_all(p.join("empty")).unwrap();
+    let o = status(&[&p.join("empty")]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("no shard has started yet"));
+    // Shards of two different splits.
+    let l = p.join("limits.csv");
+    let l = l.to_str().unwrap();
+    run_batch(p, &p.join("a"), &["--limits", l, "--shard", "1/2"]);
+    run_batch(p, &p.join("b"), &["--limits", l, "--shard", "2/3"]);
+    let o = status(&[&p.join("a"), &p.join("b")]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("'shards'"));
+    // One finished shard of two and an unrelated folder: the folder is listed, exit 1.
+    let o = status(&[&p.join("a"), &p.join("empty")]);
+    assert_eq!(o.status.code(), Some(1));
+    let text = String::from_utf8_lossy(&o.stdout);
+    assert!(text.contains("no shard in "), "{text}");
+    assert!(text.contains("shard 2/2: not started, 2 devices"), "{text}");
+}

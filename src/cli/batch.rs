@@ -4,7 +4,9 @@
 use super::{EXIT_ERROR, EXIT_FAIL, EXIT_OK};
 use clap::Args;
 use spurline::lot::limits::{Catalogue, LimitTable};
-use spurline::lot::{run_lot, run_shard, BatchOptions, BenchPlan, LotCounts, Plots, Shard};
+use spurline::lot::{
+    run_lot, run_shard, shard_from_env, BatchOptions, BenchPlan, LotCounts, Plots, Shard,
+};
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
 
@@ -17,7 +19,14 @@ use std::path::{Path, PathBuf};
                   analysed (the lot still runs to the end and that result is an error row).\n\n\
                   With --shard K/M the run takes device i of the lot (in lot order, from 0) when \
                   i mod M = K - 1, writes the lot files for those devices and a manifest shard.json; \
-                  `spurline merge` combines the M shard folders into the report of an unsharded run."
+                  `spurline merge` combines the M shard folders into the report of an unsharded run.\n\n\
+                  --shard auto reads the job-array task's index from SLURM_ARRAY_TASK_ID (with \
+                  SLURM_ARRAY_TASK_MIN, _MAX, _STEP and _COUNT), PBS_ARRAY_INDEX, PBS_ARRAYID, \
+                  LSB_JOBINDEX (with LSB_JOBINDEX_END, _STEP) or SGE_TASK_ID (with SGE_TASK_FIRST, \
+                  _LAST, _STEPSIZE), the first one set. SPURLINE_SHARDS=M, when set, is the number of \
+                  shards, and shard K runs as array index SPURLINE_SHARD_FIRST + K - 1 (default 1); \
+                  a job script sets it so that a single task submitted again still knows M. Only \
+                  Slurm is tested on a real scheduler."
 )]
 pub struct BatchArgs {
     /// The bench plan (TOML): converter, analysis settings, conditions, where the records are.
@@ -36,7 +45,9 @@ pub struct BatchArgs {
     pub plots: String,
     /// Run only shard K of M of the lot (e.g. 2/8): the devices whose place in the lot, counted from
     /// 0, is K - 1 modulo M. Same plan, limits and --plots for every shard; merge them with `merge`.
-    #[arg(long, value_name = "K/M")]
+    /// `auto`: K and M of the job-array task this runs as (Slurm; PBS, LSF, Grid Engine untested),
+    /// with M from SPURLINE_SHARDS when set.
+    #[arg(long, value_name = "K/M|auto")]
     pub shard: Option<String>,
 }
 
@@ -50,16 +61,7 @@ pub fn run(args: BatchArgs) -> i32 {
 
 fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
     let plots = Plots::parse(&args.plots)?;
-    let shard = args
-        .shard
-        .as_deref()
-        .map(|s| {
-            Shard::parse(s).map_err(|mut e| {
-                e.location = spurline::Location::Key("--shard".into());
-                e
-            })
-        })
-        .transpose()?;
+    let shard = args.shard.as_deref().map(shard_of).transpose()?;
     let plan = BenchPlan::read(&args.plan)?;
     let lot = plan.locate()?;
     let limits = match &args.limits {
@@ -108,6 +110,19 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
         }
     };
     Ok(report(&counts, &out))
+}
+
+/// The shard `--shard` names: `K/M`, or `auto` for the job-array task this process runs as.
+fn shard_of(value: &str) -> Result<Shard, spurline::Error> {
+    if value == "auto" {
+        let task = shard_from_env(&|k: &str| std::env::var(k).ok())?;
+        eprintln!("spurline: {task}");
+        return Ok(task.shard);
+    }
+    Shard::parse(value).map_err(|mut e| {
+        e.location = spurline::Location::Key("--shard".into());
+        e
+    })
 }
 
 /// Prints a lot's counts (error rows first, on stderr) and returns the exit status they mean.

@@ -15,6 +15,7 @@ use std::path::{Path, PathBuf};
 use super::output::{read_lot_rows, write_atomic, LotRows, LotWriter};
 use super::run::LotCounts;
 use super::shard::{lot_fingerprint, remove_manifest, ShardManifest, SHARD_MANIFEST};
+use super::status;
 use crate::report::output_error;
 use crate::{Error, ErrorKind, Location, Result};
 
@@ -29,7 +30,7 @@ fn manifest_error(dir: &Path, key: &str, expected: String, found: String) -> Err
 }
 
 /// Checks that every manifest describes a shard of the same run as the first one.
-fn check_same_run(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<()> {
+pub(super) fn check_same_run(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<()> {
     let (first_dir, first) = (&dirs[0], &manifests[0]);
     for (dir, m) in dirs.iter().zip(manifests).skip(1) {
         let fields: [(&str, String, String); 8] = [
@@ -85,6 +86,116 @@ fn check_same_run(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<()> {
     Ok(())
 }
 
+/// Every folder's manifest. A folder without one (an unfinished shard, or no shard at all) makes an
+/// error that names every shard not finished and the command to run each again, as long as some
+/// folder tells the run (a manifest, or a start note); a manifest that does not parse is its own
+/// error.
+fn read_manifests(dirs: &[PathBuf]) -> Result<Vec<ShardManifest>> {
+    let mut manifests = Vec::with_capacity(dirs.len());
+    let mut finished: Vec<PathBuf> = Vec::new();
+    let mut unfinished: Vec<PathBuf> = Vec::new();
+    let mut first_error = None;
+    for d in dirs {
+        match ShardManifest::read(d) {
+            Ok(m) => {
+                manifests.push(m);
+                finished.push(d.clone());
+            }
+            Err(e) if e.kind == ErrorKind::Io && !d.join(SHARD_MANIFEST).exists() => {
+                unfinished.push(d.clone());
+                first_error.get_or_insert(e);
+            }
+            Err(e) => return Err(e),
+        }
+    }
+    let Some(e) = first_error else {
+        return Ok(manifests);
+    };
+    if !manifests.is_empty() {
+        check_same_run(&finished, &manifests)?;
+    }
+    let note = unfinished
+        .iter()
+        .find_map(|d| ShardManifest::read_start_note(d).ok());
+    let Some(run) = manifests.first().cloned().or(note) else {
+        return Err(e);
+    };
+    let known: Vec<(&Path, usize)> = finished
+        .iter()
+        .zip(&manifests)
+        .filter(|(_, m)| m.shards == run.shards)
+        .map(|(d, m)| (d.as_path(), m.shard))
+        .collect();
+    Err(unfinished_error(&run, &known, &unfinished, dirs.len()))
+}
+
+/// The error for a merge whose shards are not all finished: each shard of the run not among
+/// `finished` (folder, K), said to be started where one of the `unfinished` folders holds its start
+/// note, with the command that runs it again; and each unfinished folder that holds no shard.
+fn unfinished_error(
+    run: &ShardManifest,
+    finished: &[(&Path, usize)],
+    unfinished: &[PathBuf],
+    given: usize,
+) -> Error {
+    let m = run.shards;
+    let notes: Vec<(PathBuf, Option<usize>)> = unfinished
+        .iter()
+        .map(|d| {
+            let k = ShardManifest::read_start_note(d)
+                .ok()
+                .filter(|n| n.shards == m && n.fingerprint == run.fingerprint)
+                .map(|n| n.shard);
+            (d.clone(), k)
+        })
+        .collect();
+    let mut known: Vec<(&Path, usize)> = finished.to_vec();
+    known.extend(
+        notes
+            .iter()
+            .filter_map(|(d, k)| k.map(|k| (d.as_path(), k))),
+    );
+    let mut parts = Vec::new();
+    for k in (1..=m).filter(|k| !finished.iter().any(|(_, j)| j == k)) {
+        let started = notes.iter().find(|(_, j)| *j == Some(k)).map(|(d, _)| d);
+        let (what, out) = match started {
+            Some(d) => (
+                format!(
+                    "shard {k}/{m} started in {} and not finished (no {SHARD_MANIFEST})",
+                    d.display()
+                ),
+                Some(d.clone()),
+            ),
+            None => (
+                format!("no folder of shard {k}/{m} among the {given} given"),
+                status::folder_of(&known, k),
+            ),
+        };
+        parts.push(format!(
+            "{what}; run it again: {}",
+            status::rerun_command(run, k, out.as_deref())
+        ));
+    }
+    for (d, _) in notes.iter().filter(|(_, k)| k.is_none()) {
+        parts.push(format!(
+            "{} holds no {SHARD_MANIFEST} (not a finished shard of this run)",
+            d.display()
+        ));
+    }
+    Error::new(
+        ErrorKind::BadSetting,
+        unfinished.first().map_or(String::new(), |d| {
+            d.join(SHARD_MANIFEST).display().to_string()
+        }),
+        Location::Key("shards".into()),
+        format!(
+            "the output folders of every shard 1/{m}..{m}/{m} of the run, each finished (with \
+             {SHARD_MANIFEST})"
+        ),
+        parts.join("; "),
+    )
+}
+
 /// For each shard number 1..=M, the place of its folder among `dirs`. Errors: a shard given twice,
 /// a shard missing.
 fn place_shards(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<Vec<usize>> {
@@ -105,22 +216,13 @@ fn place_shards(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<Vec<usi
         }
         slot[man.shard - 1] = Some(i);
     }
-    let missing: Vec<String> = (1..=m)
-        .filter(|k| slot[k - 1].is_none())
-        .map(|k| format!("{k}/{m}"))
-        .collect();
-    if !missing.is_empty() {
-        return Err(Error::new(
-            ErrorKind::BadSetting,
-            "",
-            Location::Key("shards".into()),
-            format!("the output folders of every shard 1/{m}..{m}/{m} of the run"),
-            format!(
-                "no folder of shard {} among the {} given",
-                missing.join(", "),
-                dirs.len()
-            ),
-        ));
+    if slot.iter().any(Option::is_none) {
+        let finished: Vec<(&Path, usize)> = dirs
+            .iter()
+            .zip(manifests)
+            .map(|(d, man)| (d.as_path(), man.shard))
+            .collect();
+        return Err(unfinished_error(&manifests[0], &finished, &[], dirs.len()));
     }
     Ok(slot.into_iter().flatten().collect())
 }
@@ -227,7 +329,8 @@ fn copy_folder(from: &Path, to: &Path) -> Result<()> {
 ///
 /// Errors: no folder given; a folder without `shard.json` (not a finished shard) or whose manifest
 /// does not parse; shards of another run (M, plan and limits, version, plots, title, conditions or
-/// lot differ: the error names the field); a shard given twice or missing; a device in two shards;
+/// lot differ: the error names the field); a shard given twice; a shard missing or not finished (the
+/// error names each, with the command that runs it again); a device in two shards;
 /// a shard whose lot files do not match its manifest (naming file and row); a device folder missing;
 /// `out` being one of the shard folders; outputs that cannot be written.
 pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
@@ -238,10 +341,7 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
             "none",
         ));
     }
-    let manifests = shards
-        .iter()
-        .map(|d| ShardManifest::read(d))
-        .collect::<Result<Vec<_>>>()?;
+    let manifests = read_manifests(shards)?;
     check_same_run(shards, &manifests)?;
     let by_shard = place_shards(shards, &manifests)?;
     let order = lot_order(shards, &manifests, &by_shard)?;

@@ -2,7 +2,8 @@
 //! lot of devices × conditions; each is read, analysed and judged against a limit table on a local
 //! thread pool, and per-device and lot summaries are written as the lot goes. A lot can be split into
 //! shards run on separate machines ([`run_shard`]) and the shards merged into the report an unsharded
-//! run writes ([`merge_shards`]).
+//! run writes ([`merge_shards`]); a task of a scheduler's job array finds its shard with
+//! [`shard_from_env`], and [`lot_progress`] says how far the shards have got.
 //!
 //! ```no_run
 //! use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
@@ -32,6 +33,7 @@
 //! # Ok::<(), spurline::Error>(())
 //! ```
 
+mod array_task;
 mod bench_plan;
 pub mod compare;
 pub mod limits;
@@ -39,8 +41,10 @@ mod merge;
 mod output;
 mod run;
 mod shard;
+mod status;
 pub mod sweep;
 
+pub use array_task::{shard_from_env, ArrayTask, Scheduler, SHARDS_VAR, SHARD_FIRST_VAR};
 pub use bench_plan::{
     natural_cmp, BenchPlan, Condition, ListedRecord, Lot, RecordSource,
     DEFAULT_AMPLITUDE_TOLERANCE_DB,
@@ -55,5 +59,7 @@ pub use run::{
     FREQUENCY_WARN_BINS, KEPT_ERRORS, REWRITE_EVERY,
 };
 pub use shard::{
-    lot_fingerprint, run_fingerprint, run_shard, Shard, ShardManifest, SHARD_FORMAT, SHARD_MANIFEST,
+    lot_fingerprint, run_fingerprint, run_shard, Shard, ShardManifest, SHARD_FORMAT,
+    SHARD_MANIFEST, SHARD_START_NOTE,
 };
+pub use status::{lot_progress, LotProgress, ShardProgress, ShardState};

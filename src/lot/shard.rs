@@ -16,6 +16,12 @@
 //! `plots`, `conditions` (plan order), `lot_devices` (devices in the whole lot), `lot_fingerprint` (of
 //! the whole lot's device names in order, see [`lot_fingerprint`]), `devices` (this shard's, in lot
 //! order) and `counts` (this shard's [`LotCounts`]).
+//!
+//! # `shard-start.json`
+//! The same fields with zero counts, written when the shard's run starts and removed once
+//! `shard.json` is written: a folder holding it and no `shard.json` is a shard that started and has
+//! not finished (still running, or stopped). `merge` names such a shard, with the command to run it
+//! again, and `merge --status` counts its devices done so far.
 
 use std::fmt;
 use std::path::Path;
@@ -30,6 +36,9 @@ use crate::{Error, ErrorKind, Location, Result};
 
 /// File name of the shard manifest in a shard's output folder.
 pub const SHARD_MANIFEST: &str = "shard.json";
+
+/// File name of the note a shard run writes when it starts (see the module docs).
+pub const SHARD_START_NOTE: &str = "shard-start.json";
 
 /// Version of the manifest's layout.
 pub const SHARD_FORMAT: u32 = 1;
@@ -200,9 +209,18 @@ impl ShardManifest {
     /// Reads `<dir>/shard.json`. Errors: no manifest (the folder is not a finished shard), a file
     /// that does not parse (naming line and column), a format other than [`SHARD_FORMAT`].
     pub fn read(dir: &Path) -> Result<ShardManifest> {
-        let path = dir.join(SHARD_MANIFEST);
+        ShardManifest::read_file(&dir.join(SHARD_MANIFEST))
+    }
+
+    /// Reads `<dir>/shard-start.json`, the note of a shard run that started (its counts are zero).
+    /// Errors: as [`ShardManifest::read`].
+    pub fn read_start_note(dir: &Path) -> Result<ShardManifest> {
+        ShardManifest::read_file(&dir.join(SHARD_START_NOTE))
+    }
+
+    fn read_file(path: &Path) -> Result<ShardManifest> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(&path).map_err(|e| {
+        let text = std::fs::read_to_string(path).map_err(|e| {
             Error::new(
                 ErrorKind::Io,
                 &shown,
@@ -266,8 +284,9 @@ pub(crate) fn remove_manifest(out: &Path) -> Result<()> {
     }
 }
 
-/// Runs shard `shard` of a lot: [`run_lot`] over the shard's devices (see the module docs), then the
-/// manifest `shard.json` in `options.out`, written last and atomically. The folder then holds the
+/// Runs shard `shard` of a lot: the start note `shard-start.json`, [`run_lot`] over the shard's
+/// devices (see the module docs), then the manifest `shard.json` in `options.out`, written last and
+/// atomically, and the start note removed. The folder then holds the
 /// shard's device folders and its own lot files, which are those of an ordinary run of its devices.
 /// Errors: those of [`run_lot`], and a plan or limit table that can no longer be read for the
 /// fingerprint (checked before the work).
@@ -280,8 +299,7 @@ pub fn run_shard(
 ) -> Result<LotCounts> {
     let fingerprint = run_fingerprint(plan, limits)?;
     let part = lot.shard(shard);
-    let counts = run_lot(plan, &part, limits, options)?;
-    let manifest = ShardManifest {
+    let mut manifest = ShardManifest {
         format: SHARD_FORMAT,
         shard: shard.index,
         shards: shard.count,
@@ -294,13 +312,26 @@ pub fn run_shard(
         conditions: plan.conditions.iter().map(|c| c.name.clone()).collect(),
         lot_devices: lot.devices.len(),
         lot_fingerprint: lot_fingerprint(&lot.devices),
-        devices: part.devices,
-        counts: counts.clone(),
+        devices: part.devices.clone(),
+        counts: LotCounts::default(),
     };
-    let mut json = serde_json::to_string_pretty(&manifest).expect("plain data serialises");
-    json.push('\n');
-    write_atomic(&options.out.join(SHARD_MANIFEST), json.as_bytes())?;
+    // The start note first, so that a stopped run leaves a folder that says which shard it holds.
+    remove_manifest(&options.out)?;
+    manifest.write(&options.out.join(SHARD_START_NOTE))?;
+    let counts = run_lot(plan, &part, limits, options)?;
+    manifest.counts = counts.clone();
+    manifest.write(&options.out.join(SHARD_MANIFEST))?;
+    // shard.json decides whether the shard finished; a note that cannot be removed is harmless.
+    let _ = std::fs::remove_file(options.out.join(SHARD_START_NOTE));
     Ok(counts)
+}
+
+impl ShardManifest {
+    fn write(&self, path: &Path) -> Result<()> {
+        let mut json = serde_json::to_string_pretty(self).expect("plain data serialises");
+        json.push('\n');
+        write_atomic(path, json.as_bytes())
+    }
 }
 
 #[cfg(test)]
