@@ -87,14 +87,13 @@ fn bench(c: &mut Criterion) {
         out: dir.path().join("out"),
         jobs: 2,
         plots: Plots::None,
-        progress: false,
     };
 
     let mut g = c.benchmark_group("batch");
     g.sample_size(10);
     g.throughput(Throughput::Elements((DEVICES * CONDITIONS) as u64));
     g.bench_function("lot_1000_records_2^14_jobs_2", |b| {
-        b.iter(|| run_lot(&plan, &lot, Some(&limits), &options).unwrap())
+        b.iter(|| run_lot(&plan, &lot, Some(&limits), &options, &()).unwrap())
     });
     g.finish();
 

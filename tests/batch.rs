@@ -1587,6 +1587,7 @@ fn proposals_in_the_library() {
                 .into(),
             })
             .collect(),
+        dropped: vec![],
     };
     let metrics = [
         "spectrum.snr_db".to_string(),

@@ -401,6 +401,7 @@ fn limits_and_compare_agree_on_every_direction() {
         catalogue: Catalogue::for_harmonics(10),
         conditions: vec!["f10".into()],
         rows,
+        dropped: vec![],
     };
     let metrics: Vec<String> = once_apart.iter().map(|m| m.to_string()).collect();
     let settings = ProposalSettings {

@@ -138,8 +138,8 @@ pub fn run(out: &Path) -> Result<(), Error> {
                 out: results_dir.clone(),
                 jobs: 2,
                 plots: Plots::Failures,
-                progress: false,
             },
+            &(),
         )?;
         println!(
             "board {rev}: {} devices × {} conditions: {} pass, {} fail, {} fail inside a guardband, {} errors; yield {:.1} %  ({})",

@@ -48,7 +48,7 @@ fn to_csv<T: serde::Serialize>(rows: &[T]) -> String {
 }
 
 fn go(args: &SweepArgs) -> Result<(), Error> {
-    let points = read_points(&args.run)?;
+    let points = read_points(&args.run)?.points;
     let s = sweep(&points);
     let out = args.out.clone().unwrap_or_else(|| args.run.join("sweep"));
     std::fs::create_dir_all(&out).map_err(|e| {

@@ -58,7 +58,6 @@ use std::path::{Path, PathBuf};
 use serde::Deserialize;
 use toml::Spanned;
 
-use super::shard::Shard;
 use crate::analysis::{AnalysisSettings, FitChoice};
 use crate::ingest::{parse_channel, ColumnSel, Format, IngestSettings, Justify, Metadata};
 use crate::spectrum::{SpectrumSettings, Window, WindowChoice};
@@ -263,10 +262,10 @@ impl Lot {
         self.devices.len() * self.conditions
     }
 
-    /// The part of the lot that `shard` takes (see [`Shard`]): its devices in lot order, with their
-    /// record files.
-    pub fn shard(&self, shard: Shard) -> Lot {
-        let keep: Vec<usize> = (0..self.devices.len()).filter(|&i| shard.owns(i)).collect();
+    /// The part of the lot whose devices `keep` takes (by their 0-based place): those devices in lot
+    /// order, with their record files.
+    pub fn subset(&self, keep: impl Fn(usize) -> bool) -> Lot {
+        let keep: Vec<usize> = (0..self.devices.len()).filter(|&i| keep(i)).collect();
         Lot {
             devices: keep.iter().map(|&i| self.devices[i].clone()).collect(),
             conditions: self.conditions,

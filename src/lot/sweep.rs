@@ -3,6 +3,7 @@
 //! an aperture-jitter estimate from SNR against frequency.
 
 use crate::figures::{self, Figure};
+use crate::lot::files::{DroppedCell, LotSummary};
 use crate::{Error, ErrorKind, Location, Result};
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -66,68 +67,46 @@ pub struct Sweep {
     pub summaries: Vec<SweepSummary>,
 }
 
-/// Reads a lot run's `summary.csv` into points (error rows are skipped).
-pub fn read_points(run: &Path) -> Result<Vec<SweepPoint>> {
-    let path = run.join("summary.csv");
-    let shown = path.display().to_string();
-    let bad = |row: usize, e: String| {
-        Error::new(
-            ErrorKind::BadMetadata,
-            &shown,
-            Location::Row(row),
-            "a lot summary.csv row",
-            e,
-        )
-    };
-    let text = std::fs::read_to_string(&path).map_err(|e| {
-        Error::new(
-            ErrorKind::Io,
-            &shown,
-            Location::Whole,
-            "a readable lot summary.csv",
-            e.to_string(),
-        )
-    })?;
-    let mut rd = ::csv::Reader::from_reader(text.as_bytes());
-    let header: Vec<String> = rd
-        .headers()
-        .map_err(|e| bad(1, e.to_string()))?
-        .iter()
-        .map(str::to_string)
-        .collect();
-    let col = |n: &str| header.iter().position(|h| h == n);
+/// A lot run's `summary.csv` read as sweep points.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SweepInput {
+    /// One point per row with a fitted frequency and amplitude (error rows have neither).
+    pub points: Vec<SweepPoint>,
+    /// Figure cells left out as not numbers, by the one rule of the lot reader; a row whose fitted
+    /// frequency or amplitude is one of them gives no point.
+    pub dropped: Vec<DroppedCell>,
+}
+
+/// Reads a lot run's `summary.csv` into points (error rows are skipped). Errors: the summary cannot
+/// be read, lacks a column a sweep needs, or has a row that does not parse.
+pub fn read_points(run: &Path) -> Result<SweepInput> {
+    let summary = LotSummary::in_folder(run)?;
     let need = |n: &str| {
-        col(n).ok_or_else(|| {
+        summary.column(n).ok_or_else(|| {
             Error::new(
                 ErrorKind::BadMetadata,
-                &shown,
+                summary.path().display().to_string(),
                 Location::Row(1),
                 format!("a column '{n}'"),
-                header.join(","),
+                summary.columns().join(","),
             )
         })
     };
-    let (dev, cond, fin, amp) = (
-        need("device")?,
-        need("condition")?,
+    let (fin, amp) = (
         need(figures::FIN.key)?,
         need(figures::FIT_AMPLITUDE_DBFS.key)?,
     );
-    let figs = SWEPT.map(|f| col(f.key));
-    let mut out = Vec::new();
-    for (i, rec) in rd.records().enumerate() {
-        let rec = rec.map_err(|e| bad(i + 2, e.to_string()))?;
-        let num = |k: Option<usize>| {
-            k.and_then(|k| rec.get(k))
-                .and_then(|s| s.parse::<f64>().ok())
-                .filter(|v| v.is_finite())
-        };
+    let figs = SWEPT.map(|f| summary.column(f.key));
+    let mut points = Vec::new();
+    for row in summary.rows() {
+        let row = row?;
+        let num = |k: Option<usize>| k.and_then(|k| row.number(k));
         let (Some(f), Some(a)) = (num(Some(fin)), num(Some(amp))) else {
             continue;
         };
-        out.push(SweepPoint {
-            device: rec.get(dev).unwrap_or("").to_string(),
-            condition: rec.get(cond).unwrap_or("").to_string(),
+        points.push(SweepPoint {
+            device: row.device().to_string(),
+            condition: row.condition().to_string(),
             fin_hz: f,
             amplitude_dbfs: a,
             snr_db: num(figs[0]),
@@ -136,7 +115,10 @@ pub fn read_points(run: &Path) -> Result<Vec<SweepPoint>> {
             enob_bits: num(figs[3]),
         });
     }
-    Ok(out)
+    Ok(SweepInput {
+        points,
+        dropped: summary.dropped(),
+    })
 }
 
 /// ERBW: the first frequency where SINAD is 3 dB below its value at the lowest frequency, linearly

@@ -41,8 +41,8 @@ mod table;
 mod verdict;
 
 pub use proposals::{
-    default_metrics, proposal_table, propose, Characterisation, Existing, GuardbandRule, Margin,
-    Method, Proposal, ProposalSettings, ResultRow,
+    default_metrics, proposal_table, propose, read_results, Characterisation, Existing,
+    GuardbandRule, Margin, Method, Proposal, ProposalSettings, ResultRow,
 };
 pub use table::{Catalogue, Limit, LimitTable, Metric, Scope};
 pub use verdict::{Bound, Check, CheckOutcome, Outcome, Verdict};
