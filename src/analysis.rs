@@ -18,6 +18,19 @@ pub enum FitChoice {
     Three,
 }
 
+impl std::str::FromStr for FitChoice {
+    type Err = Error;
+
+    /// `four` or `three`. Errors: [`crate::ErrorKind::BadSetting`] on key `fit`.
+    fn from_str(s: &str) -> Result<FitChoice> {
+        match s {
+            "four" => Ok(FitChoice::Four),
+            "three" => Ok(FitChoice::Three),
+            other => Err(Error::setting("fit", "four or three", format!("{other:?}"))),
+        }
+    }
+}
+
 /// Settings of the whole analysis.
 #[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct AnalysisSettings {
@@ -218,12 +231,7 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
     for r in records {
         // Records built in code skip the ingest checks: an unchecked resolution or rate would panic
         // (shifts by bits − 1) or overflow into infinities further on.
-        if !(1..=32).contains(&r.bits) {
-            return Err(
-                Error::setting("bits", "a resolution of 1..=32 bits", r.bits.to_string())
-                    .with_path(&r.source),
-            );
-        }
+        crate::record::check_bits(r.bits).map_err(|e| e.with_path(&r.source))?;
         crate::record::check_sample_rate(r.sample_rate_hz, "")
             .map_err(|e| e.with_path(&r.source))?;
         if r.len() < min {

@@ -58,15 +58,7 @@ fn make_lot() -> tempfile::TempDir {
 
 /// Scope of the fixture plan: its conditions with the metrics of their harmonics.
 fn scope_of(plan: &BenchPlan) -> Vec<(String, Catalogue)> {
-    plan.conditions
-        .iter()
-        .map(|c| {
-            (
-                c.name.clone(),
-                Catalogue::for_harmonics(c.settings.spectrum.harmonics),
-            )
-        })
-        .collect()
+    plan.limit_scope()
 }
 
 fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
@@ -1614,7 +1606,9 @@ fn proposals_in_the_library() {
     let settings = ProposalSettings {
         method: Method::Percentile { percent: 1.0 },
         two_sided: true,
-        guardband: vec![spurline::lot::limits::GuardbandRule::parse("0.5sigma").unwrap()],
+        guardband: vec!["0.5sigma"
+            .parse::<spurline::lot::limits::GuardbandRule>()
+            .unwrap()],
     };
     let p = propose(&data, &metrics[..1], &settings, None);
     let pct = &set["percentiles"];

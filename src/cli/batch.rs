@@ -3,7 +3,7 @@
 
 use super::{EXIT_ERROR, EXIT_FAIL, EXIT_OK};
 use clap::Args;
-use spurline::lot::limits::{Catalogue, LimitTable};
+use spurline::lot::limits::LimitTable;
 use spurline::lot::{
     run_lot, run_shard, shard_from_env, BatchOptions, BenchPlan, LotCounts, LotObserver, Plots,
     Shard,
@@ -61,23 +61,14 @@ pub fn run(args: BatchArgs) -> i32 {
 }
 
 fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
-    let plots = Plots::parse(&args.plots)?;
+    let plots: Plots = args.plots.parse()?;
     let shard = args.shard.as_deref().map(shard_of).transpose()?;
     let plan = BenchPlan::read(&args.plan)?;
     let lot = plan.locate()?;
     let limits = match &args.limits {
         None => None,
         Some(path) => {
-            let scope: Vec<(String, Catalogue)> = plan
-                .conditions
-                .iter()
-                .map(|c| {
-                    (
-                        c.name.clone(),
-                        Catalogue::for_harmonics(c.settings.spectrum.harmonics),
-                    )
-                })
-                .collect();
+            let scope = plan.limit_scope();
             Some(LimitTable::read(path, &scope)?)
         }
     };
@@ -155,7 +146,7 @@ fn shard_of(value: &str) -> Result<Shard, spurline::Error> {
         eprintln!("spurline: {task}");
         return Ok(task.shard);
     }
-    Shard::parse(value).map_err(|mut e| {
+    value.parse::<Shard>().map_err(|mut e| {
         e.location = spurline::Location::Key("--shard".into());
         e
     })

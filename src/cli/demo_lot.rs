@@ -7,7 +7,7 @@
 use rand::{Rng, SeedableRng};
 use spurline::ingest::{write_sidecar, Sidecar};
 use spurline::lot::compare::{compare, output, read_run, Change, CompareSettings};
-use spurline::lot::limits::{Catalogue, LimitTable};
+use spurline::lot::limits::LimitTable;
 use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
 use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
 use spurline::{Error, ErrorKind, Location};
@@ -118,16 +118,7 @@ pub fn run(out: &Path) -> Result<(), Error> {
         std::fs::write(&plan_path, plan_text(rev)).map_err(|e| io(&plan_path, e))?;
         let plan = BenchPlan::read(&plan_path)?;
         let lot = plan.locate()?;
-        let scope: Vec<(String, Catalogue)> = plan
-            .conditions
-            .iter()
-            .map(|c| {
-                (
-                    c.name.clone(),
-                    Catalogue::for_harmonics(c.settings.spectrum.harmonics),
-                )
-            })
-            .collect();
+        let scope = plan.limit_scope();
         let limits = LimitTable::read(&limits_path, &scope)?;
         let results_dir = lot_dir.join("results");
         let counts = run_lot(

@@ -6,7 +6,6 @@ use clap::Args;
 use spurline::analyses::imd::{analyze_two_tone, ImdResult, ImdSettings};
 use spurline::report::text::block_head;
 use spurline::report::units::{fixed, si};
-use spurline::spectrum::{Window, WindowChoice};
 use std::fmt::Write;
 use std::path::PathBuf;
 
@@ -35,22 +34,13 @@ pub struct ImdArgs {
     pub json: bool,
 }
 
-/// Parses `--window` ("auto" or a window id).
-pub(crate) fn window_choice(s: &str) -> Result<WindowChoice, spurline::Error> {
-    if s.eq_ignore_ascii_case("auto") {
-        Ok(WindowChoice::Auto)
-    } else {
-        Ok(WindowChoice::Fixed(Window::parse(s)?))
-    }
-}
-
 /// Runs `imd`.
 pub fn run(args: ImdArgs) -> i32 {
     let ingest = match args.read.settings() {
         Ok(s) => s,
         Err(e) => return super::fail(&e),
     };
-    let window = match window_choice(&args.window) {
+    let window = match args.window.parse() {
         Ok(w) => w,
         Err(e) => return super::fail(&e),
     };

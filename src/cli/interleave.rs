@@ -40,7 +40,7 @@ pub fn run(args: InterleaveArgs) -> i32 {
         Ok(s) => s,
         Err(e) => return super::fail(&e),
     };
-    let window = match super::imd::window_choice(&args.window) {
+    let window = match args.window.parse() {
         Ok(w) => w,
         Err(e) => return super::fail(&e),
     };

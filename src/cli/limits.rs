@@ -136,7 +136,7 @@ fn go(args: &LimitsArgs) -> Result<(), Error> {
     }
     let mut guardband = Vec::new();
     for g in &args.guardband {
-        let mut rule = GuardbandRule::parse(g)?;
+        let mut rule: GuardbandRule = g.parse()?;
         if let Some(m) = &rule.metric {
             rule.metric = Some(resolve(m, "guardband")?);
         }

@@ -201,33 +201,18 @@ pub struct ReadArgs {
 impl ReadArgs {
     /// Converts into ingest settings, validating what can be validated before any file is read.
     pub fn settings(&self) -> Result<spurline::ingest::IngestSettings, spurline::Error> {
-        use spurline::ingest::{ColumnSel, Format, IngestSettings, Justify, Metadata};
-        use spurline::Error;
+        use spurline::ingest::{parse_delimiter, ColumnSel, Format, IngestSettings, Metadata};
+        // `txt` is the command line's own alias of `text`.
         let format = match self.format.as_deref() {
             None => None,
-            Some("text") | Some("txt") => Some(Format::Text),
-            Some("csv") => Some(Format::Csv {
-                column: ColumnSel::Index(0),
-                delimiter: None,
-            }),
-            Some(word) => Some(Format::Binary(Format::parse_word(word)?)),
+            Some("txt") => Some(Format::Text),
+            Some(f) => Some(f.parse::<Format>()?),
         };
         let column = self.column.as_ref().map(|c| match c.parse::<usize>() {
             Ok(i) => ColumnSel::Index(i),
             Err(_) => ColumnSel::Name(c.clone()),
         });
-        let delimiter = match self.delimiter.as_deref() {
-            None => None,
-            Some("tab") | Some("\\t") => Some(b'\t'),
-            Some(d) if d.len() == 1 => Some(d.as_bytes()[0]),
-            Some(d) => {
-                return Err(Error::setting(
-                    "delimiter",
-                    "one ASCII character or 'tab'",
-                    format!("'{d}'"),
-                ))
-            }
-        };
+        let delimiter = self.delimiter.as_deref().map(parse_delimiter).transpose()?;
         Ok(IngestSettings {
             format,
             meta: Metadata {
@@ -236,14 +221,8 @@ impl ReadArgs {
                 fin_hz: self.fin,
                 full_scale_vpp: self.full_scale_vpp,
             },
-            coding: self.coding.as_deref().map(|c| match c {
-                "offset" => spurline::Coding::OffsetBinary,
-                _ => spurline::Coding::TwosComplement,
-            }),
-            justify: self.justify.as_deref().map(|j| match j {
-                "left" => Justify::Left,
-                _ => Justify::Right,
-            }),
+            coding: self.coding.as_deref().map(str::parse).transpose()?,
+            justify: self.justify.as_deref().map(str::parse).transpose()?,
             skip_bytes: self.skip_bytes,
             channel: self
                 .channel
@@ -279,13 +258,8 @@ pub struct AnalysisArgs {
 impl AnalysisArgs {
     /// Converts into analysis settings.
     pub fn settings(&self) -> Result<spurline::analysis::AnalysisSettings, spurline::Error> {
-        use spurline::analysis::{AnalysisSettings, FitChoice};
-        use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
-        let window = if self.window.eq_ignore_ascii_case("auto") {
-            WindowChoice::Auto
-        } else {
-            WindowChoice::Fixed(Window::parse(&self.window)?)
-        };
+        use spurline::analysis::AnalysisSettings;
+        use spurline::spectrum::SpectrumSettings;
         if !(1..=100).contains(&self.harmonics) {
             return Err(spurline::Error::setting(
                 "harmonics",
@@ -294,13 +268,9 @@ impl AnalysisArgs {
             ));
         }
         Ok(AnalysisSettings {
-            fit: if self.fit == "three" {
-                FitChoice::Three
-            } else {
-                FitChoice::Four
-            },
+            fit: self.fit.parse()?,
             spectrum: SpectrumSettings {
-                window,
+                window: self.window.parse()?,
                 harmonics: self.harmonics,
                 guard_bins: self.guard_bins,
             },

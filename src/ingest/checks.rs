@@ -15,18 +15,7 @@ const STUCK_BITS_MIN_SAMPLES: usize = 64;
 /// Fewest expected hits per mid-scale code before a missing code counts as evidence.
 const MISSING_MIN_EXPECTED_HITS: f64 = 5.0;
 
-/// Rejects a resolution outside 1..=32 bits.
-pub(crate) fn check_bits(bits: u32) -> Result<()> {
-    if (1..=32).contains(&bits) {
-        Ok(())
-    } else {
-        Err(Error::setting(
-            "bits",
-            "a resolution of 1..=32 bits",
-            bits.to_string(),
-        ))
-    }
-}
+pub(crate) use crate::record::check_bits;
 
 /// The N-bit signed range as shown in errors, e.g. "-2048..=2047 (12-bit two's complement)".
 pub(crate) fn range_text(bits: u32) -> String {

@@ -144,15 +144,7 @@ fn csv_error(path: &Path, expected: &str, e: &::csv::Error) -> Error {
 }
 
 pub(crate) fn read_bytes(path: &Path, what: &str) -> Result<Vec<u8>> {
-    std::fs::read(path).map_err(|e| {
-        Error::new(
-            ErrorKind::Io,
-            path.display().to_string(),
-            Location::Whole,
-            what,
-            e.to_string(),
-        )
-    })
+    std::fs::read(path).map_err(|e| Error::io(path, what, e))
 }
 
 /// A lot's (or a device's) `summary.csv`, read whole and parsed row by row ([`LotSummary::rows`]).

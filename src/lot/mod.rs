@@ -7,23 +7,18 @@
 //!
 //! ```no_run
 //! use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
-//! use spurline::lot::limits::{Catalogue, LimitTable};
+//! use spurline::lot::limits::LimitTable;
 //!
 //! let plan = BenchPlan::read("bench/plan.toml".as_ref())?;
 //! let lot = plan.locate()?;
-//! let scope: Vec<(String, Catalogue)> = plan
-//!     .conditions
-//!     .iter()
-//!     .map(|c| (c.name.clone(), Catalogue::for_harmonics(c.settings.spectrum.harmonics)))
-//!     .collect();
-//! let limits = LimitTable::read("bench/limits.csv".as_ref(), &scope)?;
+//! let limits = LimitTable::read("bench/limits.csv".as_ref(), &plan.limit_scope())?;
 //! let options = BatchOptions { out: "reports/lot7".into(), jobs: 2, plots: Plots::None };
 //! let counts = run_lot(&plan, &lot, Some(&limits), &options, &())?;
 //! println!("{} of {} results pass", counts.passed, counts.results);
 //!
 //! // The same lot over eight machines: each runs its shard, then one merges the eight folders.
 //! use spurline::lot::{merge_shards, run_shard, Shard};
-//! let shard = Shard::parse("2/8")?;
+//! let shard: Shard = "2/8".parse()?;
 //! let mine = BatchOptions { out: "reports/lot7-2".into(), ..options.clone() };
 //! run_shard(&plan, &lot, Some(&limits), &mine, shard, &())?;
 //! let folders: Vec<std::path::PathBuf> =

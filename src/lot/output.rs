@@ -44,9 +44,11 @@ pub enum Plots {
     All,
 }
 
-impl Plots {
-    /// Parses `none`, `failures` or `all`.
-    pub fn parse(s: &str) -> Result<Plots> {
+impl std::str::FromStr for Plots {
+    type Err = Error;
+
+    /// `none`, `failures` or `all`. Errors: [`ErrorKind::BadSetting`] on key `plots`.
+    fn from_str(s: &str) -> Result<Plots> {
         match s {
             "none" => Ok(Plots::None),
             "failures" => Ok(Plots::Failures),
@@ -58,7 +60,9 @@ impl Plots {
             )),
         }
     }
+}
 
+impl Plots {
     /// The option's value as `--plots` takes it.
     pub fn as_str(&self) -> &'static str {
         match self {

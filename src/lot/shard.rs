@@ -29,7 +29,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use super::bench_plan::{BenchPlan, Lot};
-use super::files::{SHARD_MANIFEST, SHARD_START_NOTE};
+use super::files::{read_bytes, SHARD_MANIFEST, SHARD_START_NOTE};
 use super::output::{remove_shard_manifest, write_atomic};
 use super::result::LotCounts;
 use super::run::{lot_title, run_lot, BatchOptions, LotObserver};
@@ -63,23 +63,6 @@ impl Shard {
         Ok(Shard { index, count })
     }
 
-    /// Parses `K/M` (e.g. `2/8`). Errors name the setting `shard`, the form and what was given.
-    pub fn parse(s: &str) -> Result<Shard> {
-        let bad = || Error::setting("shard", SHARD_FORM, format!("'{s}'"));
-        let (k, m) = s.split_once('/').ok_or_else(bad)?;
-        let whole = |t: &str| {
-            if !t.is_empty() && t.bytes().all(|b| b.is_ascii_digit()) {
-                t.parse::<usize>().ok()
-            } else {
-                None
-            }
-        };
-        match (whole(k), whole(m)) {
-            (Some(k), Some(m)) => Shard::new(k, m).map_err(|_| bad()),
-            _ => Err(bad()),
-        }
-    }
-
     /// Whether device `device` (its 0-based place in the lot) belongs to this shard.
     pub fn owns(&self, device: usize) -> bool {
         device % self.count == self.index - 1
@@ -93,6 +76,27 @@ impl Shard {
     /// The part of `lot` this shard takes: its devices in lot order, with their record files.
     pub fn part(&self, lot: &Lot) -> Lot {
         lot.subset(|i| self.owns(i))
+    }
+}
+
+impl std::str::FromStr for Shard {
+    type Err = Error;
+
+    /// Parses `K/M` (e.g. `2/8`). Errors name the setting `shard`, the form and what was given.
+    fn from_str(s: &str) -> Result<Shard> {
+        let bad = || Error::setting("shard", SHARD_FORM, format!("'{s}'"));
+        let (k, m) = s.split_once('/').ok_or_else(bad)?;
+        let whole = |t: &str| {
+            if !t.is_empty() && t.bytes().all(|b| b.is_ascii_digit()) {
+                t.parse::<usize>().ok()
+            } else {
+                None
+            }
+        };
+        match (whole(k), whole(m)) {
+            (Some(k), Some(m)) => Shard::new(k, m).map_err(|_| bad()),
+            _ => Err(bad()),
+        }
     }
 }
 
@@ -132,29 +136,17 @@ impl Fnv {
     }
 }
 
-fn read_input(path: &Path, what: &str) -> Result<Vec<u8>> {
-    std::fs::read(path).map_err(|e| {
-        Error::new(
-            ErrorKind::Io,
-            path.display().to_string(),
-            Location::Whole,
-            what,
-            e.to_string(),
-        )
-    })
-}
-
 /// The fingerprint of a run's set-up: the bytes of the plan file and of the limit table (if any), as
 /// 16 hex digits. Shards whose fingerprints differ were run with different plans or limits and are
 /// not merged. Errors: a file that can no longer be read.
 pub fn run_fingerprint(plan: &BenchPlan, limits: Option<&LimitTable>) -> Result<String> {
     let mut h = Fnv::new();
     h.part(b"spurline bench plan");
-    h.part(&read_input(&plan.path, "a readable bench plan")?);
+    h.part(&read_bytes(&plan.path, "a readable bench plan")?);
     match limits {
         Some(t) => {
             h.part(b"limit table");
-            h.part(&read_input(Path::new(&t.path), "a readable limit table")?);
+            h.part(&read_bytes(Path::new(&t.path), "a readable limit table")?);
         }
         None => h.part(b"no limit table"),
     }
@@ -221,15 +213,8 @@ impl ShardManifest {
 
     fn read_file(path: &Path) -> Result<ShardManifest> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                &shown,
-                Location::Whole,
-                "the manifest of a finished `batch --shard` run",
-                e.to_string(),
-            )
-        })?;
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| Error::io(path, "the manifest of a finished `batch --shard` run", e))?;
         let m: ShardManifest = serde_json::from_str(&text).map_err(|e| {
             Error::new(
                 ErrorKind::BadMetadata,
@@ -409,12 +394,12 @@ mod tests {
 
     #[test]
     fn shard_values_parse_or_name_the_setting() {
-        assert_eq!(Shard::parse("2/8"), Ok(Shard { index: 2, count: 8 }));
-        assert_eq!(Shard::parse("1/1"), Ok(Shard { index: 1, count: 1 }));
+        assert_eq!("2/8".parse::<Shard>(), Ok(Shard { index: 2, count: 8 }));
+        assert_eq!("1/1".parse::<Shard>(), Ok(Shard { index: 1, count: 1 }));
         for bad in [
             "0/3", "4/3", "x", "3", "1/0", "/3", "2/", "-1/3", "+1/3", "1/3/4", " 1/3",
         ] {
-            let e = Shard::parse(bad).unwrap_err();
+            let e = bad.parse::<Shard>().unwrap_err();
             assert_eq!(e.kind, ErrorKind::BadSetting, "{bad}");
             assert_eq!(e.location, Location::Key("shard".into()), "{bad}");
             assert_eq!(e.found, format!("'{bad}'"));

@@ -160,15 +160,8 @@ fn shard_folders(folders: &[PathBuf]) -> Result<(Vec<PathBuf>, Vec<PathBuf>)> {
             found.push(dir.clone());
             continue;
         }
-        let listing = std::fs::read_dir(dir).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                dir.display().to_string(),
-                Location::Whole,
-                "a shard folder, or a folder holding shard folders",
-                e.to_string(),
-            )
-        })?;
+        let listing = std::fs::read_dir(dir)
+            .map_err(|e| Error::io(dir, "a shard folder, or a folder holding shard folders", e))?;
         let mut subs: Vec<PathBuf> = listing
             .filter_map(|e| e.ok().map(|e| e.path()))
             .filter(|p| p.is_dir() && is_shard_folder(p))

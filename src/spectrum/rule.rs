@@ -20,6 +20,24 @@ pub enum WindowChoice {
     Fixed(Window),
 }
 
+impl std::str::FromStr for WindowChoice {
+    type Err = crate::Error;
+
+    /// `auto` (any case), or a window id as [`Window`]'s `FromStr` takes it. Errors:
+    /// [`crate::ErrorKind::BadSetting`] on key `window`, naming `auto` beside the windows.
+    fn from_str(s: &str) -> crate::Result<WindowChoice> {
+        if s.trim().eq_ignore_ascii_case("auto") {
+            return Ok(WindowChoice::Auto);
+        }
+        s.parse()
+            .map(WindowChoice::Fixed)
+            .map_err(|e: crate::Error| crate::Error {
+                expected: format!("auto or {}", e.expected),
+                ..e
+            })
+    }
+}
+
 /// Margin below the expected noise that a window's leakage must keep to bias SNR by < 0.1 dB:
 /// 10·log10(10^(0.1/10) − 1) = −16.33 dB, rounded out.
 pub const LEAKAGE_MARGIN_DB: f64 = 16.4;

@@ -93,13 +93,7 @@ fn finite_in(key: &str, v: f64, lo: f64, hi: f64, what: &str) -> Result<()> {
 }
 
 fn check_common(bits: u32, fs: f64, samples: usize, noise: f64) -> Result<()> {
-    if !(1..=32).contains(&bits) {
-        return Err(Error::setting(
-            "bits",
-            "a resolution in 1..=32 bits",
-            bits.to_string(),
-        ));
-    }
+    crate::record::check_bits(bits)?;
     finite_in(
         "sample_rate_hz",
         fs,

@@ -97,9 +97,11 @@ pub struct GuardbandRule {
     pub margin: Margin,
 }
 
-impl GuardbandRule {
+impl std::str::FromStr for GuardbandRule {
+    type Err = Error;
+
     /// Parses `[METRIC=]VALUE` or `[METRIC=]Nsigma`: `0.5`, `1sigma`, `snr_db=0.3`.
-    pub fn parse(s: &str) -> Result<GuardbandRule> {
+    fn from_str(s: &str) -> Result<GuardbandRule> {
         let (metric, value) = match s.split_once('=') {
             Some((m, v)) => (Some(m.trim().to_string()), v.trim()),
             None => (None, s.trim()),

@@ -140,15 +140,8 @@ impl LimitTable {
     /// Reads and resolves a limit table file.
     pub fn read(path: &Path, scope: &Scope) -> Result<LimitTable> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                &shown,
-                Location::Whole,
-                "a readable limit table (UTF-8 CSV)",
-                e.to_string(),
-            )
-        })?;
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| Error::io(path, "a readable limit table (UTF-8 CSV)", e))?;
         LimitTable::parse(&text, &shown, scope)
     }
 
