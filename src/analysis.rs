@@ -6,8 +6,6 @@ use crate::spectrum::{self, claim::Owner, Spectrum, SpectrumSettings};
 use crate::{Error, ErrorKind, Location, Record, Result};
 use serde::Serialize;
 
-pub use crate::record::{MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ};
-
 /// Which sine fit to run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum FitChoice {
@@ -146,7 +144,7 @@ pub type Analysis = RecordResult<OneTone>;
 pub struct Traces {
     /// Residual of the sine fit (first record), codes.
     pub residual: Vec<f64>,
-    /// Averaged bin powers, codes² (see [`spectrum::fft::power_spectrum`]).
+    /// Averaged bin powers, codes² (one-sided, scaled by N·Σw² as the crate docs say).
     pub powers: Vec<f64>,
     /// Owner of each bin.
     pub owner: Vec<Owner>,
@@ -360,6 +358,7 @@ pub fn histogram_of(codes: &[i32], bits: u32) -> Vec<u64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::record::{MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ};
 
     // Both forms of the code counts give the same histogram (slow reference: a count per code by a
     // linear scan), and the form kept is the smaller one.

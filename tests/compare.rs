@@ -1,6 +1,6 @@
 //! Revision-comparison statistics against stored scipy values (tests/reference/make_ttest_refs.py).
 
-use spurline::stats::{paired, summarize, welch};
+use spurline::{paired, summarize, welch};
 
 fn refs() -> serde_json::Value {
     let path = concat!(
@@ -86,7 +86,7 @@ fn paired_matches_scipy() {
     assert_eq!(seen, 2);
 }
 
-use spurline::lot::compare::{compare, read_run, Change, CompareSettings};
+use spurline::{compare, read_run, Change, CompareSettings};
 use std::path::Path;
 
 /// Writes a minimal lot summary.csv (the columns `spurline batch` writes that compare reads).
@@ -187,7 +187,9 @@ fn verdicts_directions_and_left_out_items() {
     // No NaN reaches an output.
     let json = serde_json::to_string(&c).unwrap();
     assert!(!json.contains("NaN") && !json.contains("null,\"ci"));
-    let csv = spurline::lot::compare::output::to_csv(&c);
+    let out = tempfile::tempdir().unwrap();
+    spurline::write_comparison(out.path(), &c, &run_a, &run_b).unwrap();
+    let csv = std::fs::read_to_string(out.path().join("comparison.csv")).unwrap();
     assert!(!csv.contains("NaN") && !csv.to_lowercase().contains("inf"));
 }
 
@@ -322,9 +324,9 @@ fn compare_command_writes_its_outputs_escaped() {
 // out by compare. Directions: common practice, no source (less residual and spur level is better).
 #[test]
 fn limits_and_compare_agree_on_every_direction() {
+    use spurline::better_direction;
     use spurline::figures::{self, Better};
-    use spurline::lot::compare::better_direction;
-    use spurline::lot::limits::{
+    use spurline::{
         propose, Catalogue, Characterisation, Method, Metric, ProposalSettings, ResultRow,
     };
     let mut one_sided = 0;

@@ -8,11 +8,11 @@
 
 use crate::fuzz_props::invariants::check_outputs;
 use crate::tolerances::*;
-use spurline::analysis::{analyze, Analysis, AnalysisSettings};
-use spurline::ingest::check_codes;
-use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
-use spurline::synth::{synthesize, SynthFrequency, SynthSettings};
+use spurline::check_codes;
+use spurline::{analyze, Analysis, AnalysisSettings};
+use spurline::{synthesize, SynthFrequency, SynthSettings};
 use spurline::{Error, ErrorKind};
+use spurline::{SpectrumSettings, Window, WindowChoice};
 
 const FS_HZ: f64 = 1e6;
 const N: usize = 4096;

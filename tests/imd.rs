@@ -3,9 +3,7 @@
 
 use crate::tolerances::{IMD_DB, INTERLEAVE_DB};
 use assert_cmd::Command;
-use spurline::synth::multi::{
-    interleaved, two_tone, InterleavedSettings, ToneSpec, TwoToneSettings,
-};
+use spurline::{interleaved, two_tone, InterleavedSettings, ToneSpec, TwoToneSettings};
 use std::path::{Path, PathBuf};
 
 const FS: f64 = 100e6;

@@ -3,7 +3,7 @@
 //! advice, the plots, and bad input (exit 2, no panic).
 
 use assert_cmd::Command;
-use spurline::synth::{transition_levels, SynthSettings};
+use spurline::{transition_levels, SynthSettings};
 use std::f64::consts::PI;
 use std::path::{Path, PathBuf};
 

@@ -1,9 +1,9 @@
 //! The whole pipeline (synth → fit → spectrum) against handbook formulas and exact time-domain truth.
 
 use crate::tolerances::*;
-use spurline::analysis::{analyze, analyze_averaged, AnalysisSettings, FitChoice};
-use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
-use spurline::synth::{synthesize, SynthFrequency, SynthSettings};
+use spurline::{analyze, analyze_averaged, AnalysisSettings, FitChoice};
+use spurline::{synthesize, SynthFrequency, SynthSettings};
+use spurline::{SpectrumSettings, Window, WindowChoice};
 
 fn ideal(bits: u32, samples: usize, amplitude_dbfs: f64, target_hz: f64) -> SynthSettings {
     SynthSettings {
@@ -25,7 +25,7 @@ fn ideal(bits: u32, samples: usize, amplitude_dbfs: f64, target_hz: f64) -> Synt
     }
 }
 
-fn run(s: &SynthSettings, settings: &AnalysisSettings) -> spurline::analysis::Measured {
+fn run(s: &SynthSettings, settings: &AnalysisSettings) -> spurline::Measured {
     let rec = synthesize(s).expect("valid synth settings").record;
     analyze(&rec, settings).expect("record analyses")
 }
@@ -200,7 +200,7 @@ fn non_coherent_auto_window_agrees_with_coherent() {
         sp.snr_db,
         coh.snr_db
     );
-    let h3 = |s: &spurline::spectrum::Spectrum| {
+    let h3 = |s: &spurline::Spectrum| {
         s.harmonics
             .iter()
             .find(|h| h.order == 3)

@@ -4,7 +4,7 @@
 use std::f64::consts::PI;
 
 use serde_json::Value;
-use spurline::spectrum::{Window, WindowFigures};
+use spurline::{Window, WindowFigures};
 
 // ---------------------------------------------------------------------------------------------
 // Helpers

@@ -47,7 +47,7 @@ pub const MIN_CHANNEL_SAMPLES: usize = 16;
 pub struct InterleaveSettings {
     /// Number of interleaved channels M (2 or more).
     pub channels: usize,
-    /// The window choice (the rule of [`crate::spectrum`] for `Auto`).
+    /// The window choice ([`WindowChoice::Auto`]: the one-tone window rule).
     pub window: WindowChoice,
     /// Guard bins on each side of every tone's and spur's bins; `None`: 0 coherent, 1 non-coherent.
     pub guard_bins: Option<usize>,

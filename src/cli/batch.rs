@@ -3,8 +3,8 @@
 
 use super::{EXIT_ERROR, EXIT_FAIL, EXIT_OK};
 use clap::Args;
-use spurline::lot::limits::LimitTable;
-use spurline::lot::{
+use spurline::LimitTable;
+use spurline::{
     run_lot, run_shard, shard_from_env, BatchOptions, BenchPlan, LotCounts, LotObserver, Plots,
     Shard,
 };

@@ -16,7 +16,7 @@ mod synth;
 mod verify;
 
 use clap::{Args, Parser, Subcommand};
-use spurline::analysis::RecordResult;
+use spurline::RecordResult;
 
 /// Exit status: all records analysed and every limit passed.
 pub const EXIT_OK: i32 = 0;
@@ -98,7 +98,7 @@ pub fn run(cli: Cli) -> i32 {
 /// one JSON array or the text blocks, repeats the errors on stderr, and gives the exit status.
 pub(crate) fn run_files<T: Default + serde::Serialize>(
     files: &[std::path::PathBuf],
-    ingest: &spurline::ingest::IngestSettings,
+    ingest: &spurline::IngestSettings,
     json: bool,
     analyse: impl Fn(&spurline::Record) -> spurline::Result<RecordResult<T>>,
     render: impl Fn(&RecordResult<T>) -> String,
@@ -106,7 +106,7 @@ pub(crate) fn run_files<T: Default + serde::Serialize>(
     let mut results = Vec::with_capacity(files.len());
     for path in files {
         let shown = path.display().to_string();
-        let r = match spurline::ingest::read_record(path, ingest) {
+        let r = match spurline::read_record(path, ingest) {
             Err(e) => RecordResult::failed(&shown, &e, Vec::new()),
             Ok(ing) => match analyse(&ing.record) {
                 Ok(mut r) => {
@@ -154,7 +154,7 @@ pub(crate) fn fail(e: &spurline::Error) -> i32 {
 
 /// Parses a frequency or other quantity with an optional SI prefix ("100M", "1.5 kHz", "1e6").
 pub(crate) fn si_value(s: &str) -> Result<f64, String> {
-    spurline::report::units::parse_si(s).ok_or_else(|| {
+    spurline::parse_si(s).ok_or_else(|| {
         format!("expected a number with an optional SI prefix (100e6, 100M, 1.5k), found '{s}'")
     })
 }
@@ -200,8 +200,8 @@ pub struct ReadArgs {
 
 impl ReadArgs {
     /// Converts into ingest settings, validating what can be validated before any file is read.
-    pub fn settings(&self) -> Result<spurline::ingest::IngestSettings, spurline::Error> {
-        use spurline::ingest::{parse_delimiter, ColumnSel, Format, IngestSettings, Metadata};
+    pub fn settings(&self) -> Result<spurline::IngestSettings, spurline::Error> {
+        use spurline::{parse_delimiter, ColumnSel, Format, IngestSettings, Metadata};
         // `txt` is the command line's own alias of `text`.
         let format = match self.format.as_deref() {
             None => None,
@@ -227,7 +227,7 @@ impl ReadArgs {
             channel: self
                 .channel
                 .as_deref()
-                .map(spurline::ingest::parse_channel)
+                .map(spurline::parse_channel)
                 .transpose()?,
             column,
             delimiter,
@@ -257,9 +257,9 @@ pub struct AnalysisArgs {
 
 impl AnalysisArgs {
     /// Converts into analysis settings.
-    pub fn settings(&self) -> Result<spurline::analysis::AnalysisSettings, spurline::Error> {
-        use spurline::analysis::AnalysisSettings;
-        use spurline::spectrum::SpectrumSettings;
+    pub fn settings(&self) -> Result<spurline::AnalysisSettings, spurline::Error> {
+        use spurline::AnalysisSettings;
+        use spurline::SpectrumSettings;
         if !(1..=100).contains(&self.harmonics) {
             return Err(spurline::Error::setting(
                 "harmonics",

@@ -15,7 +15,7 @@ use serde::Serialize;
 
 use crate::Error;
 
-/// Largest Kaiser β accepted by [`Window::parse`] (its sidelobes are far below -300 dB there).
+/// Largest Kaiser β a window id may give (`kaiser(BETA)`) (its sidelobes are far below -300 dB there).
 pub const KAISER_BETA_MAX: f64 = 100.0;
 
 /// Record length at which [`Window::figures`] are computed.
@@ -95,7 +95,7 @@ pub enum Window {
     },
 }
 
-/// Figures of merit of a window, computed numerically on the periodic form at [`FIGURES_LEN`] points.
+/// Figures of merit of a window, computed numerically on the periodic form at 4096 points.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct WindowFigures {
     /// Σw / (N · peak): Harris's normalised coherent gain.
@@ -260,7 +260,7 @@ impl Window {
         })
     }
 
-    /// Figures of merit at N = [`FIGURES_LEN`], computed numerically (and cached per window).
+    /// Figures of merit at N = 4096, computed numerically (and cached per window).
     pub fn figures(&self) -> WindowFigures {
         static CACHE: Mutex<Vec<(Window, WindowFigures)>> = Mutex::new(Vec::new());
         let lookup = |cache: &Vec<(Window, WindowFigures)>| {
@@ -298,7 +298,7 @@ impl Window {
     /// How much of a unit tone at `offset_bins` from a bin centre lands outside that bin ± `span`
     /// bins.
     ///
-    /// Computed at the reference length Nr = [`LEAKAGE_LEN`]: the complex tone
+    /// Computed at the reference length Nr = 4096: the complex tone
     /// `w[n]·exp(j2π(k0 + δ)n/Nr)`, k0 = Nr/4, is transformed (complex FFT, so there is no image tone),
     /// the tone's power is Σ|X_m|² over all bins (Parseval) and the bins at circular distance > span
     /// from k0 are summed directly, not as 1 minus the inside.

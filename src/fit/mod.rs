@@ -10,7 +10,6 @@ mod sums;
 mod three_param;
 
 pub use four_param::{fit_four, FourParamOptions};
-pub use start::estimate_frequency;
 pub use three_param::fit_three;
 
 use serde::Serialize;

@@ -106,11 +106,6 @@ impl SummaryColumns {
         }
     }
 
-    /// The result record's columns.
-    pub fn figures(&self) -> &[String] {
-        &self.figures
-    }
-
     /// The header line.
     pub fn header(&self) -> Vec<u8> {
         csv_line(
@@ -812,5 +807,18 @@ pub(crate) fn remove_shard_manifest(out: &Path) -> Result<()> {
             "a stale shard manifest that can be removed",
             e.to_string(),
         )),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_lot_summary_has_the_lead_columns_then_the_figure_table() {
+        let header = String::from_utf8(SummaryColumns::new(7).header()).unwrap();
+        let mut want: Vec<String> = LEAD_COLUMNS.iter().map(|s| s.to_string()).collect();
+        want.extend(crate::figures::keys(7));
+        assert_eq!(header.trim_end(), want.join(","));
     }
 }

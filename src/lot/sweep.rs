@@ -2,8 +2,10 @@
 //! ENOB against frequency, the effective resolution bandwidth, SNR against amplitude (dynamic range), and
 //! an aperture-jitter estimate from SNR against frequency.
 
-use crate::figures::{self, Figure};
+use crate::figures::{self, flatten, Figure};
+use crate::lot::compare::plots::series_svg;
 use crate::lot::files::{DroppedCell, LotSummary};
+use crate::report::{output_error, write_atomic};
 use crate::{Error, ErrorKind, Location, Result};
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -255,6 +257,91 @@ pub fn sweep(points: &[SweepPoint]) -> Sweep {
         points: all,
         summaries,
     }
+}
+
+/// Rows as CSV: the flattened keys of the first row as the header.
+fn to_csv<T: serde::Serialize>(rows: &[T]) -> String {
+    let flat: Vec<Vec<(String, String)>> = rows
+        .iter()
+        .map(|r| flatten(&serde_json::to_value(r).expect("plain data serialises")))
+        .collect();
+    let mut w = ::csv::Writer::from_writer(Vec::new());
+    if let Some(first) = flat.first() {
+        w.write_record(first.iter().map(|(k, _)| k))
+            .expect("memory");
+    }
+    for r in &flat {
+        w.write_record(r.iter().map(|(_, v)| v)).expect("memory");
+    }
+    String::from_utf8(w.into_inner().expect("memory")).expect("UTF-8")
+}
+
+/// Writes a sweep into `out` (created when missing): `sweep.csv` (every point), `sweep_summary.csv`
+/// (per device: ERBW, jitter, SNR floor and the number of amplitude points), `sweep.json` (the whole
+/// sweep), and the lot mean's plots against input frequency (`sinad-`, `snr-`, `sfdr-` and
+/// `enob-vs-frequency.svg`) and, when the conditions vary the amplitude, `snr-vs-amplitude.svg`.
+/// Errors: outputs that cannot be written.
+pub fn write_sweep(out: &Path, s: &Sweep) -> Result<()> {
+    std::fs::create_dir_all(out).map_err(|e| output_error(out, "a writable folder", e))?;
+    write_atomic(&out.join("sweep.csv"), to_csv(&s.points).as_bytes())?;
+    // The amplitude sweep is a list of pairs: keep it in the JSON, count it in the CSV.
+    let rows: Vec<serde_json::Value> = s
+        .summaries
+        .iter()
+        .map(|m| {
+            serde_json::json!({
+                "device": m.device, "frequency_points": m.frequency_points, "erbw_hz": m.erbw_hz,
+                "jitter_rms_s": m.jitter_rms_s, "snr_floor_db": m.snr_floor_db,
+                "amplitude_points": m.snr_vs_amplitude.len(),
+            })
+        })
+        .collect();
+    write_atomic(&out.join("sweep_summary.csv"), to_csv(&rows).as_bytes())?;
+    let mut json = serde_json::to_string_pretty(&s).expect("plain data serialises");
+    json.push('\n');
+    write_atomic(&out.join("sweep.json"), json.as_bytes())?;
+    let lot: Vec<&SweepPoint> = s.points.iter().filter(|p| p.device == "lot mean").collect();
+    type Get = fn(&SweepPoint) -> Option<f64>;
+    let axis = |f: &Figure| format!("{} ({})", f.label, f.unit);
+    let plotted: [(&str, &Figure, Get); 4] = [
+        ("sinad", &figures::SINAD, |p| p.sinad_db),
+        ("snr", &figures::SNR, |p| p.snr_db),
+        ("sfdr", &figures::SFDR, |p| p.sfdr_dbc),
+        ("enob", &figures::ENOB, |p| p.enob_bits),
+    ];
+    for (name, figure, get) in plotted {
+        let unit = axis(figure);
+        let pts: Vec<(f64, f64)> = lot
+            .iter()
+            .filter_map(|p| Some((p.fin_hz, get(p)?)))
+            .collect();
+        let svg = series_svg(
+            &format!("{unit} against input frequency"),
+            "input frequency (MHz)",
+            &unit,
+            &[("lot mean", &pts)],
+            1e6,
+        )?;
+        write_atomic(
+            &out.join(format!("{name}-vs-frequency.svg")),
+            svg.as_bytes(),
+        )?;
+    }
+    if let Some(m) = s
+        .summaries
+        .first()
+        .filter(|m| !m.snr_vs_amplitude.is_empty())
+    {
+        let svg = series_svg(
+            &format!("{} against input amplitude", figures::SNR.label),
+            &format!("input amplitude ({})", figures::FIT_AMPLITUDE_DBFS.unit),
+            &axis(&figures::SNR),
+            &[("lot mean", &m.snr_vs_amplitude)],
+            1.0,
+        )?;
+        write_atomic(&out.join("snr-vs-amplitude.svg"), svg.as_bytes())?;
+    }
+    Ok(())
 }
 
 #[cfg(test)]

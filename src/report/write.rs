@@ -137,7 +137,8 @@ pub fn write_record_plots(
     Ok(written)
 }
 
-/// Writes a device's `summary.csv` (one row per record, the columns of [`super::csv::columns_for`])
+/// Writes a device's `summary.csv` (one row per record, the figure table's columns, widened to the highest harmonic a
+/// record has)
 /// and `results.json` (the same records as one array) into `device_dir`.
 pub fn write_device_summary(device_dir: &Path, rows: &[Analysis], harmonics: u32) -> Result<()> {
     write_atomic(

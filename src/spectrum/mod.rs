@@ -14,12 +14,10 @@ pub mod rule;
 
 pub use crate::dft::fft;
 pub use crate::dft::window::*;
-pub use coherence::{Coherence, COHERENCE_SIGMAS, SPECTRAL_CHECK_CYCLES};
-pub use leakage::{LeakageDiagnosis, BIAS_WARN_DB};
+pub use coherence::Coherence;
+pub use leakage::LeakageDiagnosis;
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
-pub use rule::{
-    choose_window, ideal_snr_db, tone_halfwidth, WindowChoice, AUTO_LADDER, LEAKAGE_MARGIN_DB,
-};
+pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice};
 
 use crate::fit::SineFit;
 use crate::freq::fold_bin;
@@ -144,19 +142,6 @@ pub struct SpectrumOutput {
     pub owner: Vec<Owner>,
     /// Warnings.
     pub warnings: Vec<String>,
-}
-
-/// Measures the spectrum of one or more records of one condition (equal lengths), around the tone of
-/// `fit` (fitted on the first record).
-pub fn measure(
-    records: &[&[f64]],
-    fit: &SineFit,
-    sample_rate_hz: f64,
-    bits: u32,
-    settings: &SpectrumSettings,
-) -> Result<SpectrumOutput> {
-    let owned: Vec<Vec<f64>> = records.iter().map(|r| r.to_vec()).collect();
-    measure_consuming(owned, fit, sample_rate_hz, bits, settings)
 }
 
 /// [`measure`] on records the caller no longer needs: each one is windowed and transformed in place,

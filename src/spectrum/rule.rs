@@ -14,7 +14,8 @@ use crate::dft::Window;
 /// How the window is chosen.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum WindowChoice {
-    /// By the rule of [`crate::spectrum::rule`].
+    /// By the window rule: rectangular for a coherent record, else the narrowest window whose
+    /// leakage stays below the expected noise.
     Auto,
     /// Always this window.
     Fixed(Window),

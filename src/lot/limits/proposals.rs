@@ -72,7 +72,7 @@ pub enum Method {
         /// Standard deviations from the mean.
         k: f64,
     },
-    /// The p-th and (100 − p)-th percentiles (linear interpolation, see [`stats::percentile`]).
+    /// The p-th and (100 − p)-th percentiles (linear interpolation between closest ranks, numpy's default).
     Percentile {
         /// Percent in each tail, 0..50.
         percent: f64,
@@ -152,7 +152,7 @@ pub struct Existing {
     pub low: Option<f64>,
     /// High limit.
     pub high: Option<f64>,
-    /// Cpk of the lot against it ([`stats::cpk`]).
+    /// Cpk of the lot against it: min((high − mean)/3σ, (mean − low)/3σ).
     pub cpk: Option<f64>,
 }
 
@@ -175,7 +175,8 @@ pub struct Proposal {
     pub high: Option<f64>,
     /// Proposed guardband.
     pub guardband: f64,
-    /// How the distribution is clearly not normal ([`stats::shape_note`]).
+    /// How the distribution is clearly not normal: with at least [`crate::SHAPE_MIN_N`] values, a
+    /// Jarque-Bera p-value below 0.01, and the skew or tails it shows.
     pub shape: Option<String>,
     /// The existing limit, when a table was given and has one.
     pub existing: Option<Existing>,

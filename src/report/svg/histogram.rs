@@ -2,9 +2,10 @@
 //! the fitted sine overlaid: the arcsine law of the sine-wave code-density (histogram) test of IEEE Std
 //! 1241 and IEEE Std 1057 (from memory of those standards; the formula is derived in [`ideal_counts`]).
 
+use super::spectrum::column_extremes;
 use super::{
-    column_extremes, draw_err, draw_panel, nice_ticks, no_data, palette, rgb, style_mesh,
-    tick_label, PanelLines, PlotOptions, TickAxis, FONT, PANEL_PX,
+    draw_err, draw_panel, nice_ticks, no_data, palette, rgb, style_mesh, tick_label, PanelLines,
+    PlotOptions, TickAxis, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
 use crate::figures;
