@@ -4,6 +4,7 @@
 //! thread count, yields, shards merged into the unsharded report byte for byte (and the merge's
 //! refusals), a run killed midway, and limit proposals and Cpk against values stored from numpy/scipy.
 
+use crate::tolerances::{NUMPY_REL, PROPOSAL_ROUNDING};
 use assert_cmd::Command;
 use spurline::Format;
 use spurline::WindowChoice;
@@ -1471,7 +1472,7 @@ fn values_of(set: &serde_json::Value) -> Vec<f64> {
 /// Relative agreement with a numpy/scipy value: the sums differ only in summation order (numpy sums
 /// pairwise), a few ulps per value.
 fn close(got: f64, want: f64, what: &str) {
-    let tol = 1e-11 * want.abs().max(1.0);
+    let tol = NUMPY_REL * want.abs().max(1.0);
     assert!(
         (got - want).abs() <= tol,
         "{what}: {got} vs numpy/scipy {want}"
@@ -1564,11 +1565,11 @@ fn proposals_in_the_library() {
     assert_eq!(back.limits.len(), 1);
     let l = &back.limits[0];
     assert!(
-        l.low.unwrap() <= p1 && p1 - l.low.unwrap() < 1e-4,
+        l.low.unwrap() <= p1 && p1 - l.low.unwrap() < PROPOSAL_ROUNDING,
         "{:?} vs {p1}",
         l.low
     );
-    assert!(l.high.unwrap() >= p99 && l.high.unwrap() - p99 < 1e-4);
+    assert!(l.high.unwrap() >= p99 && l.high.unwrap() - p99 < PROPOSAL_ROUNDING);
 }
 
 #[test]
@@ -1671,7 +1672,10 @@ fn limits_command_proposes_and_reports_cpk() {
     for (l, set) in t.limits.iter().zip([normal, skewed]) {
         let want = set["sigma_limits_k6"][0].as_f64().unwrap();
         let got = l.low.unwrap();
-        assert!(got <= want && want - got < 1e-4, "{got} vs {want}");
+        assert!(
+            got <= want && want - got < PROPOSAL_ROUNDING,
+            "{got} vs {want}"
+        );
         assert_eq!(l.high, None);
         assert_eq!(l.unit.symbol(), "dB");
     }
@@ -1709,7 +1713,7 @@ fn limits_command_proposes_and_reports_cpk() {
         .unwrap()[1]
         .as_f64()
         .unwrap();
-    assert!(t.limits[0].low.unwrap() <= p5 && p5 - t.limits[0].low.unwrap() < 1e-4);
+    assert!(t.limits[0].low.unwrap() <= p5 && p5 - t.limits[0].low.unwrap() < PROPOSAL_ROUNDING);
     assert!(t.limits[0].high.is_some());
     assert_eq!(t.limits[0].guardband, 0.1);
     // Bad input: exit 2 with a message.

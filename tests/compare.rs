@@ -1,5 +1,6 @@
 //! Revision-comparison statistics against stored scipy values (tests/reference/make_ttest_refs.py).
 
+use crate::tolerances::{SCIPY_REL, SCIPY_REL_FLOOR};
 use spurline::{paired, summarize, welch};
 
 fn refs() -> serde_json::Value {
@@ -18,13 +19,10 @@ fn floats(v: &serde_json::Value) -> Vec<f64> {
         .collect()
 }
 
-/// Agreement with scipy: both evaluate the same closed forms in f64; the t distribution's tail and
-/// quantile functions differ by rounding only (statrs vs scipy's cephes), well under 1e-8 relative.
-const SCIPY_REL: f64 = 1e-8;
-
+/// Agreement with scipy, within SCIPY_REL of the value (or of SCIPY_REL_FLOOR below it).
 fn close(got: f64, want: f64, what: &str) {
     assert!(
-        (got - want).abs() <= SCIPY_REL * want.abs().max(1e-3),
+        (got - want).abs() <= SCIPY_REL * want.abs().max(SCIPY_REL_FLOOR),
         "{what}: {got} vs {want}"
     );
 }

@@ -78,12 +78,12 @@ fn sine_crest_db() -> f64 {
 /// library's ideal SNR is that sum.
 #[test]
 fn ideal_snr_constants_are_exact() {
-    assert!((db_per_bit() - 6.02).abs() < 0.001);
-    assert!((sine_crest_db() - 1.76).abs() < 0.001);
+    assert!((db_per_bit() - 6.02).abs() < PRINTED_2DP_DB);
+    assert!((sine_crest_db() - 1.76).abs() < PRINTED_2DP_DB);
     for bits in 1..=32u32 {
         let formula = db_per_bit() * bits as f64 + sine_crest_db();
-        assert!((formula - ideal_snr_exact(bits)).abs() < 1e-12, "{bits}");
-        assert!((spurline::ideal_snr_db(bits, 0.0) - formula).abs() < 1e-12);
+        assert!((formula - ideal_snr_exact(bits)).abs() < ROUNDING, "{bits}");
+        assert!((spurline::ideal_snr_db(bits, 0.0) - formula).abs() < ROUNDING);
     }
 }
 
@@ -117,7 +117,7 @@ fn ideal_quantiser_32_bits_shows_the_pipeline_floor_is_far_below() {
     );
     let sp = m.analysis.found.spectrum.unwrap();
     let expected = ideal_snr_exact(32) - 0.1;
-    assert!((ideal_snr_exact(32) - 194.4).abs() < 0.05);
+    assert!((ideal_snr_exact(32) - 194.4).abs() < PRINTED_1DP);
     for (what, got) in [("SNR", sp.snr_db), ("SINAD", sp.sinad_db)] {
         let got = got.unwrap();
         assert!(
@@ -160,8 +160,8 @@ fn quantisation_noise_is_q_over_sqrt12() {
 #[test]
 fn noise_floor_per_bin() {
     let formula = |bits: u32, n: usize| -ideal_snr_exact(bits) - 10.0 * (n as f64 / 2.0).log10();
-    assert!((formula(12, 4096) + 107.1).abs() < 0.05);
-    assert!((formula(16, 16_384) + 137.2).abs() < 0.05);
+    assert!((formula(12, 4096) + 107.1).abs() < PRINTED_1DP);
+    assert!((formula(16, 16_384) + 137.2).abs() < PRINTED_1DP);
     for (bits, n) in [(12u32, 4096usize), (16, 16_384)] {
         let sp = run(
             &ideal(bits, n, -0.05, 100e6, 10.1e6),
@@ -187,14 +187,14 @@ fn noise_floor_per_bin() {
 #[test]
 fn jitter_limited_snr_100_mhz_100_fs() {
     let formula = |f: f64, sigma: f64| -20.0 * (TAU * f * sigma).log10();
-    assert!((formula(100e6, 100e-15) - 84.04).abs() < 0.005);
+    assert!((formula(100e6, 100e-15) - 84.04).abs() < PRINTED_2DP_DB);
     let s = SynthSettings {
         jitter_rms_s: 100e-15,
         ..ideal(20, 65_536, -0.5, 250e6, 100e6)
     };
     let a = run(&s, &AnalysisSettings::default()).analysis;
     let f = a.found.fit.unwrap().frequency_hz;
-    assert!((f - 100e6).abs() < 5e3, "{f}");
+    assert!((f - 100e6).abs() < NEAREST_COHERENT_HZ, "{f}");
     let expected = formula(f, 100e-15);
     let snr = a.found.spectrum.unwrap().snr_db.unwrap();
     assert!((snr - expected).abs() < HANDBOOK_DB, "{snr} vs {expected}");
@@ -205,7 +205,7 @@ fn jitter_limited_snr_100_mhz_100_fs() {
 #[test]
 fn enob_of_62_db_is_10_bits() {
     let enob = |sinad: f64| (sinad - sine_crest_db()) / db_per_bit();
-    assert!((enob(62.0) - 10.0).abs() < 0.05, "{}", enob(62.0));
+    assert!((enob(62.0) - 10.0).abs() < PRINTED_1DP, "{}", enob(62.0));
     // Noise for SINAD 62 dB at −1 dBFS: A²/2 / (σ² + 1/12) = 10^6.2.
     let a = 32768.0 * 10f64.powf(-1.0 / 20.0);
     let sigma = (a * a / 2.0 / 10f64.powf(6.2) - 1.0 / 12.0).sqrt();
@@ -221,7 +221,7 @@ fn enob_of_62_db_is_10_bits() {
     let sinad = sp.sinad_db.unwrap();
     assert!((sinad - 62.0).abs() < HANDBOOK_DB, "{sinad}");
     // The reported ENOB is the formula applied to the reported SINAD, to rounding.
-    assert!((sp.enob_bits.unwrap() - enob(sinad)).abs() < 1e-12);
+    assert!((sp.enob_bits.unwrap() - enob(sinad)).abs() < ROUNDING);
     assert!((sp.enob_bits.unwrap() - 10.0).abs() < HANDBOOK_BITS);
 }
 
@@ -290,7 +290,7 @@ fn audio_rate_bins_through_the_analysis() {
         assert_eq!(sp.coherent, on_bin, "{f} Hz: {:?}", sp.coherence);
         let bins = f * n as f64 / fs;
         assert!(
-            (sp.coherence.cycles - bins).abs() < 1e-3,
+            (sp.coherence.cycles - bins).abs() < FITTED_CYCLES,
             "{f} Hz: {} cycles",
             sp.coherence.cycles
         );
@@ -325,7 +325,7 @@ fn half_bin_scalloping_of_the_rectangular_window() {
     let m = run(&s, &settings);
     let sp = m.analysis.spectrum.as_ref().unwrap();
     assert!(!sp.coherent);
-    assert!((sp.coherence.offset_cycles.abs() - 0.5).abs() < 1e-6);
+    assert!((sp.coherence.offset_cycles.abs() - 0.5).abs() < HALF_BIN_OFFSET_CYCLES);
     let loss = sp.leakage.scalloping_loss_db;
     assert!((loss - 3.92).abs() < PRINTED_2DP_DB, "diagnosis: {loss} dB");
     let a = 2f64.powi(23) * 10f64.powf(-1.0 / 20.0);
@@ -351,12 +351,12 @@ fn three_parameter_closed_form() {
         .collect();
     let out = fit_three(&y, fs, 4.0, 12).unwrap();
     let (a0, b0) = out.fit.cos_sin_coefficients();
-    assert!((a0 - 2.866009).abs() < 5e-7, "{a0}");
-    assert!((b0 + 0.886561).abs() < 5e-7, "{b0}");
-    assert!((out.fit.offset_codes - 5.0).abs() < 1e-9);
-    assert!((out.fit.amplitude_codes - 3.0).abs() < 1e-9);
-    assert!((out.fit.phase_rad - 0.3).abs() < 1e-9);
-    assert!(out.fit.residual_rms_codes < 1e-9);
+    assert!((a0 - 2.866009).abs() < PRINTED_6DP, "{a0}");
+    assert!((b0 + 0.886561).abs() < PRINTED_6DP, "{b0}");
+    assert!((out.fit.offset_codes - 5.0).abs() < LONG_SUM);
+    assert!((out.fit.amplitude_codes - 3.0).abs() < LONG_SUM);
+    assert!((out.fit.phase_rad - 0.3).abs() < LONG_SUM);
+    assert!(out.fit.residual_rms_codes < LONG_SUM);
 }
 
 /// The four-parameter fit against scipy.optimize.least_squares (method 'lm', analytic Jacobian,
@@ -486,7 +486,10 @@ fn four_parameter_fit_reaches_the_cramer_rao_bound() {
             "{snr_db} dB: variance / CRB = {ratio}"
         );
         let bias_z = mean / (var / CRB_TRIALS as f64).sqrt();
-        assert!(bias_z.abs() < 4.0, "{snr_db} dB: mean error {bias_z} σ");
+        assert!(
+            bias_z.abs() < MEAN_SIGMAS,
+            "{snr_db} dB: mean error {bias_z} σ"
+        );
         // The fit's reported one-sigma cycle uncertainty is the observed spread (it sets the coherence
         // tolerance).
         let observed = var.sqrt() * nf / TAU;
@@ -547,7 +550,7 @@ fn pipeline_matches_numpy() {
             "{file}"
         );
         assert!(
-            (fit.cycles - num(want, "fitted_cycles")).abs() < 1e-6,
+            (fit.cycles - num(want, "fitted_cycles")).abs() < PIPELINE_REF_CYCLES,
             "{file}: cycles {} vs {}",
             fit.cycles,
             num(want, "fitted_cycles")
