@@ -152,6 +152,35 @@ pub fn render(a: &Analysis) -> String {
     s
 }
 
+/// A line that a multi-tone claim measured (an IM product, an interleaving image), as a table row.
+struct Line<'a> {
+    name: &'a str,
+    name_width: usize,
+    frequency_hz: f64,
+    masked_by: Option<&'a str>,
+    at_floor: bool,
+}
+
+impl Line<'_> {
+    /// Its row: name, frequency, then each (value, width) to two decimals; a masked line says what
+    /// masks it instead, and a line at the noise floor is shown as a bound.
+    fn row(&self, s: &mut String, cells: &[(Option<f64>, usize)]) {
+        let (name, width) = (self.name, self.name_width);
+        let freq = si(self.frequency_hz, "Hz", 6);
+        if let Some(by) = self.masked_by {
+            let _ = writeln!(s, "             {name:<width$} {freq:>14}   masked by {by}");
+            return;
+        }
+        let bound = if self.at_floor { "≤" } else { " " };
+        let _ = write!(s, "             {name:<width$} {freq:>14} {bound}");
+        for (i, &(value, w)) in cells.iter().enumerate() {
+            let gap = if i == 0 { "" } else { " " };
+            let _ = write!(s, "{gap}{:>w$}", fixed(value, 2));
+        }
+        let _ = writeln!(s, "{}", if self.at_floor { "  (noise floor)" } else { "" });
+    }
+}
+
 /// Renders one two-tone result as a block of labelled lines, as `spurline imd` prints it.
 pub fn render_two_tone(r: &ImdResult) -> String {
     let mut s = String::new();
@@ -235,21 +264,16 @@ pub fn render_two_tone(r: &ImdResult) -> String {
             "", "frequency", "dBc", "dBc f1", "dBc f2", "dBFS"
         );
         for p in &sp.products {
-            let freq = si(p.frequency_hz, "Hz", 6);
-            if let Some(by) = &p.masked_by {
-                let _ = writeln!(s, "             {:<8} {freq:>14}   masked by {by}", p.name);
-                continue;
-            }
-            let bound = if p.at_floor { "≤" } else { " " };
-            let _ = writeln!(
-                s,
-                "             {:<8} {freq:>14} {bound}{:>8} {:>9} {:>9} {:>9}{}",
-                p.name,
-                fixed(p.dbc, 2),
-                fixed(p.dbc_f1, 2),
-                fixed(p.dbc_f2, 2),
-                fixed(p.dbfs, 2),
-                if p.at_floor { "  (noise floor)" } else { "" }
+            let line = Line {
+                name: &p.name,
+                name_width: 8,
+                frequency_hz: p.frequency_hz,
+                masked_by: p.masked_by.as_deref(),
+                at_floor: p.at_floor,
+            };
+            line.row(
+                &mut s,
+                &[(p.dbc, 8), (p.dbc_f1, 9), (p.dbc_f2, 9), (p.dbfs, 9)],
             );
         }
     }
@@ -325,21 +349,14 @@ pub fn render_interleaved(r: &InterleaveResult) -> String {
             "", "frequency", "dBc", "dBFS", "predicted dBc"
         );
         for p in &sp.spurs {
-            let freq = si(p.frequency_hz, "Hz", 6);
-            if let Some(by) = &p.masked_by {
-                let _ = writeln!(s, "             {:<14} {freq:>14}   masked by {by}", p.name);
-                continue;
-            }
-            let bound = if p.at_floor { "≤" } else { " " };
-            let _ = writeln!(
-                s,
-                "             {:<14} {freq:>14} {bound}{:>8} {:>9} {:>14}{}",
-                p.name,
-                fixed(p.dbc, 2),
-                fixed(p.dbfs, 2),
-                fixed(p.predicted_dbc, 2),
-                if p.at_floor { "  (noise floor)" } else { "" }
-            );
+            let line = Line {
+                name: &p.name,
+                name_width: 14,
+                frequency_hz: p.frequency_hz,
+                masked_by: p.masked_by.as_deref(),
+                at_floor: p.at_floor,
+            };
+            line.row(&mut s, &[(p.dbc, 8), (p.dbfs, 9), (p.predicted_dbc, 14)]);
         }
     }
     for w in &r.warnings {
