@@ -247,7 +247,11 @@ fn render_csv(c: &CsvCase) -> (Vec<u8>, Predicted) {
     for row in &c.rows {
         number += 1;
         let Some(fields) = row else {
-            out.push_str(if number % 2 == 0 { "# 1,2;3" } else { "" });
+            out.push_str(if number.is_multiple_of(2) {
+                "# 1,2;3"
+            } else {
+                ""
+            });
             out.push_str(end);
             continue;
         };
@@ -411,7 +415,7 @@ fn encode(code: i64, bits: u32, l: &BinaryLayout, variant: u32) -> u32 {
     };
     let raw: u64 = match (l.justify, l.coding.unwrap_or(signed_default)) {
         (Justify::Right, Coding::TwosComplement) => {
-            if variant % 2 == 0 {
+            if variant.is_multiple_of(2) {
                 (code as u64) & word_mask
             } else {
                 (code as u64) & code_mask
@@ -779,7 +783,7 @@ fn codes_of(shape: &Shape, n: usize, bits: u32, seed: u64) -> Vec<i32> {
         Shape::Constant(c) => vec![q(c * full); n],
         Shape::Square(c) => (0..n)
             .map(|i| {
-                if ((i as f64 * c * 2.0) as u64) % 2 == 0 {
+                if ((i as f64 * c * 2.0) as u64).is_multiple_of(2) {
                     q(hi)
                 } else {
                     q(lo)

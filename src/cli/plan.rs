@@ -357,7 +357,7 @@ fn factors(mut n: u64) -> Option<Vec<u64>> {
     let mut out = Vec::new();
     let mut d = 2;
     while d * d <= n {
-        while n % d == 0 {
+        while n.is_multiple_of(d) {
             out.push(d);
             n /= d;
         }

@@ -298,7 +298,7 @@ fn from_range(scheduler: Scheduler, index_var: &str, index: u64, range: &Range) 
             "index {index} of an array {first}..{last} step {step}"
         )));
     }
-    if (index - first) % step != 0 {
+    if !(index - first).is_multiple_of(step) {
         return Err(bad_range(format!(
             "index {index} off the steps of {first}..{last}:{step}"
         )));

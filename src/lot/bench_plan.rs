@@ -1083,7 +1083,7 @@ fn match_part(template: &str, name: &str) -> Option<String> {
     let pieces: Vec<&str> = template.split("{device}").collect();
     let k = pieces.len() - 1;
     let fixed: usize = pieces.iter().map(|p| p.len()).sum();
-    if k == 0 || name.len() < fixed + k || (name.len() - fixed) % k != 0 {
+    if k == 0 || name.len() < fixed + k || !(name.len() - fixed).is_multiple_of(k) {
         return None;
     }
     let len = (name.len() - fixed) / k;

@@ -244,7 +244,7 @@ pub fn measure_consuming(
     if coherence.coherent {
         let j = coherence.cycles.round() as u64;
         let g = crate::freq::gcd(j, n as u64);
-        if g != 1 || j % 2 == 0 {
+        if g != 1 || j.is_multiple_of(2) {
             warnings.push(format!(
                 "coherent with J = {j} cycles, which {}: the record samples only {} distinct phases, so quantisation error piles into harmonics; prefer an odd J coprime with N",
                 if g != 1 { format!("shares the factor {g} with N = {n}") } else { "is even".to_string() },
