@@ -1,9 +1,10 @@
 //! The analysis pipeline of one record (or several averaged records of one condition): sine fit, then
 //! spectrum, then one result record that every output format is made from.
 
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::{self, FitOutput, FourParamOptions, SineFit};
+use crate::record::Record;
 use crate::spectrum::{self, claim::Owner, Spectrum, SpectrumSettings};
-use crate::{Error, ErrorKind, Location, Record, Result};
 use serde::Serialize;
 
 /// Which sine fit to run.
@@ -19,7 +20,7 @@ pub enum FitChoice {
 impl std::str::FromStr for FitChoice {
     type Err = Error;
 
-    /// `four` or `three`. Errors: [`crate::ErrorKind::BadSetting`] on key `fit`.
+    /// `four` or `three`. Errors: [`crate::error::ErrorKind::BadSetting`] on key `fit`.
     fn from_str(s: &str) -> Result<FitChoice> {
         match s {
             "four" => Ok(FitChoice::Four),
@@ -344,7 +345,7 @@ pub fn histogram_of(codes: &[i32], bits: u32) -> Vec<u64> {
     if bits > 24 {
         return Vec::new();
     }
-    let lo = crate::min_code(bits);
+    let lo = crate::record::min_code(bits);
     let mut h = vec![0u64; 1usize << bits];
     for &c in codes {
         let i = (c as i64 - lo) as usize;

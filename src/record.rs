@@ -2,7 +2,7 @@
 
 use serde::Serialize;
 
-use crate::{Error, Result};
+use crate::error::{Error, Result};
 
 /// Lowest sample rate accepted, hertz (one sample in about 12 days).
 pub const MIN_SAMPLE_RATE_HZ: f64 = 1e-6;
@@ -63,7 +63,7 @@ impl std::str::FromStr for Coding {
     type Err = Error;
 
     /// `twos` or `twos_complement`, `offset` or `offset_binary` (the sidecar's spelling is the long
-    /// one). Errors: [`crate::ErrorKind::BadSetting`] on key `coding`.
+    /// one). Errors: [`crate::error::ErrorKind::BadSetting`] on key `coding`.
     fn from_str(s: &str) -> Result<Coding> {
         match s {
             "twos" | "twos_complement" => Ok(Coding::TwosComplement),

@@ -30,16 +30,15 @@
 use crate::analysis::RecordResult;
 use crate::dft::fft::{power_spectrum, real_fft};
 use crate::dft::Window;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::multi_tone::{fit_free, fit_linear, FreeSines};
 use crate::fit::{cycles_std, phase_at_zero};
 use crate::freq::fold_bin;
+use crate::record::{full_scale_amplitude_codes, full_scale_power, Record};
 use crate::spectrum::claim::{claim, Place, SpurAt, MIN_NOISE_BINS};
 use crate::spectrum::coherence::{self, Unwindowed};
 use crate::spectrum::metrics::db;
 use crate::spectrum::rule::{window_and_powers, WindowChoice};
-use crate::{
-    full_scale_amplitude_codes, full_scale_power, Error, ErrorKind, Location, Record, Result,
-};
 use serde::Serialize;
 
 // ───────────────────────── the two-tone analysis ─────────────────────────

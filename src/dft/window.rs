@@ -13,7 +13,7 @@ use rustfft::num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
 use serde::Serialize;
 
-use crate::Error;
+use crate::error::Error;
 
 /// Largest Kaiser β a window id may give (`kaiser(BETA)`) (its sidelobes are far below -300 dB there).
 pub const KAISER_BETA_MAX: f64 = 100.0;
@@ -369,7 +369,7 @@ impl std::str::FromStr for Window {
     /// [`Window::name`] and the aliases `rect`, `none`, `hanning`, `bh4`, `bh7`, `flat-top`,
     /// `kaiser:BETA` and `kaiser(BETA)` with 0 ≤ BETA ≤ [`KAISER_BETA_MAX`].
     ///
-    /// An unknown name or a bad β gives a [`crate::ErrorKind::BadSetting`] error on key `window` that
+    /// An unknown name or a bad β gives a [`crate::error::ErrorKind::BadSetting`] error on key `window` that
     /// lists the accepted names.
     fn from_str(s: &str) -> Result<Window, Error> {
         let t = s.trim().to_ascii_lowercase();
@@ -745,8 +745,8 @@ mod tests {
             "kaiser(3",
         ] {
             let e = s.parse::<Window>().unwrap_err();
-            assert_eq!(e.kind, crate::ErrorKind::BadSetting, "{s}");
-            assert_eq!(e.location, crate::Location::Key("window".into()));
+            assert_eq!(e.kind, crate::error::ErrorKind::BadSetting, "{s}");
+            assert_eq!(e.location, crate::error::Location::Key("window".into()));
             assert!(
                 e.expected.contains("blackman-harris-7") && e.expected.contains("kaiser(BETA)")
             );

@@ -1,7 +1,8 @@
 //! Checks on codes: the N-bit range every parser enforces, and record-level warnings (clipping, stuck
 //! bits, missing codes) that do not stop the analysis but tell the user the input may be at fault.
 
-use crate::{max_code, min_code, Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::{max_code, min_code};
 
 /// Longest token shown in an error's `found`, in characters.
 const TOKEN_SHOWN_CHARS: usize = 40;

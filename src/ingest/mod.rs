@@ -24,7 +24,8 @@ pub use text::parse_text;
 
 use checks::check_bits;
 
-use crate::{Coding, Error, ErrorKind, Location, Record, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::{Coding, Record};
 
 /// The word formats [`Format::parse_word`] accepts, as listed in errors.
 const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i32le, i32be, u32le, u32be";
@@ -46,7 +47,7 @@ pub enum Justify {
 impl std::str::FromStr for Justify {
     type Err = Error;
 
-    /// `right` or `left`. Errors: [`crate::ErrorKind::BadSetting`] on key `justify`.
+    /// `right` or `left`. Errors: [`crate::error::ErrorKind::BadSetting`] on key `justify`.
     fn from_str(s: &str) -> Result<Justify> {
         match s {
             "right" => Ok(Justify::Right),

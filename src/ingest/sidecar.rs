@@ -6,7 +6,8 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use super::{ColumnSel, Format, Justify, Metadata};
-use crate::{Coding, Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::Coding;
 
 /// The metadata sidecar of a record. Every key is optional; the command line wins over each one.
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]

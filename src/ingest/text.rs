@@ -3,7 +3,7 @@
 //! few milliseconds.
 
 use super::checks::{check_bits, no_samples, show_token, to_code, INT_LIMIT};
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 
 /// Whitespace allowed around a code ('\r' covers CRLF line ends).
 #[inline]

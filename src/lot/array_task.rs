@@ -31,7 +31,7 @@
 use std::fmt;
 
 use super::shard::Shard;
-use crate::{Error, Result};
+use crate::error::{Error, Result};
 
 /// Our variable: the number of shards M, which wins over the scheduler's count.
 pub const SHARDS_VAR: &str = "SPURLINE_SHARDS";
@@ -338,7 +338,7 @@ fn to_shard(k: u64, m: u64, index_var: &str) -> Result<Shard> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::{ErrorKind, Location};
+    use crate::error::{ErrorKind, Location};
     use std::collections::HashMap;
 
     /// The shard an explicit environment gives (never the process's own: tests run in parallel).

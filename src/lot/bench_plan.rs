@@ -59,10 +59,10 @@ use serde::Deserialize;
 use toml::Spanned;
 
 use crate::analysis::AnalysisSettings;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::ingest::{parse_channel, parse_delimiter, ColumnSel, Format, IngestSettings, Metadata};
 use crate::lot::limits::Catalogue;
 use crate::spectrum::{SpectrumSettings, WindowChoice};
-use crate::{Error, ErrorKind, Location, Result};
 
 /// Default warning threshold between the fitted and the planned input level, dB.
 pub const DEFAULT_AMPLITUDE_TOLERANCE_DB: f64 = 1.0;

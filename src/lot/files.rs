@@ -16,9 +16,9 @@ use std::path::{Path, PathBuf};
 use serde::de::DeserializeOwned;
 use serde::{Deserialize, Serialize};
 
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::figures::{self, Kind};
 use crate::lot::limits::{Bound, CheckOutcome};
-use crate::{Error, ErrorKind, Location, Result};
 
 /// The lot summary (one row per device and condition), in the lot folder and in each device folder.
 pub const SUMMARY_CSV: &str = "summary.csv";

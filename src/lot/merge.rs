@@ -17,8 +17,8 @@ use super::output::{read_lot_rows, remove_shard_manifest, write_atomic, LotRows,
 use super::result::LotCounts;
 use super::shard::{lot_fingerprint, manifest_error, ShardManifest};
 use super::status;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::report::output_error;
-use crate::{Error, ErrorKind, Location, Result};
 
 /// Every folder's manifest. A folder without one (an unfinished shard, or no shard at all) makes an
 /// error that names every shard not finished and the command to run each again, as long as some

@@ -29,8 +29,8 @@ use super::files::{
     LEAD_COLUMNS, SHARD_MANIFEST, SUMMARY_CSV, YIELD_COLUMNS, YIELD_CSV,
 };
 use super::result::{DeviceResult, Lines};
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::lot::limits::{CheckOutcome, LimitTable, Outcome, Verdict};
-use crate::{Error, ErrorKind, Location, Result};
 
 /// Which plots a batch run asks for per device.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]

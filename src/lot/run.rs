@@ -19,9 +19,9 @@ use super::bench_plan::{BenchPlan, Condition, Lot};
 use super::output::{self, LotWriter, Plots, SummaryColumns};
 use super::result::{ConditionResult, DeviceResult, Lines, LotCounts};
 use crate::analysis::{analyze_averaged, Analysis};
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::ingest::read_record;
 use crate::lot::limits::{LimitTable, Verdict};
-use crate::{Error, ErrorKind, Location, Result};
 
 /// Fewest results per chunk; a chunk also holds at least 8 per thread so that threads stay busy.
 pub const CHUNK_RESULTS: usize = 64;

@@ -33,8 +33,8 @@ use super::files::{read_bytes, SHARD_MANIFEST, SHARD_START_NOTE};
 use super::output::{remove_shard_manifest, write_atomic};
 use super::result::LotCounts;
 use super::run::{lot_title, run_lot, BatchOptions, LotObserver};
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::lot::limits::LimitTable;
-use crate::{Error, ErrorKind, Location, Result};
 
 /// Version of the manifest's layout.
 pub const SHARD_FORMAT: u32 = 1;

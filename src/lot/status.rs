@@ -9,7 +9,7 @@ use std::path::{Path, PathBuf};
 use super::bench_plan::natural_cmp;
 use super::files::{LotSummary, SHARD_MANIFEST, SHARD_START_NOTE, SUMMARY_CSV};
 use super::shard::{Shard, ShardManifest};
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 
 /// Where one shard has got.
 #[derive(Debug, Clone, PartialEq, Eq)]

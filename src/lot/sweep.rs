@@ -2,11 +2,11 @@
 //! ENOB against frequency, the effective resolution bandwidth, SNR against amplitude (dynamic range), and
 //! an aperture-jitter estimate from SNR against frequency.
 
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::figures::{self, flatten, Figure};
 use crate::lot::compare::plots::series_svg;
 use crate::lot::files::{DroppedCell, LotSummary};
 use crate::report::{output_error, write_atomic};
-use crate::{Error, ErrorKind, Location, Result};
 use serde::Serialize;
 use std::collections::BTreeMap;
 use std::path::Path;

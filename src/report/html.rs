@@ -4,8 +4,8 @@
 
 use super::units::{fixed, si};
 use crate::analysis::Analysis;
+use crate::error::Result;
 use crate::figures::{self, Cells, Figure, Unit};
-use crate::Result;
 use std::fmt::Write;
 
 /// One record on the run page.
@@ -62,7 +62,7 @@ pub(crate) fn render_index_html_inline(
     rows: &[IndexRow],
     run_dir: &std::path::Path,
 ) -> Result<String> {
-    use crate::{Error, ErrorKind, Location};
+    use crate::error::{Error, ErrorKind, Location};
     render_with(title, rows, &mut |path: &str| {
         let full = run_dir.join(path);
         let text = std::fs::read_to_string(&full).map_err(|e| {
@@ -368,9 +368,9 @@ fn notes(h: &mut String, a: &Analysis, index: usize) {
 #[cfg(test)]
 mod tests {
     use super::IndexRow;
+    use crate::error::ErrorKind;
     use crate::report::svg::plot_tests::{measure, rich};
     use crate::report::svg::{spectrum_svg, PlotOptions};
-    use crate::ErrorKind;
 
     #[test]
     fn escaping_covers_the_five_characters() {

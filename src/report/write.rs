@@ -7,7 +7,7 @@
 use super::html::{render_with, IndexRow};
 use super::svg::{histogram_svg, residual_svg, spectrum_svg, PlotOptions};
 use crate::analysis::{Analysis, Traces};
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};

@@ -20,7 +20,7 @@
 //! (raw minus expected), and an at-floor flag when the corrected power is no more than the expected
 //! noise; a claim at the floor is not a measurement, and its raw power is reported as an upper bound.
 
-use crate::{Error, ErrorKind, Location};
+use crate::error::{Error, ErrorKind, Location};
 use serde::Serialize;
 
 /// Fewer noise bins than this leave the noise mean poorly determined (the analyses warn).

@@ -19,9 +19,9 @@ pub use leakage::LeakageDiagnosis;
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
 pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice};
 
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::SineFit;
 use crate::freq::fold_bin;
-use crate::{Error, ErrorKind, Location, Result};
 use claim::{Owner, Place};
 use coherence::Unwindowed;
 use serde::Serialize;

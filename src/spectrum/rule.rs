@@ -22,17 +22,17 @@ pub enum WindowChoice {
 }
 
 impl std::str::FromStr for WindowChoice {
-    type Err = crate::Error;
+    type Err = crate::error::Error;
 
     /// `auto` (any case), or a window id as [`Window`]'s `FromStr` takes it. Errors:
-    /// [`crate::ErrorKind::BadSetting`] on key `window`, naming `auto` beside the windows.
-    fn from_str(s: &str) -> crate::Result<WindowChoice> {
+    /// [`crate::error::ErrorKind::BadSetting`] on key `window`, naming `auto` beside the windows.
+    fn from_str(s: &str) -> crate::error::Result<WindowChoice> {
         if s.trim().eq_ignore_ascii_case("auto") {
             return Ok(WindowChoice::Auto);
         }
         s.parse()
             .map(WindowChoice::Fixed)
-            .map_err(|e: crate::Error| crate::Error {
+            .map_err(|e: crate::error::Error| crate::error::Error {
                 expected: format!("auto or {}", e.expected),
                 ..e
             })

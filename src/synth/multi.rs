@@ -359,19 +359,19 @@ mod tests {
         };
         assert_eq!(
             interleaved(&s).unwrap_err().location,
-            crate::Location::Key("channels".into())
+            crate::error::Location::Key("channels".into())
         );
         s.channel_gain_errors = vec![0.0, 0.0];
         s.channel_timing_errors_s = vec![0.0, 2e-6];
         assert_eq!(
             interleaved(&s).unwrap_err().location,
-            crate::Location::Key("channel_timing_errors_s".into())
+            crate::error::Location::Key("channel_timing_errors_s".into())
         );
         s.channel_timing_errors_s = vec![0.0, 0.0];
         s.tone.frequency_hz = 600e3;
         assert_eq!(
             interleaved(&s).unwrap_err().kind,
-            crate::ErrorKind::BadSetting
+            crate::error::ErrorKind::BadSetting
         );
     }
 }

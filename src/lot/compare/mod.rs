@@ -6,10 +6,10 @@
 pub mod output;
 pub mod plots;
 
+use crate::error::Result;
 use crate::figures;
 use crate::lot::files::{DroppedCell, LotSummary};
 use crate::stats::{self, NoTest, Summary, TTest};
-use crate::Result;
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;

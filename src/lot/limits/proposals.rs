@@ -8,12 +8,12 @@ use std::path::{Path, PathBuf};
 use serde::Serialize;
 
 use super::{Catalogue, Limit, LimitTable};
+use crate::error::{Error, Location, Result};
 use crate::figures::{self, Better, Unit};
 use crate::lot::files::{
     read_bytes, read_error, DroppedCell, LotSummary, RESULTS_JSON, SUMMARY_CSV,
 };
 use crate::stats;
-use crate::{Error, Location, Result};
 
 /// Figures of a characterisation run: one row per device and condition, metric values by full name.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -175,7 +175,7 @@ pub struct Proposal {
     pub high: Option<f64>,
     /// Proposed guardband.
     pub guardband: f64,
-    /// How the distribution is clearly not normal: with at least [`crate::SHAPE_MIN_N`] values, a
+    /// How the distribution is clearly not normal: with at least [`crate::stats::SHAPE_MIN_N`] values, a
     /// Jarque-Bera p-value below 0.01, and the skew or tails it shows.
     pub shape: Option<String>,
     /// The existing limit, when a table was given and has one.

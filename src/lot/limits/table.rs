@@ -7,8 +7,8 @@ use std::path::Path;
 use serde::Serialize;
 
 use super::format_value;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::figures::{self, Better, Unit};
-use crate::{Error, ErrorKind, Location, Result};
 
 /// A metric limits can be set on: a figure of the result record with a unit ([`figures::Figure::is_metric`]).
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]

@@ -156,15 +156,15 @@ impl Outcome {
 }
 
 impl FromStr for Outcome {
-    type Err = crate::Error;
+    type Err = crate::error::Error;
 
     /// Parses a verdict as the outputs write it ([`Outcome::as_str`]).
-    fn from_str(s: &str) -> crate::Result<Outcome> {
+    fn from_str(s: &str) -> crate::error::Result<Outcome> {
         Outcome::ALL
             .into_iter()
             .find(|o| o.as_str() == s)
             .ok_or_else(|| {
-                crate::Error::setting(
+                crate::error::Error::setting(
                     "verdict",
                     "pass, fail, fail_guardband, untested or error",
                     format!("'{s}'"),

@@ -8,9 +8,9 @@ use super::{
     PlotOptions, TickAxis, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
+use crate::error::Result;
 use crate::figures;
 use crate::report::units::with_unit;
-use crate::Result;
 use plotters::prelude::*;
 use std::f64::consts::PI;
 
@@ -73,7 +73,7 @@ pub fn histogram_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> 
         (Some(f), Some(l)) => (f, l),
         _ => return Err(no_data("histogram", "no counts")),
     };
-    let lowest = crate::min_code(a.bits);
+    let lowest = crate::record::min_code(a.bits);
     let total: u64 = hist.iter().sum();
     let ideal = ideal_counts(
         hist.len(),

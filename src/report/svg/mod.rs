@@ -16,7 +16,7 @@ pub use histogram::histogram_svg;
 pub use residual::residual_svg;
 pub use spectrum::spectrum_svg;
 
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 use plotters::style::RGBColor;
 
 /// Size and axis options of the plots.
