@@ -10,10 +10,10 @@ use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 // The same allocator as the binary, so the figures are the tool's.
 #[global_allocator]
 static ALLOC: mimalloc::MiMalloc = mimalloc::MiMalloc;
-use spurline::analysis::{analyze, AnalysisSettings};
-use spurline::lot::limits::{Catalogue, LimitTable};
-use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots, SummaryColumns};
-use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+use spurline::{analyze, AnalysisSettings};
+use spurline::{run_lot, BatchOptions, BenchPlan, Plots};
+use spurline::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+use spurline::{Catalogue, LimitTable};
 use std::collections::HashMap;
 use std::fmt::Write;
 
@@ -87,14 +87,13 @@ fn bench(c: &mut Criterion) {
         out: dir.path().join("out"),
         jobs: 2,
         plots: Plots::None,
-        progress: false,
     };
 
     let mut g = c.benchmark_group("batch");
     g.sample_size(10);
     g.throughput(Throughput::Elements((DEVICES * CONDITIONS) as u64));
     g.bench_function("lot_1000_records_2^14_jobs_2", |b| {
-        b.iter(|| run_lot(&plan, &lot, Some(&limits), &options).unwrap())
+        b.iter(|| run_lot(&plan, &lot, Some(&limits), &options, &()).unwrap())
     });
     g.finish();
 
@@ -104,11 +103,9 @@ fn bench(c: &mut Criterion) {
     let file = lot.files(0, 3)[0].clone();
     let ingest = plan.ingest_for(&plan.conditions[3]);
     g.bench_function("read_record_2^14", |b| {
-        b.iter(|| spurline::ingest::read_record(&file, &ingest).unwrap())
+        b.iter(|| spurline::read_record(&file, &ingest).unwrap())
     });
-    let rec = spurline::ingest::read_record(&file, &ingest)
-        .unwrap()
-        .record;
+    let rec = spurline::read_record(&file, &ingest).unwrap().record;
     g.bench_function("analyze_2^14", |b| {
         b.iter(|| analyze(&rec, &AnalysisSettings::default()).unwrap())
     });
@@ -119,16 +116,9 @@ fn bench(c: &mut Criterion) {
         b.iter(|| {
             let v = serde_json::to_value(&a).unwrap();
             let flat: HashMap<String, String> =
-                spurline::report::csv::flatten(&v).into_iter().collect();
+                spurline::figures::flatten(&v).into_iter().collect();
             limits.judge("c3", |m| flat.get(m).and_then(|x| x.parse().ok()))
         })
-    });
-    let v = serde_json::to_value(&a).unwrap();
-    let flat: HashMap<String, String> = spurline::report::csv::flatten(&v).into_iter().collect();
-    let verdict = limits.judge("c3", |m| flat.get(m).and_then(|x| x.parse().ok()));
-    let columns = SummaryColumns::new(10);
-    g.bench_function("summary_line", |b| {
-        b.iter(|| columns.row("d000", "c3", &verdict, &flat))
     });
     g.bench_function("results_json", |b| {
         b.iter(|| serde_json::to_string_pretty(&a).unwrap())

@@ -1,12 +1,11 @@
 //! The analysis pipeline of one record (or several averaged records of one condition): sine fit, then
 //! spectrum, then one result record that every output format is made from.
 
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::{self, FitOutput, FourParamOptions, SineFit};
+use crate::record::Record;
 use crate::spectrum::{self, claim::Owner, Spectrum, SpectrumSettings};
-use crate::{Error, ErrorKind, Location, Record, Result};
 use serde::Serialize;
-
-pub use crate::record::{MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ};
 
 /// Which sine fit to run.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -16,6 +15,19 @@ pub enum FitChoice {
     Four,
     /// Three-parameter fit at the record's known frequency (`fin_hint_hz`, required).
     Three,
+}
+
+impl std::str::FromStr for FitChoice {
+    type Err = Error;
+
+    /// `four` or `three`. Errors: [`crate::error::ErrorKind::BadSetting`] on key `fit`.
+    fn from_str(s: &str) -> Result<FitChoice> {
+        match s {
+            "four" => Ok(FitChoice::Four),
+            "three" => Ok(FitChoice::Three),
+            other => Err(Error::setting("fit", "four or three", format!("{other:?}"))),
+        }
+    }
 }
 
 /// Settings of the whole analysis.
@@ -133,7 +145,7 @@ pub type Analysis = RecordResult<OneTone>;
 pub struct Traces {
     /// Residual of the sine fit (first record), codes.
     pub residual: Vec<f64>,
-    /// Averaged bin powers, codes² (see [`spectrum::fft::power_spectrum`]).
+    /// Averaged bin powers, codes² (one-sided, scaled by N·Σw² as the crate docs say).
     pub powers: Vec<f64>,
     /// Owner of each bin.
     pub owner: Vec<Owner>,
@@ -218,12 +230,7 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
     for r in records {
         // Records built in code skip the ingest checks: an unchecked resolution or rate would panic
         // (shifts by bits − 1) or overflow into infinities further on.
-        if !(1..=32).contains(&r.bits) {
-            return Err(
-                Error::setting("bits", "a resolution of 1..=32 bits", r.bits.to_string())
-                    .with_path(&r.source),
-            );
-        }
+        crate::record::check_bits(r.bits).map_err(|e| e.with_path(&r.source))?;
         crate::record::check_sample_rate(r.sample_rate_hz, "")
             .map_err(|e| e.with_path(&r.source))?;
         if r.len() < min {
@@ -338,7 +345,7 @@ pub fn histogram_of(codes: &[i32], bits: u32) -> Vec<u64> {
     if bits > 24 {
         return Vec::new();
     }
-    let lo = crate::min_code(bits);
+    let lo = crate::record::min_code(bits);
     let mut h = vec![0u64; 1usize << bits];
     for &c in codes {
         let i = (c as i64 - lo) as usize;
@@ -352,6 +359,7 @@ pub fn histogram_of(codes: &[i32], bits: u32) -> Vec<u64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::record::{MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ};
 
     // Both forms of the code counts give the same histogram (slow reference: a count per code by a
     // linear scan), and the form kept is the smaller one.

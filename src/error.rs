@@ -113,6 +113,22 @@ impl Error {
         )
     }
 
+    /// An error reading a file or folder: kind [`ErrorKind::Io`], its path, what was expected of it
+    /// and the system's message.
+    pub fn io(
+        path: &std::path::Path,
+        expected: impl Into<String>,
+        e: impl std::fmt::Display,
+    ) -> Self {
+        Error::new(
+            ErrorKind::Io,
+            path.display().to_string(),
+            Location::Whole,
+            expected,
+            e.to_string(),
+        )
+    }
+
     /// Returns the same error with the path filled in.
     pub fn with_path(mut self, path: impl Into<String>) -> Self {
         self.path = path.into();

@@ -115,14 +115,14 @@ pub fn is_prime(n: u64) -> bool {
         return false;
     }
     for p in SMALL {
-        if n % p == 0 {
+        if n.is_multiple_of(p) {
             return n == p;
         }
     }
     // The first twelve primes as witnesses decide primality for all n < 3.3e24, hence every u64.
     let mut d = n - 1;
     let mut s = 0;
-    while d % 2 == 0 {
+    while d.is_multiple_of(2) {
         d /= 2;
         s += 1;
     }
@@ -324,7 +324,12 @@ mod tests {
 
     #[test]
     fn primality_against_trial_division_and_known_primes() {
-        let trial = |n: u64| n >= 2 && (2..).take_while(|d| d * d <= n).all(|d| n % d != 0);
+        let trial = |n: u64| {
+            n >= 2
+                && (2..)
+                    .take_while(|d| d * d <= n)
+                    .all(|d| !n.is_multiple_of(d))
+        };
         for n in 0..20_000u64 {
             assert_eq!(is_prime(n), trial(n), "n = {n}");
         }

@@ -2,7 +2,7 @@
 
 use serde::Serialize;
 
-use crate::{Error, Result};
+use crate::error::{Error, Result};
 
 /// Lowest sample rate accepted, hertz (one sample in about 12 days).
 pub const MIN_SAMPLE_RATE_HZ: f64 = 1e-6;
@@ -31,6 +31,24 @@ pub(crate) fn check_sample_rate(sample_rate_hz: f64, hint: &str) -> Result<()> {
     }
 }
 
+/// Fewest and most bits of a converter's resolution.
+pub const BITS_RANGE: std::ops::RangeInclusive<u32> = 1..=32;
+
+/// Rejects a resolution outside [`BITS_RANGE`] (1..=32 bits): the one check every reader, the
+/// simulators and the analysis share, so that a record built in code cannot reach a shift by
+/// `bits − 1` that panics.
+pub(crate) fn check_bits(bits: u32) -> Result<()> {
+    if BITS_RANGE.contains(&bits) {
+        Ok(())
+    } else {
+        Err(Error::setting(
+            "bits",
+            "a resolution of 1..=32 bits",
+            bits.to_string(),
+        ))
+    }
+}
+
 /// How the converter encodes codes in its output words.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "snake_case")]
@@ -39,6 +57,24 @@ pub enum Coding {
     TwosComplement,
     /// Offset binary: mid-scale is 2^(N-1); converted to signed at ingest.
     OffsetBinary,
+}
+
+impl std::str::FromStr for Coding {
+    type Err = Error;
+
+    /// `twos` or `twos_complement`, `offset` or `offset_binary` (the sidecar's spelling is the long
+    /// one). Errors: [`crate::error::ErrorKind::BadSetting`] on key `coding`.
+    fn from_str(s: &str) -> Result<Coding> {
+        match s {
+            "twos" | "twos_complement" => Ok(Coding::TwosComplement),
+            "offset" | "offset_binary" => Ok(Coding::OffsetBinary),
+            other => Err(Error::setting(
+                "coding",
+                "one of twos, twos_complement, offset, offset_binary",
+                format!("{other:?}"),
+            )),
+        }
+    }
 }
 
 /// One captured record of converter output codes.

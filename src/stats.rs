@@ -149,26 +149,6 @@ impl Moments {
     }
 }
 
-/// Sample skewness, the adjusted Fisher-Pearson coefficient G1 = g1·√(n(n−1))/(n−2) with
-/// g1 = m3/m2^1.5 (scipy `stats.skew(bias=False)`); `None` below 3 values or with no spread.
-pub fn skewness(x: &[f64]) -> Option<f64> {
-    Moments::of(x)?.skewness()
-}
-
-/// Sample excess kurtosis G2 = ((n²−1)·m4/m2² − 3(n−1)²)/((n−2)(n−3)) (scipy
-/// `stats.kurtosis(fisher=True, bias=False)`); 0 for a normal distribution; `None` below 4 values
-/// or with no spread.
-pub fn excess_kurtosis(x: &[f64]) -> Option<f64> {
-    Moments::of(x)?.excess_kurtosis()
-}
-
-/// Jarque-Bera statistic JB = n/6·(g1² + g2²/4) from the biased g1 = m3/m2^1.5 and
-/// g2 = m4/m2² − 3, and its p-value, the tail of the χ² distribution with 2 degrees of freedom
-/// (Jarque & Bera 1987; scipy `stats.jarque_bera`). `None` below 2 values or with no spread.
-pub fn jarque_bera(x: &[f64]) -> Option<(f64, f64)> {
-    Moments::of(x)?.jarque_bera()
-}
-
 /// Process capability Cpk = min((high − mean)/3σ, (mean − low)/3σ) over the limits present
 /// (Montgomery, Introduction to Statistical Quality Control, §8.3); `None` without a limit or
 /// with σ ≤ 0.
@@ -376,7 +356,7 @@ mod tests {
     #[test]
     fn jarque_bera_p_is_the_chi2_2_tail() {
         let x = [1.0, 2.0, 2.5, 7.0, 3.0, 2.0, 1.5, 9.5, 2.0, 2.2];
-        let (jb, p) = jarque_bera(&x).unwrap();
+        let (jb, p) = Moments::of(&x).unwrap().jarque_bera().unwrap();
         assert!(jb > 0.0);
         assert!((p - (-jb / 2.0).exp()).abs() <= 1e-13 * p, "{p}");
         for jb in [0.0, 0.5, 5.0, 50.0, 500.0] {
@@ -384,5 +364,107 @@ mod tests {
             let want = (-jb / 2.0f64).exp();
             assert!((chi2.sf(jb) - want).abs() <= 1e-13 * want, "{jb}");
         }
+    }
+
+    /// The stored numpy/scipy values (tests/reference/make_stats_refs.py).
+    fn refs() -> serde_json::Value {
+        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/reference/stats/stats_refs.json");
+        serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
+    }
+
+    fn values_of(set: &serde_json::Value) -> Vec<f64> {
+        set["values"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|v| v.as_f64().unwrap())
+            .collect()
+    }
+
+    /// Relative agreement with numpy/scipy: the sums differ only in summation order (numpy sums
+    /// pairwise), a few ulps per value; 1e-11 leaves room for thousands of ulps.
+    const REFERENCE_REL: f64 = 1e-11;
+
+    fn close(got: f64, want: f64, what: &str) {
+        let tol = REFERENCE_REL * want.abs().max(1.0);
+        assert!(
+            (got - want).abs() <= tol,
+            "{what}: {got} vs numpy/scipy {want}"
+        );
+    }
+
+    #[test]
+    fn statistics_match_numpy_and_scipy() {
+        // Reference: tests/reference/make_stats_refs.py (numpy mean, std(ddof=1), percentile(linear);
+        // scipy.stats skew(bias=False), kurtosis(bias=False), jarque_bera; Cpk by the textbook formula).
+        let r = refs();
+        for (name, set) in r["sets"].as_object().unwrap() {
+            let x = values_of(set);
+            let mut sorted = x.clone();
+            sorted.sort_by(f64::total_cmp);
+            let d = describe(&x).unwrap();
+            let s = &d.summary;
+            close(
+                s.mean,
+                set["mean"].as_f64().unwrap(),
+                &format!("{name} mean"),
+            );
+            close(
+                s.std.unwrap(),
+                set["std"].as_f64().unwrap(),
+                &format!("{name} std"),
+            );
+            assert_eq!(s.min, set["min"].as_f64().unwrap());
+            assert_eq!(s.max, set["max"].as_f64().unwrap());
+            for p in set["percentiles"].as_array().unwrap() {
+                let (pc, want) = (p[0].as_f64().unwrap(), p[1].as_f64().unwrap());
+                close(
+                    percentile(&sorted, pc).unwrap(),
+                    want,
+                    &format!("{name} P{pc}"),
+                );
+                // numpy's median is its 50th percentile (linear interpolation of the two middle values).
+                if pc == 50.0 {
+                    close(s.median, want, &format!("{name} median"));
+                }
+            }
+            match set["skewness"].as_f64() {
+                Some(w) => close(d.skewness.unwrap(), w, &format!("{name} skewness")),
+                None => assert!(d.skewness.is_none()),
+            }
+            match set["excess_kurtosis"].as_f64() {
+                Some(w) => close(d.excess_kurtosis.unwrap(), w, &format!("{name} kurtosis")),
+                None => assert!(d.excess_kurtosis.is_none()),
+            }
+            let jb = &set["jarque_bera"];
+            close(
+                d.jarque_bera.unwrap(),
+                jb[0].as_f64().unwrap(),
+                &format!("{name} JB"),
+            );
+            let p_want = jb[1].as_f64().unwrap();
+            assert!(
+                (d.jarque_bera_p.unwrap() - p_want).abs() <= 1e-11 * p_want.max(1e-300) + 1e-300,
+                "{name} JB p"
+            );
+            // The shape rule: n ≥ 8 and p < 0.01.
+            let flagged = x.len() >= SHAPE_MIN_N && p_want < SHAPE_P;
+            assert_eq!(shape_note(&d).is_some(), flagged, "{name}");
+            for c in set["cpk"].as_array().unwrap() {
+                let got = cpk(
+                    s.mean,
+                    s.std.unwrap(),
+                    c["low"].as_f64(),
+                    c["high"].as_f64(),
+                )
+                .unwrap();
+                close(got, c["cpk"].as_f64().unwrap(), &format!("{name} Cpk {c}"));
+            }
+        }
+        assert_eq!(sample_std(&[1.0]), None);
+        assert_eq!(describe(&[1.0, 1.0, 1.0]).unwrap().skewness, None);
+        assert_eq!(cpk(1.0, 0.0, Some(0.0), None), None);
+        assert_eq!(cpk(1.0, 1.0, None, None), None);
     }
 }

@@ -15,11 +15,11 @@ use rand_distr::{Distribution, StandardNormal};
 use serde::Serialize;
 
 use crate::analysis::{analyze, AnalysisSettings, Measured as AnalysisMeasured};
+use crate::error::Result;
 use crate::fit::{fit_four, FourParamOptions};
 use crate::freq::nearest_coherent;
 use crate::spectrum::{SpectrumSettings, Window, WindowChoice, DB_PER_BIT, SINE_CREST_DB};
 use crate::synth::{synthesize, SynthFrequency, SynthSettings};
-use crate::Result;
 
 /// One check as measured, before it is judged.
 #[derive(Debug, Clone, PartialEq, Serialize)]

@@ -4,15 +4,15 @@
 //! thread count, yields, shards merged into the unsharded report byte for byte (and the merge's
 //! refusals), a run killed midway, and limit proposals and Cpk against values stored from numpy/scipy.
 
+use crate::tolerances::{NUMPY_REL, PROPOSAL_ROUNDING};
 use assert_cmd::Command;
-use spurline::ingest::Format;
-use spurline::lot::limits::{
+use spurline::Format;
+use spurline::WindowChoice;
+use spurline::{
     propose, Catalogue, Characterisation, CheckOutcome, LimitTable, Method, Outcome,
     ProposalSettings, ResultRow,
 };
-use spurline::lot::{BenchPlan, RecordSource};
-use spurline::spectrum::WindowChoice;
-use spurline::stats;
+use spurline::{BenchPlan, RecordSource};
 use spurline::{ErrorKind, Location};
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -58,15 +58,7 @@ fn make_lot() -> tempfile::TempDir {
 
 /// Scope of the fixture plan: its conditions with the metrics of their harmonics.
 fn scope_of(plan: &BenchPlan) -> Vec<(String, Catalogue)> {
-    plan.conditions
-        .iter()
-        .map(|c| {
-            (
-                c.name.clone(),
-                Catalogue::for_harmonics(c.settings.spectrum.harmonics),
-            )
-        })
-        .collect()
+    plan.limit_scope()
 }
 
 fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
@@ -643,7 +635,7 @@ fn verdicts_and_guardbands() {
     // A high-side guardband: -0.125 dBFS is under the high limit 0 but within 0.25 of it.
     let v = judge("fin_10M", Some(65.0), -0.125, 11.0);
     assert_eq!(v.outcome, Outcome::FailGuardband);
-    assert_eq!(v.checks[1].bound, Some(spurline::lot::limits::Bound::High));
+    assert_eq!(v.checks[1].bound, Some(spurline::Bound::High));
     assert_eq!(v.checks[1].margin, Some(0.125));
     // A hard failure beats a guardband one.
     let v = judge("fin_10M", Some(59.0), -0.125, 11.0);
@@ -1191,7 +1183,7 @@ fn bad_shard_values_are_errors_naming_the_option() {
 /// A lot of `devices` × 2 conditions whose records are four 2^15-sample binary files shared by every
 /// device through an explicit record list (many results, few files to write).
 fn make_big_lot(devices: usize) -> tempfile::TempDir {
-    use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+    use spurline::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
     use std::fmt::Write as _;
     let dir = tempfile::tempdir().unwrap();
     let mut plan = String::from(
@@ -1345,7 +1337,7 @@ fn a_killed_run_keeps_complete_summaries_and_device_folders() {
         }
     }
     // The readers take the summary, never a temporary file: the run reads back with its rows.
-    let back = spurline::lot::read_results(std::slice::from_ref(&out)).unwrap();
+    let back = spurline::read_results(std::slice::from_ref(&out)).unwrap();
     assert_eq!(back.rows.len(), rows.len());
 }
 
@@ -1480,85 +1472,11 @@ fn values_of(set: &serde_json::Value) -> Vec<f64> {
 /// Relative agreement with a numpy/scipy value: the sums differ only in summation order (numpy sums
 /// pairwise), a few ulps per value.
 fn close(got: f64, want: f64, what: &str) {
-    let tol = 1e-11 * want.abs().max(1.0);
+    let tol = NUMPY_REL * want.abs().max(1.0);
     assert!(
         (got - want).abs() <= tol,
         "{what}: {got} vs numpy/scipy {want}"
     );
-}
-
-#[test]
-fn statistics_match_numpy_and_scipy() {
-    // Reference: tests/reference/make_stats_refs.py (numpy mean, std(ddof=1), percentile(linear);
-    // scipy.stats skew(bias=False), kurtosis(bias=False), jarque_bera; Cpk by the textbook formula).
-    let r = refs();
-    for (name, set) in r["sets"].as_object().unwrap() {
-        let x = values_of(set);
-        let mut sorted = x.clone();
-        sorted.sort_by(f64::total_cmp);
-        let d = stats::describe(&x).unwrap();
-        let s = &d.summary;
-        close(
-            s.mean,
-            set["mean"].as_f64().unwrap(),
-            &format!("{name} mean"),
-        );
-        close(
-            s.std.unwrap(),
-            set["std"].as_f64().unwrap(),
-            &format!("{name} std"),
-        );
-        assert_eq!(s.min, set["min"].as_f64().unwrap());
-        assert_eq!(s.max, set["max"].as_f64().unwrap());
-        for p in set["percentiles"].as_array().unwrap() {
-            let (pc, want) = (p[0].as_f64().unwrap(), p[1].as_f64().unwrap());
-            close(
-                stats::percentile(&sorted, pc).unwrap(),
-                want,
-                &format!("{name} P{pc}"),
-            );
-            // numpy's median is its 50th percentile (linear interpolation of the two middle values).
-            if pc == 50.0 {
-                close(s.median, want, &format!("{name} median"));
-            }
-        }
-        match set["skewness"].as_f64() {
-            Some(w) => close(d.skewness.unwrap(), w, &format!("{name} skewness")),
-            None => assert!(d.skewness.is_none()),
-        }
-        match set["excess_kurtosis"].as_f64() {
-            Some(w) => close(d.excess_kurtosis.unwrap(), w, &format!("{name} kurtosis")),
-            None => assert!(d.excess_kurtosis.is_none()),
-        }
-        let jb = &set["jarque_bera"];
-        close(
-            d.jarque_bera.unwrap(),
-            jb[0].as_f64().unwrap(),
-            &format!("{name} JB"),
-        );
-        let p_want = jb[1].as_f64().unwrap();
-        assert!(
-            (d.jarque_bera_p.unwrap() - p_want).abs() <= 1e-11 * p_want.max(1e-300) + 1e-300,
-            "{name} JB p"
-        );
-        // The shape rule: n ≥ 8 and p < 0.01.
-        let flagged = x.len() >= stats::SHAPE_MIN_N && p_want < stats::SHAPE_P;
-        assert_eq!(stats::shape_note(&d).is_some(), flagged, "{name}");
-        for c in set["cpk"].as_array().unwrap() {
-            let got = stats::cpk(
-                s.mean,
-                s.std.unwrap(),
-                c["low"].as_f64(),
-                c["high"].as_f64(),
-            )
-            .unwrap();
-            close(got, c["cpk"].as_f64().unwrap(), &format!("{name} Cpk {c}"));
-        }
-    }
-    assert_eq!(stats::sample_std(&[1.0]), None);
-    assert_eq!(stats::skewness(&[1.0, 1.0, 1.0]), None);
-    assert_eq!(stats::cpk(1.0, 0.0, Some(0.0), None), None);
-    assert_eq!(stats::cpk(1.0, 1.0, None, None), None);
 }
 
 #[test]
@@ -1587,6 +1505,7 @@ fn proposals_in_the_library() {
                 .into(),
             })
             .collect(),
+        dropped: vec![],
     };
     let metrics = [
         "spectrum.snr_db".to_string(),
@@ -1613,7 +1532,7 @@ fn proposals_in_the_library() {
     let settings = ProposalSettings {
         method: Method::Percentile { percent: 1.0 },
         two_sided: true,
-        guardband: vec![spurline::lot::limits::GuardbandRule::parse("0.5sigma").unwrap()],
+        guardband: vec!["0.5sigma".parse::<spurline::GuardbandRule>().unwrap()],
     };
     let p = propose(&data, &metrics[..1], &settings, None);
     let pct = &set["percentiles"];
@@ -1641,16 +1560,16 @@ fn proposals_in_the_library() {
         "guardband 0.5σ",
     );
     // The proposal as a table reads back in the batch's limit-table parser.
-    let table = spurline::lot::limits::proposal_table(&p, "p.csv");
+    let table = spurline::proposal_table(&p, "p.csv");
     let back = LimitTable::parse(&table.to_csv(), "p.csv", &data.scope()).unwrap();
     assert_eq!(back.limits.len(), 1);
     let l = &back.limits[0];
     assert!(
-        l.low.unwrap() <= p1 && p1 - l.low.unwrap() < 1e-4,
+        l.low.unwrap() <= p1 && p1 - l.low.unwrap() < PROPOSAL_ROUNDING,
         "{:?} vs {p1}",
         l.low
     );
-    assert!(l.high.unwrap() >= p99 && l.high.unwrap() - p99 < 1e-4);
+    assert!(l.high.unwrap() >= p99 && l.high.unwrap() - p99 < PROPOSAL_ROUNDING);
 }
 
 #[test]
@@ -1746,14 +1665,17 @@ fn limits_command_proposes_and_reports_cpk() {
         "{l2}"
     );
     // The table: a low limit only (SNR: higher is better), mean − 6σ rounded down to 6 digits.
-    let data = spurline::lot::read_results(&[dir.path().join("summary.csv")]).unwrap();
+    let data = spurline::read_results(&[dir.path().join("summary.csv")]).unwrap();
     assert_eq!(data.rows.len(), 70);
     let t = LimitTable::read(&proposed, &data.scope()).unwrap();
     assert_eq!(t.limits.len(), 2);
     for (l, set) in t.limits.iter().zip([normal, skewed]) {
         let want = set["sigma_limits_k6"][0].as_f64().unwrap();
         let got = l.low.unwrap();
-        assert!(got <= want && want - got < 1e-4, "{got} vs {want}");
+        assert!(
+            got <= want && want - got < PROPOSAL_ROUNDING,
+            "{got} vs {want}"
+        );
         assert_eq!(l.high, None);
         assert_eq!(l.unit.symbol(), "dB");
     }
@@ -1791,7 +1713,7 @@ fn limits_command_proposes_and_reports_cpk() {
         .unwrap()[1]
         .as_f64()
         .unwrap();
-    assert!(t.limits[0].low.unwrap() <= p5 && p5 - t.limits[0].low.unwrap() < 1e-4);
+    assert!(t.limits[0].low.unwrap() <= p5 && p5 - t.limits[0].low.unwrap() < PROPOSAL_ROUNDING);
     assert!(t.limits[0].high.is_some());
     assert_eq!(t.limits[0].guardband, 0.1);
     // Bad input: exit 2 with a message.
@@ -1822,12 +1744,12 @@ fn limits_reads_a_batch_run_back() {
     let p = lot.path();
     let out = p.join("out");
     run_batch(p, &out, &[]);
-    let from_csv = spurline::lot::read_results(std::slice::from_ref(&out)).unwrap();
+    let from_csv = spurline::read_results(std::slice::from_ref(&out)).unwrap();
     let jsons: Vec<PathBuf> = ["d01", "d02", "d03", "d04"]
         .iter()
         .map(|d| out.join(d).join("results.json"))
         .collect();
-    let from_json = spurline::lot::read_results(&jsons).unwrap();
+    let from_json = spurline::read_results(&jsons).unwrap();
     assert_eq!(from_csv.conditions, ["fin_10M", "fin_31M"]);
     assert_eq!(from_csv.rows.len(), 8);
     assert_eq!(from_json.rows.len(), 8);

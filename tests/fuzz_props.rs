@@ -13,13 +13,13 @@ use proptest::test_runner::{Config, RngAlgorithm, RngSeed};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde::Serialize;
-use spurline::analysis::{analyze, AnalysisSettings, FitChoice};
-use spurline::ingest::{
+use spurline::{analyze, AnalysisSettings, FitChoice};
+use spurline::{max_code, min_code, Coding, ErrorKind, Location, Record};
+use spurline::{
     parse_binary, parse_delimited, parse_text, read_record, read_sidecar, BinaryLayout, ColumnSel,
     IngestSettings, Justify, Metadata,
 };
-use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
-use spurline::{max_code, min_code, Coding, ErrorKind, Location, Record};
+use spurline::{SpectrumSettings, Window, WindowChoice};
 use std::path::Path;
 
 /// One fixed seed and algorithm for every property, no failure files: the same cases on every run.
@@ -247,7 +247,11 @@ fn render_csv(c: &CsvCase) -> (Vec<u8>, Predicted) {
     for row in &c.rows {
         number += 1;
         let Some(fields) = row else {
-            out.push_str(if number % 2 == 0 { "# 1,2;3" } else { "" });
+            out.push_str(if number.is_multiple_of(2) {
+                "# 1,2;3"
+            } else {
+                ""
+            });
             out.push_str(end);
             continue;
         };
@@ -411,7 +415,7 @@ fn encode(code: i64, bits: u32, l: &BinaryLayout, variant: u32) -> u32 {
     };
     let raw: u64 = match (l.justify, l.coding.unwrap_or(signed_default)) {
         (Justify::Right, Coding::TwosComplement) => {
-            if variant % 2 == 0 {
+            if variant.is_multiple_of(2) {
                 (code as u64) & word_mask
             } else {
                 (code as u64) & code_mask
@@ -779,7 +783,7 @@ fn codes_of(shape: &Shape, n: usize, bits: u32, seed: u64) -> Vec<i32> {
         Shape::Constant(c) => vec![q(c * full); n],
         Shape::Square(c) => (0..n)
             .map(|i| {
-                if ((i as f64 * c * 2.0) as u64) % 2 == 0 {
+                if ((i as f64 * c * 2.0) as u64).is_multiple_of(2) {
                     q(hi)
                 } else {
                     q(lo)
@@ -898,7 +902,7 @@ proptest! {
             Err(e) => {
                 prop_assert_eq!(&e.path, "fuzz record", "{:?}", e);
                 prop_assert!(!e.expected.is_empty() && !e.found.is_empty(), "{:?}", e);
-                let failed = spurline::analysis::Analysis::failed("fuzz record", &e, Vec::new());
+                let failed = spurline::Analysis::failed("fuzz record", &e, Vec::new());
                 if fs.is_finite() {
                     no_nan_words(&e.to_string());
                     check_outputs(&failed, std::slice::from_ref(&failed));
@@ -1125,10 +1129,10 @@ const PLAN_RANGES: [(&str, &[&str]); 7] = [
 #[test]
 fn the_base_plans_parse() {
     // Both bases are valid, or the edits below start from an error and test less than they say.
-    let p = spurline::lot::BenchPlan::parse(PLAN, Path::new("bench/plan.toml")).unwrap();
+    let p = spurline::BenchPlan::parse(PLAN, Path::new("bench/plan.toml")).unwrap();
     invariants::check_plan(&p, PLAN);
     assert_eq!(p.conditions.len(), 3);
-    let p = spurline::lot::BenchPlan::parse(PLAN_LIST, Path::new("bench/plan.toml")).unwrap();
+    let p = spurline::BenchPlan::parse(PLAN_LIST, Path::new("bench/plan.toml")).unwrap();
     invariants::check_plan(&p, PLAN_LIST);
 }
 
@@ -1138,7 +1142,7 @@ proptest! {
     #[test]
     fn plan_arbitrary_text_never_panics(bytes in prop::collection::vec(any::<u8>(), 0..400)) {
         let text = String::from_utf8_lossy(&bytes);
-        match spurline::lot::BenchPlan::parse(&text, Path::new("bench/plan.toml")) {
+        match spurline::BenchPlan::parse(&text, Path::new("bench/plan.toml")) {
             Ok(p) => invariants::check_plan(&p, &text),
             Err(e) => invariants::check_plan_error(&e, "bench/plan.toml", &text),
         }
@@ -1146,7 +1150,7 @@ proptest! {
 
     #[test]
     fn plan_near_valid_never_panics_and_names_its_line(text in plan_text()) {
-        match spurline::lot::BenchPlan::parse(&text, Path::new("bench/plan.toml")) {
+        match spurline::BenchPlan::parse(&text, Path::new("bench/plan.toml")) {
             Ok(p) => invariants::check_plan(&p, &text),
             Err(e) => invariants::check_plan_error(&e, "bench/plan.toml", &text),
         }
@@ -1168,7 +1172,7 @@ proptest! {
         let mut edited: Vec<String> = lines.iter().map(|l| l.to_string()).collect();
         edited[i] = format!("{key} = {bad}");
         let text = edited.join("\n") + "\n";
-        let e = spurline::lot::BenchPlan::parse(&text, Path::new("bench/plan.toml")).unwrap_err();
+        let e = spurline::BenchPlan::parse(&text, Path::new("bench/plan.toml")).unwrap_err();
         invariants::check_plan_error(&e, "bench/plan.toml", &text);
         prop_assert_eq!(&e.location, &Location::Line(i + 1), "{}", e);
         prop_assert!(e.expected.contains(key), "{}", e);
@@ -1180,15 +1184,10 @@ proptest! {
 // ---------------------------------------------------------------------------------------------------
 
 /// The scope of the fixture lot: its two conditions with 5 and 7 harmonics.
-fn limit_scope() -> Vec<(String, spurline::lot::limits::Catalogue)> {
+fn limit_scope() -> Vec<(String, spurline::Catalogue)> {
     [("fin_10M", 5), ("fin_31M", 7)]
         .iter()
-        .map(|&(n, h)| {
-            (
-                n.to_string(),
-                spurline::lot::limits::Catalogue::for_harmonics(h),
-            )
-        })
+        .map(|&(n, h)| (n.to_string(), spurline::Catalogue::for_harmonics(h)))
         .collect()
 }
 
@@ -1356,7 +1355,7 @@ proptest! {
     fn limits_arbitrary_text_never_panic(bytes in prop::collection::vec(any::<u8>(), 0..400)) {
         let text = String::from_utf8_lossy(&bytes);
         let scope = limit_scope();
-        match spurline::lot::limits::LimitTable::parse(&text, "bench/limits.csv", &scope) {
+        match spurline::LimitTable::parse(&text, "bench/limits.csv", &scope) {
             Ok(t) => invariants::check_limits(&t, "bench/limits.csv", &text, &scope),
             Err(e) => invariants::check_limits_error(&e, "bench/limits.csv", &text),
         }
@@ -1371,7 +1370,7 @@ proptest! {
     ) {
         let scope = limit_scope();
         let (text, want) = render_limits(&order, &rows, semicolon, crlf);
-        match spurline::lot::limits::LimitTable::parse(&text, "bench/limits.csv", &scope) {
+        match spurline::LimitTable::parse(&text, "bench/limits.csv", &scope) {
             Ok(t) => {
                 invariants::check_limits(&t, "bench/limits.csv", &text, &scope);
                 let got: Vec<(usize, String)> = t.limits.iter().map(|l| (l.row, l.metric.clone())).collect();

@@ -1,11 +1,9 @@
 //! `spurline imd` and `spurline interleave` end to end: records written as text (one code per line)
 //! from known analog formulas, analysed through the binary, figures checked against closed forms.
 
-use crate::tolerances::{IMD_DB, INTERLEAVE_DB};
+use crate::tolerances::*;
 use assert_cmd::Command;
-use spurline::synth::multi::{
-    interleaved, two_tone, InterleavedSettings, ToneSpec, TwoToneSettings,
-};
+use spurline::{interleaved, two_tone, InterleavedSettings, ToneSpec, TwoToneSettings};
 use std::path::{Path, PathBuf};
 
 const FS: f64 = 100e6;
@@ -116,7 +114,8 @@ fn imd_json_matches_the_polynomial() {
         let p = products.iter().find(|p| p["name"] == name).unwrap();
         // Placed from the fitted frequencies: within 1e-6 of a bin of the exact product.
         assert!(
-            (p["frequency_hz"].as_f64().unwrap() - freq).abs() < 1e-6 * FS / N as f64,
+            (p["frequency_hz"].as_f64().unwrap() - freq).abs()
+                < PRODUCT_PLACEMENT_BINS * FS / N as f64,
             "{name}"
         );
         let got = p["dbc"].as_f64().unwrap();
@@ -231,7 +230,9 @@ fn interleave_json_names_spurs_and_channel_errors() {
     let find = |name: &str| spurs.iter().find(|s| s["name"] == name).unwrap();
     let gain_spur = find("1*fs/2+fin");
     let fin = 3277.0 * FS / N as f64;
-    assert!((gain_spur["frequency_hz"].as_f64().unwrap() - (FS / 2.0 - fin)).abs() < 1.0);
+    assert!(
+        (gain_spur["frequency_hz"].as_f64().unwrap() - (FS / 2.0 - fin)).abs() < IMAGE_PLACEMENT_HZ
+    );
     let want = 20.0 * (g / 2.0).log10();
     let got = gain_spur["dbc"].as_f64().unwrap();
     assert!((got - want).abs() < INTERLEAVE_DB, "{got} vs {want}");
@@ -244,9 +245,9 @@ fn interleave_json_names_spurs_and_channel_errors() {
     // 0.01 codes and 1e-6 with 8192 samples of quantisation noise (σ/√L, σ·√(2/L)/A; from memory).
     let est = r["channel_estimates"].as_array().unwrap();
     for (e, sign) in est.iter().zip([1.0, -1.0]) {
-        assert!((e["offset_codes"].as_f64().unwrap() - sign * o).abs() < 0.01);
-        assert!((e["gain_error"].as_f64().unwrap() - sign * g / 2.0).abs() < 1e-6);
-        assert!(e["timing_error_s"].as_f64().unwrap().abs() < 1e-13);
+        assert!((e["offset_codes"].as_f64().unwrap() - sign * o).abs() < CHANNEL_OFFSET_CODES);
+        assert!((e["gain_error"].as_f64().unwrap() - sign * g / 2.0).abs() < CHANNEL_GAIN);
+        assert!(e["timing_error_s"].as_f64().unwrap().abs() < CHANNEL_TIMING_S);
     }
 
     let out = spurline()

@@ -2,8 +2,9 @@
 //! recovered DNL and missing codes, accumulation over records, the overdrive refusal, the sample-count
 //! advice, the plots, and bad input (exit 2, no panic).
 
+use crate::tolerances::{DNL_STANDARD_ERRORS, ROUNDING};
 use assert_cmd::Command;
-use spurline::synth::{transition_levels, SynthSettings};
+use spurline::{transition_levels, SynthSettings};
 use std::f64::consts::PI;
 use std::path::{Path, PathBuf};
 
@@ -101,7 +102,7 @@ fn recovers_known_widths_over_two_records() {
     .unwrap();
     // Four standard errors from the advisor formula β(S) = Z·√(π·2^(N−1)/S) at Z = 1.96 (IEEE Std
     // 1241, from memory): 4·β/1.96 = 4·√(π·128/10^6) ≈ 0.080 LSB.
-    let tol = 4.0 * (PI * 128.0 / 1e6).sqrt();
+    let tol = DNL_STANDARD_ERRORS * (PI * 128.0 / 1e6).sqrt();
     let codes = v["codes"].as_array().unwrap();
     assert_eq!(codes.len(), 256);
     let mut outside = 0;
@@ -122,7 +123,7 @@ fn recovers_known_widths_over_two_records() {
     assert!(outside <= 2, "{outside} of {n} codes outside ±{tol} LSB");
     // The worst DNL is the lower missing code, at −1.
     assert_eq!(v["terminal"]["dnl_worst"]["code"], -37);
-    assert!((v["terminal"]["dnl_worst"]["value_lsb"].as_f64().unwrap() + 1.0).abs() < 1e-9);
+    assert!((v["terminal"]["dnl_worst"]["value_lsb"].as_f64().unwrap() + 1.0).abs() < ROUNDING);
     // Deterministic: the same records give the same bytes.
     let again = linearity(&[&a, &b], &["--json"]);
     assert_eq!(again.stdout, out.stdout);

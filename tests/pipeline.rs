@@ -1,9 +1,9 @@
 //! The whole pipeline (synth → fit → spectrum) against handbook formulas and exact time-domain truth.
 
 use crate::tolerances::*;
-use spurline::analysis::{analyze, analyze_averaged, AnalysisSettings, FitChoice};
-use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
-use spurline::synth::{synthesize, SynthFrequency, SynthSettings};
+use spurline::{analyze, analyze_averaged, AnalysisSettings, FitChoice};
+use spurline::{synthesize, SynthFrequency, SynthSettings};
+use spurline::{SpectrumSettings, Window, WindowChoice};
 
 fn ideal(bits: u32, samples: usize, amplitude_dbfs: f64, target_hz: f64) -> SynthSettings {
     SynthSettings {
@@ -25,7 +25,7 @@ fn ideal(bits: u32, samples: usize, amplitude_dbfs: f64, target_hz: f64) -> Synt
     }
 }
 
-fn run(s: &SynthSettings, settings: &AnalysisSettings) -> spurline::analysis::Measured {
+fn run(s: &SynthSettings, settings: &AnalysisSettings) -> spurline::Measured {
     let rec = synthesize(s).expect("valid synth settings").record;
     analyze(&rec, settings).expect("record analyses")
 }
@@ -77,7 +77,7 @@ fn spectral_sinad_matches_time_domain_error() {
         sp.sinad_db.unwrap()
     );
     // And the fit's own SINAD is the same quantity (IEEE 1241 fit form).
-    assert!((fit.sinad_db.unwrap() - time_sinad).abs() < 1e-9);
+    assert!((fit.sinad_db.unwrap() - time_sinad).abs() < LONG_SUM);
 }
 
 /// Noise floor per bin = −SNR − 10·log10(N/2) (handbook): ideal 12 bits at 4096 points, −107.1 dBFS
@@ -91,7 +91,7 @@ fn ideal_12_bit_noise_floor() {
         .spectrum
         .unwrap();
     let expected = -(6.02 * 12.0 + 1.76) - 10.0 * 2048f64.log10();
-    assert!((expected + 107.1).abs() < 0.05);
+    assert!((expected + 107.1).abs() < PRINTED_1DP);
     assert!(
         (sp.noise_floor_dbfs.unwrap() - expected).abs() < HANDBOOK_DB,
         "{:?}",
@@ -152,7 +152,7 @@ fn harmonics_are_recovered_and_folded() {
             }
         };
         assert!(
-            (h.frequency_hz - folded).abs() < 1e-3,
+            (h.frequency_hz - folded).abs() < HARMONIC_PLACEMENT_HZ,
             "H{order} at {}",
             h.frequency_hz
         );
@@ -200,7 +200,7 @@ fn non_coherent_auto_window_agrees_with_coherent() {
         sp.snr_db,
         coh.snr_db
     );
-    let h3 = |s: &spurline::spectrum::Spectrum| {
+    let h3 = |s: &spurline::Spectrum| {
         s.harmonics
             .iter()
             .find(|h| h.order == 3)
@@ -288,9 +288,12 @@ fn three_and_four_parameter_fits_agree() {
     .found
     .fit
     .unwrap();
-    assert!((four.frequency_hz - made.frequency_hz).abs() < 5.0 * four.cycles_std * 100e6 / 4096.0);
-    assert!((four.amplitude_dbfs - three.amplitude_dbfs).abs() < 1e-3);
-    assert!(three.residual_rms_codes >= four.residual_rms_codes * (1.0 - 1e-12));
+    assert!(
+        (four.frequency_hz - made.frequency_hz).abs()
+            < FIT_SIGMAS * four.cycles_std * 100e6 / 4096.0
+    );
+    assert!((four.amplitude_dbfs - three.amplitude_dbfs).abs() < FIT_AGREEMENT_DB);
+    assert!(three.residual_rms_codes >= four.residual_rms_codes * (1.0 - ROUNDING));
 }
 
 /// Power averaging reports its count and keeps the figures; the averaged floor is steadier.
@@ -376,7 +379,7 @@ fn strong_harmonic_does_not_break_coherence() {
     assert!((h2.dbc.unwrap() + 60.0).abs() < HARMONIC_DB, "{:?}", h2);
     // The ideal 16-bit quantiser's SNR (handbook 6.02N + 1.76) is not hidden by H2.
     assert!(
-        (sp.snr_db.unwrap() - (6.02 * 16.0 + 1.76 - 1.0)).abs() < 1.0,
+        (sp.snr_db.unwrap() - (6.02 * 16.0 + 1.76 - 1.0)).abs() < SNR_BESIDE_HARMONIC_DB,
         "{:?}",
         sp.snr_db
     );

@@ -1,6 +1,7 @@
 //! Sweeps over the demo's production lots: the jitter estimate recovers the aperture jitter that the
 //! simulated boards were given (jitter-limited SNR, −20·log10(2π·f·σ), handbook formula).
 
+use crate::tolerances::{JITTER_REL_REV_A, JITTER_REL_REV_B};
 use assert_cmd::Command;
 
 #[test]
@@ -20,7 +21,10 @@ fn sweep_recovers_the_simulated_jitter() {
     // rev-a was simulated with 900 fs, rev-b with 250 fs (src/cli/demo_lot.rs). Three frequencies,
     // twelve devices: the lot mean's estimate is good to ~10 % (rev-b's jitter sits nearer the noise
     // floor, so its estimate is looser).
-    for (rev, sigma, tol) in [("rev-a", 900e-15, 0.10), ("rev-b", 250e-15, 0.25)] {
+    for (rev, sigma, tol) in [
+        ("rev-a", 900e-15, JITTER_REL_REV_A),
+        ("rev-b", 250e-15, JITTER_REL_REV_B),
+    ] {
         let run = dir.path().join(format!("lot-{rev}/results"));
         let out = dir.path().join(format!("sweep-{rev}"));
         let o = bin()

@@ -1,10 +1,11 @@
 //! Reference checks of the window table: published figures (Harris 1978, Heinzel et al. 2002), closed
 //! forms, scipy samples and figures stored by tests/reference/make_window_refs.py, leakage profiles.
 
+use crate::tolerances::*;
 use std::f64::consts::PI;
 
 use serde_json::Value;
-use spurline::spectrum::{Window, WindowFigures};
+use spurline::{Window, WindowFigures};
 
 // ---------------------------------------------------------------------------------------------
 // Helpers
@@ -22,7 +23,7 @@ fn load(file: &str) -> Value {
 /// `got` agrees with `published` to its printed precision: within half a unit of the last printed
 /// decimal (plus `slack`, stated at each use that needs one).
 fn printed(what: &str, got: f64, published: f64, decimals: i32, slack: f64) {
-    let half = 0.5 * 10f64.powi(-decimals) * (1.0 + 1e-9) + slack;
+    let half = 0.5 * 10f64.powi(-decimals) * (1.0 + PRINTED_BINARY_REL) + slack;
     assert!(
         (got - published).abs() <= half,
         "{what}: computed {got:.6} vs published {published} (±{half:.2e})"
@@ -353,7 +354,7 @@ fn heinzel_2002_table() {
         Row {
             window: Window::Hft144d,
             psll: -144.1,
-            psll_slack: 0.03,
+            psll_slack: HFT144D_PSLL_SLACK_DB,
             null: 7.0,
             enbw: 4.5386,
             bw3: 4.4697,
@@ -392,7 +393,7 @@ fn heinzel_2002_table() {
             f.bandwidth_3db_bins,
             r.bw3,
             4,
-            1e-4,
+            HEINZEL_BW_SLACK_BINS,
         );
         if let Some(fl) = r.flatness {
             printed(
@@ -471,7 +472,7 @@ fn heinzel_kaiser_figures_to_the_accuracy_of_his_fits() {
             &format!("{n} PSLL (Heinzel fit)"),
             f.highest_sidelobe_db,
             psll,
-            0.4,
+            HEINZEL_FIT_PSLL_DB,
         );
         printed(
             &format!("{n} null (Heinzel)"),
@@ -491,19 +492,19 @@ fn heinzel_kaiser_figures_to_the_accuracy_of_his_fits() {
             &format!("{n} ENBW (Heinzel fit)"),
             f.enbw_bins,
             enbw,
-            0.003 * enbw,
+            HEINZEL_FIT_REL * enbw,
         );
         close(
             &format!("{n} 3dB BW (Heinzel fit)"),
             f.bandwidth_3db_bins,
             bw3,
-            0.003 * bw3,
+            HEINZEL_FIT_REL * bw3,
         );
         close(
             &format!("{n} flatness (Heinzel fit)"),
             -f.scalloping_loss_db,
             flat,
-            0.003,
+            HEINZEL_FIT_FLATNESS_DB,
         );
     }
 }
@@ -531,21 +532,21 @@ fn kaiser_closed_forms() {
             &format!("{n} CG (closed form)"),
             f.coherent_gain,
             cg,
-            1e-5 * cg,
+            CONTINUOUS_REL * cg,
         );
         let sl = -20.0 * kaiser_continuous(beta, 0.5).log10();
         close(
             &format!("{n} SL (closed form)"),
             f.scalloping_loss_db,
             sl,
-            1e-4,
+            CONTINUOUS_DB,
         );
         let null = (1.0 + (beta / PI).powi(2)).sqrt();
         close(
             &format!("{n} null (closed form)"),
             f.null_halfwidth_bins,
             null,
-            1e-5,
+            CONTINUOUS_REL,
         );
         // Highest sidelobe: the first, where z = √((πf)² − β²) reaches the first extremum of sin z/z.
         let z1 = argmax(|z: f64| -(z.sin() / z), PI, 2.0 * PI);
@@ -555,7 +556,7 @@ fn kaiser_closed_forms() {
             &format!("{n} PSLL (closed form)"),
             f.highest_sidelobe_db,
             psll,
-            0.01,
+            CONTINUOUS_KAISER_PSLL_DB,
         );
         let target = 10f64.powf(-3.0 / 20.0);
         let f3 = root(|x| kaiser_continuous(beta, x) - target, 0.0, null);
@@ -563,7 +564,7 @@ fn kaiser_closed_forms() {
             &format!("{n} 3dB BW (closed form)"),
             f.bandwidth_3db_bins,
             2.0 * f3,
-            1e-4,
+            CONTINUOUS_DB,
         );
     }
 }
@@ -582,17 +583,22 @@ fn continuous_transforms_confirm_the_sidelobes() {
         "rect PSLL (sinc)",
         fr.highest_sidelobe_db,
         20.0 * rect.log10(),
-        1e-3,
+        CONTINUOUS_PSLL_DB,
     );
     close(
         "hann PSLL (continuous)",
         fh.highest_sidelobe_db,
         20.0 * hann.log10(),
-        1e-3,
+        CONTINUOUS_PSLL_DB,
     );
     // Rectangular 3-dB width: sinc(f) = 10^(−3/20) → full width 0.8845 (Heinzel).
     let f3 = root(|f| sinc(f) - 10f64.powf(-3.0 / 20.0), 0.01, 0.99);
-    close("rect 3dB BW (sinc)", fr.bandwidth_3db_bins, 2.0 * f3, 1e-5);
+    close(
+        "rect 3dB BW (sinc)",
+        fr.bandwidth_3db_bins,
+        2.0 * f3,
+        CONTINUOUS_REL,
+    );
 }
 
 #[test]
@@ -608,19 +614,19 @@ fn cosine_sum_closed_forms() {
         let f = w.figures();
         let n = w.name();
         let total: f64 = a.iter().sum();
-        close(&format!("{n} CG"), f.coherent_gain, a[0] / total, 1e-12);
+        close(&format!("{n} CG"), f.coherent_gain, a[0] / total, ROUNDING);
         let enbw = (a[0] * a[0] + 0.5 * a[1..].iter().map(|x| x * x).sum::<f64>()) / (a[0] * a[0]);
-        close(&format!("{n} ENBW"), f.enbw_bins, enbw, 1e-12);
+        close(&format!("{n} ENBW"), f.enbw_bins, enbw, ROUNDING);
         close(
             &format!("{n} null"),
             f.null_halfwidth_bins,
             a.len() as f64,
-            1e-6,
+            NULL_SEARCH_BINS,
         );
         assert_eq!(w.null_halfwidth_bins(), a.len() as f64, "{n}");
         // Peak Σa_k at the centre sample (windows.md Table 4).
         let s = w.samples(4096);
-        close(&format!("{n} peak"), s[2048], total, 1e-12);
+        close(&format!("{n} peak"), s[2048], total, ROUNDING);
     }
 }
 
@@ -661,7 +667,7 @@ fn issue_scipy_figures_at_4096() {
         // PSLL printed to 2 decimals for the first three, 1 for the flat-tops; HFT144D as in
         // heinzel_2002_table (the issue's -144.1 is Heinzel's figure; scipy computes -144.0498).
         let (d, slack) = match w {
-            Window::Hft144d => (1, 0.03),
+            Window::Hft144d => (1, HFT144D_PSLL_SLACK_DB),
             Window::Hft90d | Window::BlackmanHarris4 => (1, 0.0),
             _ => (2, 0.0),
         };
@@ -700,44 +706,49 @@ fn scipy_figures_at_4096() {
             &format!("{n} CG (scipy)"),
             f.coherent_gain,
             num(&r, "coherent_gain"),
-            1e-12,
+            ROUNDING,
         );
         close(
             &format!("{n} ENBW (scipy)"),
             f.enbw_bins,
             num(&r, "enbw_bins"),
-            1e-11,
+            SCIPY_ENBW,
         );
         let sl = num(&r, "scalloping_loss_db");
-        close(&format!("{n} SL (scipy)"), f.scalloping_loss_db, sl, 1e-9);
+        close(
+            &format!("{n} SL (scipy)"),
+            f.scalloping_loss_db,
+            sl,
+            LONG_SUM,
+        );
         // Both searches stop at about 1e-9 bin; below -150 dB rounding in either FFT adds ~1e-5 dB.
         let psll = num(&r, "highest_sidelobe_db");
         close(
             &format!("{n} PSLL (scipy)"),
             f.highest_sidelobe_db,
             psll,
-            1e-4,
+            SCIPY_PSLL_DB,
         );
         let null = num(&r, "null_halfwidth_bins");
         close(
             &format!("{n} null (scipy)"),
             f.null_halfwidth_bins,
             null,
-            1e-6,
+            NULL_SEARCH_BINS,
         );
         let bw = num(&r, "bandwidth_3db_bins");
         close(
             &format!("{n} 3dB BW (scipy)"),
             f.bandwidth_3db_bins,
             bw,
-            1e-8,
+            SCIPY_BW_BINS,
         );
         let wcpl = f.scalloping_loss_db + 10.0 * f.enbw_bins.log10();
         close(
             &format!("{n} WCPL"),
             f.worst_case_processing_loss_db,
             wcpl,
-            1e-12,
+            ROUNDING,
         );
     }
 }
@@ -771,7 +782,7 @@ fn check_samples(file: &str, n: usize) {
         assert_eq!(got.len(), want.len(), "{file} {name}");
         for (i, (g, s)) in got.iter().zip(&want).enumerate() {
             assert!(
-                (g - s).abs() <= 1e-12,
+                (g - s).abs() <= ROUNDING,
                 "{file} {name}[{i}]: {g} vs scipy {s} ({})",
                 entry["call"]
             );
@@ -801,7 +812,7 @@ fn periodic_form_is_symmetric_window_minus_last_point() {
         let n = 999;
         let s = w.samples(n);
         for i in 1..n {
-            assert!((s[i] - s[n - i]).abs() < 1e-13, "{} {i}", w.name());
+            assert!((s[i] - s[n - i]).abs() < ROUNDING, "{} {i}", w.name());
         }
     }
 }
@@ -821,7 +832,7 @@ fn rectangular_half_bin_scalloping() {
         "rect peak-bin loss (Dirichlet)",
         l.peak_bin_loss_db,
         exact,
-        1e-9,
+        LONG_SUM,
     );
     printed(
         "rect peak-bin loss (Harris, from memory)",
@@ -844,13 +855,13 @@ fn rectangular_half_bin_scalloping() {
         "rect outside",
         l.outside_tone_bins_dbc.unwrap(),
         10.0 * (1.0 - inside).log10(),
-        1e-9,
+        LONG_SUM,
     );
     close(
         "rect worst bin",
         l.worst_bin_outside_dbc.unwrap(),
         10.0 * inside.log10(),
-        1e-9,
+        LONG_SUM,
     );
     assert_eq!(l.offset_bins, 0.5);
     assert_eq!(l.tone_halfwidth_bins, 0);
@@ -871,7 +882,7 @@ fn coherent_cosine_sums_are_exactly_contained() {
             &format!("{} coherent loss", w.name()),
             l.peak_bin_loss_db,
             0.0,
-            1e-9,
+            LONG_SUM,
         );
         if k >= 2 {
             let narrower = w.leakage(0.0, k - 2);
@@ -882,7 +893,7 @@ fn coherent_cosine_sums_are_exactly_contained() {
                 &format!("{} edge bins", w.name()),
                 got,
                 10.0 * edge.log10(),
-                1e-6,
+                LEAKAGE_PROFILE_DB,
             );
         }
     }
@@ -895,7 +906,7 @@ fn blackman_harris_4_worst_case_leakage() {
     let w = Window::BlackmanHarris4;
     let l = w.leakage(0.5, 4);
     let v = l.outside_tone_bins_dbc.unwrap();
-    close("BH4 ±4 at 0.5 bin (windows.md)", v, -86.5, 0.05);
+    close("BH4 ±4 at 0.5 bin (windows.md)", v, -86.5, PRINTED_1DP);
     // Leakage decreases as the span widens but stays above -120 dBc up to ±20 bins.
     let mut prev = 0.0;
     for s in 0..=20 {
@@ -943,9 +954,9 @@ fn leakage_is_even_in_offset() {
         for (d, s) in [(0.5, 3), (0.2, 5), (0.37, 1)] {
             let a = w.leakage(d, s);
             let b = w.leakage(-d, s);
-            close(&w.name(), a.peak_bin_loss_db, b.peak_bin_loss_db, 1e-9);
+            close(&w.name(), a.peak_bin_loss_db, b.peak_bin_loss_db, LONG_SUM);
             match (a.outside_tone_bins_dbc, b.outside_tone_bins_dbc) {
-                (Some(x), Some(y)) => close(&w.name(), x, y, 1e-6),
+                (Some(x), Some(y)) => close(&w.name(), x, y, LEAKAGE_PROFILE_DB),
                 (x, y) => panic!("{}: {x:?} vs {y:?}", w.name()),
             }
         }
@@ -965,6 +976,6 @@ fn leakage_serialises_floor_as_null() {
         "hann ENBW in JSON",
         f["enbw_bins"].as_f64().unwrap(),
         1.5,
-        1e-12,
+        ROUNDING,
     );
 }

@@ -5,8 +5,8 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use spurline::analysis::{analyze, Analysis, AnalysisSettings, FitChoice};
-use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
+use spurline::{analyze, Analysis, AnalysisSettings, FitChoice};
+use spurline::{SpectrumSettings, Window, WindowChoice};
 use spurline::Record;
 
 #[allow(dead_code)]

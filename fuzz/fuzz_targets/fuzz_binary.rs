@@ -4,7 +4,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use spurline::ingest::{BinaryLayout, Justify};
+use spurline::{BinaryLayout, Justify};
 use spurline::Coding;
 
 #[allow(dead_code)]
@@ -43,7 +43,7 @@ fuzz_target!(|data: &[u8]| {
         channels,
     };
     let bits = u32::from(d % 34);
-    match spurline::ingest::parse_binary(rest, "fuzz.bin", bits, &layout) {
+    match spurline::parse_binary(rest, "fuzz.bin", bits, &layout) {
         Ok(codes) => assert!(!codes.is_empty()),
         Err(e) => invariants::check_error(&e, "fuzz.bin", rest),
     }

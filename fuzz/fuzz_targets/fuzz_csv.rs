@@ -3,7 +3,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use spurline::ingest::ColumnSel;
+use spurline::ColumnSel;
 
 #[allow(dead_code)]
 #[path = "../../tests/fuzz_props/invariants.rs"]
@@ -23,7 +23,7 @@ fuzz_target!(|data: &[u8]| {
         ColumnSel::Name(NAMES[usize::from(c % 4)].to_string())
     };
     let delimiter = (d & 0x80 != 0).then(|| DELIMITERS[usize::from(d % 7)]);
-    match spurline::ingest::parse_delimited(rest, "fuzz.csv", bits, &column, delimiter) {
+    match spurline::parse_delimited(rest, "fuzz.csv", bits, &column, delimiter) {
         Ok(codes) => assert!(!codes.is_empty()),
         Err(e) => invariants::check_error(&e, "fuzz.csv", rest),
     }

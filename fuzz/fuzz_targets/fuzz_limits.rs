@@ -5,7 +5,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use spurline::lot::limits::{Catalogue, LimitTable};
+use spurline::{Catalogue, LimitTable};
 use std::sync::OnceLock;
 
 #[allow(dead_code)]

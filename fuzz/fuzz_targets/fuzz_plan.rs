@@ -14,7 +14,7 @@ const PATH: &str = "bench/plan.toml";
 
 fuzz_target!(|data: &[u8]| {
     let text = String::from_utf8_lossy(data);
-    match spurline::lot::BenchPlan::parse(&text, Path::new(PATH)) {
+    match spurline::BenchPlan::parse(&text, Path::new(PATH)) {
         Ok(plan) => invariants::check_plan(&plan, &text),
         Err(e) => invariants::check_plan_error(&e, PATH, &text),
     }

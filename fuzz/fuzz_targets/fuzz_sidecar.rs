@@ -3,7 +3,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use spurline::ingest::{read_record, read_sidecar, IngestSettings, Metadata};
+use spurline::{read_record, read_sidecar, IngestSettings, Metadata};
 use std::sync::OnceLock;
 
 #[allow(dead_code)]

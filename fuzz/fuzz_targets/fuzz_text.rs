@@ -13,7 +13,7 @@ fuzz_target!(|data: &[u8]| {
         return;
     };
     let bits = u32::from(b % 34);
-    match spurline::ingest::parse_text(rest, "fuzz.txt", bits) {
+    match spurline::parse_text(rest, "fuzz.txt", bits) {
         Ok(codes) => assert!(!codes.is_empty()),
         Err(e) => invariants::check_error(&e, "fuzz.txt", rest),
     }

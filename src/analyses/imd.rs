@@ -30,16 +30,15 @@
 use crate::analysis::RecordResult;
 use crate::dft::fft::{power_spectrum, real_fft};
 use crate::dft::Window;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::multi_tone::{fit_free, fit_linear, FreeSines};
 use crate::fit::{cycles_std, phase_at_zero};
 use crate::freq::fold_bin;
+use crate::record::{full_scale_amplitude_codes, full_scale_power, Record};
 use crate::spectrum::claim::{claim, Place, SpurAt, MIN_NOISE_BINS};
 use crate::spectrum::coherence::{self, Unwindowed};
 use crate::spectrum::metrics::db;
 use crate::spectrum::rule::{window_and_powers, WindowChoice};
-use crate::{
-    full_scale_amplitude_codes, full_scale_power, Error, ErrorKind, Location, Record, Result,
-};
 use serde::Serialize;
 
 // ───────────────────────── the two-tone analysis ─────────────────────────
@@ -47,7 +46,7 @@ use serde::Serialize;
 /// Settings of the two-tone analysis.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ImdSettings {
-    /// The window choice (the rule of [`crate::spectrum`] for `Auto`, decided on the stronger tone).
+    /// The window choice ([`WindowChoice::Auto`]: the one-tone window rule, decided on the stronger tone).
     pub window: WindowChoice,
     /// Guard bins on each side of every tone's and product's bins; `None`: 0 coherent, 1 non-coherent.
     pub guard_bins: Option<usize>,
@@ -97,7 +96,8 @@ const PRODUCTS: [(&str, ProductKind, i32, i32); 10] = [
     ("3f2", ProductKind::Harmonic, 0, 3),
 ];
 
-/// Where one product lands.
+/// Where one product lands (the unit tests check the product table through it).
+#[cfg(test)]
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ProductPlace {
     /// Its name, e.g. "2f1-f2".
@@ -116,6 +116,7 @@ pub struct ProductPlace {
 
 /// The second- and third-order products of tones f1 < f2 (hertz) sampled at `sample_rate_hz`, folded
 /// into the first Nyquist zone, in claiming order. (f1 and f2 are swapped when given the other way.)
+#[cfg(test)]
 pub fn product_places(f1_hz: f64, f2_hz: f64, sample_rate_hz: f64) -> Vec<ProductPlace> {
     let (f1, f2) = if f1_hz <= f2_hz {
         (f1_hz, f2_hz)

@@ -27,14 +27,15 @@
 
 use crate::analysis::RecordResult;
 use crate::dft::fft::power_spectrum;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::multi_tone::fit_linear;
 use crate::fit::{fit_four, phase_at_zero, wrap_phase, FourParamOptions, SineFit};
 use crate::freq::{fold_bin, fold_to_first_zone};
+use crate::record::{full_scale_power, Record};
 use crate::spectrum::claim::{claim, Place, MIN_NOISE_BINS};
 use crate::spectrum::coherence::{self, Unwindowed};
 use crate::spectrum::metrics::db;
 use crate::spectrum::rule::{window_and_powers, WindowChoice};
-use crate::{full_scale_power, Error, ErrorKind, Location, Record, Result};
 use realfft::num_complex::Complex64;
 use serde::Serialize;
 use std::f64::consts::{PI, TAU};
@@ -47,7 +48,7 @@ pub const MIN_CHANNEL_SAMPLES: usize = 16;
 pub struct InterleaveSettings {
     /// Number of interleaved channels M (2 or more).
     pub channels: usize,
-    /// The window choice (the rule of [`crate::spectrum`] for `Auto`).
+    /// The window choice ([`WindowChoice::Auto`]: the one-tone window rule).
     pub window: WindowChoice,
     /// Guard bins on each side of every tone's and spur's bins; `None`: 0 coherent, 1 non-coherent.
     pub guard_bins: Option<usize>,

@@ -3,8 +3,8 @@
 
 use super::{AnalysisArgs, ReadArgs, EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::analysis::{analyze, analyze_averaged, Analysis, Traces};
-use spurline::ingest::read_record;
+use spurline::read_record;
+use spurline::{analyze, analyze_averaged, Analysis, Traces};
 use std::path::{Path, PathBuf};
 
 /// Arguments of `analyze`.
@@ -57,7 +57,7 @@ pub fn run(args: AnalyzeArgs) -> i32 {
                 .iter()
                 .map(|p| Analysis::failed(&p.display().to_string(), e, Vec::new()))
                 .collect();
-            print!("{}", spurline::report::json::to_json(&failed));
+            print!("{}", spurline::to_json(&failed));
         }
         super::fail(e)
     };
@@ -128,10 +128,10 @@ pub fn run(args: AnalyzeArgs) -> i32 {
     results.sort_by_key(|(a, _)| order(a));
     let analyses: Vec<Analysis> = results.iter().map(|(a, _)| a.clone()).collect();
     if args.json {
-        print!("{}", spurline::report::json::to_json(&analyses));
+        print!("{}", spurline::to_json(&analyses));
     } else {
         for a in &analyses {
-            print!("{}", spurline::report::text::render(a));
+            print!("{}", spurline::render_text(a));
         }
     }
     for a in &analyses {
@@ -153,7 +153,7 @@ pub fn run(args: AnalyzeArgs) -> i32 {
                 (device, record, a, t.as_ref())
             })
             .collect();
-        let options = spurline::report::PlotOptions {
+        let options = spurline::PlotOptions {
             log_frequency: args.log_frequency,
             ..Default::default()
         };
@@ -162,13 +162,9 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             items.len(),
             if items.len() == 1 { "" } else { "s" }
         );
-        if let Err(e) = spurline::report::write_run_report(
-            dir,
-            &title,
-            &items,
-            args.analysis.harmonics,
-            &options,
-        ) {
+        if let Err(e) =
+            spurline::write_run_report(dir, &title, &items, args.analysis.harmonics, &options)
+        {
             return super::fail(&e);
         }
         eprintln!(

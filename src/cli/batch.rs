@@ -3,9 +3,10 @@
 
 use super::{EXIT_ERROR, EXIT_FAIL, EXIT_OK};
 use clap::Args;
-use spurline::lot::limits::{Catalogue, LimitTable};
-use spurline::lot::{
-    run_lot, run_shard, shard_from_env, BatchOptions, BenchPlan, LotCounts, Plots, Shard,
+use spurline::LimitTable;
+use spurline::{
+    run_lot, run_shard, shard_from_env, BatchOptions, BenchPlan, LotCounts, LotObserver, Plots,
+    Shard,
 };
 use std::io::IsTerminal;
 use std::path::{Path, PathBuf};
@@ -60,23 +61,14 @@ pub fn run(args: BatchArgs) -> i32 {
 }
 
 fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
-    let plots = Plots::parse(&args.plots)?;
+    let plots: Plots = args.plots.parse()?;
     let shard = args.shard.as_deref().map(shard_of).transpose()?;
     let plan = BenchPlan::read(&args.plan)?;
     let lot = plan.locate()?;
     let limits = match &args.limits {
         None => None,
         Some(path) => {
-            let scope: Vec<(String, Catalogue)> = plan
-                .conditions
-                .iter()
-                .map(|c| {
-                    (
-                        c.name.clone(),
-                        Catalogue::for_harmonics(c.settings.spectrum.harmonics),
-                    )
-                })
-                .collect();
+            let scope = plan.limit_scope();
             Some(LimitTable::read(path, &scope)?)
         }
     };
@@ -95,12 +87,17 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
         out: out.clone(),
         jobs,
         plots,
-        progress: std::io::stderr().is_terminal(),
+    };
+    // The bar is drawn only on a terminal; the library tells how far the lot has got.
+    let bar = std::io::stderr().is_terminal().then(Bar::new);
+    let observer: &dyn LotObserver = match &bar {
+        Some(b) => b,
+        None => &(),
     };
     let counts = match shard {
-        None => run_lot(&plan, &lot, limits.as_ref(), &options)?,
+        None => run_lot(&plan, &lot, limits.as_ref(), &options, observer)?,
         Some(s) => {
-            let counts = run_shard(&plan, &lot, limits.as_ref(), &options, s)?;
+            let counts = run_shard(&plan, &lot, limits.as_ref(), &options, s, observer)?;
             println!(
                 "shard {s}: {} of the lot's {} devices",
                 counts.devices,
@@ -112,6 +109,36 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
     Ok(report(&counts, &out))
 }
 
+/// A progress bar on stderr, drawn from what the lot run tells.
+struct Bar(indicatif::ProgressBar);
+
+impl Bar {
+    fn new() -> Bar {
+        let b =
+            indicatif::ProgressBar::with_draw_target(None, indicatif::ProgressDrawTarget::stderr());
+        if let Ok(style) = indicatif::ProgressStyle::with_template(
+            "{elapsed_precise} [{bar:40}] {pos}/{len} results ({per_sec}, {eta} left)",
+        ) {
+            b.set_style(style.progress_chars("=> "));
+        }
+        Bar(b)
+    }
+}
+
+impl LotObserver for Bar {
+    fn started(&self, results: usize) {
+        self.0.set_length(results as u64);
+    }
+
+    fn result_done(&self) {
+        self.0.inc(1);
+    }
+
+    fn ended(&self) {
+        self.0.finish_and_clear();
+    }
+}
+
 /// The shard `--shard` names: `K/M`, or `auto` for the job-array task this process runs as.
 fn shard_of(value: &str) -> Result<Shard, spurline::Error> {
     if value == "auto" {
@@ -119,7 +146,7 @@ fn shard_of(value: &str) -> Result<Shard, spurline::Error> {
         eprintln!("spurline: {task}");
         return Ok(task.shard);
     }
-    Shard::parse(value).map_err(|mut e| {
+    value.parse::<Shard>().map_err(|mut e| {
         e.location = spurline::Location::Key("--shard".into());
         e
     })

@@ -2,8 +2,8 @@
 
 use super::{EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::lot::compare::{compare, output, read_run, CompareSettings};
 use spurline::Error;
+use spurline::{compare, read_run, write_comparison, CompareSettings};
 use std::path::PathBuf;
 
 /// Arguments of `compare`.
@@ -52,9 +52,7 @@ fn go(args: &CompareArgs) -> Result<(), Error> {
         match m.split_once('=') {
             Some((k, v)) => {
                 let v: f64 = v.trim().parse().map_err(|_| bad())?;
-                if !(v >= 0.0 && v.is_finite())
-                    || spurline::lot::compare::better_direction(k.trim()).is_none()
-                {
+                if !(v >= 0.0 && v.is_finite()) || spurline::better_direction(k.trim()).is_none() {
                     return Err(Error::setting(
                         "min-change",
                         "a figure-of-merit column such as spectrum.snr_db and a value ≥ 0",
@@ -88,7 +86,7 @@ fn go(args: &CompareArgs) -> Result<(), Error> {
             e.to_string(),
         )
     })?;
-    output::write_all(&out, &c, &a, &b)?;
+    write_comparison(&out, &c, &a, &b)?;
     for w in &c.warnings {
         println!("warning: {w}");
     }

@@ -4,12 +4,12 @@
 
 use super::{EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::analysis::{analyze, Analysis, AnalysisSettings, Traces};
 use spurline::figures::{self, Cells, Figure, Unit};
-use spurline::ingest::{read_record, write_sidecar, IngestSettings, Sidecar};
-use spurline::report::units::{fixed, si};
-use spurline::report::{write_run_report, PlotOptions};
-use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+use spurline::{analyze, Analysis, AnalysisSettings, Traces};
+use spurline::{format_fixed as fixed, format_si as si};
+use spurline::{read_record, write_sidecar, IngestSettings, Sidecar};
+use spurline::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+use spurline::{write_run_report, PlotOptions};
 use spurline::{Error, ErrorKind, Location};
 use std::path::{Path, PathBuf};
 

@@ -5,11 +5,11 @@
 //! revisions are compared device by device.
 
 use rand::{Rng, SeedableRng};
-use spurline::ingest::{write_sidecar, Sidecar};
-use spurline::lot::compare::{compare, output, read_run, Change, CompareSettings};
-use spurline::lot::limits::{Catalogue, LimitTable};
-use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
-use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+use spurline::LimitTable;
+use spurline::{compare, read_run, write_comparison, Change, CompareSettings};
+use spurline::{run_lot, BatchOptions, BenchPlan, Plots};
+use spurline::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+use spurline::{write_sidecar, Sidecar};
 use spurline::{Error, ErrorKind, Location};
 use std::path::Path;
 
@@ -118,16 +118,7 @@ pub fn run(out: &Path) -> Result<(), Error> {
         std::fs::write(&plan_path, plan_text(rev)).map_err(|e| io(&plan_path, e))?;
         let plan = BenchPlan::read(&plan_path)?;
         let lot = plan.locate()?;
-        let scope: Vec<(String, Catalogue)> = plan
-            .conditions
-            .iter()
-            .map(|c| {
-                (
-                    c.name.clone(),
-                    Catalogue::for_harmonics(c.settings.spectrum.harmonics),
-                )
-            })
-            .collect();
+        let scope = plan.limit_scope();
         let limits = LimitTable::read(&limits_path, &scope)?;
         let results_dir = lot_dir.join("results");
         let counts = run_lot(
@@ -138,8 +129,8 @@ pub fn run(out: &Path) -> Result<(), Error> {
                 out: results_dir.clone(),
                 jobs: 2,
                 plots: Plots::Failures,
-                progress: false,
             },
+            &(),
         )?;
         println!(
             "board {rev}: {} devices × {} conditions: {} pass, {} fail, {} fail inside a guardband, {} errors; yield {:.1} %  ({})",
@@ -165,7 +156,7 @@ pub fn run(out: &Path) -> Result<(), Error> {
     );
     let cmp_dir = out.join("compare");
     std::fs::create_dir_all(&cmp_dir).map_err(|e| io(&cmp_dir, e))?;
-    output::write_all(&cmp_dir, &c, &a, &b)?;
+    write_comparison(&cmp_dir, &c, &a, &b)?;
     println!("\nrev-b against rev-a (paired, 12 devices; changes of at least 0.2):");
     for r in c
         .rows

@@ -3,10 +3,7 @@
 
 use super::ReadArgs;
 use clap::Args;
-use spurline::analyses::interleave::{analyze_interleaved, InterleaveResult, InterleaveSettings};
-use spurline::report::text::block_head;
-use spurline::report::units::{fixed, si};
-use std::fmt::Write;
+use spurline::{analyze_interleaved, InterleaveSettings};
 use std::path::PathBuf;
 
 /// Arguments of `interleave`.
@@ -40,7 +37,7 @@ pub fn run(args: InterleaveArgs) -> i32 {
         Ok(s) => s,
         Err(e) => return super::fail(&e),
     };
-    let window = match super::imd::window_choice(&args.window) {
+    let window = match args.window.parse() {
         Ok(w) => w,
         Err(e) => return super::fail(&e),
     };
@@ -54,95 +51,6 @@ pub fn run(args: InterleaveArgs) -> i32 {
         &ingest,
         args.json,
         |record| analyze_interleaved(record, &settings),
-        render,
+        spurline::render_interleaved,
     )
-}
-
-/// Renders one result as a block of labelled lines.
-pub fn render(r: &InterleaveResult) -> String {
-    let mut s = String::new();
-    if block_head(&mut s, &r.source, r.error.as_ref(), &r.warnings) {
-        return s;
-    }
-    let _ = writeln!(
-        s,
-        "  record     {} samples · {} bits · fs {} · {} channels",
-        r.samples,
-        r.bits,
-        si(r.sample_rate_hz, "Hz", 6),
-        r.channels
-    );
-    if let Some(f) = &r.fit {
-        let _ = writeln!(
-            s,
-            "  sine fit   four-parameter · {} · {:.3} dBFS ({:.2} codes) · offset {:.3} codes",
-            si(f.frequency_hz, "Hz", 9),
-            f.amplitude_dbfs,
-            f.amplitude_codes,
-            f.offset_codes
-        );
-    }
-    let _ = writeln!(
-        s,
-        "  channels   {:>3} {:>14} {:>14} {:>14} {:>12}",
-        "ch", "offset codes", "gain error", "timing error", "residual"
-    );
-    for c in &r.channel_estimates {
-        let _ = writeln!(
-            s,
-            "             {:>3} {:>+14.4} {:>+10.1} ppm {:>14} {:>12.4}",
-            c.channel,
-            c.offset_codes,
-            c.gain_error * 1e6,
-            si(c.timing_error_s, "s", 4),
-            c.residual_rms_codes
-        );
-    }
-    if let Some(sp) = &r.spectrum {
-        let _ = writeln!(
-            s,
-            "  spectrum   window {} ({}) · bin {} · fundamental {} dBFS · noise floor {} dBFS per bin",
-            sp.window,
-            if sp.coherent {
-                "coherent"
-            } else {
-                "non-coherent"
-            },
-            si(sp.bin_width_hz, "Hz", 4),
-            fixed(sp.fundamental_dbfs, 2),
-            fixed(sp.noise_floor_dbfs, 2)
-        );
-        let _ = writeln!(
-            s,
-            "             largest offset spur {} dBc · largest gain/timing spur {} dBc",
-            fixed(sp.offset_spur_dbc, 2),
-            fixed(sp.gain_timing_spur_dbc, 2)
-        );
-        let _ = writeln!(
-            s,
-            "  spurs      {:<14} {:>14} {:>9} {:>9} {:>14}",
-            "", "frequency", "dBc", "dBFS", "predicted dBc"
-        );
-        for p in &sp.spurs {
-            let freq = si(p.frequency_hz, "Hz", 6);
-            if let Some(by) = &p.masked_by {
-                let _ = writeln!(s, "             {:<14} {freq:>14}   masked by {by}", p.name);
-                continue;
-            }
-            let bound = if p.at_floor { "≤" } else { " " };
-            let _ = writeln!(
-                s,
-                "             {:<14} {freq:>14} {bound}{:>8} {:>9} {:>14}{}",
-                p.name,
-                fixed(p.dbc, 2),
-                fixed(p.dbfs, 2),
-                fixed(p.predicted_dbc, 2),
-                if p.at_floor { "  (noise floor)" } else { "" }
-            );
-        }
-    }
-    for w in &r.warnings {
-        let _ = writeln!(s, "  warning    {w}");
-    }
-    s
 }

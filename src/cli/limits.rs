@@ -3,12 +3,12 @@
 
 use super::EXIT_OK;
 use clap::Args;
-use spurline::lot::limits::{
+use spurline::read_results;
+use spurline::Error;
+use spurline::{
     default_metrics, format_value, proposal_table, propose, GuardbandRule, LimitTable, Method,
     Proposal, ProposalSettings,
 };
-use spurline::lot::read_results;
-use spurline::Error;
 use std::path::PathBuf;
 
 /// Arguments of `limits`.
@@ -136,7 +136,7 @@ fn go(args: &LimitsArgs) -> Result<(), Error> {
     }
     let mut guardband = Vec::new();
     for g in &args.guardband {
-        let mut rule = GuardbandRule::parse(g)?;
+        let mut rule: GuardbandRule = g.parse()?;
         if let Some(m) = &rule.metric {
             rule.metric = Some(resolve(m, "guardband")?);
         }
@@ -175,7 +175,7 @@ fn go(args: &LimitsArgs) -> Result<(), Error> {
     print!("{}", render(&proposals, existing.is_some()));
     if let Some(path) = &args.out {
         let table = proposal_table(&proposals, &path.display().to_string());
-        spurline::lot::write_atomic(path, table.to_csv().as_bytes())?;
+        spurline::write_atomic(path, table.to_csv().as_bytes())?;
         println!("wrote {} ({} limits)", path.display(), table.limits.len());
     }
     Ok(())
@@ -228,7 +228,7 @@ fn render(proposals: &[Proposal], with_cpk: bool) -> String {
         r.push(match (&p.shape, &p.note, s) {
             (_, Some(note), _) => note.clone(),
             (Some(shape), _, _) => shape.clone(),
-            (None, None, Some(s)) if s.n < spurline::stats::SHAPE_MIN_N => {
+            (None, None, Some(s)) if s.n < spurline::SHAPE_MIN_N => {
                 "too few values to judge".into()
             }
             _ => "no clear departure from normal".into(),

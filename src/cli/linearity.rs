@@ -3,12 +3,12 @@
 
 use super::{ReadArgs, EXIT_ERROR, EXIT_OK};
 use clap::Args;
-use spurline::analyses::linearity::{
-    analyze_histogram, plot::write_plots, AtCode, CodeHistogram, Extremes, Linearity,
+use spurline::Error;
+use spurline::{
+    analyze_histogram, write_linearity_plots, AtCode, CodeHistogram, Extremes, Linearity,
     LinearitySettings,
 };
-use spurline::ingest::{read_record, read_sidecar};
-use spurline::Error;
+use spurline::{read_record, read_sidecar};
 use std::fmt::Write as _;
 use std::path::PathBuf;
 
@@ -104,7 +104,7 @@ fn go(args: &LinearityArgs) -> Result<String, Vec<Error>> {
         render(&result)
     };
     if let Some(dir) = &args.plot {
-        let paths = write_plots(&result, dir).map_err(|e| vec![e])?;
+        let paths = write_linearity_plots(&result, dir).map_err(|e| vec![e])?;
         if !args.json {
             let shown: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();
             let _ = writeln!(out, "plots: {}", shown.join(", "));

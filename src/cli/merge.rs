@@ -3,7 +3,7 @@
 
 use super::{EXIT_FAIL, EXIT_OK};
 use clap::Args;
-use spurline::lot::{lot_progress, merge_shards};
+use spurline::{lot_progress, merge_shards};
 use std::path::PathBuf;
 
 /// Arguments of `merge`.

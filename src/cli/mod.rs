@@ -16,7 +16,7 @@ mod synth;
 mod verify;
 
 use clap::{Args, Parser, Subcommand};
-use spurline::analysis::RecordResult;
+use spurline::RecordResult;
 
 /// Exit status: all records analysed and every limit passed.
 pub const EXIT_OK: i32 = 0;
@@ -98,7 +98,7 @@ pub fn run(cli: Cli) -> i32 {
 /// one JSON array or the text blocks, repeats the errors on stderr, and gives the exit status.
 pub(crate) fn run_files<T: Default + serde::Serialize>(
     files: &[std::path::PathBuf],
-    ingest: &spurline::ingest::IngestSettings,
+    ingest: &spurline::IngestSettings,
     json: bool,
     analyse: impl Fn(&spurline::Record) -> spurline::Result<RecordResult<T>>,
     render: impl Fn(&RecordResult<T>) -> String,
@@ -106,7 +106,7 @@ pub(crate) fn run_files<T: Default + serde::Serialize>(
     let mut results = Vec::with_capacity(files.len());
     for path in files {
         let shown = path.display().to_string();
-        let r = match spurline::ingest::read_record(path, ingest) {
+        let r = match spurline::read_record(path, ingest) {
             Err(e) => RecordResult::failed(&shown, &e, Vec::new()),
             Ok(ing) => match analyse(&ing.record) {
                 Ok(mut r) => {
@@ -154,7 +154,7 @@ pub(crate) fn fail(e: &spurline::Error) -> i32 {
 
 /// Parses a frequency or other quantity with an optional SI prefix ("100M", "1.5 kHz", "1e6").
 pub(crate) fn si_value(s: &str) -> Result<f64, String> {
-    spurline::report::units::parse_si(s).ok_or_else(|| {
+    spurline::parse_si(s).ok_or_else(|| {
         format!("expected a number with an optional SI prefix (100e6, 100M, 1.5k), found '{s}'")
     })
 }
@@ -200,34 +200,19 @@ pub struct ReadArgs {
 
 impl ReadArgs {
     /// Converts into ingest settings, validating what can be validated before any file is read.
-    pub fn settings(&self) -> Result<spurline::ingest::IngestSettings, spurline::Error> {
-        use spurline::ingest::{ColumnSel, Format, IngestSettings, Justify, Metadata};
-        use spurline::Error;
+    pub fn settings(&self) -> Result<spurline::IngestSettings, spurline::Error> {
+        use spurline::{parse_delimiter, ColumnSel, Format, IngestSettings, Metadata};
+        // `txt` is the command line's own alias of `text`.
         let format = match self.format.as_deref() {
             None => None,
-            Some("text") | Some("txt") => Some(Format::Text),
-            Some("csv") => Some(Format::Csv {
-                column: ColumnSel::Index(0),
-                delimiter: None,
-            }),
-            Some(word) => Some(Format::Binary(Format::parse_word(word)?)),
+            Some("txt") => Some(Format::Text),
+            Some(f) => Some(f.parse::<Format>()?),
         };
         let column = self.column.as_ref().map(|c| match c.parse::<usize>() {
             Ok(i) => ColumnSel::Index(i),
             Err(_) => ColumnSel::Name(c.clone()),
         });
-        let delimiter = match self.delimiter.as_deref() {
-            None => None,
-            Some("tab") | Some("\\t") => Some(b'\t'),
-            Some(d) if d.len() == 1 => Some(d.as_bytes()[0]),
-            Some(d) => {
-                return Err(Error::setting(
-                    "delimiter",
-                    "one ASCII character or 'tab'",
-                    format!("'{d}'"),
-                ))
-            }
-        };
+        let delimiter = self.delimiter.as_deref().map(parse_delimiter).transpose()?;
         Ok(IngestSettings {
             format,
             meta: Metadata {
@@ -236,19 +221,13 @@ impl ReadArgs {
                 fin_hz: self.fin,
                 full_scale_vpp: self.full_scale_vpp,
             },
-            coding: self.coding.as_deref().map(|c| match c {
-                "offset" => spurline::Coding::OffsetBinary,
-                _ => spurline::Coding::TwosComplement,
-            }),
-            justify: self.justify.as_deref().map(|j| match j {
-                "left" => Justify::Left,
-                _ => Justify::Right,
-            }),
+            coding: self.coding.as_deref().map(str::parse).transpose()?,
+            justify: self.justify.as_deref().map(str::parse).transpose()?,
             skip_bytes: self.skip_bytes,
             channel: self
                 .channel
                 .as_deref()
-                .map(spurline::ingest::parse_channel)
+                .map(spurline::parse_channel)
                 .transpose()?,
             column,
             delimiter,
@@ -278,14 +257,9 @@ pub struct AnalysisArgs {
 
 impl AnalysisArgs {
     /// Converts into analysis settings.
-    pub fn settings(&self) -> Result<spurline::analysis::AnalysisSettings, spurline::Error> {
-        use spurline::analysis::{AnalysisSettings, FitChoice};
-        use spurline::spectrum::{SpectrumSettings, Window, WindowChoice};
-        let window = if self.window.eq_ignore_ascii_case("auto") {
-            WindowChoice::Auto
-        } else {
-            WindowChoice::Fixed(Window::parse(&self.window)?)
-        };
+    pub fn settings(&self) -> Result<spurline::AnalysisSettings, spurline::Error> {
+        use spurline::AnalysisSettings;
+        use spurline::SpectrumSettings;
         if !(1..=100).contains(&self.harmonics) {
             return Err(spurline::Error::setting(
                 "harmonics",
@@ -294,13 +268,9 @@ impl AnalysisArgs {
             ));
         }
         Ok(AnalysisSettings {
-            fit: if self.fit == "three" {
-                FitChoice::Three
-            } else {
-                FitChoice::Four
-            },
+            fit: self.fit.parse()?,
             spectrum: SpectrumSettings {
-                window,
+                window: self.window.parse()?,
                 harmonics: self.harmonics,
                 guard_bins: self.guard_bins,
             },

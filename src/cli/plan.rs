@@ -3,12 +3,12 @@
 
 use super::{si_value, EXIT_OK};
 use clap::Args;
-use spurline::plan::{
+use spurline::format_si as si;
+use spurline::Error;
+use spurline::{
     plan_tone, plan_two_tone, samples_for_resolution, HarmonicPlace, Placement, TonePlan,
     TwoTonePlan,
 };
-use spurline::report::units::si;
-use spurline::Error;
 use std::fmt::Write as _;
 
 /// Most targets one plan accepts (a list or a range).
@@ -357,7 +357,7 @@ fn factors(mut n: u64) -> Option<Vec<u64>> {
     let mut out = Vec::new();
     let mut d = 2;
     while d * d <= n {
-        while n % d == 0 {
+        while n.is_multiple_of(d) {
             out.push(d);
             n /= d;
         }

@@ -2,9 +2,9 @@
 
 use super::{si_value, EXIT_OK};
 use clap::Args;
-use spurline::ingest::{write_sidecar, Sidecar};
-use spurline::synth::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
 use spurline::Error;
+use spurline::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
+use spurline::{write_sidecar, Sidecar};
 use std::path::PathBuf;
 
 /// Arguments of `synth`.
@@ -123,7 +123,7 @@ fn go(args: &SynthArgs) -> Result<String, Error> {
     let (layout, format) = match args.layout.as_str() {
         "text" => (OutputLayout::Text, "text".to_string()),
         word => {
-            let l = spurline::ingest::Format::parse_word(word)?;
+            let l = spurline::Format::parse_word(word)?;
             if l.word_bytes < 2 || l.word_bytes * 8 < args.bits as usize {
                 return Err(Error::setting(
                     "layout",
@@ -158,6 +158,6 @@ fn go(args: &SynthArgs) -> Result<String, Error> {
         args.bits,
         out.frequency_hz,
         out.clipped_samples,
-        spurline::ingest::sidecar_path(&args.output)?.display()
+        spurline::sidecar_path(&args.output)?.display()
     ))
 }

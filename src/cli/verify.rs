@@ -2,7 +2,7 @@
 
 use super::{EXIT_FAIL, EXIT_OK};
 use clap::Args;
-use spurline::verify::{self, Row};
+use spurline::VerifyRow as Row;
 
 /// Arguments of `verify`.
 #[derive(Debug, Args)]
@@ -14,7 +14,7 @@ pub struct VerifyArgs {
 
 /// Runs `verify`: exit status 0 when every check passes, 1 otherwise.
 pub fn run(args: VerifyArgs) -> i32 {
-    let rows = verify::run();
+    let rows = spurline::verify();
     if args.json {
         // Rows hold plain data and Option<f64>: serialisation cannot fail.
         let mut s = serde_json::to_string_pretty(&rows).expect("plain data serialises");
@@ -23,7 +23,7 @@ pub fn run(args: VerifyArgs) -> i32 {
     } else {
         print!("{}", render(&rows));
     }
-    if verify::all_pass(&rows) {
+    if spurline::all_pass(&rows) {
         EXIT_OK
     } else {
         EXIT_FAIL

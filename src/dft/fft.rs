@@ -81,7 +81,7 @@ pub fn power_spectrum_in_place(x: &mut [f64], w: &[f64]) -> Vec<f64> {
     let mut out: Vec<f64> = output.iter().map(|z| 2.0 * scale * z.norm_sqr()).collect();
     // DC and (for even N) Nyquist are not mirrored.
     out[0] *= 0.5;
-    if n % 2 == 0 {
+    if n.is_multiple_of(2) {
         let last = out.len() - 1;
         out[last] *= 0.5;
     }

@@ -13,9 +13,9 @@ use rustfft::num_complex::Complex64;
 use rustfft::{Fft, FftPlanner};
 use serde::Serialize;
 
-use crate::Error;
+use crate::error::Error;
 
-/// Largest Kaiser β accepted by [`Window::parse`] (its sidelobes are far below -300 dB there).
+/// Largest Kaiser β a window id may give (`kaiser(BETA)`) (its sidelobes are far below -300 dB there).
 pub const KAISER_BETA_MAX: f64 = 100.0;
 
 /// Record length at which [`Window::figures`] are computed.
@@ -86,7 +86,7 @@ pub enum Window {
     Hft169d,
     /// scipy's 5-term `flattop`.
     FlatTop,
-    /// Kaiser(-Bessel) window I0(β·√(1 − x²))/I0(β). [`Window::parse`] accepts 0 ≤ β ≤
+    /// Kaiser(-Bessel) window I0(β·√(1 − x²))/I0(β). `str::parse` accepts 0 ≤ β ≤
     /// [`KAISER_BETA_MAX`]; a value built directly outside that range is clamped into it (negative β
     /// counts as |β|, a non-finite β as 0) so that no sample is NaN.
     Kaiser {
@@ -95,7 +95,7 @@ pub enum Window {
     },
 }
 
-/// Figures of merit of a window, computed numerically on the periodic form at [`FIGURES_LEN`] points.
+/// Figures of merit of a window, computed numerically on the periodic form at 4096 points.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct WindowFigures {
     /// Σw / (N · peak): Harris's normalised coherent gain.
@@ -149,29 +149,6 @@ impl Window {
             Window::FlatTop => "flattop".into(),
             Window::Kaiser { beta } => format!("kaiser({beta:?})"),
         }
-    }
-
-    /// Parses a window id (case-insensitive, surrounding blanks ignored). Accepts the ids of
-    /// [`Window::name`] and the aliases `rect`, `none`, `hanning`, `bh4`, `bh7`, `flat-top`,
-    /// `kaiser:BETA` and `kaiser(BETA)` with 0 ≤ BETA ≤ [`KAISER_BETA_MAX`].
-    ///
-    /// An unknown name or a bad β gives a [`crate::ErrorKind::BadSetting`] error on key `window` that
-    /// lists the accepted names.
-    pub fn parse(s: &str) -> Result<Window, Error> {
-        let t = s.trim().to_ascii_lowercase();
-        let w = match t.as_str() {
-            "rectangular" | "rect" | "none" => Window::Rectangular,
-            "hann" | "hanning" => Window::Hann,
-            "blackman-harris-4" | "bh4" => Window::BlackmanHarris4,
-            "blackman-harris-7" | "bh7" => Window::BlackmanHarris7,
-            "hft90d" => Window::Hft90d,
-            "hft116d" => Window::Hft116d,
-            "hft144d" => Window::Hft144d,
-            "hft169d" => Window::Hft169d,
-            "flattop" | "flat-top" => Window::FlatTop,
-            _ => return parse_kaiser(s, &t),
-        };
-        Ok(w)
     }
 
     /// Every offered window, with two representative Kaiser windows (β = 8.6, about -63 dB, and
@@ -283,7 +260,7 @@ impl Window {
         })
     }
 
-    /// Figures of merit at N = [`FIGURES_LEN`], computed numerically (and cached per window).
+    /// Figures of merit at N = 4096, computed numerically (and cached per window).
     pub fn figures(&self) -> WindowFigures {
         static CACHE: Mutex<Vec<(Window, WindowFigures)>> = Mutex::new(Vec::new());
         let lookup = |cache: &Vec<(Window, WindowFigures)>| {
@@ -321,7 +298,7 @@ impl Window {
     /// How much of a unit tone at `offset_bins` from a bin centre lands outside that bin ± `span`
     /// bins.
     ///
-    /// Computed at the reference length Nr = [`LEAKAGE_LEN`]: the complex tone
+    /// Computed at the reference length Nr = 4096: the complex tone
     /// `w[n]·exp(j2π(k0 + δ)n/Nr)`, k0 = Nr/4, is transformed (complex FFT, so there is no image tone),
     /// the tone's power is Σ|X_m|² over all bins (Parseval) and the bins at circular distance > span
     /// from k0 are summed directly, not as 1 minus the inside.
@@ -384,6 +361,33 @@ impl Window {
 const ACCEPTED: &str = "one of rectangular, hann, blackman-harris-4, blackman-harris-7, hft90d, \
 hft116d, hft144d, hft169d, flattop, kaiser(BETA) (aliases: rect, none, hanning, bh4, bh7, flat-top, \
 kaiser:BETA), with 0 <= BETA <= 100";
+
+impl std::str::FromStr for Window {
+    type Err = Error;
+
+    /// Parses a window id (case-insensitive, surrounding blanks ignored). Accepts the ids of
+    /// [`Window::name`] and the aliases `rect`, `none`, `hanning`, `bh4`, `bh7`, `flat-top`,
+    /// `kaiser:BETA` and `kaiser(BETA)` with 0 ≤ BETA ≤ [`KAISER_BETA_MAX`].
+    ///
+    /// An unknown name or a bad β gives a [`crate::error::ErrorKind::BadSetting`] error on key `window` that
+    /// lists the accepted names.
+    fn from_str(s: &str) -> Result<Window, Error> {
+        let t = s.trim().to_ascii_lowercase();
+        let w = match t.as_str() {
+            "rectangular" | "rect" | "none" => Window::Rectangular,
+            "hann" | "hanning" => Window::Hann,
+            "blackman-harris-4" | "bh4" => Window::BlackmanHarris4,
+            "blackman-harris-7" | "bh7" => Window::BlackmanHarris7,
+            "hft90d" => Window::Hft90d,
+            "hft116d" => Window::Hft116d,
+            "hft144d" => Window::Hft144d,
+            "hft169d" => Window::Hft169d,
+            "flattop" | "flat-top" => Window::FlatTop,
+            _ => return parse_kaiser(s, &t),
+        };
+        Ok(w)
+    }
+}
 
 fn parse_kaiser(original: &str, lower: &str) -> Result<Window, Error> {
     let bad = || Error::setting("window", ACCEPTED, format!("'{}'", original.trim()));
@@ -701,8 +705,8 @@ mod tests {
     fn names_round_trip_through_parse() {
         // Every offered window's id parses back to the same window (common practice, no source).
         for w in Window::all() {
-            assert_eq!(Window::parse(&w.name()).unwrap(), w, "{}", w.name());
-            assert_eq!(Window::parse(&w.name().to_uppercase()).unwrap(), w);
+            assert_eq!(w.name().parse::<Window>().unwrap(), w, "{}", w.name());
+            assert_eq!(w.name().to_uppercase().parse::<Window>().unwrap(), w);
         }
         assert_eq!(Window::Kaiser { beta: 8.6 }.name(), "kaiser(8.6)");
         assert_eq!(Window::Kaiser { beta: 23.0 }.name(), "kaiser(23.0)");
@@ -722,7 +726,7 @@ mod tests {
             ("kaiser(-0)", Window::Kaiser { beta: 0.0 }),
         ];
         for (s, w) in cases {
-            assert_eq!(Window::parse(s).unwrap(), w, "{s}");
+            assert_eq!(s.parse::<Window>().unwrap(), w, "{s}");
         }
     }
 
@@ -740,9 +744,9 @@ mod tests {
             "kaiser(inf)",
             "kaiser(3",
         ] {
-            let e = Window::parse(s).unwrap_err();
-            assert_eq!(e.kind, crate::ErrorKind::BadSetting, "{s}");
-            assert_eq!(e.location, crate::Location::Key("window".into()));
+            let e = s.parse::<Window>().unwrap_err();
+            assert_eq!(e.kind, crate::error::ErrorKind::BadSetting, "{s}");
+            assert_eq!(e.location, crate::error::Location::Key("window".into()));
             assert!(
                 e.expected.contains("blackman-harris-7") && e.expected.contains("kaiser(BETA)")
             );

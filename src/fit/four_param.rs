@@ -12,7 +12,7 @@ use super::{
     centre_of, cycles_std, edge_warnings, finish, residual_of, residual_pass, Centred, Ending,
     FitMethod, FitOutput,
 };
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 use nalgebra::{Matrix4, Vector4};
 use std::f64::consts::TAU;
 

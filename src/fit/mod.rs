@@ -10,7 +10,6 @@ mod sums;
 mod three_param;
 
 pub use four_param::{fit_four, FourParamOptions};
-pub use start::estimate_frequency;
 pub use three_param::fit_three;
 
 use serde::Serialize;
@@ -116,7 +115,7 @@ pub(crate) fn finish(
     } = ending;
     let amplitude = p.a.hypot(p.b);
     let phase = phase_at_zero(p.a, p.b, p.cycles_per_sample, centre_of(samples));
-    let fs_amp = crate::full_scale_amplitude_codes(bits);
+    let fs_amp = crate::record::full_scale_amplitude_codes(bits);
     let (sinad_db, enob_bits) = if residual_rms > 0.0 && amplitude > 0.0 {
         let sinad = 20.0 * ((amplitude / 2f64.sqrt()) / residual_rms).log10();
         let enob = bits as f64 - (residual_rms / (1.0 / 12f64.sqrt())).log2();

@@ -4,7 +4,7 @@
 //! four-parameter fit does for one tone). The two-tone and interleaving analyses use it.
 
 use super::sums::reduced_product;
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 use nalgebra::{DMatrix, DVector};
 use std::f64::consts::TAU;
 

@@ -3,7 +3,7 @@
 
 use crate::dft::fft::real_fft;
 use crate::dft::Window;
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 
 /// Longest stretch used to locate the tone. The Hann three-bin interpolator is exact for a lone tone, so
 /// noise and neighbouring harmonics leave it within ~1e-3 of a bin of 2^14 samples, under 0.1 bin of a

@@ -3,7 +3,7 @@
 use super::closed::ModelSums;
 use super::sums::{data_sums, Phasor};
 use super::{centre_of, finish, residual_of, Centred, Ending, FitMethod, FitOutput};
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 
 /// Solves the three-parameter fit in the centred frame.
 pub(crate) fn solve_three(y: &[f64], cycles_per_sample: f64) -> Result<Centred> {

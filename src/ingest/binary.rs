@@ -3,7 +3,8 @@
 
 use super::checks::{check_bits, no_samples, range_text};
 use super::{BinaryLayout, Justify};
-use crate::{Coding, Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::Coding;
 
 /// Decodes one word into a signed, centred N-bit code.
 #[derive(Debug, Clone, Copy)]

@@ -1,7 +1,8 @@
 //! Checks on codes: the N-bit range every parser enforces, and record-level warnings (clipping, stuck
 //! bits, missing codes) that do not stop the analysis but tell the user the input may be at fault.
 
-use crate::{max_code, min_code, Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::{max_code, min_code};
 
 /// Longest token shown in an error's `found`, in characters.
 const TOKEN_SHOWN_CHARS: usize = 40;
@@ -15,18 +16,7 @@ const STUCK_BITS_MIN_SAMPLES: usize = 64;
 /// Fewest expected hits per mid-scale code before a missing code counts as evidence.
 const MISSING_MIN_EXPECTED_HITS: f64 = 5.0;
 
-/// Rejects a resolution outside 1..=32 bits.
-pub(crate) fn check_bits(bits: u32) -> Result<()> {
-    if (1..=32).contains(&bits) {
-        Ok(())
-    } else {
-        Err(Error::setting(
-            "bits",
-            "a resolution of 1..=32 bits",
-            bits.to_string(),
-        ))
-    }
-}
+pub(crate) use crate::record::check_bits;
 
 /// The N-bit signed range as shown in errors, e.g. "-2048..=2047 (12-bit two's complement)".
 pub(crate) fn range_text(bits: u32) -> String {

@@ -3,7 +3,7 @@
 
 use super::checks::{check_bits, no_samples, parse_int, range_text, show_token, to_code, IntToken};
 use super::ColumnSel;
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 
 /// How fields are separated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -17,12 +17,15 @@ use serde::{Deserialize, Serialize};
 pub use binary::parse_binary;
 pub use checks::check_codes;
 pub use delimited::parse_delimited;
-pub use sidecar::{parse_channel, read_sidecar, sidecar_path, write_sidecar, Sidecar};
+pub use sidecar::{
+    parse_channel, parse_delimiter, read_sidecar, sidecar_path, write_sidecar, Sidecar,
+};
 pub use text::parse_text;
 
 use checks::check_bits;
 
-use crate::{Coding, Error, ErrorKind, Location, Record, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::{Coding, Record};
 
 /// The word formats [`Format::parse_word`] accepts, as listed in errors.
 const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i32le, i32be, u32le, u32be";
@@ -39,6 +42,23 @@ pub enum Justify {
     Right,
     /// In the high N bits; the padding bits below are ignored.
     Left,
+}
+
+impl std::str::FromStr for Justify {
+    type Err = Error;
+
+    /// `right` or `left`. Errors: [`crate::error::ErrorKind::BadSetting`] on key `justify`.
+    fn from_str(s: &str) -> Result<Justify> {
+        match s {
+            "right" => Ok(Justify::Right),
+            "left" => Ok(Justify::Left),
+            other => Err(Error::setting(
+                "justify",
+                "right or left",
+                format!("{other:?}"),
+            )),
+        }
+    }
 }
 
 /// How codes are laid out in a raw binary record.
@@ -86,6 +106,15 @@ pub enum Format {
     },
     /// Raw binary words.
     Binary(BinaryLayout),
+}
+
+impl std::str::FromStr for Format {
+    type Err = Error;
+
+    /// As [`Format::parse`].
+    fn from_str(s: &str) -> Result<Format> {
+        Format::parse(s)
+    }
 }
 
 impl Format {

@@ -6,7 +6,8 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use super::{ColumnSel, Format, Justify, Metadata};
-use crate::{Coding, Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::Coding;
 
 /// The metadata sidecar of a record. Every key is optional; the command line wins over each one.
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
@@ -81,16 +82,7 @@ impl Sidecar {
     pub(crate) fn parsed_delimiter(&self, path: &str) -> Result<Option<u8>> {
         self.delimiter
             .as_deref()
-            .map(|s| match s.as_bytes() {
-                [b] if b.is_ascii() => Ok(*b),
-                _ => Err(Error::new(
-                    ErrorKind::BadMetadata,
-                    path,
-                    Location::Key("delimiter".into()),
-                    "a one-character ASCII string",
-                    format!("{s:?}"),
-                )),
-            })
+            .map(|s| parse_delimiter(s).map_err(|e| as_metadata_error(e, path)))
             .transpose()
     }
 }
@@ -174,6 +166,22 @@ pub fn write_sidecar(record: &Path, sidecar: &Sidecar) -> Result<()> {
         serde_json::to_string_pretty(sidecar).map_err(|e| output_error(e.to_string()))?;
     text.push('\n');
     std::fs::write(&path, text).map_err(|e| output_error(e.to_string()))
+}
+
+/// Parses a CSV delimiter: one ASCII character (a space means runs of whitespace), or `tab` (also
+/// written `\t`) for a tab. Errors: [`ErrorKind::BadSetting`] on key `delimiter`.
+pub fn parse_delimiter(s: &str) -> Result<u8> {
+    match s {
+        "tab" | "\\t" => Ok(b'\t'),
+        _ => match s.as_bytes() {
+            [b] if b.is_ascii() => Ok(*b),
+            _ => Err(Error::setting(
+                "delimiter",
+                "one ASCII character or \"tab\"",
+                format!("{s:?}"),
+            )),
+        },
+    }
 }
 
 /// Parses an interleaved channel "K/M" (channel K, 1-based, of M) into (K - 1, M).

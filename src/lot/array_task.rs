@@ -31,7 +31,7 @@
 use std::fmt;
 
 use super::shard::Shard;
-use crate::{Error, Result};
+use crate::error::{Error, Result};
 
 /// Our variable: the number of shards M, which wins over the scheduler's count.
 pub const SHARDS_VAR: &str = "SPURLINE_SHARDS";
@@ -298,7 +298,7 @@ fn from_range(scheduler: Scheduler, index_var: &str, index: u64, range: &Range) 
             "index {index} of an array {first}..{last} step {step}"
         )));
     }
-    if (index - first) % step != 0 {
+    if !(index - first).is_multiple_of(step) {
         return Err(bad_range(format!(
             "index {index} off the steps of {first}..{last}:{step}"
         )));
@@ -338,7 +338,7 @@ fn to_shard(k: u64, m: u64, index_var: &str) -> Result<Shard> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::{ErrorKind, Location};
+    use crate::error::{ErrorKind, Location};
     use std::collections::HashMap;
 
     /// The shard an explicit environment gives (never the process's own: tests run in parallel).

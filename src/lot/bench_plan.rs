@@ -58,11 +58,11 @@ use std::path::{Path, PathBuf};
 use serde::Deserialize;
 use toml::Spanned;
 
-use super::shard::Shard;
-use crate::analysis::{AnalysisSettings, FitChoice};
-use crate::ingest::{parse_channel, ColumnSel, Format, IngestSettings, Justify, Metadata};
-use crate::spectrum::{SpectrumSettings, Window, WindowChoice};
-use crate::{Coding, Error, ErrorKind, Location, Result};
+use crate::analysis::AnalysisSettings;
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::ingest::{parse_channel, parse_delimiter, ColumnSel, Format, IngestSettings, Metadata};
+use crate::lot::limits::Catalogue;
+use crate::spectrum::{SpectrumSettings, WindowChoice};
 
 /// Default warning threshold between the fitted and the planned input level, dB.
 pub const DEFAULT_AMPLITUDE_TOLERANCE_DB: f64 = 1.0;
@@ -263,10 +263,10 @@ impl Lot {
         self.devices.len() * self.conditions
     }
 
-    /// The part of the lot that `shard` takes (see [`Shard`]): its devices in lot order, with their
-    /// record files.
-    pub fn shard(&self, shard: Shard) -> Lot {
-        let keep: Vec<usize> = (0..self.devices.len()).filter(|&i| shard.owns(i)).collect();
+    /// The part of the lot whose devices `keep` takes (by their 0-based place): those devices in lot
+    /// order, with their record files.
+    pub fn subset(&self, keep: impl Fn(usize) -> bool) -> Lot {
+        let keep: Vec<usize> = (0..self.devices.len()).filter(|&i| keep(i)).collect();
         Lot {
             devices: keep.iter().map(|&i| self.devices[i].clone()).collect(),
             conditions: self.conditions,
@@ -490,15 +490,8 @@ const PLACEHOLDERS: [&str; 3] = ["{device}", "{condition}", "{index}"];
 impl BenchPlan {
     /// Reads and checks a plan file.
     pub fn read(path: &Path) -> Result<BenchPlan> {
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                path.display().to_string(),
-                Location::Whole,
-                "a readable bench plan (UTF-8 TOML)",
-                e.to_string(),
-            )
-        })?;
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| Error::io(path, "a readable bench plan (UTF-8 TOML)", e))?;
         BenchPlan::parse(&text, path)
     }
 
@@ -734,6 +727,20 @@ impl BenchPlan {
             .unwrap_or(10)
     }
 
+    /// What a limit table for this plan may name: each condition, with the metrics its results carry
+    /// (those of its highest harmonic order). Give it to [`crate::lot::limits::LimitTable::read`].
+    pub fn limit_scope(&self) -> Vec<(String, Catalogue)> {
+        self.conditions
+            .iter()
+            .map(|c| {
+                (
+                    c.name.clone(),
+                    Catalogue::for_harmonics(c.settings.spectrum.harmonics),
+                )
+            })
+            .collect()
+    }
+
     /// Finds the lot: the devices and each device's record files per condition. Errors: a pattern that
     /// matches no file (naming the plan, the pattern's line and `records.pattern`).
     pub fn locate(&self) -> Result<Lot> {
@@ -829,17 +836,25 @@ impl BenchPlan {
     }
 }
 
+/// A key's value parsed by its type's `FromStr`, an error pointing at the value in the plan.
+fn parsed<T>(r: &Reader, v: &Option<Spanned<String>>, key: &str) -> Result<Option<T>>
+where
+    T: std::str::FromStr<Err = Error>,
+{
+    v.as_ref()
+        .map(|s| {
+            s.get_ref()
+                .parse()
+                .map_err(|e: Error| r.bad(s.span(), key, &e.expected, format!("{:?}", s.get_ref())))
+        })
+        .transpose()
+}
+
 /// Converts and checks `[converter]`.
 fn converter(r: &Reader, c: &ConverterToml) -> Result<IngestSettings> {
     let bits = *c.bits.get_ref();
-    if !(1..=32).contains(&bits) {
-        return Err(r.bad(
-            c.bits.span(),
-            "bits",
-            "a resolution in 1..=32 bits",
-            bits.to_string(),
-        ));
-    }
+    crate::record::check_bits(bits)
+        .map_err(|e| r.bad(c.bits.span(), "bits", &e.expected, e.found))?;
     let fs = c.sample_rate_hz.get_ref().0;
     if !(fs.is_finite() && fs > 0.0) {
         return Err(r.bad(
@@ -871,54 +886,8 @@ fn converter(r: &Reader, c: &ConverterToml) -> Result<IngestSettings> {
             )
         })?),
     };
-    let choice = |v: &Option<Spanned<String>>, key: &str, options: &[(&str, &str)]| {
-        v.as_ref()
-            .map(|s| {
-                options
-                    .iter()
-                    .find(|(name, _)| *name == s.get_ref())
-                    .map(|(_, value)| value.to_string())
-                    .ok_or_else(|| {
-                        let names: Vec<&str> = options.iter().map(|o| o.0).collect();
-                        r.bad(
-                            s.span(),
-                            key,
-                            &format!("one of {}", names.join(", ")),
-                            format!("{:?}", s.get_ref()),
-                        )
-                    })
-            })
-            .transpose()
-    };
-    let coding = choice(
-        &c.coding,
-        "coding",
-        &[
-            ("twos", "twos"),
-            ("twos_complement", "twos"),
-            ("offset", "offset"),
-            ("offset_binary", "offset"),
-        ],
-    )?
-    .map(|v| {
-        if v == "offset" {
-            Coding::OffsetBinary
-        } else {
-            Coding::TwosComplement
-        }
-    });
-    let justify = choice(
-        &c.justify,
-        "justify",
-        &[("right", "right"), ("left", "left")],
-    )?
-    .map(|v| {
-        if v == "left" {
-            Justify::Left
-        } else {
-            Justify::Right
-        }
-    });
+    let coding = parsed(r, &c.coding, "coding")?;
+    let justify = parsed(r, &c.justify, "justify")?;
     let channel = match &c.channel {
         None => None,
         Some(ch) => Some(parse_channel(ch.get_ref()).map_err(|e| {
@@ -932,18 +901,10 @@ fn converter(r: &Reader, c: &ConverterToml) -> Result<IngestSettings> {
     };
     let delimiter = match &c.delimiter {
         None => None,
-        Some(d) => Some(match d.get_ref().as_str() {
-            "tab" | "\t" => b'\t',
-            s if s.len() == 1 => s.as_bytes()[0],
-            s => {
-                return Err(r.bad(
-                    d.span(),
-                    "delimiter",
-                    "one ASCII character or \"tab\"",
-                    format!("{s:?}"),
-                ))
-            }
-        }),
+        Some(d) => Some(
+            parse_delimiter(d.get_ref())
+                .map_err(|e| r.bad(d.span(), "delimiter", &e.expected, e.found))?,
+        ),
     };
     Ok(IngestSettings {
         format,
@@ -965,33 +926,8 @@ fn converter(r: &Reader, c: &ConverterToml) -> Result<IngestSettings> {
 
 /// Converts and checks analysis keys (after a condition's overrides are merged in).
 fn analysis(r: &Reader, a: &AnalysisToml) -> Result<(AnalysisSettings, usize, f64)> {
-    let fit = match &a.fit {
-        None => FitChoice::Four,
-        Some(f) => match f.get_ref().as_str() {
-            "four" => FitChoice::Four,
-            "three" => FitChoice::Three,
-            other => {
-                return Err(r.bad(
-                    f.span(),
-                    "fit",
-                    "\"four\" or \"three\"",
-                    format!("{other:?}"),
-                ))
-            }
-        },
-    };
-    let window = match &a.window {
-        None => WindowChoice::Auto,
-        Some(w) if w.get_ref().eq_ignore_ascii_case("auto") => WindowChoice::Auto,
-        Some(w) => WindowChoice::Fixed(Window::parse(w.get_ref()).map_err(|e| {
-            r.bad(
-                w.span(),
-                "window",
-                &format!("auto or {}", e.expected),
-                format!("{:?}", w.get_ref()),
-            )
-        })?),
-    };
+    let fit = parsed(r, &a.fit, "fit")?.unwrap_or_default();
+    let window = parsed(r, &a.window, "window")?.unwrap_or(WindowChoice::Auto);
     let harmonics = match &a.harmonics {
         None => 10,
         Some(h) if (1..=100).contains(h.get_ref()) => *h.get_ref(),
@@ -1147,7 +1083,7 @@ fn match_part(template: &str, name: &str) -> Option<String> {
     let pieces: Vec<&str> = template.split("{device}").collect();
     let k = pieces.len() - 1;
     let fixed: usize = pieces.iter().map(|p| p.len()).sum();
-    if k == 0 || name.len() < fixed + k || (name.len() - fixed) % k != 0 {
+    if k == 0 || name.len() < fixed + k || !(name.len() - fixed).is_multiple_of(k) {
         return None;
     }
     let len = (name.len() - fixed) / k;

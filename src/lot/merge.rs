@@ -12,79 +12,13 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
-use super::output::{read_lot_rows, write_atomic, LotRows, LotWriter};
-use super::run::LotCounts;
-use super::shard::{lot_fingerprint, remove_manifest, ShardManifest, SHARD_MANIFEST};
+use super::files::{RESULTS_JSON, SHARD_MANIFEST, SUMMARY_CSV, YIELD_CSV};
+use super::output::{read_lot_rows, remove_shard_manifest, write_atomic, LotRows, LotWriter};
+use super::result::LotCounts;
+use super::shard::{lot_fingerprint, manifest_error, ShardManifest};
 use super::status;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::report::output_error;
-use crate::{Error, ErrorKind, Location, Result};
-
-fn manifest_error(dir: &Path, key: &str, expected: String, found: String) -> Error {
-    Error::new(
-        ErrorKind::BadMetadata,
-        dir.join(SHARD_MANIFEST).display().to_string(),
-        Location::Key(key.to_string()),
-        expected,
-        found,
-    )
-}
-
-/// Checks that every manifest describes a shard of the same run as the first one.
-pub(super) fn check_same_run(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<()> {
-    let (first_dir, first) = (&dirs[0], &manifests[0]);
-    for (dir, m) in dirs.iter().zip(manifests).skip(1) {
-        let fields: [(&str, String, String); 8] = [
-            ("shards", first.shards.to_string(), m.shards.to_string()),
-            (
-                "fingerprint",
-                first.fingerprint.clone(),
-                m.fingerprint.clone(),
-            ),
-            (
-                "spurline_version",
-                first.spurline_version.clone(),
-                m.spurline_version.clone(),
-            ),
-            ("plots", first.plots.clone(), m.plots.clone()),
-            ("title", first.title.clone(), m.title.clone()),
-            (
-                "conditions",
-                first.conditions.join(", "),
-                m.conditions.join(", "),
-            ),
-            (
-                "lot_devices",
-                first.lot_devices.to_string(),
-                m.lot_devices.to_string(),
-            ),
-            (
-                "lot_fingerprint",
-                first.lot_fingerprint.clone(),
-                m.lot_fingerprint.clone(),
-            ),
-        ];
-        for (key, want, got) in fields {
-            if want != got {
-                let what = match key {
-                    "fingerprint" => " (the plan file and limit table)",
-                    "lot_fingerprint" => " (the lot's devices)",
-                    _ => "",
-                };
-                return Err(manifest_error(
-                    dir,
-                    key,
-                    format!(
-                        "{key} {want}{what} as in {}, shard {}",
-                        first_dir.join(SHARD_MANIFEST).display(),
-                        first.shard()
-                    ),
-                    format!("{got}: shard {} is not of the same run", m.shard()),
-                ));
-            }
-        }
-    }
-    Ok(())
-}
 
 /// Every folder's manifest. A folder without one (an unfinished shard, or no shard at all) makes an
 /// error that names every shard not finished and the command to run each again, as long as some
@@ -112,7 +46,7 @@ fn read_manifests(dirs: &[PathBuf]) -> Result<Vec<ShardManifest>> {
         return Ok(manifests);
     };
     if !manifests.is_empty() {
-        check_same_run(&finished, &manifests)?;
+        ShardManifest::check_same_run(&finished, &manifests)?;
     }
     let note = unfinished
         .iter()
@@ -342,7 +276,7 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
         ));
     }
     let manifests = read_manifests(shards)?;
-    check_same_run(shards, &manifests)?;
+    ShardManifest::check_same_run(shards, &manifests)?;
     let by_shard = place_shards(shards, &manifests)?;
     let order = lot_order(shards, &manifests, &by_shard)?;
     if let Some(d) = shards.iter().find(|d| same_folder(out, d)) {
@@ -354,7 +288,7 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
     }
     for (dir, man) in shards.iter().zip(&manifests) {
         for d in &man.devices {
-            for f in ["summary.csv", "results.json"] {
+            for f in [SUMMARY_CSV, RESULTS_JSON] {
                 let p = dir.join(d).join(f);
                 if !p.is_file() {
                     return Err(Error::new(
@@ -378,7 +312,7 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
             if r.header != first.header {
                 return Err(Error::new(
                     ErrorKind::BadMetadata,
-                    dir.join("summary.csv").display().to_string(),
+                    dir.join(SUMMARY_CSV).display().to_string(),
                     Location::Row(1),
                     "the summary columns of the other shards",
                     "other columns",
@@ -389,12 +323,12 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
     }
     let mut counts = rows[0].counts.clone();
     for (r, &i) in rows.iter().zip(&by_shard).skip(1) {
-        counts.add(&r.counts, &shards[i].join("yield.csv"))?;
+        counts.add(&r.counts, &shards[i].join(YIELD_CSV))?;
     }
 
     let first = &manifests[0];
     let mut writer = LotWriter::with_counts(out, &first.title, rows[0].header.clone(), counts)?;
-    remove_manifest(out)?;
+    remove_shard_manifest(out)?;
     // The lot files list no device before its folder is complete, as in a batch run.
     writer.write(0)?;
     // Shard place → position in `rows`.

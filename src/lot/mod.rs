@@ -5,61 +5,30 @@
 //! run writes ([`merge_shards`]); a task of a scheduler's job array finds its shard with
 //! [`shard_from_env`], and [`lot_progress`] says how far the shards have got.
 //!
-//! ```no_run
-//! use spurline::lot::{run_lot, BatchOptions, BenchPlan, Plots};
-//! use spurline::lot::limits::{Catalogue, LimitTable};
-//!
-//! let plan = BenchPlan::read("bench/plan.toml".as_ref())?;
-//! let lot = plan.locate()?;
-//! let scope: Vec<(String, Catalogue)> = plan
-//!     .conditions
-//!     .iter()
-//!     .map(|c| (c.name.clone(), Catalogue::for_harmonics(c.settings.spectrum.harmonics)))
-//!     .collect();
-//! let limits = LimitTable::read("bench/limits.csv".as_ref(), &scope)?;
-//! let options = BatchOptions { out: "reports/lot7".into(), jobs: 2, plots: Plots::None, progress: false };
-//! let counts = run_lot(&plan, &lot, Some(&limits), &options)?;
-//! println!("{} of {} results pass", counts.passed, counts.results);
-//!
-//! // The same lot over eight machines: each runs its shard, then one merges the eight folders.
-//! use spurline::lot::{merge_shards, run_shard, Shard};
-//! let shard = Shard::parse("2/8")?;
-//! let mine = BatchOptions { out: "reports/lot7-2".into(), ..options.clone() };
-//! run_shard(&plan, &lot, Some(&limits), &mine, shard)?;
-//! let folders: Vec<std::path::PathBuf> =
-//!     (1..=8).map(|k| format!("reports/lot7-{k}").into()).collect();
-//! let merged = merge_shards("reports/lot7".as_ref(), &folders)?;
-//! assert_eq!(merged.results, counts.results);
-//! # Ok::<(), spurline::Error>(())
-//! ```
+//! The crate docs show a lot run, sharded and merged, as a user writes it.
 
 mod array_task;
 mod bench_plan;
 pub mod compare;
+mod files;
 pub mod limits;
 mod merge;
 mod output;
+mod result;
 mod run;
 mod shard;
 mod status;
 pub mod sweep;
 
-pub use array_task::{shard_from_env, ArrayTask, Scheduler, SHARDS_VAR, SHARD_FIRST_VAR};
-pub use bench_plan::{
-    natural_cmp, BenchPlan, Condition, ListedRecord, Lot, RecordSource,
-    DEFAULT_AMPLITUDE_TOLERANCE_DB,
-};
-pub use merge::merge_shards;
-pub use output::{
-    escape_html, read_results, write_atomic, write_device_outputs, Plots, SummaryColumns,
+pub use array_task::{shard_from_env, ArrayTask, Scheduler};
+pub use bench_plan::{BenchPlan, Condition, ListedRecord, Lot, RecordSource};
+pub use files::{
+    read_failures, read_yield, CsvRows, DroppedCell, FailureRow, LotSummary, SummaryRow, YieldRow,
     FAILURE_COLUMNS, LEAD_COLUMNS, YIELD_COLUMNS,
 };
-pub use run::{
-    run_lot, BatchOptions, ConditionResult, DeviceResult, LotCounts, CHUNK_RESULTS,
-    FREQUENCY_WARN_BINS, KEPT_ERRORS, REWRITE_EVERY,
-};
-pub use shard::{
-    lot_fingerprint, run_fingerprint, run_shard, Shard, ShardManifest, SHARD_FORMAT,
-    SHARD_MANIFEST, SHARD_START_NOTE,
-};
+pub use merge::merge_shards;
+pub use output::Plots;
+pub use result::{ConditionResult, DeviceResult, LotCounts, KEPT_ERRORS};
+pub use run::{run_lot, BatchOptions, LotObserver};
+pub use shard::{lot_fingerprint, run_fingerprint, run_shard, Shard, ShardManifest, SHARD_FORMAT};
 pub use status::{lot_progress, LotProgress, ShardProgress, ShardState};

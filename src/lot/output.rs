@@ -1,7 +1,7 @@
 //! What a batch run writes: per-device folders (`summary.csv`, `results.json`), and for the lot
 //! `summary.csv`, `failures.csv`, `yield.csv` and `index.html`, each written atomically (a temporary file
-//! in the same folder, then a rename); the reader of a folder's lot files back into finished rows (for
-//! merging shards); and the reader that takes a run's results back for `limits`.
+//! in the same folder, then a rename); and a folder's lot files read back into finished rows for
+//! merging shards (through the one reader, [`super::files`]).
 //!
 //! # Files
 //! - `summary.csv` (lot and per device): `device`, `condition`, `verdict`, `reason`, then every column of
@@ -24,11 +24,13 @@ use std::path::{Path, PathBuf};
 
 use serde::Serialize;
 
-use super::run::{DeviceResult, Lines};
-use crate::lot::limits::{
-    Catalogue, Characterisation, CheckOutcome, LimitTable, Outcome, ResultRow, Verdict,
+use super::files::{
+    read_bytes, read_error, read_failures, read_yield, LotSummary, FAILURE_COLUMNS, INDEX_HTML,
+    LEAD_COLUMNS, SHARD_MANIFEST, SUMMARY_CSV, YIELD_COLUMNS, YIELD_CSV,
 };
-use crate::{Error, ErrorKind, Location, Result};
+use super::result::{DeviceResult, Lines};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::lot::limits::{CheckOutcome, LimitTable, Outcome, Verdict};
 
 /// Which plots a batch run asks for per device.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -42,9 +44,11 @@ pub enum Plots {
     All,
 }
 
-impl Plots {
-    /// Parses `none`, `failures` or `all`.
-    pub fn parse(s: &str) -> Result<Plots> {
+impl std::str::FromStr for Plots {
+    type Err = Error;
+
+    /// `none`, `failures` or `all`. Errors: [`ErrorKind::BadSetting`] on key `plots`.
+    fn from_str(s: &str) -> Result<Plots> {
         match s {
             "none" => Ok(Plots::None),
             "failures" => Ok(Plots::Failures),
@@ -56,7 +60,9 @@ impl Plots {
             )),
         }
     }
+}
 
+impl Plots {
     /// The option's value as `--plots` takes it.
     pub fn as_str(&self) -> &'static str {
         match self {
@@ -75,35 +81,6 @@ impl Plots {
         }
     }
 }
-
-/// Leading columns of every summary row, before the result record's columns.
-pub const LEAD_COLUMNS: [&str; 4] = ["device", "condition", "verdict", "reason"];
-
-/// Columns of `failures.csv`.
-pub const FAILURE_COLUMNS: [&str; 10] = [
-    "device",
-    "condition",
-    "metric",
-    "bound",
-    "limit",
-    "value",
-    "margin",
-    "guardband",
-    "unit",
-    "outcome",
-];
-
-/// Columns of `yield.csv`.
-pub const YIELD_COLUMNS: [&str; 8] = [
-    "condition",
-    "metric",
-    "tested",
-    "passed",
-    "failed",
-    "failed_guardband",
-    "errors",
-    "yield",
-];
 
 /// The column set of the summaries: the lead columns and the result record's columns.
 #[derive(Debug, Clone, PartialEq)]
@@ -127,11 +104,6 @@ impl SummaryColumns {
         SummaryColumns {
             figures: crate::figures::keys(harmonics),
         }
-    }
-
-    /// The result record's columns.
-    pub fn figures(&self) -> &[String] {
-        &self.figures
     }
 
     /// The header line.
@@ -284,7 +256,7 @@ pub fn write_device_outputs(
     for c in &device.conditions {
         summary.extend_from_slice(&c.lines.summary);
     }
-    write_atomic(&dir.join("summary.csv"), &summary)?;
+    write_atomic(&dir.join(SUMMARY_CSV), &summary)?;
     let doc = DeviceJson {
         device: &device.device,
         conditions: device
@@ -301,7 +273,7 @@ pub fn write_device_outputs(
     };
     let mut json = serde_json::to_string_pretty(&doc).expect("plain data serialises");
     json.push('\n');
-    write_atomic(&dir.join("results.json"), json.as_bytes())?;
+    write_atomic(&dir.join(super::files::RESULTS_JSON), json.as_bytes())?;
     debug_assert!(
         plots != Plots::None || device.conditions.iter().all(|c| c.traces.is_none()),
         "traces are kept only when plots are asked for"
@@ -540,13 +512,13 @@ impl LotWriter {
     pub(crate) fn write(&self, devices: usize) -> Result<()> {
         let mut summary = self.header.clone();
         summary.extend_from_slice(&self.summary);
-        write_atomic(&self.out.join("summary.csv"), &summary)?;
+        write_atomic(&self.out.join(SUMMARY_CSV), &summary)?;
         let mut failures = csv_line(FAILURE_COLUMNS);
         failures.extend_from_slice(&self.failures);
-        write_atomic(&self.out.join("failures.csv"), &failures)?;
-        write_atomic(&self.out.join("yield.csv"), &self.yield_csv())?;
+        write_atomic(&self.out.join(super::files::FAILURES_CSV), &failures)?;
+        write_atomic(&self.out.join(YIELD_CSV), &self.yield_csv())?;
         write_atomic(
-            &self.out.join("index.html"),
+            &self.out.join(INDEX_HTML),
             self.index_html(devices).as_bytes(),
         )
     }
@@ -624,84 +596,6 @@ pub(crate) struct LotRows {
     pub(crate) counts: YieldCounts,
 }
 
-const OUTCOMES: [Outcome; 5] = [
-    Outcome::Pass,
-    Outcome::Fail,
-    Outcome::FailGuardband,
-    Outcome::Untested,
-    Outcome::Error,
-];
-
-fn read_bytes(path: &Path) -> Result<Vec<u8>> {
-    std::fs::read(path).map_err(|e| {
-        Error::new(
-            ErrorKind::Io,
-            path.display().to_string(),
-            Location::Whole,
-            "a readable lot file",
-            e.to_string(),
-        )
-    })
-}
-
-/// A CSV file's header bytes and its records, each with its exact bytes and its line.
-type RawCsv = (
-    Vec<String>,
-    Vec<u8>,
-    Vec<(::csv::StringRecord, Vec<u8>, usize)>,
-);
-
-fn raw_csv(path: &Path, bytes: &[u8]) -> Result<RawCsv> {
-    let bad_csv = |e: ::csv::Error| {
-        let loc = e
-            .position()
-            .map_or(Location::Whole, |p| Location::Row(p.line() as usize));
-        read_error(
-            path,
-            loc,
-            "a CSV file written by spurline batch",
-            e.to_string(),
-        )
-    };
-    let mut rdr = ::csv::ReaderBuilder::new()
-        .flexible(false)
-        .from_reader(bytes);
-    let names: Vec<String> = rdr
-        .headers()
-        .map_err(bad_csv)?
-        .iter()
-        .map(str::to_string)
-        .collect();
-    let mut records = Vec::new();
-    for rec in rdr.records() {
-        let rec = rec.map_err(bad_csv)?;
-        let (start, line) = rec
-            .position()
-            .map_or((bytes.len(), 0), |p| (p.byte() as usize, p.line() as usize));
-        records.push((rec, start, line));
-    }
-    let header_end = records.first().map_or(bytes.len(), |r| r.1);
-    let mut out = Vec::with_capacity(records.len());
-    for i in 0..records.len() {
-        let end = records.get(i + 1).map_or(bytes.len(), |r| r.1);
-        let (rec, start, line) = &records[i];
-        out.push((rec.clone(), bytes[*start..end].to_vec(), *line));
-    }
-    Ok((names, bytes[..header_end].to_vec(), out))
-}
-
-fn check_columns(path: &Path, names: &[String], want: &[&str]) -> Result<()> {
-    if names.len() < want.len() || names[..want.len()] != *want {
-        return Err(read_error(
-            path,
-            Location::Row(1),
-            &format!("the columns {}", want.join(", ")),
-            format!("the columns {}", names.join(", ")),
-        ));
-    }
-    Ok(())
-}
-
 /// Reads back the lot files of an output folder that holds `devices` (in that order), each under
 /// `conditions` (in plan order): `summary.csv`, `failures.csv`, the rows of `index.html` and
 /// `yield.csv`. Errors name the file and row: a file that cannot be read or does not parse, columns
@@ -713,66 +607,75 @@ pub(crate) fn read_lot_rows(
     conditions: &[String],
 ) -> Result<LotRows> {
     let n = conditions.len();
-    let path = dir.join("summary.csv");
-    let bytes = read_bytes(&path)?;
-    let (names, header, rows) = raw_csv(&path, &bytes)?;
-    check_columns(&path, &names, &LEAD_COLUMNS)?;
-    if rows.len() != devices.len() * n {
+    let summary = LotSummary::in_folder(dir)?;
+    let path = summary.path();
+    if summary.columns().len() < LEAD_COLUMNS.len()
+        || summary.columns()[..LEAD_COLUMNS.len()] != LEAD_COLUMNS
+    {
         return Err(read_error(
-            &path,
-            Location::Whole,
-            &format!(
-                "{} rows ({} devices × {n} conditions)",
-                devices.len() * n,
-                devices.len()
-            ),
-            format!("{} rows", rows.len()),
+            path,
+            Location::Row(1),
+            &format!("the columns {}", LEAD_COLUMNS.join(", ")),
+            format!("the columns {}", summary.columns().join(", ")),
         ));
     }
-    let mut results = Vec::with_capacity(rows.len());
-    for (k, (rec, raw, line)) in rows.into_iter().enumerate() {
+    let want = devices.len() * n;
+    let wrong_count = |found: usize| {
+        read_error(
+            path,
+            Location::Whole,
+            &format!("{want} rows ({} devices × {n} conditions)", devices.len()),
+            format!("{found} rows"),
+        )
+    };
+    let mut results = Vec::with_capacity(want);
+    for (k, row) in summary.rows().enumerate() {
+        let row = row?;
+        if k >= want {
+            return Err(wrong_count(k + 1 + summary.rows().skip(k + 1).count()));
+        }
         let (device, condition) = (&devices[k / n.max(1)], &conditions[k % n.max(1)]);
-        if rec[0] != **device || rec[1] != **condition {
+        if row.device() != device || row.condition() != condition {
             return Err(read_error(
-                &path,
-                Location::Row(line),
+                path,
+                Location::Row(row.line()),
                 &format!("the row of device '{device}' under condition '{condition}'"),
-                format!("device '{}', condition '{}'", &rec[0], &rec[1]),
+                format!("device '{}', condition '{}'", row.device(), row.condition()),
             ));
         }
-        let outcome = OUTCOMES
-            .into_iter()
-            .find(|o| o.as_str() == &rec[2])
-            .ok_or_else(|| {
-                read_error(
-                    &path,
-                    Location::Row(line),
-                    "a verdict pass, fail, fail_guardband, untested or error",
-                    format!("'{}'", &rec[2]),
-                )
-            })?;
+        let verdict = row.verdict().unwrap_or("");
+        let outcome: Outcome = verdict.parse().map_err(|_| {
+            read_error(
+                path,
+                Location::Row(row.line()),
+                "a verdict pass, fail, fail_guardband, untested or error",
+                format!("'{verdict}'"),
+            )
+        })?;
         results.push(ReadResult {
             device: device.clone(),
             condition: condition.clone(),
             outcome,
-            reason: rec[3].to_string(),
+            reason: row.reason().to_string(),
             lines: Lines {
-                summary: raw,
+                summary: row.raw().to_vec(),
                 failures: Vec::new(),
                 index: String::new(),
             },
         });
     }
+    if results.len() != want {
+        return Err(wrong_count(results.len()));
+    }
+    let header = summary.header_bytes().to_vec();
 
-    let path = dir.join("failures.csv");
-    let bytes = read_bytes(&path)?;
-    let (names, _, rows) = raw_csv(&path, &bytes)?;
-    check_columns(&path, &names, &FAILURE_COLUMNS)?;
+    let failures = read_failures(dir)?;
+    let path = dir.join(super::files::FAILURES_CSV);
     // Failure rows come in result order, several to a result: walk the results alongside.
     let mut at = 0;
-    for (rec, raw, line) in rows {
+    for (row, line, raw) in failures.rows {
         while at < results.len()
-            && (results[at].device != rec[0] || results[at].condition != rec[1])
+            && (results[at].device != row.device || results[at].condition != row.condition)
         {
             at += 1;
         }
@@ -781,14 +684,14 @@ pub(crate) fn read_lot_rows(
                 &path,
                 Location::Row(line),
                 "a row of a result of this folder, in summary order",
-                format!("device '{}', condition '{}'", &rec[0], &rec[1]),
+                format!("device '{}', condition '{}'", row.device, row.condition),
             ));
         };
         r.lines.failures.extend_from_slice(&raw);
     }
 
-    let path = dir.join("index.html");
-    let page = String::from_utf8(read_bytes(&path)?)
+    let path = dir.join(INDEX_HTML);
+    let page = String::from_utf8(read_bytes(&path, "a readable lot file")?)
         .map_err(|e| read_error(&path, Location::Whole, "a UTF-8 page", e.to_string()))?;
     let body = page
         .find(TBODY_OPEN)
@@ -820,7 +723,7 @@ pub(crate) fn read_lot_rows(
         r.lines.index = row.to_string();
     }
 
-    let counts = read_yield(&dir.join("yield.csv"), conditions)?;
+    let counts = yield_counts(dir, conditions)?;
     Ok(LotRows {
         header,
         results,
@@ -828,39 +731,28 @@ pub(crate) fn read_lot_rows(
     })
 }
 
-/// Reads a `yield.csv` back into its counts; the conditions must be `conditions`, in order.
-fn read_yield(path: &Path, conditions: &[String]) -> Result<YieldCounts> {
-    let bytes = read_bytes(path)?;
-    let (names, _, rows) = raw_csv(path, &bytes)?;
-    check_columns(path, &names, &YIELD_COLUMNS)?;
+/// Reads a folder's `yield.csv` back into its counts; the conditions must be `conditions`, in order.
+fn yield_counts(dir: &Path, conditions: &[String]) -> Result<YieldCounts> {
+    let path = dir.join(YIELD_CSV);
     let mut tallies: Vec<ConditionTally> = Vec::new();
     let mut devices = None;
-    for (rec, _, line) in rows {
+    for (row, line, _) in read_yield(dir)?.rows {
         let bad =
-            |expected: &str, found: String| read_error(path, Location::Row(line), expected, found);
+            |expected: &str, found: String| read_error(&path, Location::Row(line), expected, found);
         if devices.is_some() {
             return Err(bad(
                 "no row after the lot row *,*",
-                format!("'{}'", &rec[0]),
+                format!("'{}'", row.condition),
             ));
         }
-        let mut count = [0usize; 5];
-        for (i, c) in count.iter_mut().enumerate() {
-            *c = rec[2 + i].parse().map_err(|_| {
-                bad(
-                    &format!("a count in the column {}", YIELD_COLUMNS[2 + i]),
-                    format!("'{}'", &rec[2 + i]),
-                )
-            })?;
-        }
         let t = Tally {
-            tested: count[0],
-            passed: count[1],
-            failed: count[2],
-            guardband: count[3],
-            errors: count[4],
+            tested: row.tested,
+            passed: row.passed,
+            failed: row.failed,
+            guardband: row.failed_guardband,
+            errors: row.errors,
         };
-        match (&rec[0], &rec[1]) {
+        match (row.condition.as_str(), row.metric.as_str()) {
             ("*", "*") => devices = Some(t),
             (c, "*") => tallies.push(ConditionTally {
                 name: c.to_string(),
@@ -880,7 +772,7 @@ fn read_yield(path: &Path, conditions: &[String]) -> Result<YieldCounts> {
     }
     let Some(devices) = devices else {
         return Err(read_error(
-            path,
+            &path,
             Location::Whole,
             "the lot row *,* at the end",
             "none".into(),
@@ -889,7 +781,7 @@ fn read_yield(path: &Path, conditions: &[String]) -> Result<YieldCounts> {
     let found: Vec<&str> = tallies.iter().map(|t| t.name.as_str()).collect();
     if found != conditions {
         return Err(read_error(
-            path,
+            &path,
             Location::Whole,
             &format!("rows of the conditions {}", conditions.join(", ")),
             format!("rows of {}", found.join(", ")),
@@ -901,212 +793,32 @@ fn read_yield(path: &Path, conditions: &[String]) -> Result<YieldCounts> {
     })
 }
 
-fn read_error(path: &Path, location: Location, expected: &str, found: String) -> Error {
-    Error::new(
-        ErrorKind::BadMetadata,
-        path.display().to_string(),
-        location,
-        expected,
-        found,
-    )
-}
-
-/// Reads a characterisation run's results back: a batch output folder (its `summary.csv`, else every
-/// `<device>/results.json` in it), a summary CSV, or `results.json` files. Error rows are left out.
-/// Errors: a file that cannot be read, a CSV without `device` and `condition` columns, a metric cell
-/// that is not a number (naming the row), a JSON file not in the `results.json` shape.
-pub fn read_results(paths: &[PathBuf]) -> Result<Characterisation> {
-    let mut files: Vec<PathBuf> = Vec::new();
-    for p in paths {
-        if p.is_dir() {
-            let summary = p.join("summary.csv");
-            if summary.is_file() {
-                files.push(summary);
-                continue;
-            }
-            let mut found: Vec<PathBuf> = std::fs::read_dir(p)
-                .map_err(|e| {
-                    read_error(
-                        p,
-                        Location::Whole,
-                        "a readable results folder",
-                        e.to_string(),
-                    )
-                })?
-                .flatten()
-                .map(|e| e.path().join("results.json"))
-                .filter(|r| r.is_file())
-                .collect();
-            if found.is_empty() {
-                return Err(read_error(
-                    p,
-                    Location::Whole,
-                    "a batch output folder with summary.csv or <device>/results.json",
-                    "neither".into(),
-                ));
-            }
-            found.sort();
-            files.extend(found);
-        } else {
-            files.push(p.clone());
-        }
-    }
-    let mut tables: Vec<Rows> = Vec::new();
-    for f in &files {
-        let text = std::fs::read_to_string(f).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                f.display().to_string(),
-                Location::Whole,
-                "a readable results file",
-                e.to_string(),
-            )
-        })?;
-        let is_json = f
-            .extension()
-            .is_some_and(|e| e.eq_ignore_ascii_case("json"));
-        tables.push(if is_json {
-            json_rows(f, &text)?
-        } else {
-            csv_rows(f, &text)?
-        });
-    }
-    let catalogue = Catalogue::from_columns(tables.iter().flat_map(|(cols, _)| cols.iter()));
-    let mut data = Characterisation {
-        catalogue,
-        ..Characterisation::default()
-    };
-    for ((_, rows), f) in tables.into_iter().zip(&files) {
-        for (device, condition, cells, row) in rows {
-            let mut values = BTreeMap::new();
-            for m in data.catalogue.metrics() {
-                let Some(cell) = cells.get(&m.name).filter(|c| !c.is_empty()) else {
-                    continue;
-                };
-                let v: f64 = cell.parse().map_err(|_| {
-                    read_error(
-                        f,
-                        Location::Row(row),
-                        &format!("a number in the column {}", m.name),
-                        format!("'{cell}'"),
-                    )
-                })?;
-                values.insert(m.name.clone(), v);
-            }
-            if !data.conditions.contains(&condition) {
-                data.conditions.push(condition.clone());
-            }
-            data.rows.push(ResultRow {
-                device,
-                condition,
-                values,
-            });
-        }
-    }
-    Ok(data)
-}
-
-type Rows = (
-    Vec<String>,
-    Vec<(String, String, HashMap<String, String>, usize)>,
-);
-
-fn csv_rows(path: &Path, text: &str) -> Result<Rows> {
-    let mut rdr = ::csv::ReaderBuilder::new()
-        .flexible(false)
-        .from_reader(text.as_bytes());
-    let bad_csv = |e: ::csv::Error| {
-        let loc = e
-            .position()
-            .map_or(Location::Whole, |p| Location::Row(p.line() as usize));
-        read_error(path, loc, "a batch summary CSV", e.to_string())
-    };
-    let header: Vec<String> = rdr
-        .headers()
-        .map_err(bad_csv)?
-        .iter()
-        .map(str::to_string)
-        .collect();
-    let col = |name: &str| header.iter().position(|h| h == name);
-    let (Some(dc), Some(cc)) = (col("device"), col("condition")) else {
-        return Err(read_error(
-            path,
-            Location::Row(1),
-            "a batch summary CSV with device and condition columns",
-            format!("the columns {}", header.join(", ")),
-        ));
-    };
-    let verdict = col("verdict");
-    let error = col(crate::figures::ERROR_KIND.key);
-    let mut rows = Vec::new();
-    for rec in rdr.records() {
-        let rec = rec.map_err(bad_csv)?;
-        let line = rec.position().map_or(0, |p| p.line() as usize);
-        let failed = verdict.is_some_and(|i| &rec[i] == "error")
-            || error.is_some_and(|i| !rec[i].is_empty());
-        if failed {
-            continue;
-        }
-        let cells: HashMap<String, String> = header
-            .iter()
-            .cloned()
-            .zip(rec.iter().map(str::to_string))
-            .collect();
-        rows.push((rec[dc].to_string(), rec[cc].to_string(), cells, line));
-    }
-    Ok((header, rows))
-}
-
-fn json_rows(path: &Path, text: &str) -> Result<Rows> {
-    let v: serde_json::Value = serde_json::from_str(text).map_err(|e| {
-        read_error(
-            path,
-            Location::LineColumn(e.line(), e.column()),
-            "a results.json file of a batch run",
-            e.to_string(),
-        )
-    })?;
-    let shape = |found: &str| {
-        read_error(
-            path,
+/// Removes a shard manifest from an output folder (nothing to do when there is none): a run into
+/// the folder makes new files, which an old manifest must not vouch for.
+pub(crate) fn remove_shard_manifest(out: &Path) -> Result<()> {
+    let path = out.join(SHARD_MANIFEST);
+    match std::fs::remove_file(&path) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
+        Err(e) => Err(Error::new(
+            ErrorKind::Output,
+            path.display().to_string(),
             Location::Whole,
-            "a results.json object {\"device\", \"conditions\": [{\"condition\", \"result\"}]}",
-            found.to_string(),
-        )
-    };
-    let device = v
-        .get("device")
-        .and_then(|d| d.as_str())
-        .ok_or_else(|| shape("no \"device\" string"))?;
-    let conditions = v
-        .get("conditions")
-        .and_then(|c| c.as_array())
-        .ok_or_else(|| shape("no \"conditions\" array"))?;
-    let mut header: Vec<String> = Vec::new();
-    let mut rows = Vec::new();
-    for (i, c) in conditions.iter().enumerate() {
-        let name = c
-            .get("condition")
-            .and_then(|n| n.as_str())
-            .ok_or_else(|| shape(&format!("conditions[{i}] without a \"condition\" string")))?;
-        let result = c
-            .get("result")
-            .ok_or_else(|| shape(&format!("conditions[{i}] without a \"result\"")))?;
-        if result.get("error").is_some_and(|e| !e.is_null()) {
-            continue;
-        }
-        let flat = crate::report::csv::flatten(result);
-        for (k, _) in &flat {
-            if !header.contains(k) {
-                header.push(k.clone());
-            }
-        }
-        rows.push((
-            device.to_string(),
-            name.to_string(),
-            flat.into_iter().collect(),
-            0,
-        ));
+            "a stale shard manifest that can be removed",
+            e.to_string(),
+        )),
     }
-    Ok((header, rows))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_lot_summary_has_the_lead_columns_then_the_figure_table() {
+        let header = String::from_utf8(SummaryColumns::new(7).header()).unwrap();
+        let mut want: Vec<String> = LEAD_COLUMNS.iter().map(|s| s.to_string()).collect();
+        want.extend(crate::figures::keys(7));
+        assert_eq!(header.trim_end(), want.join(","));
+    }
 }

@@ -13,23 +13,20 @@ use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
-use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use rayon::prelude::*;
-use serde::{Deserialize, Serialize};
 
 use super::bench_plan::{BenchPlan, Condition, Lot};
 use super::output::{self, LotWriter, Plots, SummaryColumns};
-use crate::analysis::{analyze_averaged, Analysis, Traces};
+use super::result::{ConditionResult, DeviceResult, Lines, LotCounts};
+use crate::analysis::{analyze_averaged, Analysis};
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::ingest::read_record;
-use crate::lot::limits::{LimitTable, Outcome, Verdict};
-use crate::{Error, ErrorKind, Location, Result};
+use crate::lot::limits::{LimitTable, Verdict};
 
 /// Fewest results per chunk; a chunk also holds at least 8 per thread so that threads stay busy.
 pub const CHUNK_RESULTS: usize = 64;
 /// Shortest time between two rewrites of the lot files (per-device files are written at once).
 pub const REWRITE_EVERY: Duration = Duration::from_secs(1);
-/// Error messages kept for the caller to print (the rest are counted).
-pub const KEPT_ERRORS: usize = 100;
 /// Fitted frequency further than this many bins from the plan's (folded) input raises a warning.
 pub const FREQUENCY_WARN_BINS: f64 = 2.0;
 
@@ -42,73 +39,31 @@ pub struct BatchOptions {
     pub jobs: usize,
     /// Which plots to keep traces for.
     pub plots: Plots,
-    /// Draw a progress bar on stderr.
-    pub progress: bool,
 }
 
-/// The output lines of one result (summary, failures, index page), made on the worker thread.
-#[derive(Debug, Clone, PartialEq, Default)]
-pub(crate) struct Lines {
-    pub(crate) summary: Vec<u8>,
-    pub(crate) failures: Vec<u8>,
-    pub(crate) index: String,
+/// What a lot run tells its caller as it goes; the command line draws its progress bar from it.
+/// Every method has an empty default, and `()` observes nothing: pass `&()` for a quiet run.
+/// [`LotObserver::result_done`] is called from the worker threads, in no fixed order.
+pub trait LotObserver: Sync {
+    /// The run starts: `results` device × condition results are to be made.
+    fn started(&self, _results: usize) {}
+    /// One more result has been read, analysed and judged (its files may not be written yet).
+    fn result_done(&self) {}
+    /// The run has ended: every file is written, or an error stopped the run.
+    fn ended(&self) {}
 }
 
-/// One device under one condition.
-#[derive(Debug, Clone, PartialEq)]
-pub struct ConditionResult {
-    /// The condition's name.
-    pub condition: String,
-    /// The plan's input frequency, hertz.
-    pub fin_hz: f64,
-    /// The plan's input level, dBFS.
-    pub amplitude_dbfs: f64,
-    /// The result record (an error record when the record could not be read or analysed).
-    pub analysis: Analysis,
-    /// The verdict.
-    pub verdict: Verdict,
-    /// The traces behind the result, kept only when the plots ask for this result.
-    pub traces: Option<Traces>,
-    pub(crate) lines: Lines,
-}
+impl LotObserver for () {}
 
-/// One device's results, conditions in plan order.
-#[derive(Debug, Clone, PartialEq)]
-pub struct DeviceResult {
-    /// The device.
-    pub device: String,
-    /// Its results.
-    pub conditions: Vec<ConditionResult>,
-}
-
-/// What a lot came to.
-#[derive(Debug, Clone, Default, PartialEq, Eq, Serialize, Deserialize)]
-pub struct LotCounts {
-    /// Devices.
-    pub devices: usize,
-    /// Device × condition results.
-    pub results: usize,
-    /// Results passing every limit.
-    pub passed: usize,
-    /// Results failing some limit.
-    pub failed: usize,
-    /// Results failing only inside guardbands.
-    pub failed_guardband: usize,
-    /// Results no limit applies to.
-    pub untested: usize,
-    /// Results whose record could not be read or analysed.
-    pub errors: usize,
-    /// The first [`KEPT_ERRORS`] error messages, "device / condition: message".
-    pub error_messages: Vec<String>,
-}
-
-/// Analyses, judges and writes a lot (see the module docs). Errors: `jobs` of 0, and outputs that
-/// cannot be written; a record that cannot be read or analysed is an error row, not an error.
+/// Analyses, judges and writes a lot (see the module docs), telling `observer` how far it has got.
+/// Errors: `jobs` of 0, and outputs that cannot be written; a record that cannot be read or
+/// analysed is an error row, not an error.
 pub fn run_lot(
     plan: &BenchPlan,
     lot: &Lot,
     limits: Option<&LimitTable>,
     options: &BatchOptions,
+    observer: &dyn LotObserver,
 ) -> Result<LotCounts> {
     if options.jobs == 0 {
         return Err(Error::setting("jobs", "at least 1 worker thread", "0"));
@@ -117,37 +72,42 @@ pub fn run_lot(
         .num_threads(options.jobs)
         .build()
         .map_err(|e| Error::setting("jobs", "a thread pool", e.to_string()))?;
-    let columns = SummaryColumns::new(plan.max_harmonics());
-    let header = columns.header();
+    let header = SummaryColumns::new(plan.max_harmonics()).header();
     let names: Vec<String> = plan.conditions.iter().map(|c| c.name.clone()).collect();
     let title = lot_title(plan);
-    let mut writer = LotWriter::new(&options.out, &title, header.clone(), &names, limits)?;
+    let writer = LotWriter::new(&options.out, &title, header, &names, limits)?;
     // A shard manifest left by an earlier run into this folder must not vouch for this run's files;
     // a shard run writes its own when it has finished.
-    super::shard::remove_manifest(&options.out)?;
+    output::remove_shard_manifest(&options.out)?;
     // The outputs are opened before the work: an unwritable folder fails here, not after the lot.
     writer.write(0)?;
 
-    let bar = if options.progress {
-        let b =
-            ProgressBar::with_draw_target(Some(lot.results() as u64), ProgressDrawTarget::stderr());
-        if let Ok(style) = ProgressStyle::with_template(
-            "{elapsed_precise} [{bar:40}] {pos}/{len} results ({per_sec}, {eta} left)",
-        ) {
-            b.set_style(style.progress_chars("=> "));
-        }
-        b
-    } else {
-        ProgressBar::hidden()
-    };
+    observer.started(lot.results());
+    let counts = run_chunks(plan, lot, limits, options, observer, &pool, writer);
+    observer.ended();
+    counts
+}
 
+/// The work of [`run_lot`] once its outputs are open: chunks analysed on the pool while a writer
+/// thread writes the previous chunk.
+fn run_chunks(
+    plan: &BenchPlan,
+    lot: &Lot,
+    limits: Option<&LimitTable>,
+    options: &BatchOptions,
+    observer: &dyn LotObserver,
+    pool: &rayon::ThreadPool,
+    mut writer: LotWriter,
+) -> Result<LotCounts> {
+    let columns = &SummaryColumns::new(plan.max_harmonics());
+    let header = columns.header();
     let per_chunk = CHUNK_RESULTS.max(8 * options.jobs);
     let n = plan.conditions.len();
     let take = per_chunk.div_ceil(n.max(1)).max(1);
     let total = lot.devices.len();
     // The writing of one chunk overlaps the analysis of the next: a writer thread takes finished
     // chunks through a channel of one slot, so at most three chunks are in memory at a time.
-    let counts = std::thread::scope(|scope| {
+    std::thread::scope(|scope| {
         let (send, receive) = std::sync::mpsc::sync_channel::<(usize, Vec<DeviceResult>)>(1);
         let header = &header;
         let written = scope.spawn(move || -> Result<LotCounts> {
@@ -190,10 +150,10 @@ pub fn run_lot(
                             &lot.devices[d],
                             lot.files(d, c),
                             limits,
-                            &columns,
+                            columns,
                             options.plots,
                         );
-                        bar.inc(1);
+                        observer.result_done();
                         r
                     })
                     .collect()
@@ -221,9 +181,7 @@ pub fn run_lot(
                 "it stopped unexpectedly",
             ))
         })
-    })?;
-    bar.finish_and_clear();
-    Ok(counts)
+    })
 }
 
 /// The lot's title: the plan's, else its file name.
@@ -233,37 +191,6 @@ pub(crate) fn lot_title(plan: &BenchPlan) -> String {
             n.to_string_lossy().to_string()
         })
     })
-}
-
-impl LotCounts {
-    fn add(&mut self, device: &DeviceResult) {
-        for c in &device.conditions {
-            self.count(
-                &device.device,
-                &c.condition,
-                c.verdict.outcome,
-                &c.verdict.reason,
-            );
-        }
-    }
-
-    /// Counts one result (also for results read back from a shard's files).
-    pub(crate) fn count(&mut self, device: &str, condition: &str, outcome: Outcome, reason: &str) {
-        self.results += 1;
-        match outcome {
-            Outcome::Pass => self.passed += 1,
-            Outcome::Fail => self.failed += 1,
-            Outcome::FailGuardband => self.failed_guardband += 1,
-            Outcome::Untested => self.untested += 1,
-            Outcome::Error => {
-                self.errors += 1;
-                if self.error_messages.len() < KEPT_ERRORS {
-                    self.error_messages
-                        .push(format!("{device} / {condition}: {reason}"));
-                }
-            }
-        }
-    }
 }
 
 /// Reads, analyses and judges one device under one condition; every failure becomes an error row.

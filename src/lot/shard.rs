@@ -24,21 +24,17 @@
 //! again, and `merge --status` counts its devices done so far.
 
 use std::fmt;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
 use super::bench_plan::{BenchPlan, Lot};
-use super::output::write_atomic;
-use super::run::{lot_title, run_lot, BatchOptions, LotCounts};
+use super::files::{read_bytes, SHARD_MANIFEST, SHARD_START_NOTE};
+use super::output::{remove_shard_manifest, write_atomic};
+use super::result::LotCounts;
+use super::run::{lot_title, run_lot, BatchOptions, LotObserver};
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::lot::limits::LimitTable;
-use crate::{Error, ErrorKind, Location, Result};
-
-/// File name of the shard manifest in a shard's output folder.
-pub const SHARD_MANIFEST: &str = "shard.json";
-
-/// File name of the note a shard run writes when it starts (see the module docs).
-pub const SHARD_START_NOTE: &str = "shard-start.json";
 
 /// Version of the manifest's layout.
 pub const SHARD_FORMAT: u32 = 1;
@@ -67,8 +63,27 @@ impl Shard {
         Ok(Shard { index, count })
     }
 
+    /// Whether device `device` (its 0-based place in the lot) belongs to this shard.
+    pub fn owns(&self, device: usize) -> bool {
+        device % self.count == self.index - 1
+    }
+
+    /// How many of a lot of `devices` devices this shard takes.
+    pub fn size(&self, devices: usize) -> usize {
+        (devices + self.count - self.index) / self.count
+    }
+
+    /// The part of `lot` this shard takes: its devices in lot order, with their record files.
+    pub fn part(&self, lot: &Lot) -> Lot {
+        lot.subset(|i| self.owns(i))
+    }
+}
+
+impl std::str::FromStr for Shard {
+    type Err = Error;
+
     /// Parses `K/M` (e.g. `2/8`). Errors name the setting `shard`, the form and what was given.
-    pub fn parse(s: &str) -> Result<Shard> {
+    fn from_str(s: &str) -> Result<Shard> {
         let bad = || Error::setting("shard", SHARD_FORM, format!("'{s}'"));
         let (k, m) = s.split_once('/').ok_or_else(bad)?;
         let whole = |t: &str| {
@@ -82,16 +97,6 @@ impl Shard {
             (Some(k), Some(m)) => Shard::new(k, m).map_err(|_| bad()),
             _ => Err(bad()),
         }
-    }
-
-    /// Whether device `device` (its 0-based place in the lot) belongs to this shard.
-    pub fn owns(&self, device: usize) -> bool {
-        device % self.count == self.index - 1
-    }
-
-    /// How many of a lot of `devices` devices this shard takes.
-    pub fn size(&self, devices: usize) -> usize {
-        (devices + self.count - self.index) / self.count
     }
 }
 
@@ -131,29 +136,17 @@ impl Fnv {
     }
 }
 
-fn read_input(path: &Path, what: &str) -> Result<Vec<u8>> {
-    std::fs::read(path).map_err(|e| {
-        Error::new(
-            ErrorKind::Io,
-            path.display().to_string(),
-            Location::Whole,
-            what,
-            e.to_string(),
-        )
-    })
-}
-
 /// The fingerprint of a run's set-up: the bytes of the plan file and of the limit table (if any), as
 /// 16 hex digits. Shards whose fingerprints differ were run with different plans or limits and are
 /// not merged. Errors: a file that can no longer be read.
 pub fn run_fingerprint(plan: &BenchPlan, limits: Option<&LimitTable>) -> Result<String> {
     let mut h = Fnv::new();
     h.part(b"spurline bench plan");
-    h.part(&read_input(&plan.path, "a readable bench plan")?);
+    h.part(&read_bytes(&plan.path, "a readable bench plan")?);
     match limits {
         Some(t) => {
             h.part(b"limit table");
-            h.part(&read_input(Path::new(&t.path), "a readable limit table")?);
+            h.part(&read_bytes(Path::new(&t.path), "a readable limit table")?);
         }
         None => h.part(b"no limit table"),
     }
@@ -220,15 +213,8 @@ impl ShardManifest {
 
     fn read_file(path: &Path) -> Result<ShardManifest> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                &shown,
-                Location::Whole,
-                "the manifest of a finished `batch --shard` run",
-                e.to_string(),
-            )
-        })?;
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| Error::io(path, "the manifest of a finished `batch --shard` run", e))?;
         let m: ShardManifest = serde_json::from_str(&text).map_err(|e| {
             Error::new(
                 ErrorKind::BadMetadata,
@@ -268,26 +254,11 @@ impl ShardManifest {
     }
 }
 
-/// Removes a shard manifest from an output folder (nothing to do when there is none).
-pub(crate) fn remove_manifest(out: &Path) -> Result<()> {
-    let path = out.join(SHARD_MANIFEST);
-    match std::fs::remove_file(&path) {
-        Ok(()) => Ok(()),
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(()),
-        Err(e) => Err(Error::new(
-            ErrorKind::Output,
-            path.display().to_string(),
-            Location::Whole,
-            "a stale shard manifest that can be removed",
-            e.to_string(),
-        )),
-    }
-}
-
 /// Runs shard `shard` of a lot: the start note `shard-start.json`, [`run_lot`] over the shard's
 /// devices (see the module docs), then the manifest `shard.json` in `options.out`, written last and
 /// atomically, and the start note removed. The folder then holds the
 /// shard's device folders and its own lot files, which are those of an ordinary run of its devices.
+/// `observer` follows the run as in [`run_lot`].
 /// Errors: those of [`run_lot`], and a plan or limit table that can no longer be read for the
 /// fingerprint (checked before the work).
 pub fn run_shard(
@@ -296,9 +267,10 @@ pub fn run_shard(
     limits: Option<&LimitTable>,
     options: &BatchOptions,
     shard: Shard,
+    observer: &dyn LotObserver,
 ) -> Result<LotCounts> {
     let fingerprint = run_fingerprint(plan, limits)?;
-    let part = lot.shard(shard);
+    let part = shard.part(lot);
     let mut manifest = ShardManifest {
         format: SHARD_FORMAT,
         shard: shard.index,
@@ -316,9 +288,9 @@ pub fn run_shard(
         counts: LotCounts::default(),
     };
     // The start note first, so that a stopped run leaves a folder that says which shard it holds.
-    remove_manifest(&options.out)?;
+    remove_shard_manifest(&options.out)?;
     manifest.write(&options.out.join(SHARD_START_NOTE))?;
-    let counts = run_lot(plan, &part, limits, options)?;
+    let counts = run_lot(plan, &part, limits, options, observer)?;
     manifest.counts = counts.clone();
     manifest.write(&options.out.join(SHARD_MANIFEST))?;
     // shard.json decides whether the shard finished; a note that cannot be removed is harmless.
@@ -327,11 +299,78 @@ pub fn run_shard(
 }
 
 impl ShardManifest {
+    /// Checks that every manifest describes a shard of the same run as the first one.
+    pub(crate) fn check_same_run(dirs: &[PathBuf], manifests: &[ShardManifest]) -> Result<()> {
+        let (first_dir, first) = (&dirs[0], &manifests[0]);
+        for (dir, m) in dirs.iter().zip(manifests).skip(1) {
+            let fields: [(&str, String, String); 8] = [
+                ("shards", first.shards.to_string(), m.shards.to_string()),
+                (
+                    "fingerprint",
+                    first.fingerprint.clone(),
+                    m.fingerprint.clone(),
+                ),
+                (
+                    "spurline_version",
+                    first.spurline_version.clone(),
+                    m.spurline_version.clone(),
+                ),
+                ("plots", first.plots.clone(), m.plots.clone()),
+                ("title", first.title.clone(), m.title.clone()),
+                (
+                    "conditions",
+                    first.conditions.join(", "),
+                    m.conditions.join(", "),
+                ),
+                (
+                    "lot_devices",
+                    first.lot_devices.to_string(),
+                    m.lot_devices.to_string(),
+                ),
+                (
+                    "lot_fingerprint",
+                    first.lot_fingerprint.clone(),
+                    m.lot_fingerprint.clone(),
+                ),
+            ];
+            for (key, want, got) in fields {
+                if want != got {
+                    let what = match key {
+                        "fingerprint" => " (the plan file and limit table)",
+                        "lot_fingerprint" => " (the lot's devices)",
+                        _ => "",
+                    };
+                    return Err(manifest_error(
+                        dir,
+                        key,
+                        format!(
+                            "{key} {want}{what} as in {}, shard {}",
+                            first_dir.join(SHARD_MANIFEST).display(),
+                            first.shard()
+                        ),
+                        format!("{got}: shard {} is not of the same run", m.shard()),
+                    ));
+                }
+            }
+        }
+        Ok(())
+    }
+
     fn write(&self, path: &Path) -> Result<()> {
         let mut json = serde_json::to_string_pretty(self).expect("plain data serialises");
         json.push('\n');
         write_atomic(path, json.as_bytes())
     }
+}
+
+pub(crate) fn manifest_error(dir: &Path, key: &str, expected: String, found: String) -> Error {
+    Error::new(
+        ErrorKind::BadMetadata,
+        dir.join(SHARD_MANIFEST).display().to_string(),
+        Location::Key(key.to_string()),
+        expected,
+        found,
+    )
 }
 
 #[cfg(test)]
@@ -355,12 +394,12 @@ mod tests {
 
     #[test]
     fn shard_values_parse_or_name_the_setting() {
-        assert_eq!(Shard::parse("2/8"), Ok(Shard { index: 2, count: 8 }));
-        assert_eq!(Shard::parse("1/1"), Ok(Shard { index: 1, count: 1 }));
+        assert_eq!("2/8".parse::<Shard>(), Ok(Shard { index: 2, count: 8 }));
+        assert_eq!("1/1".parse::<Shard>(), Ok(Shard { index: 1, count: 1 }));
         for bad in [
             "0/3", "4/3", "x", "3", "1/0", "/3", "2/", "-1/3", "+1/3", "1/3/4", " 1/3",
         ] {
-            let e = Shard::parse(bad).unwrap_err();
+            let e = bad.parse::<Shard>().unwrap_err();
             assert_eq!(e.kind, ErrorKind::BadSetting, "{bad}");
             assert_eq!(e.location, Location::Key("shard".into()), "{bad}");
             assert_eq!(e.found, format!("'{bad}'"));

@@ -7,8 +7,9 @@ use std::fmt;
 use std::path::{Path, PathBuf};
 
 use super::bench_plan::natural_cmp;
-use super::shard::{Shard, ShardManifest, SHARD_MANIFEST, SHARD_START_NOTE};
-use crate::{Error, ErrorKind, Location, Result};
+use super::files::{LotSummary, SHARD_MANIFEST, SHARD_START_NOTE, SUMMARY_CSV};
+use super::shard::{Shard, ShardManifest};
+use crate::error::{Error, ErrorKind, Location, Result};
 
 /// Where one shard has got.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -159,15 +160,8 @@ fn shard_folders(folders: &[PathBuf]) -> Result<(Vec<PathBuf>, Vec<PathBuf>)> {
             found.push(dir.clone());
             continue;
         }
-        let listing = std::fs::read_dir(dir).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                dir.display().to_string(),
-                Location::Whole,
-                "a shard folder, or a folder holding shard folders",
-                e.to_string(),
-            )
-        })?;
+        let listing = std::fs::read_dir(dir)
+            .map_err(|e| Error::io(dir, "a shard folder, or a folder holding shard folders", e))?;
         let mut subs: Vec<PathBuf> = listing
             .filter_map(|e| e.ok().map(|e| e.path()))
             .filter(|p| p.is_dir() && is_shard_folder(p))
@@ -184,32 +178,16 @@ fn shard_folders(folders: &[PathBuf]) -> Result<(Vec<PathBuf>, Vec<PathBuf>)> {
 /// Devices in a started shard's lot summary so far: its rows over its conditions (the lot files
 /// list whole devices only). No summary yet is none. Errors: a summary that does not parse.
 fn devices_so_far(dir: &Path, conditions: usize) -> Result<usize> {
-    let path = dir.join("summary.csv");
-    if !path.is_file() {
+    if !dir.join(SUMMARY_CSV).is_file() {
         return Ok(0);
     }
+    let summary = LotSummary::in_folder(dir)?;
     let mut rows = 0usize;
-    let mut rdr = csv::ReaderBuilder::new()
-        .from_path(&path)
-        .map_err(|e| read_error(&path, e))?;
-    for rec in rdr.records() {
-        rec.map_err(|e| read_error(&path, e))?;
+    for row in summary.rows() {
+        row?;
         rows += 1;
     }
     Ok(rows / conditions.max(1))
-}
-
-fn read_error(path: &Path, e: csv::Error) -> Error {
-    let location = e
-        .position()
-        .map_or(Location::Whole, |p| Location::Line(p.line() as usize));
-    Error::new(
-        ErrorKind::BadMetadata,
-        path.display().to_string(),
-        location,
-        "a lot summary written by spurline batch",
-        e.to_string(),
-    )
 }
 
 /// Where a lot split into shards has got, from `folders`: shard folders, or folders holding shard
@@ -248,7 +226,7 @@ pub fn lot_progress(folders: &[PathBuf]) -> Result<LotProgress> {
     };
     let dirs: Vec<PathBuf> = all.iter().map(|(d, _)| d.clone()).collect();
     let manifests: Vec<ShardManifest> = all.iter().map(|(_, m)| m.clone()).collect();
-    super::merge::check_same_run(&dirs, &manifests)?;
+    ShardManifest::check_same_run(&dirs, &manifests)?;
 
     let m = run.shards;
     let mut shards: Vec<ShardProgress> = (1..=m)

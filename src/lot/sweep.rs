@@ -2,8 +2,11 @@
 //! ENOB against frequency, the effective resolution bandwidth, SNR against amplitude (dynamic range), and
 //! an aperture-jitter estimate from SNR against frequency.
 
-use crate::figures::{self, Figure};
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
+use crate::figures::{self, flatten, Figure};
+use crate::lot::compare::plots::series_svg;
+use crate::lot::files::{DroppedCell, LotSummary};
+use crate::report::{output_error, write_atomic};
 use serde::Serialize;
 use std::collections::BTreeMap;
 use std::path::Path;
@@ -66,68 +69,46 @@ pub struct Sweep {
     pub summaries: Vec<SweepSummary>,
 }
 
-/// Reads a lot run's `summary.csv` into points (error rows are skipped).
-pub fn read_points(run: &Path) -> Result<Vec<SweepPoint>> {
-    let path = run.join("summary.csv");
-    let shown = path.display().to_string();
-    let bad = |row: usize, e: String| {
-        Error::new(
-            ErrorKind::BadMetadata,
-            &shown,
-            Location::Row(row),
-            "a lot summary.csv row",
-            e,
-        )
-    };
-    let text = std::fs::read_to_string(&path).map_err(|e| {
-        Error::new(
-            ErrorKind::Io,
-            &shown,
-            Location::Whole,
-            "a readable lot summary.csv",
-            e.to_string(),
-        )
-    })?;
-    let mut rd = ::csv::Reader::from_reader(text.as_bytes());
-    let header: Vec<String> = rd
-        .headers()
-        .map_err(|e| bad(1, e.to_string()))?
-        .iter()
-        .map(str::to_string)
-        .collect();
-    let col = |n: &str| header.iter().position(|h| h == n);
+/// A lot run's `summary.csv` read as sweep points.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SweepInput {
+    /// One point per row with a fitted frequency and amplitude (error rows have neither).
+    pub points: Vec<SweepPoint>,
+    /// Figure cells left out as not numbers, by the one rule of the lot reader; a row whose fitted
+    /// frequency or amplitude is one of them gives no point.
+    pub dropped: Vec<DroppedCell>,
+}
+
+/// Reads a lot run's `summary.csv` into points (error rows are skipped). Errors: the summary cannot
+/// be read, lacks a column a sweep needs, or has a row that does not parse.
+pub fn read_points(run: &Path) -> Result<SweepInput> {
+    let summary = LotSummary::in_folder(run)?;
     let need = |n: &str| {
-        col(n).ok_or_else(|| {
+        summary.column(n).ok_or_else(|| {
             Error::new(
                 ErrorKind::BadMetadata,
-                &shown,
+                summary.path().display().to_string(),
                 Location::Row(1),
                 format!("a column '{n}'"),
-                header.join(","),
+                summary.columns().join(","),
             )
         })
     };
-    let (dev, cond, fin, amp) = (
-        need("device")?,
-        need("condition")?,
+    let (fin, amp) = (
         need(figures::FIN.key)?,
         need(figures::FIT_AMPLITUDE_DBFS.key)?,
     );
-    let figs = SWEPT.map(|f| col(f.key));
-    let mut out = Vec::new();
-    for (i, rec) in rd.records().enumerate() {
-        let rec = rec.map_err(|e| bad(i + 2, e.to_string()))?;
-        let num = |k: Option<usize>| {
-            k.and_then(|k| rec.get(k))
-                .and_then(|s| s.parse::<f64>().ok())
-                .filter(|v| v.is_finite())
-        };
+    let figs = SWEPT.map(|f| summary.column(f.key));
+    let mut points = Vec::new();
+    for row in summary.rows() {
+        let row = row?;
+        let num = |k: Option<usize>| k.and_then(|k| row.number(k));
         let (Some(f), Some(a)) = (num(Some(fin)), num(Some(amp))) else {
             continue;
         };
-        out.push(SweepPoint {
-            device: rec.get(dev).unwrap_or("").to_string(),
-            condition: rec.get(cond).unwrap_or("").to_string(),
+        points.push(SweepPoint {
+            device: row.device().to_string(),
+            condition: row.condition().to_string(),
             fin_hz: f,
             amplitude_dbfs: a,
             snr_db: num(figs[0]),
@@ -136,7 +117,10 @@ pub fn read_points(run: &Path) -> Result<Vec<SweepPoint>> {
             enob_bits: num(figs[3]),
         });
     }
-    Ok(out)
+    Ok(SweepInput {
+        points,
+        dropped: summary.dropped(),
+    })
 }
 
 /// ERBW: the first frequency where SINAD is 3 dB below its value at the lowest frequency, linearly
@@ -273,6 +257,91 @@ pub fn sweep(points: &[SweepPoint]) -> Sweep {
         points: all,
         summaries,
     }
+}
+
+/// Rows as CSV: the flattened keys of the first row as the header.
+fn to_csv<T: serde::Serialize>(rows: &[T]) -> String {
+    let flat: Vec<Vec<(String, String)>> = rows
+        .iter()
+        .map(|r| flatten(&serde_json::to_value(r).expect("plain data serialises")))
+        .collect();
+    let mut w = ::csv::Writer::from_writer(Vec::new());
+    if let Some(first) = flat.first() {
+        w.write_record(first.iter().map(|(k, _)| k))
+            .expect("memory");
+    }
+    for r in &flat {
+        w.write_record(r.iter().map(|(_, v)| v)).expect("memory");
+    }
+    String::from_utf8(w.into_inner().expect("memory")).expect("UTF-8")
+}
+
+/// Writes a sweep into `out` (created when missing): `sweep.csv` (every point), `sweep_summary.csv`
+/// (per device: ERBW, jitter, SNR floor and the number of amplitude points), `sweep.json` (the whole
+/// sweep), and the lot mean's plots against input frequency (`sinad-`, `snr-`, `sfdr-` and
+/// `enob-vs-frequency.svg`) and, when the conditions vary the amplitude, `snr-vs-amplitude.svg`.
+/// Errors: outputs that cannot be written.
+pub fn write_sweep(out: &Path, s: &Sweep) -> Result<()> {
+    std::fs::create_dir_all(out).map_err(|e| output_error(out, "a writable folder", e))?;
+    write_atomic(&out.join("sweep.csv"), to_csv(&s.points).as_bytes())?;
+    // The amplitude sweep is a list of pairs: keep it in the JSON, count it in the CSV.
+    let rows: Vec<serde_json::Value> = s
+        .summaries
+        .iter()
+        .map(|m| {
+            serde_json::json!({
+                "device": m.device, "frequency_points": m.frequency_points, "erbw_hz": m.erbw_hz,
+                "jitter_rms_s": m.jitter_rms_s, "snr_floor_db": m.snr_floor_db,
+                "amplitude_points": m.snr_vs_amplitude.len(),
+            })
+        })
+        .collect();
+    write_atomic(&out.join("sweep_summary.csv"), to_csv(&rows).as_bytes())?;
+    let mut json = serde_json::to_string_pretty(&s).expect("plain data serialises");
+    json.push('\n');
+    write_atomic(&out.join("sweep.json"), json.as_bytes())?;
+    let lot: Vec<&SweepPoint> = s.points.iter().filter(|p| p.device == "lot mean").collect();
+    type Get = fn(&SweepPoint) -> Option<f64>;
+    let axis = |f: &Figure| format!("{} ({})", f.label, f.unit);
+    let plotted: [(&str, &Figure, Get); 4] = [
+        ("sinad", &figures::SINAD, |p| p.sinad_db),
+        ("snr", &figures::SNR, |p| p.snr_db),
+        ("sfdr", &figures::SFDR, |p| p.sfdr_dbc),
+        ("enob", &figures::ENOB, |p| p.enob_bits),
+    ];
+    for (name, figure, get) in plotted {
+        let unit = axis(figure);
+        let pts: Vec<(f64, f64)> = lot
+            .iter()
+            .filter_map(|p| Some((p.fin_hz, get(p)?)))
+            .collect();
+        let svg = series_svg(
+            &format!("{unit} against input frequency"),
+            "input frequency (MHz)",
+            &unit,
+            &[("lot mean", &pts)],
+            1e6,
+        )?;
+        write_atomic(
+            &out.join(format!("{name}-vs-frequency.svg")),
+            svg.as_bytes(),
+        )?;
+    }
+    if let Some(m) = s
+        .summaries
+        .first()
+        .filter(|m| !m.snr_vs_amplitude.is_empty())
+    {
+        let svg = series_svg(
+            &format!("{} against input amplitude", figures::SNR.label),
+            &format!("input amplitude ({})", figures::FIT_AMPLITUDE_DBFS.unit),
+            &axis(&figures::SNR),
+            &[("lot mean", &m.snr_vs_amplitude)],
+            1.0,
+        )?;
+        write_atomic(&out.join("snr-vs-amplitude.svg"), svg.as_bytes())?;
+    }
+    Ok(())
 }
 
 #[cfg(test)]

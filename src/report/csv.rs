@@ -2,7 +2,7 @@
 //! cells of the JSON form of the same result record, units in the header names, stable column order.
 
 use crate::analysis::Analysis;
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 
 pub use crate::figures::flatten;
 

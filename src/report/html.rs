@@ -4,10 +4,9 @@
 
 use super::units::{fixed, si};
 use crate::analysis::Analysis;
+use crate::error::Result;
 use crate::figures::{self, Cells, Figure, Unit};
-use crate::{Error, ErrorKind, Location, Result};
 use std::fmt::Write;
-use std::path::Path;
 
 /// One record on the run page.
 #[derive(Debug, Clone, PartialEq)]
@@ -41,9 +40,10 @@ pub fn escape(text: &str) -> String {
     s
 }
 
-/// Renders the run page with each plot shown through an `<img>` of its relative path: the page then
-/// needs its folder (the plots beside it) but holds none of them in memory, which suits a long batch.
-pub fn render_index_html(title: &str, rows: &[IndexRow]) -> String {
+/// Renders the run page with each plot shown through an `<img>` of its relative path (the tests
+/// check the page's table and escaping through it).
+#[cfg(test)]
+pub(crate) fn render_index_html(title: &str, rows: &[IndexRow]) -> String {
     render_with(title, rows, &mut |path: &str| {
         Ok(format!(
             "<img src=\"{}\" alt=\"{}\" loading=\"lazy\">",
@@ -54,9 +54,15 @@ pub fn render_index_html(title: &str, rows: &[IndexRow]) -> String {
     .expect("linking plots cannot fail")
 }
 
-/// Renders the run page with every plot's SVG read from `run_dir` and inlined: one file that shows
-/// everything on its own.
-pub fn render_index_html_inline(title: &str, rows: &[IndexRow], run_dir: &Path) -> Result<String> {
+/// Renders the run page with every plot's SVG read from `run_dir` and inlined (the tests check the
+/// inlining through it; [`super::write_run_report`] inlines from memory).
+#[cfg(test)]
+pub(crate) fn render_index_html_inline(
+    title: &str,
+    rows: &[IndexRow],
+    run_dir: &std::path::Path,
+) -> Result<String> {
+    use crate::error::{Error, ErrorKind, Location};
     render_with(title, rows, &mut |path: &str| {
         let full = run_dir.join(path);
         let text = std::fs::read_to_string(&full).map_err(|e| {
@@ -356,5 +362,62 @@ fn notes(h: &mut String, a: &Analysis, index: usize) {
     h.push_str(&escape(&short));
     if rest > 0 {
         let _ = write!(h, " <a href=\"#r{index}\">(+{rest} more)</a>");
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::IndexRow;
+    use crate::error::ErrorKind;
+    use crate::report::svg::plot_tests::{measure, rich};
+    use crate::report::svg::{spectrum_svg, PlotOptions};
+
+    #[test]
+    fn escaping_covers_the_five_characters() {
+        assert_eq!(
+            super::escape("<a href='x'>&\"</a>"),
+            "&lt;a href=&#39;x&#39;&gt;&amp;&quot;&lt;/a&gt;"
+        );
+    }
+
+    #[test]
+    fn linked_and_inlined_pages_trust_only_our_svg() {
+        let dir = tempfile::tempdir().unwrap();
+        let m = measure(&rich());
+        let good = spectrum_svg("r", &m.analysis, &m.traces, &PlotOptions::default()).unwrap();
+        std::fs::create_dir_all(dir.path().join("d")).unwrap();
+        std::fs::write(dir.path().join("d/good.svg"), &good).unwrap();
+        std::fs::write(
+            dir.path().join("d/bad.svg"),
+            "<svg xmlns=\"http://www.w3.org/2000/svg\"><script>alert(1)</script></svg>",
+        )
+        .unwrap();
+        std::fs::write(
+            dir.path().join("d/handler.svg"),
+            "<svg xmlns=\"http://www.w3.org/2000/svg\"><rect onload=\"alert(1)\"/></svg>",
+        )
+        .unwrap();
+        let rows = vec![IndexRow {
+            device: "d".into(),
+            record: "r".into(),
+            analysis: m.analysis.clone(),
+            plots: vec![
+                "d/good.svg".into(),
+                "d/bad.svg".into(),
+                "d/handler.svg".into(),
+            ],
+            extra: vec![("verdict".into(), "fail: SNR below 80 dB".into())],
+        }];
+        let inline = super::render_index_html_inline("t", &rows, dir.path()).unwrap();
+        assert!(inline.contains(good.trim_end()));
+        assert!(!inline.contains("<script") && !inline.contains("onload"));
+        assert!(inline.contains("<a href=\"d/bad.svg\">"));
+        assert!(inline.contains("<a href=\"d/handler.svg\">"));
+        assert!(inline.contains("<td class=\"t bad\">fail: SNR below 80 dB</td>"));
+        let linked = super::render_index_html("t", &rows);
+        assert!(linked.contains("<img src=\"d/good.svg\""));
+        assert!(!linked.contains("<svg"));
+        let missing = super::render_index_html_inline("t", &rows, &dir.path().join("nowhere"));
+        assert_eq!(missing.unwrap_err().kind, ErrorKind::Io);
     }
 }

@@ -14,7 +14,7 @@ pub mod units;
 mod write;
 pub(crate) use write::output_error;
 
-pub use html::{escape, render_index_html, render_index_html_inline, IndexRow};
+pub use html::escape;
 pub use svg::PlotOptions;
 pub use write::{
     file_safe_name, write_atomic, write_device_summary, write_record_plots, write_run_report,

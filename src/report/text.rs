@@ -1,6 +1,8 @@
-//! The readable per-record table that `analyze` prints.
+//! The readable per-record blocks that `analyze`, `imd` and `interleave` print.
 
 use super::units::{fixed, si, with_unit};
+use crate::analyses::imd::ImdResult;
+use crate::analyses::interleave::InterleaveResult;
 use crate::analysis::{Analysis, ErrorReport};
 use crate::figures::{self, Figure};
 use std::fmt::Write;
@@ -145,6 +147,219 @@ pub fn render(a: &Analysis) -> String {
         let _ = writeln!(s);
     }
     for w in &a.warnings {
+        let _ = writeln!(s, "  warning    {w}");
+    }
+    s
+}
+
+/// A line that a multi-tone claim measured (an IM product, an interleaving image), as a table row.
+struct Line<'a> {
+    name: &'a str,
+    name_width: usize,
+    frequency_hz: f64,
+    masked_by: Option<&'a str>,
+    at_floor: bool,
+}
+
+impl Line<'_> {
+    /// Its row: name, frequency, then each (value, width) to two decimals; a masked line says what
+    /// masks it instead, and a line at the noise floor is shown as a bound.
+    fn row(&self, s: &mut String, cells: &[(Option<f64>, usize)]) {
+        let (name, width) = (self.name, self.name_width);
+        let freq = si(self.frequency_hz, "Hz", 6);
+        if let Some(by) = self.masked_by {
+            let _ = writeln!(s, "             {name:<width$} {freq:>14}   masked by {by}");
+            return;
+        }
+        let bound = if self.at_floor { "≤" } else { " " };
+        let _ = write!(s, "             {name:<width$} {freq:>14} {bound}");
+        for (i, &(value, w)) in cells.iter().enumerate() {
+            let gap = if i == 0 { "" } else { " " };
+            let _ = write!(s, "{gap}{:>w$}", fixed(value, 2));
+        }
+        let _ = writeln!(s, "{}", if self.at_floor { "  (noise floor)" } else { "" });
+    }
+}
+
+/// Renders one two-tone result as a block of labelled lines, as `spurline imd` prints it.
+pub fn render_two_tone(r: &ImdResult) -> String {
+    let mut s = String::new();
+    if block_head(&mut s, &r.source, r.error.as_ref(), &r.warnings) {
+        return s;
+    }
+    let _ = writeln!(
+        s,
+        "  record     {} samples · {} bits · fs {}",
+        r.samples,
+        r.bits,
+        si(r.sample_rate_hz, "Hz", 6)
+    );
+    if let (Some(fit), Some(sp)) = (&r.fit, &r.spectrum) {
+        for (i, (t, l)) in fit.tones.iter().zip(&sp.tones).enumerate() {
+            let _ = writeln!(
+                s,
+                "  {:<10} {} · {} dBFS (fit {} dBFS, {:.2} codes) · {:.4} cycles{}",
+                if i == 0 { "tone f1" } else { "tone f2" },
+                si(t.frequency_hz, "Hz", 9),
+                fixed(l.dbfs, 2),
+                fixed(t.amplitude_dbfs, 3),
+                t.amplitude_codes,
+                t.cycles,
+                if l.coherent { " (coherent)" } else { "" }
+            );
+        }
+        let _ =
+            writeln!(
+            s,
+            "  fit        two sines + offset, {} · offset {:.3} codes · residual {:.4} codes rms",
+            if fit.refined {
+                format!(
+                    "frequencies refined in {} iterations{}",
+                    fit.iterations,
+                    if fit.converged { "" } else { " (NOT converged)" }
+                )
+            } else {
+                "at the located frequencies".to_string()
+            },
+            fit.offset_codes,
+            fit.residual_rms_codes
+        );
+        let _ = writeln!(
+            s,
+            "  spectrum   window {} ({}) · bin {} · tone bins ±{} · noise floor {} dBFS per bin",
+            sp.window,
+            if sp.coherent {
+                "coherent"
+            } else {
+                "non-coherent"
+            },
+            si(sp.bin_width_hz, "Hz", 4),
+            sp.tone_halfwidth_bins,
+            fixed(sp.noise_floor_dbfs, 2)
+        );
+        let spur = sp.worst_spur.as_ref().map_or("—".to_string(), |w| {
+            format!(
+                "{} ({})",
+                si(w.frequency_hz, "Hz", 6),
+                w.product.as_deref().unwrap_or("not a product")
+            )
+        });
+        let _ = writeln!(
+            s,
+            "  two-tone   IM2 {} dBc / {} dBFS · IM3 {} dBc / {} dBFS (dBc of the stronger tone)",
+            fixed(sp.im2_dbc, 2),
+            fixed(sp.im2_dbfs, 2),
+            fixed(sp.im3_dbc, 2),
+            fixed(sp.im3_dbfs, 2)
+        );
+        let _ = writeln!(
+            s,
+            "             SFDR {} dBc / {} dBFS, largest spur at {spur}",
+            fixed(sp.sfdr_dbc, 2),
+            fixed(sp.sfdr_dbfs, 2)
+        );
+        let _ = writeln!(
+            s,
+            "  products   {:<8} {:>14} {:>9} {:>9} {:>9} {:>9}",
+            "", "frequency", "dBc", "dBc f1", "dBc f2", "dBFS"
+        );
+        for p in &sp.products {
+            let line = Line {
+                name: &p.name,
+                name_width: 8,
+                frequency_hz: p.frequency_hz,
+                masked_by: p.masked_by.as_deref(),
+                at_floor: p.at_floor,
+            };
+            line.row(
+                &mut s,
+                &[(p.dbc, 8), (p.dbc_f1, 9), (p.dbc_f2, 9), (p.dbfs, 9)],
+            );
+        }
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "  warning    {w}");
+    }
+    s
+}
+
+/// Renders one interleaving result as a block of labelled lines, as `spurline interleave` prints it.
+pub fn render_interleaved(r: &InterleaveResult) -> String {
+    let mut s = String::new();
+    if block_head(&mut s, &r.source, r.error.as_ref(), &r.warnings) {
+        return s;
+    }
+    let _ = writeln!(
+        s,
+        "  record     {} samples · {} bits · fs {} · {} channels",
+        r.samples,
+        r.bits,
+        si(r.sample_rate_hz, "Hz", 6),
+        r.channels
+    );
+    if let Some(f) = &r.fit {
+        let _ = writeln!(
+            s,
+            "  sine fit   four-parameter · {} · {:.3} dBFS ({:.2} codes) · offset {:.3} codes",
+            si(f.frequency_hz, "Hz", 9),
+            f.amplitude_dbfs,
+            f.amplitude_codes,
+            f.offset_codes
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  channels   {:>3} {:>14} {:>14} {:>14} {:>12}",
+        "ch", "offset codes", "gain error", "timing error", "residual"
+    );
+    for c in &r.channel_estimates {
+        let _ = writeln!(
+            s,
+            "             {:>3} {:>+14.4} {:>+10.1} ppm {:>14} {:>12.4}",
+            c.channel,
+            c.offset_codes,
+            c.gain_error * 1e6,
+            si(c.timing_error_s, "s", 4),
+            c.residual_rms_codes
+        );
+    }
+    if let Some(sp) = &r.spectrum {
+        let _ = writeln!(
+            s,
+            "  spectrum   window {} ({}) · bin {} · fundamental {} dBFS · noise floor {} dBFS per bin",
+            sp.window,
+            if sp.coherent {
+                "coherent"
+            } else {
+                "non-coherent"
+            },
+            si(sp.bin_width_hz, "Hz", 4),
+            fixed(sp.fundamental_dbfs, 2),
+            fixed(sp.noise_floor_dbfs, 2)
+        );
+        let _ = writeln!(
+            s,
+            "             largest offset spur {} dBc · largest gain/timing spur {} dBc",
+            fixed(sp.offset_spur_dbc, 2),
+            fixed(sp.gain_timing_spur_dbc, 2)
+        );
+        let _ = writeln!(
+            s,
+            "  spurs      {:<14} {:>14} {:>9} {:>9} {:>14}",
+            "", "frequency", "dBc", "dBFS", "predicted dBc"
+        );
+        for p in &sp.spurs {
+            let line = Line {
+                name: &p.name,
+                name_width: 14,
+                frequency_hz: p.frequency_hz,
+                masked_by: p.masked_by.as_deref(),
+                at_floor: p.at_floor,
+            };
+            line.row(&mut s, &[(p.dbc, 8), (p.dbfs, 9), (p.predicted_dbc, 14)]);
+        }
+    }
+    for w in &r.warnings {
         let _ = writeln!(s, "  warning    {w}");
     }
     s

@@ -7,7 +7,7 @@
 use super::html::{render_with, IndexRow};
 use super::svg::{histogram_svg, residual_svg, spectrum_svg, PlotOptions};
 use crate::analysis::{Analysis, Traces};
-use crate::{Error, ErrorKind, Location, Result};
+use crate::error::{Error, ErrorKind, Location, Result};
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
@@ -137,7 +137,8 @@ pub fn write_record_plots(
     Ok(written)
 }
 
-/// Writes a device's `summary.csv` (one row per record, the columns of [`super::csv::columns_for`])
+/// Writes a device's `summary.csv` (one row per record, the figure table's columns, widened to the highest harmonic a
+/// record has)
 /// and `results.json` (the same records as one array) into `device_dir`.
 pub fn write_device_summary(device_dir: &Path, rows: &[Analysis], harmonics: u32) -> Result<()> {
     write_atomic(

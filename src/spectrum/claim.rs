@@ -20,7 +20,7 @@
 //! (raw minus expected), and an at-floor flag when the corrected power is no more than the expected
 //! noise; a claim at the floor is not a measurement, and its raw power is reported as an upper bound.
 
-use crate::{Error, ErrorKind, Location};
+use crate::error::{Error, ErrorKind, Location};
 use serde::Serialize;
 
 /// Fewer noise bins than this leave the noise mean poorly determined (the analyses warn).
@@ -258,7 +258,7 @@ pub fn claim(
 
 /// Weight of bin k of an N-sample spectrum in units of one full interior bin (see the module docs).
 pub fn bin_weight(k: usize, samples: usize) -> f64 {
-    if k == 0 || (samples % 2 == 0 && k == samples / 2) {
+    if k == 0 || (samples.is_multiple_of(2) && k == samples / 2) {
         0.5
     } else {
         1.0
@@ -408,7 +408,8 @@ impl Claims {
         };
         let dc = sum_over(&mut (0..=self.tone_halfwidth.min(self.owner.len() - 1)));
         // Bin 0 is always DC's; the one other half-weight bin is N/2 of an even N.
-        let nyquist_is_noise = samples % 2 == 0 && self.owner.last() == Some(&Owner::Noise);
+        let nyquist_is_noise =
+            samples.is_multiple_of(2) && self.owner.last() == Some(&Owner::Noise);
         let noise_w = noise_bins as f64 - if nyquist_is_noise { 0.5 } else { 0.0 };
         let noise_per_bin = if noise_w > 0.0 {
             noise_sum / noise_w

@@ -7,7 +7,7 @@
 //! expected under their bins subtracted.
 
 use super::claim::{Claims, Measurement, SpurAt};
-use crate::full_scale_power;
+use crate::record::full_scale_power;
 use serde::Serialize;
 
 /// 20·log10(√(3/2)): the exact form of the 1.76 dB in 6.02N + 1.76 (handbook formula).

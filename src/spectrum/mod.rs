@@ -14,16 +14,14 @@ pub mod rule;
 
 pub use crate::dft::fft;
 pub use crate::dft::window::*;
-pub use coherence::{Coherence, COHERENCE_SIGMAS, SPECTRAL_CHECK_CYCLES};
-pub use leakage::{LeakageDiagnosis, BIAS_WARN_DB};
+pub use coherence::Coherence;
+pub use leakage::LeakageDiagnosis;
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
-pub use rule::{
-    choose_window, ideal_snr_db, tone_halfwidth, WindowChoice, AUTO_LADDER, LEAKAGE_MARGIN_DB,
-};
+pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice};
 
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::SineFit;
 use crate::freq::fold_bin;
-use crate::{Error, ErrorKind, Location, Result};
 use claim::{Owner, Place};
 use coherence::Unwindowed;
 use serde::Serialize;
@@ -146,19 +144,6 @@ pub struct SpectrumOutput {
     pub warnings: Vec<String>,
 }
 
-/// Measures the spectrum of one or more records of one condition (equal lengths), around the tone of
-/// `fit` (fitted on the first record).
-pub fn measure(
-    records: &[&[f64]],
-    fit: &SineFit,
-    sample_rate_hz: f64,
-    bits: u32,
-    settings: &SpectrumSettings,
-) -> Result<SpectrumOutput> {
-    let owned: Vec<Vec<f64>> = records.iter().map(|r| r.to_vec()).collect();
-    measure_consuming(owned, fit, sample_rate_hz, bits, settings)
-}
-
 /// [`measure`] on records the caller no longer needs: each one is windowed and transformed in place,
 /// which saves a copy of the record (128 MB at 2^24 samples).
 pub fn measure_consuming(
@@ -259,7 +244,7 @@ pub fn measure_consuming(
     if coherence.coherent {
         let j = coherence.cycles.round() as u64;
         let g = crate::freq::gcd(j, n as u64);
-        if g != 1 || j % 2 == 0 {
+        if g != 1 || j.is_multiple_of(2) {
             warnings.push(format!(
                 "coherent with J = {j} cycles, which {}: the record samples only {} distinct phases, so quantisation error piles into harmonics; prefer an odd J coprime with N",
                 if g != 1 { format!("shares the factor {g} with N = {n}") } else { "is even".to_string() },

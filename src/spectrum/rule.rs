@@ -14,10 +14,29 @@ use crate::dft::Window;
 /// How the window is chosen.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum WindowChoice {
-    /// By the rule of [`crate::spectrum::rule`].
+    /// By the window rule: rectangular for a coherent record, else the narrowest window whose
+    /// leakage stays below the expected noise.
     Auto,
     /// Always this window.
     Fixed(Window),
+}
+
+impl std::str::FromStr for WindowChoice {
+    type Err = crate::error::Error;
+
+    /// `auto` (any case), or a window id as [`Window`]'s `FromStr` takes it. Errors:
+    /// [`crate::error::ErrorKind::BadSetting`] on key `window`, naming `auto` beside the windows.
+    fn from_str(s: &str) -> crate::error::Result<WindowChoice> {
+        if s.trim().eq_ignore_ascii_case("auto") {
+            return Ok(WindowChoice::Auto);
+        }
+        s.parse()
+            .map(WindowChoice::Fixed)
+            .map_err(|e: crate::error::Error| crate::error::Error {
+                expected: format!("auto or {}", e.expected),
+                ..e
+            })
+    }
 }
 
 /// Margin below the expected noise that a window's leakage must keep to bias SNR by < 0.1 dB:

@@ -199,13 +199,7 @@ fn db_to_ratio(db: f64) -> f64 {
 
 impl Model {
     fn new(s: &SynthSettings) -> Result<Model> {
-        if !(1..=32).contains(&s.bits) {
-            return Err(Error::setting(
-                "bits",
-                "a resolution in 1..=32 bits",
-                s.bits.to_string(),
-            ));
-        }
+        crate::record::check_bits(s.bits)?;
         let fs = s.sample_rate_hz;
         if !(fs.is_finite() && fs > 0.0) {
             return Err(Error::setting(
@@ -544,13 +538,7 @@ pub fn write_record(path: &Path, record: &Record, layout: &OutputLayout) -> Resu
             found,
         )
     };
-    if !(1..=32).contains(&record.bits) {
-        return Err(setting(
-            "bits",
-            "a resolution in 1..=32 bits".into(),
-            record.bits.to_string(),
-        ));
-    }
+    crate::record::check_bits(record.bits).map_err(|e| e.with_path(&shown))?;
     if let OutputLayout::Binary { word_bytes, .. } = *layout {
         if word_bytes != 2 && word_bytes != 4 {
             return Err(setting(

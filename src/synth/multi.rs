@@ -93,13 +93,7 @@ fn finite_in(key: &str, v: f64, lo: f64, hi: f64, what: &str) -> Result<()> {
 }
 
 fn check_common(bits: u32, fs: f64, samples: usize, noise: f64) -> Result<()> {
-    if !(1..=32).contains(&bits) {
-        return Err(Error::setting(
-            "bits",
-            "a resolution in 1..=32 bits",
-            bits.to_string(),
-        ));
-    }
+    crate::record::check_bits(bits)?;
     finite_in(
         "sample_rate_hz",
         fs,
@@ -365,19 +359,19 @@ mod tests {
         };
         assert_eq!(
             interleaved(&s).unwrap_err().location,
-            crate::Location::Key("channels".into())
+            crate::error::Location::Key("channels".into())
         );
         s.channel_gain_errors = vec![0.0, 0.0];
         s.channel_timing_errors_s = vec![0.0, 2e-6];
         assert_eq!(
             interleaved(&s).unwrap_err().location,
-            crate::Location::Key("channel_timing_errors_s".into())
+            crate::error::Location::Key("channel_timing_errors_s".into())
         );
         s.channel_timing_errors_s = vec![0.0, 0.0];
         s.tone.frequency_hz = 600e3;
         assert_eq!(
             interleaved(&s).unwrap_err().kind,
-            crate::ErrorKind::BadSetting
+            crate::error::ErrorKind::BadSetting
         );
     }
 }

@@ -42,7 +42,7 @@ fi
 
 # ── the spurline binary ──
 if [ -z "${SPURLINE:-}" ]; then
-  (cd "$repo" && cargo build --quiet --profile test --bin spurline) || fail "cargo build"
+  (cd "$repo" && cargo build --locked --quiet --profile test --bin spurline) || fail "cargo build"
   SPURLINE=${CARGO_TARGET_DIR:-$repo/target}/debug/spurline
 fi
 [ -x "$SPURLINE" ] || fail "no spurline binary at $SPURLINE"

@@ -341,18 +341,18 @@ pub mod finite {
 
 /// Checks every output made from an analysis: no non-finite float anywhere in the result record, and no
 /// NaN or infinity in the JSON, CSV and text renderings.
-pub fn check_outputs<T: Serialize>(what: &T, analyses: &[spurline::analysis::Analysis]) {
+pub fn check_outputs<T: Serialize>(what: &T, analyses: &[spurline::Analysis]) {
     if let Err(e) = finite::check(what) {
         panic!("non-finite figure {e}");
     }
-    let json = spurline::report::json::to_json(analyses);
+    let json = spurline::to_json(analyses);
     let back: serde_json::Value = serde_json::from_str(&json).unwrap();
     // Null appears only where a figure is optional; re-serialising the Rust value must give the same JSON
     // (a NaN would have become null on the way out and fail the walk above already).
     assert_eq!(back, serde_json::to_value(analyses).unwrap());
-    no_nan_words(&spurline::report::csv::to_csv(analyses, 10));
+    no_nan_words(&spurline::to_csv(analyses, 10));
     for a in analyses {
-        no_nan_words(&spurline::report::text::render(a));
+        no_nan_words(&spurline::render_text(a));
     }
 }
 
@@ -371,8 +371,8 @@ pub fn check_plan_error(e: &Error, path: &str, input: &str) {
 
 /// Checks a plan `BenchPlan::parse` accepted: every value inside the range its docs give, every line
 /// inside the input, and the derived settings free of NaN.
-pub fn check_plan(plan: &spurline::lot::BenchPlan, input: &str) {
-    use spurline::lot::RecordSource;
+pub fn check_plan(plan: &spurline::BenchPlan, input: &str) {
+    use spurline::RecordSource;
     let lines = line_count(input.as_bytes());
     let fs = plan.ingest.meta.sample_rate_hz.expect("a sample rate");
     assert!(fs.is_finite() && fs > 0.0, "{fs}");
@@ -435,10 +435,10 @@ pub fn check_limits_error(e: &Error, path: &str, input: &str) {
 /// order, every condition and metric of the scope, finite ordered bounds, and a CSV form that reads
 /// back to the same limits.
 pub fn check_limits(
-    t: &spurline::lot::limits::LimitTable,
+    t: &spurline::LimitTable,
     path: &str,
     input: &str,
-    scope: &spurline::lot::limits::Scope,
+    scope: &[(String, spurline::Catalogue)],
 ) {
     let lines = line_count(input.as_bytes());
     assert!(!t.limits.is_empty());
@@ -479,9 +479,9 @@ pub fn check_limits(
             "{l:?} twice"
         );
     }
-    let back = spurline::lot::limits::LimitTable::parse(&t.to_csv(), path, scope)
+    let back = spurline::LimitTable::parse(&t.to_csv(), path, scope)
         .unwrap_or_else(|e| panic!("the table's CSV does not read back: {e}"));
-    let strip = |t: &spurline::lot::limits::LimitTable| -> Vec<_> {
+    let strip = |t: &spurline::LimitTable| -> Vec<_> {
         t.limits
             .iter()
             .map(|l| {
@@ -503,7 +503,7 @@ pub fn check_limits(
             let v = t.judge(name, |_| value);
             no_nan_words(&format!("{v:?}"));
             if value.is_none() && applies {
-                assert_eq!(v.outcome, spurline::lot::limits::Outcome::Fail, "{v:?}");
+                assert_eq!(v.outcome, spurline::Outcome::Fail, "{v:?}");
             }
         }
     }

@@ -6,9 +6,10 @@
 pub mod output;
 pub mod plots;
 
+use crate::error::Result;
 use crate::figures;
+use crate::lot::files::{DroppedCell, LotSummary};
 use crate::stats::{self, NoTest, Summary, TTest};
-use crate::{Error, ErrorKind, Location, Result};
 use serde::Serialize;
 use std::collections::{BTreeMap, BTreeSet};
 use std::path::Path;
@@ -39,53 +40,23 @@ pub struct Run {
     pub error_rows: Vec<String>,
     /// (device, condition) → the record file the row was analysed from (`source`).
     pub sources: BTreeMap<(String, String), String>,
+    /// Figure cells left out as not numbers (text, NaN, infinity), by the one rule of the lot reader.
+    pub dropped: Vec<DroppedCell>,
 }
 
-/// Reads a lot run folder (its `summary.csv`, as `spurline batch` writes it).
+/// Reads a lot run folder (its `summary.csv`, as `spurline batch` writes it) through the one reader
+/// of lot files: cells that are not numbers are left out and listed in [`Run::dropped`].
 pub fn read_run(dir: &Path) -> Result<Run> {
-    let path = dir.join("summary.csv");
-    let shown = path.display().to_string();
-    let text = std::fs::read_to_string(&path).map_err(|e| {
-        Error::new(
-            ErrorKind::Io,
-            &shown,
-            Location::Whole,
-            "a readable lot summary.csv",
-            e.to_string(),
-        )
-    })?;
-    let mut rd = ::csv::ReaderBuilder::new().from_reader(text.as_bytes());
-    let header: Vec<String> = rd
-        .headers()
-        .map_err(|e| {
-            Error::new(
-                ErrorKind::BadMetadata,
-                &shown,
-                Location::Row(1),
-                "a CSV header",
-                e.to_string(),
-            )
-        })?
-        .iter()
-        .map(str::to_string)
-        .collect();
-    let col = |name: &str| header.iter().position(|h| h == name);
-    let (Some(dev), Some(cond)) = (col("device"), col("condition")) else {
-        return Err(Error::new(
-            ErrorKind::BadMetadata,
-            &shown,
-            Location::Row(1),
-            "columns 'device' and 'condition' (a lot summary written by spurline batch)",
-            header.join(","),
-        ));
-    };
-    let error_col = col(figures::ERROR_MESSAGE.key);
-    let (bits, fs, fin) = (
+    let summary = LotSummary::in_folder(dir)?;
+    let col = |name: &str| summary.column(name);
+    let (bits, fs, fin, source) = (
         col(figures::BITS.key),
         col(figures::SAMPLE_RATE.key),
         col(figures::FIN.key),
+        col(figures::SOURCE.key),
     );
-    let metrics: Vec<(usize, &String)> = header
+    let metrics: Vec<(usize, &String)> = summary
+        .columns()
         .iter()
         .enumerate()
         .filter(|(_, h)| better_direction(h).is_some())
@@ -97,38 +68,25 @@ pub fn read_run(dir: &Path) -> Result<Run> {
         frequency_hz: BTreeMap::new(),
         error_rows: Vec::new(),
         sources: BTreeMap::new(),
+        dropped: Vec::new(),
     };
-    let source = col(figures::SOURCE.key);
-    for (i, rec) in rd.records().enumerate() {
-        let rec = rec.map_err(|e| {
-            Error::new(
-                ErrorKind::BadMetadata,
-                &shown,
-                Location::Row(i + 2),
-                "a CSV row",
-                e.to_string(),
-            )
-        })?;
-        let get = |k: Option<usize>| k.and_then(|k| rec.get(k)).unwrap_or("").to_string();
-        let (d, c) = (get(Some(dev)), get(Some(cond)));
-        let err = get(error_col);
-        if !err.is_empty() {
+    for row in summary.rows() {
+        let row = row?;
+        let get = |k: Option<usize>| k.map_or("", |k| row.cell(k)).to_string();
+        let (d, c) = (row.device().to_string(), row.condition().to_string());
+        if let Some(err) = row.error() {
             run.error_rows.push(format!("{d} / {c}: {err}"));
             continue;
         }
-        let mut vals = BTreeMap::new();
-        for (k, name) in &metrics {
-            if let Some(v) = rec.get(*k).and_then(|s| s.trim().parse::<f64>().ok()) {
-                if v.is_finite() {
-                    vals.insert((*name).clone(), v);
-                }
-            }
-        }
+        let vals = metrics
+            .iter()
+            .filter_map(|&(k, name)| row.number(k).map(|v| (name.clone(), v)))
+            .collect();
         run.setup
             .entry(c.clone())
             .or_default()
             .insert((get(bits), get(fs)));
-        if let Ok(f) = get(fin).parse::<f64>() {
+        if let Some(f) = fin.and_then(|k| row.number(k)) {
             run.frequency_hz.entry(c.clone()).or_default().push(f);
         }
         let src = get(source);
@@ -137,6 +95,7 @@ pub fn read_run(dir: &Path) -> Result<Run> {
         }
         run.values.insert((d, c), vals);
     }
+    run.dropped = summary.dropped();
     Ok(run)
 }
 

@@ -3,10 +3,10 @@
 
 use super::plots::{distributions_svg, versus_frequency_svg};
 use super::{Better, Change, Comparison, MetricComparison, Run};
+use crate::error::Result;
 use crate::figures;
 use crate::report::{escape, write_atomic};
 use crate::stats::{Summary, TTest};
-use crate::Result;
 use std::fmt::Write;
 use std::path::Path;
 
@@ -246,7 +246,7 @@ fn spectrum_points(
         crate::ingest::read_record(Path::new(source), &settings).map_err(|e| e.to_string())?;
     let m = crate::analysis::analyze(&rec.record, &crate::analysis::AnalysisSettings::default())
         .map_err(|e| e.to_string())?;
-    let pfs = crate::full_scale_power(rec.record.bits);
+    let pfs = crate::record::full_scale_power(rec.record.bits);
     let p = &m.traces.powers;
     let bin_hz = rec.record.sample_rate_hz / rec.record.len() as f64;
     let per = p.len().div_ceil(columns.max(1)).max(1);

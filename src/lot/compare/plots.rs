@@ -1,8 +1,8 @@
 //! Comparison plots (SVG, plotters): the two runs' distributions side by side, and a figure against
 //! input frequency for both runs.
 
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::report::svg::{palette, rgb};
-use crate::{Error, ErrorKind, Location, Result};
 use plotters::prelude::*;
 
 const FONT: &str = "sans-serif";

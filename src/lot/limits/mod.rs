@@ -41,10 +41,10 @@ mod table;
 mod verdict;
 
 pub use proposals::{
-    default_metrics, proposal_table, propose, Characterisation, Existing, GuardbandRule, Margin,
-    Method, Proposal, ProposalSettings, ResultRow,
+    default_metrics, proposal_table, propose, read_results, Characterisation, Existing,
+    GuardbandRule, Margin, Method, Proposal, ProposalSettings, ResultRow,
 };
-pub use table::{Catalogue, Limit, LimitTable, Metric, Scope};
+pub use table::{Catalogue, Limit, LimitTable, Metric};
 pub use verdict::{Bound, Check, CheckOutcome, Outcome, Verdict};
 
 /// A number for people: at most 6 significant digits, trailing zeros dropped, exponent form below

@@ -2,14 +2,18 @@
 //! limits at mean ± k·σ or at percentiles (one-sided where only one direction is bad), guardbands, and
 //! the capability (Cpk) against an existing table.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
+use std::path::{Path, PathBuf};
 
 use serde::Serialize;
 
 use super::{Catalogue, Limit, LimitTable};
+use crate::error::{Error, Location, Result};
 use crate::figures::{self, Better, Unit};
+use crate::lot::files::{
+    read_bytes, read_error, DroppedCell, LotSummary, RESULTS_JSON, SUMMARY_CSV,
+};
 use crate::stats;
-use crate::{Error, Result};
 
 /// Figures of a characterisation run: one row per device and condition, metric values by full name.
 #[derive(Debug, Clone, PartialEq, Default)]
@@ -20,6 +24,8 @@ pub struct Characterisation {
     pub conditions: Vec<String>,
     /// The rows that were analysed (error rows are left out).
     pub rows: Vec<ResultRow>,
+    /// Cells of the summaries read that were left out as not numbers (see [`crate::lot::LotSummary`]).
+    pub dropped: Vec<DroppedCell>,
 }
 
 /// One analysed device and condition.
@@ -66,7 +72,7 @@ pub enum Method {
         /// Standard deviations from the mean.
         k: f64,
     },
-    /// The p-th and (100 − p)-th percentiles (linear interpolation, see [`stats::percentile`]).
+    /// The p-th and (100 − p)-th percentiles (linear interpolation between closest ranks, numpy's default).
     Percentile {
         /// Percent in each tail, 0..50.
         percent: f64,
@@ -91,9 +97,11 @@ pub struct GuardbandRule {
     pub margin: Margin,
 }
 
-impl GuardbandRule {
+impl std::str::FromStr for GuardbandRule {
+    type Err = Error;
+
     /// Parses `[METRIC=]VALUE` or `[METRIC=]Nsigma`: `0.5`, `1sigma`, `snr_db=0.3`.
-    pub fn parse(s: &str) -> Result<GuardbandRule> {
+    fn from_str(s: &str) -> Result<GuardbandRule> {
         let (metric, value) = match s.split_once('=') {
             Some((m, v)) => (Some(m.trim().to_string()), v.trim()),
             None => (None, s.trim()),
@@ -144,7 +152,7 @@ pub struct Existing {
     pub low: Option<f64>,
     /// High limit.
     pub high: Option<f64>,
-    /// Cpk of the lot against it ([`stats::cpk`]).
+    /// Cpk of the lot against it: min((high − mean)/3σ, (mean − low)/3σ).
     pub cpk: Option<f64>,
 }
 
@@ -167,7 +175,8 @@ pub struct Proposal {
     pub high: Option<f64>,
     /// Proposed guardband.
     pub guardband: f64,
-    /// How the distribution is clearly not normal ([`stats::shape_note`]).
+    /// How the distribution is clearly not normal: with at least [`crate::stats::SHAPE_MIN_N`] values, a
+    /// Jarque-Bera p-value below 0.01, and the skew or tails it shows.
     pub shape: Option<String>,
     /// The existing limit, when a table was given and has one.
     pub existing: Option<Existing>,
@@ -304,6 +313,198 @@ pub fn proposal_table(proposals: &[Proposal], path: &str) -> LimitTable {
         path: path.to_string(),
         limits,
     }
+}
+
+/// Reads a characterisation run's results back: a batch output folder (its `summary.csv`, else every
+/// `<device>/results.json` in it), a summary CSV, or `results.json` files. Error rows are left out;
+/// cells that are not numbers are left out by the one rule (see the module docs) and listed in
+/// [`Characterisation::dropped`]. Errors: a file that cannot be read, a CSV without `device` and
+/// `condition` columns, a JSON file not in the `results.json` shape.
+pub fn read_results(paths: &[PathBuf]) -> Result<Characterisation> {
+    let mut files: Vec<PathBuf> = Vec::new();
+    for p in paths {
+        if p.is_dir() {
+            let summary = p.join(SUMMARY_CSV);
+            if summary.is_file() {
+                files.push(summary);
+                continue;
+            }
+            let mut found: Vec<PathBuf> = std::fs::read_dir(p)
+                .map_err(|e| {
+                    read_error(
+                        p,
+                        Location::Whole,
+                        "a readable results folder",
+                        e.to_string(),
+                    )
+                })?
+                .flatten()
+                .map(|e| e.path().join(RESULTS_JSON))
+                .filter(|r| r.is_file())
+                .collect();
+            if found.is_empty() {
+                return Err(read_error(
+                    p,
+                    Location::Whole,
+                    "a batch output folder with summary.csv or <device>/results.json",
+                    "neither".into(),
+                ));
+            }
+            found.sort();
+            files.extend(found);
+        } else {
+            files.push(p.clone());
+        }
+    }
+    enum Table {
+        Csv(LotSummary),
+        Json(JsonRows),
+    }
+    let mut tables = Vec::with_capacity(files.len());
+    for f in &files {
+        let is_json = f
+            .extension()
+            .is_some_and(|e| e.eq_ignore_ascii_case("json"));
+        tables.push(if is_json {
+            Table::Json(json_rows(f)?)
+        } else {
+            Table::Csv(LotSummary::read(f)?)
+        });
+    }
+    let catalogue = Catalogue::from_columns(tables.iter().flat_map(|t| match t {
+        Table::Csv(s) => s.columns().to_vec(),
+        Table::Json(j) => j.columns.clone(),
+    }));
+    let mut data = Characterisation {
+        catalogue,
+        ..Characterisation::default()
+    };
+    let add = |data: &mut Characterisation, row: ResultRow| {
+        if !data.conditions.contains(&row.condition) {
+            data.conditions.push(row.condition.clone());
+        }
+        data.rows.push(row);
+    };
+    for t in &tables {
+        match t {
+            Table::Csv(summary) => {
+                let cols: Vec<(String, Option<usize>)> = data
+                    .catalogue
+                    .metrics()
+                    .iter()
+                    .map(|m| (m.name.clone(), summary.column(&m.name)))
+                    .collect();
+                for row in summary.rows() {
+                    let row = row?;
+                    if row.error().is_some() {
+                        continue;
+                    }
+                    let values = cols
+                        .iter()
+                        .filter_map(|(name, c)| {
+                            c.and_then(|c| row.number(c)).map(|v| (name.clone(), v))
+                        })
+                        .collect();
+                    add(
+                        &mut data,
+                        ResultRow {
+                            device: row.device().to_string(),
+                            condition: row.condition().to_string(),
+                            values,
+                        },
+                    );
+                }
+                data.dropped.extend(summary.dropped());
+            }
+            Table::Json(j) => {
+                for (device, condition, cells) in &j.rows {
+                    let values = data
+                        .catalogue
+                        .metrics()
+                        .iter()
+                        .filter_map(|m| {
+                            cells
+                                .get(&m.name)
+                                .and_then(|v| v.parse::<f64>().ok())
+                                .filter(|v| v.is_finite())
+                                .map(|v| (m.name.clone(), v))
+                        })
+                        .collect();
+                    add(
+                        &mut data,
+                        ResultRow {
+                            device: device.clone(),
+                            condition: condition.clone(),
+                            values,
+                        },
+                    );
+                }
+            }
+        }
+    }
+    Ok(data)
+}
+
+/// The rows of one `results.json`: its flattened columns, and per condition without an error the
+/// device, the condition and its flattened figures.
+struct JsonRows {
+    columns: Vec<String>,
+    rows: Vec<(String, String, HashMap<String, String>)>,
+}
+
+fn json_rows(path: &Path) -> Result<JsonRows> {
+    let text = String::from_utf8(read_bytes(path, "a readable results file")?)
+        .map_err(|e| read_error(path, Location::Whole, "a UTF-8 results.json", e.to_string()))?;
+    let v: serde_json::Value = serde_json::from_str(&text).map_err(|e| {
+        read_error(
+            path,
+            Location::LineColumn(e.line(), e.column()),
+            "a results.json file of a batch run",
+            e.to_string(),
+        )
+    })?;
+    let shape = |found: &str| {
+        read_error(
+            path,
+            Location::Whole,
+            "a results.json object {\"device\", \"conditions\": [{\"condition\", \"result\"}]}",
+            found.to_string(),
+        )
+    };
+    let device = v
+        .get("device")
+        .and_then(|d| d.as_str())
+        .ok_or_else(|| shape("no \"device\" string"))?;
+    let conditions = v
+        .get("conditions")
+        .and_then(|c| c.as_array())
+        .ok_or_else(|| shape("no \"conditions\" array"))?;
+    let mut columns: Vec<String> = Vec::new();
+    let mut rows = Vec::new();
+    for (i, c) in conditions.iter().enumerate() {
+        let name = c
+            .get("condition")
+            .and_then(|n| n.as_str())
+            .ok_or_else(|| shape(&format!("conditions[{i}] without a \"condition\" string")))?;
+        let result = c
+            .get("result")
+            .ok_or_else(|| shape(&format!("conditions[{i}] without a \"result\"")))?;
+        if result.get("error").is_some_and(|e| !e.is_null()) {
+            continue;
+        }
+        let flat = crate::figures::flatten(result);
+        for (k, _) in &flat {
+            if !columns.contains(k) {
+                columns.push(k.clone());
+            }
+        }
+        rows.push((
+            device.to_string(),
+            name.to_string(),
+            flat.into_iter().collect(),
+        ));
+    }
+    Ok(JsonRows { columns, rows })
 }
 
 #[cfg(test)]

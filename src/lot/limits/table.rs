@@ -7,8 +7,8 @@ use std::path::Path;
 use serde::Serialize;
 
 use super::format_value;
+use crate::error::{Error, ErrorKind, Location, Result};
 use crate::figures::{self, Better, Unit};
-use crate::{Error, ErrorKind, Location, Result};
 
 /// A metric limits can be set on: a figure of the result record with a unit ([`figures::Figure::is_metric`]).
 #[derive(Debug, Clone, PartialEq, Eq, Serialize)]
@@ -140,15 +140,8 @@ impl LimitTable {
     /// Reads and resolves a limit table file.
     pub fn read(path: &Path, scope: &Scope) -> Result<LimitTable> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            Error::new(
-                ErrorKind::Io,
-                &shown,
-                Location::Whole,
-                "a readable limit table (UTF-8 CSV)",
-                e.to_string(),
-            )
-        })?;
+        let text = std::fs::read_to_string(path)
+            .map_err(|e| Error::io(path, "a readable limit table (UTF-8 CSV)", e))?;
         LimitTable::parse(&text, &shown, scope)
     }
 

@@ -1,13 +1,15 @@
 //! Verdicts: one limit applied to one value gives a check (pass, fail, inside the guardband, no value),
 //! a result's checks give its verdict with a one-sentence reason.
 
-use serde::Serialize;
+use std::str::FromStr;
+
+use serde::{Deserialize, Serialize};
 
 use super::{format_value, Limit, LimitTable};
 use crate::figures::Unit;
 
 /// Which stated limit a check is about.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Bound {
     /// The low limit.
@@ -27,7 +29,7 @@ impl Bound {
 }
 
 /// Outcome of one limit on one result.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum CheckOutcome {
     /// Inside the tightened limits.
@@ -116,7 +118,7 @@ impl Limit {
 }
 
 /// The verdict on one result.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Outcome {
     /// Every limit passes.
@@ -141,6 +143,33 @@ impl Outcome {
             Outcome::Untested => "untested",
             Outcome::Error => "error",
         }
+    }
+
+    /// Every outcome, in the order of the docs.
+    pub const ALL: [Outcome; 5] = [
+        Outcome::Pass,
+        Outcome::Fail,
+        Outcome::FailGuardband,
+        Outcome::Untested,
+        Outcome::Error,
+    ];
+}
+
+impl FromStr for Outcome {
+    type Err = crate::error::Error;
+
+    /// Parses a verdict as the outputs write it ([`Outcome::as_str`]).
+    fn from_str(s: &str) -> crate::error::Result<Outcome> {
+        Outcome::ALL
+            .into_iter()
+            .find(|o| o.as_str() == s)
+            .ok_or_else(|| {
+                crate::error::Error::setting(
+                    "verdict",
+                    "pass, fail, fail_guardband, untested or error",
+                    format!("'{s}'"),
+                )
+            })
     }
 }
 

@@ -2,14 +2,15 @@
 //! the fitted sine overlaid: the arcsine law of the sine-wave code-density (histogram) test of IEEE Std
 //! 1241 and IEEE Std 1057 (from memory of those standards; the formula is derived in [`ideal_counts`]).
 
+use super::spectrum::column_extremes;
 use super::{
-    column_extremes, draw_err, draw_panel, nice_ticks, no_data, palette, rgb, style_mesh,
-    tick_label, PanelLines, PlotOptions, TickAxis, FONT, PANEL_PX,
+    draw_err, draw_panel, nice_ticks, no_data, palette, rgb, style_mesh, tick_label, PanelLines,
+    PlotOptions, TickAxis, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
+use crate::error::Result;
 use crate::figures;
 use crate::report::units::with_unit;
-use crate::Result;
 use plotters::prelude::*;
 use std::f64::consts::PI;
 
@@ -72,7 +73,7 @@ pub fn histogram_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> 
         (Some(f), Some(l)) => (f, l),
         _ => return Err(no_data("histogram", "no counts")),
     };
-    let lowest = crate::min_code(a.bits);
+    let lowest = crate::record::min_code(a.bits);
     let total: u64 = hist.iter().sum();
     let ideal = ideal_counts(
         hist.len(),

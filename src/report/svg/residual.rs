@@ -8,10 +8,10 @@ use super::{
     PlotOptions, TickAxis, Ticks, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
+use crate::error::Result;
 use crate::figures;
 use crate::fit::FitMethod;
 use crate::report::units::with_unit;
-use crate::Result;
 use plotters::prelude::*;
 use std::f64::consts::{FRAC_PI_2, PI, TAU};
 

@@ -8,11 +8,11 @@ use super::{
     tick_label, PanelLines, PlotOptions, TickAxis, Ticks, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
+use crate::error::Result;
 use crate::figures::{self, Cells};
 use crate::report::units::{si, with_unit};
 use crate::spectrum::claim::Owner;
 use crate::spectrum::{harmonic_owner, FUNDAMENTAL};
-use crate::Result;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
@@ -170,7 +170,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             format!("sample rate {} Hz", a.sample_rate_hz),
         ));
     }
-    let pfs = crate::full_scale_power(a.bits);
+    let pfs = crate::record::full_scale_power(a.bits);
     let db = |p: f64| (p > 0.0 && p.is_finite()).then(|| 10.0 * (p / pfs).log10());
     let bin_hz = a.sample_rate_hz / a.samples as f64;
     let axis = FreqAxis {
