@@ -235,18 +235,30 @@ pub(crate) fn tick_label(v: f64, decimals: usize) -> String {
     }
 }
 
-/// An SI-prefixed label with trailing zeros of the mantissa removed: "5 MHz", "12.5 MHz", "0 Hz".
-pub fn si_label(value: f64, unit: &str) -> String {
-    if value == 0.0 {
-        return format!("0 {unit}");
+/// The SI unit an axis of hertz is labelled in, chosen by its largest value: (hertz per unit, name),
+/// e.g. (1e6, "MHz") for an axis reaching 50 MHz. Tick labels are then plain numbers and the axis
+/// title carries the unit.
+pub(crate) fn frequency_unit(hi_hz: f64) -> (f64, &'static str) {
+    let a = hi_hz.abs();
+    if a >= 1e9 {
+        (1e9, "GHz")
+    } else if a >= 1e6 {
+        (1e6, "MHz")
+    } else if a >= 1e3 {
+        (1e3, "kHz")
+    } else {
+        (1.0, "Hz")
     }
-    let s = super::units::si(value, unit, 4);
-    match s.split_once(' ') {
-        Some((num, rest)) if num.contains('.') => {
-            let num = num.trim_end_matches('0').trim_end_matches('.');
-            format!("{num} {rest}")
-        }
-        _ => s,
+}
+
+/// A number written with at most `max_decimals` decimals, trailing zeros (and a bare point) removed,
+/// never `-0`: "10", "12.5", "0.2".
+pub(crate) fn trim_number(v: f64, max_decimals: usize) -> String {
+    let s = tick_label(v, max_decimals);
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
     }
 }
 
@@ -322,12 +334,14 @@ mod tests {
     use super::*;
 
     #[test]
-    fn si_labels_drop_trailing_zeros() {
-        assert_eq!(si_label(0.0, "Hz"), "0 Hz");
-        assert_eq!(si_label(5e6, "Hz"), "5 MHz");
-        assert_eq!(si_label(12.5e6, "Hz"), "12.5 MHz");
-        assert_eq!(si_label(100e3, "Hz"), "100 kHz");
-        assert_eq!(si_label(2.0, "Hz"), "2 Hz");
+    fn frequency_units_and_trimmed_numbers() {
+        assert_eq!(frequency_unit(50e6), (1e6, "MHz"));
+        assert_eq!(frequency_unit(999.0), (1.0, "Hz"));
+        assert_eq!(frequency_unit(2.5e9), (1e9, "GHz"));
+        assert_eq!(trim_number(12.5, 6), "12.5");
+        assert_eq!(trim_number(10.0, 6), "10");
+        assert_eq!(trim_number(-0.0, 3), "0");
+        assert_eq!(trim_number(0.2, 6), "0.2");
     }
 
     #[test]

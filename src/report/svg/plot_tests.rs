@@ -50,6 +50,33 @@ fn text_at(doc: &roxmltree::Document, content: &str) -> Option<(f64, f64)> {
         })
 }
 
+/// The anchor of a tick label of the horizontal axis (the lowest `<text>` with that content: the same
+/// number can also label the vertical axis).
+fn x_tick(doc: &roxmltree::Document, content: &str) -> Option<(f64, f64)> {
+    anchors(doc, content)
+        .into_iter()
+        .max_by(|a, b| a.1.total_cmp(&b.1))
+}
+
+/// The anchor of a tick label of the vertical axis (the leftmost `<text>` with that content).
+fn y_tick(doc: &roxmltree::Document, content: &str) -> Option<(f64, f64)> {
+    anchors(doc, content)
+        .into_iter()
+        .min_by(|a, b| a.0.total_cmp(&b.0))
+}
+
+fn anchors(doc: &roxmltree::Document, content: &str) -> Vec<(f64, f64)> {
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text") && n.text().map(str::trim) == Some(content))
+        .map(|n| {
+            (
+                n.attribute("x").unwrap().parse().unwrap(),
+                n.attribute("y").unwrap().parse().unwrap(),
+            )
+        })
+        .collect()
+}
+
 fn points_of(n: &roxmltree::Node) -> Vec<(f64, f64)> {
     n.attribute("points")
         .unwrap_or("")
@@ -76,7 +103,7 @@ fn spectrum_plot_is_well_formed_labelled_and_marked() {
     let has = |s: &str| all.iter().any(|t| t == s);
     for label in [
         "rich · spectrum",
-        "frequency",
+        "frequency (MHz)",
         "dBFS per bin",
         "H1",
         "H2",
@@ -92,10 +119,10 @@ fn spectrum_plot_is_well_formed_labelled_and_marked() {
         "samples",
         "fs",
         "records averaged",
-        // SI-prefixed tick labels of a 100 MHz record: 0 to fs/2.
-        "0 Hz",
-        "10 MHz",
-        "50 MHz",
+        // Tick labels of a 100 MHz record in the axis title's unit: 0 to fs/2.
+        "0",
+        "10",
+        "50",
     ] {
         assert!(has(label), "no text '{label}' in {all:?}");
     }
@@ -108,8 +135,8 @@ fn spectrum_plot_is_well_formed_labelled_and_marked() {
 
     // Markers sit where the figures say: H2 at the folded 2·fin, against the axis' own tick labels
     // (fold rule: common practice, no source).
-    let x0 = text_at(&doc, "0 Hz").unwrap().0;
-    let x50 = text_at(&doc, "50 MHz").unwrap().0;
+    let x0 = x_tick(&doc, "0").unwrap().0;
+    let x50 = x_tick(&doc, "50").unwrap().0;
     let fin = m.analysis.fit.as_ref().unwrap().frequency_hz;
     let h2 = text_at(&doc, "H2").unwrap();
     let expect_h2 = interpolate((x0, 0.0), (x50, 50e6), 2.0 * fin);
@@ -121,7 +148,7 @@ fn spectrum_plot_is_well_formed_labelled_and_marked() {
 
     // The floor line: every FLOOR-coloured dash is horizontal at the pixel of the average floor, and
     // the dashes span the axis.
-    let y_of = |label: &str| text_at(&doc, label).map(|p| p.1);
+    let y_of = |label: &str| y_tick(&doc, label).map(|p| p.1);
     let (ya, yb) = (y_of("-100").unwrap(), y_of("-120").unwrap());
     let floor = sp.noise_floor_dbfs.unwrap();
     let expect_y = interpolate((ya, -100.0), (yb, -120.0), floor);
@@ -159,11 +186,13 @@ fn log_frequency_axis_spaces_decades_equally() {
     };
     let svg = spectrum_svg("rich", &m.analysis, &m.traces, &o).unwrap();
     let doc = roxmltree::Document::parse(&svg).unwrap();
-    assert!(texts(&doc).iter().any(|t| t == "frequency (log scale)"));
+    assert!(texts(&doc)
+        .iter()
+        .any(|t| t == "frequency (MHz, log scale)"));
     // Bin width 12.2 kHz: the axis covers 100 kHz, 1 MHz and 10 MHz decades; on a log axis each
     // decade is the same width (definition of a log scale).
-    let x = |l: &str| text_at(&doc, l).unwrap_or_else(|| panic!("no tick {l}")).0;
-    let (a, b, c) = (x("100 kHz"), x("1 MHz"), x("10 MHz"));
+    let x = |l: &str| x_tick(&doc, l).unwrap_or_else(|| panic!("no tick {l}")).0;
+    let (a, b, c) = (x("0.1"), x("1"), x("10"));
     assert!(b - a > 50.0);
     assert!(((c - b) - (b - a)).abs() <= 1.0, "{a} {b} {c}");
 }
@@ -242,10 +271,10 @@ fn plots_of_a_2_20_sample_record_stay_under_1_mb() {
     let doc = roxmltree::Document::parse(&spec).unwrap();
     let sp = m.analysis.spectrum.as_ref().unwrap();
     let fund = sp.fundamental_dbfs.unwrap();
-    let x0 = text_at(&doc, "0 Hz").unwrap().0;
-    let x50 = text_at(&doc, "50 MHz").unwrap().0;
-    let y_tick = |v: i32| text_at(&doc, &v.to_string()).map(|p| (p.1, v as f64));
-    let ticks: Vec<(f64, f64)> = (-200..=0).step_by(10).filter_map(y_tick).collect();
+    let x0 = x_tick(&doc, "0").unwrap().0;
+    let x50 = x_tick(&doc, "50").unwrap().0;
+    let y_at = |v: i32| y_tick(&doc, &v.to_string()).map(|p| (p.1, v as f64));
+    let ticks: Vec<(f64, f64)> = (-200..=0).step_by(10).filter_map(y_at).collect();
     let (ta, tb) = (ticks[0], ticks[ticks.len() - 1]);
     let want_x = interpolate((x0, 0.0), (x50, 50e6), spur_hz);
     let want_y = interpolate(ta, tb, fund - 110.0);
@@ -339,4 +368,193 @@ fn ideal_histogram_matches_a_densely_sampled_sine() {
     assert!(doc
         .descendants()
         .any(|n| n.has_tag_name("polyline") && n.attribute("stroke") == Some(&ideal_hex)));
+}
+
+/// Equivalent noise bandwidth (bins) and coherent gain of the windows the plot scales by, as Heinzel
+/// et al. 2002 (ENBW, 4 decimals) and Harris 1978 Table I (coherent gain, 2 decimals; from memory)
+/// print them; the scale of the plot is 10·log10(ENBW).
+#[test]
+fn plot_scale_is_the_published_window_figures() {
+    use super::spectrum::PlotScale;
+    // Heinzel prints four decimals: half a unit of the last digit.
+    const PRINTED_ENBW: f64 = 0.5e-4;
+    // Harris prints two decimals: half a unit of the last digit.
+    const PRINTED_CG: f64 = 0.5e-2;
+    for (name, enbw, cg) in [
+        ("rectangular", 1.0000, 1.00),
+        ("hann", 1.5000, 0.50),
+        ("blackman-harris-4", 2.0044, 0.36),
+        ("hft90d", 3.8832, 0.21),
+        ("hft144d", 4.5386, 0.18),
+    ] {
+        let s = PlotScale::of(name).unwrap();
+        assert!(
+            (s.enbw_bins - enbw).abs() <= PRINTED_ENBW,
+            "{name}: ENBW {}",
+            s.enbw_bins
+        );
+        assert!(
+            (s.coherent_gain - cg).abs() <= PRINTED_CG,
+            "{name}: CG {}",
+            s.coherent_gain
+        );
+    }
+    // Hann: 10·log10(1.5) = 1.761 dB (closed form ENBW = (a0² + a1²/2)/a0², windows.md).
+    let hann = PlotScale::of("hann").unwrap();
+    assert!((hann.offset_db() - 1.5f64.log10() * 10.0).abs() < 1e-9);
+}
+
+/// The centre (x, y) of every filled circle of colour `c`.
+fn dots(doc: &roxmltree::Document, c: (u8, u8, u8)) -> Vec<(f64, f64)> {
+    let want = hex(c);
+    doc.descendants()
+        .filter(|n| n.has_tag_name("circle") && n.attribute("fill") == Some(want.as_str()))
+        .map(|n| {
+            (
+                n.attribute("cx").unwrap().parse().unwrap(),
+                n.attribute("cy").unwrap().parse().unwrap(),
+            )
+        })
+        .collect()
+}
+
+/// A −1 dBFS tone under a window reads −1 dBFS on the plot: its marker at the tone's level, and for a
+/// tone centred on a bin the trace's peak too; between bins the peak is lower by at most the window's
+/// scalloping loss. The noise line sits at the floor plus 10·log10(ENBW).
+#[test]
+fn windowed_tone_reads_its_level_in_dbfs() {
+    use crate::dft::window::Window;
+    use crate::spectrum::WindowChoice;
+    // The requirement, and about 1/40 of the H1 marker's pixel pitch at this height.
+    const MARKER_DB: f64 = 0.1;
+    // A tall plot: 4000 px for about 150 dB, 0.04 dB per pixel, so pixel rounding stays far below
+    // the 0.1 dB asked of the marker.
+    let o = PlotOptions {
+        height_px: 4000,
+        ..PlotOptions::default()
+    };
+    // 4096 samples at 100 MHz: bin 24.4140625 kHz. Coherent: 301 cycles; between bins: 301.5.
+    let bin_hz = 100e6 / 4096.0;
+    for (window, cycles) in [
+        (Window::Hann, 301.0),
+        (Window::Hann, 301.5),
+        (Window::BlackmanHarris4, 301.37),
+        (Window::BlackmanHarris7, 301.5),
+        (Window::Hft144d, 301.25),
+    ] {
+        let s = SynthSettings {
+            bits: 14,
+            samples: 4096,
+            amplitude_dbfs: -1.0,
+            frequency: SynthFrequency::Hz(cycles * bin_hz),
+            noise_rms_codes: 1.0,
+            harmonics_dbc: vec![(3, -80.0)],
+            seed: 11,
+            ..SynthSettings::default()
+        };
+        let rec = synthesize(&s).unwrap().record;
+        let mut settings = AnalysisSettings::default();
+        settings.spectrum.window = WindowChoice::Fixed(window);
+        let m = analyze(&rec, &settings).unwrap();
+        let svg = spectrum_svg("w", &m.analysis, &m.traces, &o).unwrap();
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let tick = |v: i32| y_tick(&doc, &v.to_string()).map(|p| (p.1, v as f64));
+        // Negative ticks only: "0" and "10" also label the frequency axis.
+        let ticks: Vec<(f64, f64)> = (-200..=-10).step_by(10).filter_map(tick).collect();
+        assert!(ticks.len() >= 3, "{window:?}: y ticks {ticks:?}");
+        let (ta, tb) = (ticks[0], ticks[ticks.len() - 1]);
+        let db_at = |y: f64| ta.1 + (y - ta.0) / (tb.0 - ta.0) * (tb.1 - ta.1);
+        let h1 = dots(&doc, palette::FUNDAMENTAL);
+        assert_eq!(h1.len(), 1, "{window:?}: one H1 marker");
+        let marker = db_at(h1[0].1);
+        assert!(
+            (marker - -1.0).abs() <= MARKER_DB,
+            "{window:?} at {cycles} cycles: H1 marker at {marker:.3} dBFS"
+        );
+        // The trace's highest point is the tone's peak bin.
+        let trace_hex = hex(palette::TRACE);
+        let peak = doc
+            .descendants()
+            .filter(|n| n.has_tag_name("polyline") && n.attribute("stroke") == Some(&trace_hex))
+            .flat_map(|n| points_of(&n))
+            .map(|p| db_at(p.1))
+            .fold(f64::NEG_INFINITY, f64::max);
+        let scallop = window.figures().scalloping_loss_db;
+        if cycles.fract() == 0.0 {
+            assert!((peak - -1.0).abs() <= MARKER_DB, "{window:?}: peak {peak}");
+        } else {
+            assert!(
+                peak <= -1.0 + MARKER_DB && peak >= -1.0 - scallop - MARKER_DB,
+                "{window:?} at {cycles}: peak {peak}, scalloping loss {scallop}"
+            );
+        }
+        // The dashed noise line: the figures' floor (power per bin) plus 10·log10(ENBW).
+        let floor_hex = hex(palette::FLOOR);
+        let floor_y = doc
+            .descendants()
+            .find(|n| n.has_tag_name("polyline") && n.attribute("stroke") == Some(&floor_hex))
+            .map(|n| points_of(&n)[0].1)
+            .unwrap();
+        let sp = m.analysis.spectrum.as_ref().unwrap();
+        let want = sp.noise_floor_dbfs.unwrap() + 10.0 * window.figures().enbw_bins.log10();
+        assert!(
+            (db_at(floor_y) - want).abs() <= MARKER_DB,
+            "{window:?}: floor drawn at {}, want {want}",
+            db_at(floor_y)
+        );
+        let all = texts(&doc);
+        assert!(
+            all.iter()
+                .any(|t| t.starts_with(&format!("{} window, ENBW", window.name()))),
+            "{window:?}: the caption states the scale"
+        );
+    }
+}
+
+/// Labels never overlap, even where harmonics fold close together; the largest non-harmonic spurs
+/// are labelled S1, S2 in order of level.
+#[test]
+fn labels_do_not_collide_and_spurs_are_listed() {
+    // fin near fs/5: H4, H6 fold next to H1 and H5, H10 next to DC and each other (fold rule:
+    // common practice, no source).
+    let s = SynthSettings {
+        bits: 12,
+        samples: 8192,
+        amplitude_dbfs: -1.0,
+        frequency: SynthFrequency::NearestCoherent(19.9e6),
+        noise_rms_codes: 0.3,
+        harmonics_dbc: (2..=10).map(|k| (k, -60.0 - 2.0 * k as f64)).collect(),
+        spur: Some((31.7e6, -70.0)),
+        seed: 3,
+        ..SynthSettings::default()
+    };
+    let m = measure(&s);
+    let svg = spectrum_svg("crowd", &m.analysis, &m.traces, &PlotOptions::default()).unwrap();
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    // Bold 12 px labels: the boxes as placed (7 px per character, 14 px tall, bottom anchored).
+    let boxes: Vec<(String, f64, f64, f64, f64)> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("text") && n.attribute("font-weight") == Some("bold"))
+        .filter_map(|n| {
+            let t = n.text()?.trim().to_string();
+            if !(t.starts_with('H') || t.starts_with('S') || t == "worst spur") {
+                return None;
+            }
+            let x: f64 = n.attribute("x")?.parse().ok()?;
+            let y: f64 = n.attribute("y")?.parse().ok()?;
+            let half = 3.5 * t.chars().count() as f64;
+            Some((t, x - half, y - 13.0, x + half, y))
+        })
+        .collect();
+    assert!(boxes.len() >= 8, "{:?}", boxes);
+    for (i, a) in boxes.iter().enumerate() {
+        for b in &boxes[i + 1..] {
+            let overlap = a.1 < b.3 && b.1 < a.3 && a.2 < b.4 && b.2 < a.4;
+            assert!(!overlap, "labels {} and {} overlap", a.0, b.0);
+        }
+    }
+    let labels: Vec<&str> = boxes.iter().map(|b| b.0.as_str()).collect();
+    assert!(labels.contains(&"S1"), "{labels:?}");
+    let all = texts(&doc);
+    assert!(all.iter().any(|t| t.starts_with("S1 31.7")), "{all:?}");
 }

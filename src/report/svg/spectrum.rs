@@ -1,11 +1,11 @@
-//! The spectrum plot: dBFS per bin against frequency (0 to fs/2, or log from the first bin), with the
+//! The spectrum plot: amplitude-normalised dBFS per bin against frequency (0 to fs/2, or log from the first bin), with the
 //! fundamental and harmonics marked by order, the worst spur, the average noise floor and a box of
 //! figures. Long records are reduced to one value pair per pixel column (the column's highest and
 //! lowest bin), so a one-bin spur is never lost between pixels.
 
 use super::{
-    draw_err, draw_panel, fixed_ticks, nice_ticks, no_data, palette, rgb, si_label, style_mesh,
-    tick_label, PanelLines, PlotOptions, TickAxis, Ticks, FONT, PANEL_PX,
+    draw_err, draw_panel, fixed_ticks, frequency_unit, nice_ticks, no_data, palette, rgb,
+    style_mesh, tick_label, trim_number, PanelLines, PlotOptions, TickAxis, Ticks, FONT, PANEL_PX,
 };
 use crate::analysis::{Analysis, Traces};
 use crate::error::Result;
@@ -143,7 +143,152 @@ fn floor_to(v: f64, step: f64) -> f64 {
     (v / step).floor() * step
 }
 
+/// How the spectrum plot scales the bin powers: by the window's equivalent noise bandwidth, which is
+/// dividing the amplitude by the window's coherent gain (the usual amplitude normalisation). A tone
+/// centred on a bin then peaks at its level in dBFS under any window; between bins its peak is lower
+/// by at most the window's scalloping loss. Noise per bin reads 10·log10(ENBW) dB above the average
+/// noise floor of the figures, which is power per bin (the crate's convention sums a tone's bins).
+#[derive(Debug, Clone, PartialEq)]
+pub struct PlotScale {
+    /// Window id, as the spectrum names it.
+    pub window: String,
+    /// Equivalent noise bandwidth, bins (Harris 1978; Heinzel et al. 2002).
+    pub enbw_bins: f64,
+    /// Normalised coherent gain Σw / (N · peak).
+    pub coherent_gain: f64,
+    /// Largest loss of a tone's peak bin, between two bins, dB.
+    pub scalloping_loss_db: f64,
+}
+
+impl PlotScale {
+    /// The scale for the window a spectrum names.
+    pub fn of(window: &str) -> Result<PlotScale> {
+        let w: crate::dft::window::Window = window.parse()?;
+        let f = w.figures();
+        Ok(PlotScale {
+            window: w.name(),
+            enbw_bins: f.enbw_bins,
+            coherent_gain: f.coherent_gain,
+            scalloping_loss_db: f.scalloping_loss_db,
+        })
+    }
+
+    /// What the plot adds to a bin's power-per-bin level: 10·log10(ENBW), dB (0 without a window).
+    pub fn offset_db(&self) -> f64 {
+        10.0 * self.enbw_bins.log10()
+    }
+}
+
+/// A non-harmonic spur found among the noise bins for the plot's labels.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SpurMark {
+    /// Its peak bin.
+    pub bin: usize,
+    /// Its power, codes²: the noise bins within the tone half-width of the peak summed, as the
+    /// worst-spur figure sums them.
+    pub power: f64,
+}
+
+/// The largest non-harmonic spurs, strongest first, at most `max`: noise bins that are the highest
+/// within ± `half` bins and whose summed lobe stands clearly above the noise. "Clearly" is a lobe
+/// above max(10, ln(100 · bins)) times its mean noise: with exponentially distributed bin powers a
+/// chance noise bin crosses it with probability below 1 % over the whole spectrum (common practice,
+/// no source). Spurs closer than 2·`half` + 1 bins to a stronger one are not listed.
+pub fn largest_spurs(
+    powers: &[f64],
+    owner: &[Owner],
+    half: usize,
+    noise_per_bin: f64,
+    max: usize,
+) -> Vec<SpurMark> {
+    let n = powers.len().min(owner.len());
+    if n == 0 || !(noise_per_bin > 0.0 && noise_per_bin.is_finite()) || max == 0 {
+        return Vec::new();
+    }
+    let factor = (100.0 * n as f64).ln().max(10.0);
+    let is_noise = |k: usize| owner[k] == Owner::Noise && powers[k].is_finite();
+    let mut found: Vec<SpurMark> = Vec::new();
+    for k in 1..n {
+        // The peak of a lobe holding factor × its mean noise is itself above factor × the mean.
+        if !is_noise(k) || powers[k] < factor * noise_per_bin {
+            continue;
+        }
+        let (lo, hi) = (k.saturating_sub(half), (k + half).min(n - 1));
+        let mut lobe = 0.0;
+        let mut bins = 0usize;
+        let mut peak = true;
+        for j in lo..=hi {
+            if !is_noise(j) {
+                continue;
+            }
+            if powers[j] > powers[k] || (powers[j] == powers[k] && j < k) {
+                peak = false;
+                break;
+            }
+            lobe += powers[j];
+            bins += 1;
+        }
+        if peak && lobe > factor * noise_per_bin * bins as f64 {
+            found.push(SpurMark {
+                bin: k,
+                power: lobe,
+            });
+        }
+    }
+    found.sort_by(|a, b| b.power.total_cmp(&a.power).then(a.bin.cmp(&b.bin)));
+    let mut kept: Vec<SpurMark> = Vec::new();
+    for s in found {
+        if kept.len() == max {
+            break;
+        }
+        if kept.iter().all(|k| k.bin.abs_diff(s.bin) > 2 * half) {
+            kept.push(s);
+        }
+    }
+    kept
+}
+
+/// A label placed on the plot: its box in pixels (left, top, right, bottom).
+type LabelBox = (i32, i32, i32, i32);
+
+fn overlaps(a: LabelBox, b: LabelBox) -> bool {
+    a.0 < b.2 && b.0 < a.2 && a.1 < b.3 && b.1 < a.3
+}
+
+/// Places a label of `chars` characters centred above the point (x, y): the lowest of a few rows
+/// that overlaps no label already placed and stays inside `area` (left, top, right, bottom). Returns
+/// the label's bottom-centre anchor, or `None` when every row is taken (the marker stays, unlabelled).
+fn place_label(
+    placed: &mut Vec<LabelBox>,
+    x: i32,
+    y: i32,
+    chars: usize,
+    area: LabelBox,
+) -> Option<(i32, i32)> {
+    const ROW_PX: i32 = 15;
+    let half_w = (7 * chars as i32) / 2 + 2;
+    let cx = x.clamp(area.0 + half_w, area.2 - half_w);
+    for row in 0..6 {
+        let bottom = y - 6 - ROW_PX * row;
+        let b = (cx - half_w, bottom - ROW_PX + 1, cx + half_w, bottom);
+        if b.1 < area.1 {
+            break;
+        }
+        if placed.iter().all(|p| !overlaps(*p, b)) {
+            placed.push(b);
+            return Some((cx, bottom));
+        }
+    }
+    None
+}
+
 /// Draws the spectrum of one analysed record as SVG text. `title` names the record in the caption.
+///
+/// The trace is amplitude-normalised (see [`PlotScale`]): a tone's peak reads its level in dBFS
+/// under any window. The fundamental (H1), the harmonics (H2..) and the largest non-harmonic spurs
+/// (S1..) are marked at their measured power (their bins summed, the figures' own values), so a
+/// marker sits above a peak that falls between bins by the scalloping. The dashed line is the average
+/// noise per bin as drawn; the caption states the window, its ENBW and the scale.
 ///
 /// Needs the record's spectral figures and its bin powers (`t.powers`, `t.owner`, bins 0..=N/2).
 pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> Result<String> {
@@ -170,8 +315,13 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             format!("sample rate {} Hz", a.sample_rate_hz),
         ));
     }
+    let scale = PlotScale::of(&sp.window)?;
+    let offset = scale.offset_db();
     let pfs = crate::record::full_scale_power(a.bits);
+    // Power-per-bin level of a power, dBFS (the figures' scale).
     let db = |p: f64| (p > 0.0 && p.is_finite()).then(|| 10.0 * (p / pfs).log10());
+    // The level a bin is drawn at: amplitude-normalised.
+    let drawn = |p: f64| db(p).map(|d| d + offset);
     let bin_hz = a.sample_rate_hz / a.samples as f64;
     let axis = FreqAxis {
         log: o.log_frequency,
@@ -179,27 +329,112 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
         hi_hz: (bins - 1) as f64 * bin_hz,
     };
     let first_bin = usize::from(o.log_frequency);
+    let floor_drawn = sp.noise_floor_dbfs.map(|f| f + offset);
 
-    // Vertical range: from 20 dB under the average floor to above the highest bin, in 10 dB steps.
+    // The marks: (bin, level as marked in dBFS, label, colour, measured above the floor).
+    struct Mark {
+        bin: usize,
+        level: f64,
+        label: String,
+        colour: (u8, u8, u8),
+        measured: bool,
+    }
+    let peak_of = |want: Owner| -> Option<usize> {
+        (first_bin..bins)
+            .filter(|&k| t.owner[k] == want)
+            .max_by(|&x, &y| t.powers[x].total_cmp(&t.powers[y]).then(y.cmp(&x)))
+    };
+    let mut marks: Vec<Mark> = Vec::new();
+    if let (Some(k), Some(level)) = (peak_of(FUNDAMENTAL), sp.fundamental_dbfs) {
+        marks.push(Mark {
+            bin: k,
+            level,
+            label: "H1".into(),
+            colour: palette::FUNDAMENTAL,
+            measured: true,
+        });
+    }
+    let mut harmonics: Vec<Mark> = Vec::new();
+    for hf in &sp.harmonics {
+        if hf.masked {
+            continue;
+        }
+        if let (Some(k), Some(level)) = (peak_of(harmonic_owner(hf.order)), hf.dbfs) {
+            harmonics.push(Mark {
+                bin: k,
+                level,
+                label: format!("H{}", hf.order),
+                colour: palette::HARMONIC,
+                measured: !hf.at_floor,
+            });
+        }
+    }
+    // Strongest harmonics get their labels first when they crowd.
+    harmonics.sort_by(|x, y| y.level.total_cmp(&x.level).then(x.bin.cmp(&y.bin)));
+    let noise_per_bin = sp.noise_floor_dbfs.map(|f| pfs * 10f64.powf(f / 10.0));
+    let spurs = noise_per_bin.map_or(Vec::new(), |nb| {
+        largest_spurs(&t.powers, &t.owner, sp.tone_halfwidth_bins, nb, 4)
+    });
+    let fund_power = sp.fundamental_dbfs.map(|d| pfs * 10f64.powf(d / 10.0));
+    let mut spur_lines: PanelLines = Vec::new();
+    let mut spur_marks: Vec<Mark> = Vec::new();
+    for (i, s) in spurs.iter().enumerate() {
+        let Some(level) = db(s.power) else { continue };
+        let label = format!("S{}", i + 1);
+        let dbc = fund_power.and_then(|f| (f > 0.0).then(|| 10.0 * (s.power / f).log10()));
+        spur_lines.push((
+            format!("{label} {}", si(s.bin as f64 * bin_hz, "Hz", 4)),
+            dbc.map_or(format!("{level:.1} dBFS"), |d| format!("{d:.1} dBc")),
+        ));
+        if s.bin >= first_bin {
+            spur_marks.push(Mark {
+                bin: s.bin,
+                level,
+                label,
+                colour: palette::SPUR,
+                measured: true,
+            });
+        }
+    }
+
+    // Vertical range: from 20 dB under the drawn floor to above the highest bin or mark, 10 dB steps.
     let peak = t.powers[first_bin..]
         .iter()
-        .filter_map(|&p| db(p))
+        .filter_map(|&p| drawn(p))
+        .chain(marks.iter().map(|m| m.level))
         .fold(f64::NEG_INFINITY, f64::max);
     let top = ceil_to(peak.max(0.0) + 5.0, 10.0);
     let lowest = t.powers[first_bin..]
         .iter()
-        .filter_map(|&p| db(p))
+        .filter_map(|&p| drawn(p))
         .fold(f64::INFINITY, f64::min);
-    let bottom = match sp.noise_floor_dbfs {
+    let bottom = match floor_drawn {
         Some(f) => floor_to(f - 20.0, 10.0),
         None if lowest.is_finite() => floor_to(lowest - 5.0, 10.0),
         None => top - 200.0,
     }
     .clamp(-400.0, top - 40.0);
-    let y_of = |p: f64| db(p).map_or(bottom, |d| d.clamp(bottom, top));
+    let y_of = |p: f64| drawn(p).map_or(bottom, |d| d.clamp(bottom, top));
 
     let (w, h) = o.size();
     let xt = axis.ticks();
+    let (unit_hz, unit) = frequency_unit(axis.hi_hz);
+    // Decimals that print every linear tick exactly in the axis unit.
+    let x_decimals = {
+        let step = xt
+            .major
+            .windows(2)
+            .map(|p| p[1] - p[0])
+            .next()
+            .unwrap_or(1.0)
+            / unit_hz;
+        (0..6)
+            .find(|&d| {
+                let v = step * 10f64.powi(d as i32);
+                (v - v.round()).abs() < 1e-6 * v.abs().max(1.0)
+            })
+            .unwrap_or(6)
+    };
     // dB grid in steps of 10, 20 or 50 dB, minor lines at half steps.
     let span = top - bottom;
     let y_step = if span <= 120.0 {
@@ -226,7 +461,7 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             .margin_top(8)
             .margin_left(10)
             .margin_right(16)
-            .margin_bottom(6)
+            .margin_bottom(22)
             .x_label_area_size(46)
             .y_label_area_size(64)
             .build_cartesian_2d(
@@ -234,18 +469,31 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
                 TickAxis::new(bottom, top, yt.clone()),
             )
             .map_err(&err)?;
-        let x_label = |u: &f64| si_label(axis.f(*u), "Hz");
+        let x_label = |u: &f64| {
+            let f = axis.f(*u) / unit_hz;
+            if axis.log {
+                trim_number(f, 6)
+            } else {
+                tick_label(f, x_decimals)
+            }
+        };
         let y_label = |v: &f64| tick_label(*v, yt.decimals);
+        let x_desc = if axis.log {
+            format!("frequency ({unit}, log scale)")
+        } else {
+            format!("frequency ({unit})")
+        };
+        let y_desc = if scale.enbw_bins == 1.0 {
+            "dBFS per bin".to_string()
+        } else {
+            "dBFS, tone peak = level".to_string()
+        };
         {
             let mut m = chart.configure_mesh();
-            m.x_desc(if axis.log {
-                "frequency (log scale)"
-            } else {
-                "frequency"
-            })
-            .y_desc("dBFS per bin")
-            .x_label_formatter(&x_label)
-            .y_label_formatter(&y_label);
+            m.x_desc(x_desc)
+                .y_desc(y_desc)
+                .x_label_formatter(&x_label)
+                .y_label_formatter(&y_label);
             style_mesh(&mut m);
             m.draw().map_err(&err)?;
         }
@@ -281,8 +529,14 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             .draw_series(LineSeries::new(trace, rgb(palette::TRACE).stroke_width(1)))
             .map_err(&err)?;
 
-        // Average noise floor, dashed across the whole axis, labelled at the left.
-        if let Some(floor) = sp.noise_floor_dbfs.filter(|f| *f >= bottom && *f <= top) {
+        // Labels already placed, in pixels: the floor's label first, so no marker label covers it.
+        let mut placed: Vec<LabelBox> = Vec::new();
+        let (px0, py0) = chart.backend_coord(&(u_lo, top));
+        let (px1, py1) = chart.backend_coord(&(u_hi, bottom));
+        let area: LabelBox = (px0, py0, px1, py1);
+
+        // Average noise per bin as drawn, dashed across the whole axis, labelled at the left.
+        if let Some(floor) = floor_drawn.filter(|f| *f >= bottom && *f <= top) {
             let floor_style = ShapeStyle::from(&rgb(palette::FLOOR)).stroke_width(1);
             chart
                 .draw_series(DashedLineSeries::new(
@@ -297,8 +551,18 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             let style = TextStyle::from((FONT, 12).into_font())
                 .color(&floor_ink)
                 .pos(Pos::new(HPos::Left, VPos::Top));
-            let text = format!("average noise floor {floor:.1} dBFS");
+            let text = if offset == 0.0 {
+                format!("average noise floor {floor:.1} dBFS per bin")
+            } else {
+                format!(
+                    "average noise floor {floor:.1} dBFS per bin as drawn ({:.1} + {:.2} dB ENBW)",
+                    floor - offset,
+                    offset
+                )
+            };
             let width = 7 * text.chars().count() as i32;
+            let (fx, fy) = chart.backend_coord(&(u_lo, floor));
+            placed.push((fx, fy, fx + 8 + width, fy + 19));
             chart
                 .draw_series(std::iter::once(
                     EmptyElement::at((u_lo, floor))
@@ -311,70 +575,106 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
                 .map_err(&err)?;
         }
 
-        // Markers: the peak bin of each claimed span, labelled with its order (H1 = fundamental).
-        let peak_of = |want: Owner| -> Option<usize> {
-            (first_bin..bins)
-                .filter(|&k| t.owner[k] == want)
-                .max_by(|&x, &y| t.powers[x].total_cmp(&t.powers[y]).then(y.cmp(&x)))
-        };
-        // (bin, label, colour, measured above the floor)
-        type Mark = (usize, String, (u8, u8, u8), bool);
-        let mut marks: Vec<Mark> = Vec::new();
-        if let Some(k) = peak_of(FUNDAMENTAL) {
-            marks.push((k, "H1".to_string(), palette::FUNDAMENTAL, true));
-        }
-        for hf in &sp.harmonics {
-            if hf.masked {
-                continue;
+        // Markers at each tone's measured level; where the peak bin is lower (a tone between bins),
+        // a thin line joins the peak to the marker.
+        let worst_bin = sp.worst_spur.as_ref().and_then(|spur| match spur.harmonic {
+            Some(order) => peak_of(harmonic_owner(order)),
+            None => {
+                let centre = (spur.frequency_hz / bin_hz).round() as usize;
+                let half = sp.tone_halfwidth_bins;
+                (centre.saturating_sub(half)..=(centre + half).min(bins - 1))
+                    .filter(|&k| k >= first_bin)
+                    .max_by(|&x, &y| t.powers[x].total_cmp(&t.powers[y]).then(y.cmp(&x)))
             }
-            if let Some(k) = peak_of(harmonic_owner(hf.order)) {
-                marks.push((k, format!("H{}", hf.order), palette::HARMONIC, !hf.at_floor));
+        });
+        let worst_level = sp.worst_spur.as_ref().map(|s| s.dbfs);
+        marks.extend(harmonics);
+        marks.extend(spur_marks);
+        let mut dots: Vec<(i32, i32)> = Vec::new();
+        for m in &marks {
+            let u = axis.u(bin_f(m.bin));
+            let level = m.level.clamp(bottom, top);
+            let peak_level = y_of(t.powers[m.bin]);
+            let c = rgb(m.colour);
+            if (level - peak_level).abs() > 0.05 {
+                chart
+                    .draw_series(LineSeries::new(
+                        [(u, peak_level), (u, level)],
+                        c.stroke_width(1),
+                    ))
+                    .map_err(&err)?;
             }
-        }
-        for (k, label, colour, measured) in &marks {
-            let c = rgb(*colour);
-            let dot = if *measured {
+            let dot = if m.measured {
                 ShapeStyle::from(&c).filled()
             } else {
                 ShapeStyle::from(&c).stroke_width(1)
             };
-            let style = TextStyle::from((FONT, 12).into_font().style(FontStyle::Bold))
-                .color(&c)
-                .pos(Pos::new(HPos::Center, VPos::Bottom));
             chart
-                .draw_series(std::iter::once(
-                    EmptyElement::at((axis.u(bin_f(*k)), y_of(t.powers[*k])))
-                        + Circle::new((0, 0), 3, dot)
-                        + Text::new(label.clone(), (0, -6), style),
-                ))
+                .draw_series(std::iter::once(Circle::new((u, level), 3, dot)))
                 .map_err(&err)?;
+            dots.push(chart.backend_coord(&(u, level)));
         }
-        // The worst spur: a ring on its peak bin and a label above the order label.
-        if let Some(spur) = &sp.worst_spur {
-            let k = match spur.harmonic {
-                Some(order) => peak_of(harmonic_owner(order)),
-                None => {
-                    let centre = (spur.frequency_hz / bin_hz).round() as usize;
-                    let half = sp.tone_halfwidth_bins;
-                    (centre.saturating_sub(half)..=(centre + half).min(bins - 1))
-                        .filter(|&k| k >= first_bin)
-                        .max_by(|&x, &y| t.powers[x].total_cmp(&t.powers[y]).then(y.cmp(&x)))
-                }
-            };
-            if let Some(k) = k {
-                let c = rgb(palette::SPUR);
+        // Every dot's own place is taken before any label is placed.
+        for &(x, y) in &dots {
+            placed.push((x - 3, y - 3, x + 3, y + 3));
+        }
+        // The worst spur: a ring on its marker, labelled before the order labels so it is never lost.
+        if let (Some(k), Some(level)) = (worst_bin, worst_level) {
+            let c = rgb(palette::SPUR);
+            let (x, y) = chart.backend_coord(&(axis.u(bin_f(k)), level.clamp(bottom, top)));
+            left.draw(&Circle::new(
+                (x, y),
+                7,
+                ShapeStyle::from(&c).stroke_width(2),
+            ))
+            .map_err(&err)?;
+            placed.push((x - 7, y - 7, x + 7, y + 7));
+            if let Some((lx, ly)) = place_label(&mut placed, x, y - 16, 10, area) {
                 let style = TextStyle::from((FONT, 12).into_font().style(FontStyle::Bold))
                     .color(&c)
                     .pos(Pos::new(HPos::Center, VPos::Bottom));
-                chart
-                    .draw_series(std::iter::once(
-                        EmptyElement::at((axis.u(bin_f(k)), y_of(t.powers[k])))
-                            + Circle::new((0, 0), 7, ShapeStyle::from(&c).stroke_width(2))
-                            + Text::new("worst spur", (0, -22), style),
-                    ))
+                left.draw(&Text::new("worst spur", (lx, ly), style))
                     .map_err(&err)?;
             }
         }
+        for (m, &(x, y)) in marks.iter().zip(&dots) {
+            let c = rgb(m.colour);
+            let Some((lx, ly)) = place_label(&mut placed, x, y, m.label.chars().count(), area)
+            else {
+                continue;
+            };
+            if y - ly > 12 {
+                left.draw(&PathElement::new(
+                    [(x, y - 4), (lx, ly + 1)],
+                    c.mix(0.6).stroke_width(1),
+                ))
+                .map_err(&err)?;
+            }
+            let style = TextStyle::from((FONT, 12).into_font().style(FontStyle::Bold))
+                .color(&c)
+                .pos(Pos::new(HPos::Center, VPos::Bottom));
+            left.draw(&Text::new(m.label.clone(), (lx, ly), style))
+                .map_err(&err)?;
+        }
+
+        // The scale, stated under the axis.
+        let note = if offset == 0.0 {
+            format!(
+                "{} window: bin powers as measured; markers show each tone's power (its bins summed)",
+                scale.window
+            )
+        } else {
+            format!(
+                "{} window, ENBW {:.3} bins: bins ÷ coherent gain {:.4}, so a tone's peak reads its level \
+                 (up to {:.2} dB less between bins); markers show each tone's power",
+                scale.window, scale.enbw_bins, scale.coherent_gain, scale.scalloping_loss_db
+            )
+        };
+        let style = TextStyle::from((FONT, 11).into_font())
+            .color(&ink)
+            .pos(Pos::new(HPos::Left, VPos::Bottom));
+        left.draw(&Text::new(note, (10, h as i32 - 5), style))
+            .map_err(&err)?;
 
         let spur_text = sp.worst_spur.as_ref().map_or("—".to_string(), |s| {
             format!(
@@ -404,7 +704,9 @@ pub fn spectrum_svg(title: &str, a: &Analysis, t: &Traces, o: &PlotOptions) -> R
             with_unit(Some(sp.fundamental_hz), f.unit, 6),
         ));
         lines.push((figures::WORST_SPUR.label.into(), spur_text));
+        lines.extend(spur_lines.into_iter().take(3));
         lines.push((figures::WINDOW.label.into(), sp.window.clone()));
+        lines.push(("ENBW".into(), format!("{:.3} bins", scale.enbw_bins)));
         lines.push((figures::SAMPLES.label.into(), a.samples.to_string()));
         let f = &figures::SAMPLE_RATE;
         lines.push((f.label.into(), with_unit(Some(a.sample_rate_hz), f.unit, 6)));
