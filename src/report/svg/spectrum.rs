@@ -284,7 +284,7 @@ fn place_label(
 
 /// Draws the spectrum of one analysed record as SVG text. `title` names the record in the caption.
 ///
-/// The trace is amplitude-normalised (see [`PlotScale`]): a tone's peak reads its level in dBFS
+/// The trace is amplitude-normalised (see `PlotScale`): a tone's peak reads its level in dBFS
 /// under any window. The fundamental (H1), the harmonics (H2..) and the largest non-harmonic spurs
 /// (S1..) are marked at their measured power (their bins summed, the figures' own values), so a
 /// marker sits above a peak that falls between bins by the scalloping. The dashed line is the average
