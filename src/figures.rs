@@ -280,10 +280,9 @@ pub static FIT_PHASE: Figure = number("fit.phase_rad", "phase", Unit::Rad).uncer
 /// Fitted offset.
 pub static FIT_OFFSET: Figure = number("fit.offset_codes", "offset", Unit::Codes).uncertain();
 /// Rms of the fit residual.
-pub static FIT_RESIDUAL: Figure =
-    number("fit.residual_rms_codes", "residual rms", Unit::Codes)
-        .lower()
-        .uncertain();
+pub static FIT_RESIDUAL: Figure = number("fit.residual_rms_codes", "residual rms", Unit::Codes)
+    .lower()
+    .uncertain();
 /// SINAD from the fit.
 pub static FIT_SINAD: Figure = number("fit.sinad_db", "sine-fit SINAD", Unit::Db)
     .higher()
@@ -646,9 +645,11 @@ pub fn keys(harmonics: u32) -> Vec<String> {
             .get(i + 1)
             .is_none_or(|next| part_of(next.figure.key) != part);
         if last_of_part {
-            out.extend(uncertain_columns(part, harmonics).iter().filter_map(|u| {
-                u.figure.uncertainty_key(u.order.unwrap_or(0))
-            }));
+            out.extend(
+                uncertain_columns(part, harmonics)
+                    .iter()
+                    .filter_map(|u| u.figure.uncertainty_key(u.order.unwrap_or(0))),
+            );
         }
     }
     out

@@ -59,7 +59,7 @@ pub fn of_fit(
         FitMethod::FourParameter => 4.0,
     };
     let n = samples as f64;
-    if n <= p + 1.0 || !(amplitude > 0.0) || !residual_rms.is_finite() {
+    if n <= p + 1.0 || amplitude.is_nan() || amplitude <= 0.0 || !residual_rms.is_finite() {
         return FitUncertainty::default();
     }
     let sigma = residual_rms * (n / (n - p)).sqrt();

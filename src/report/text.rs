@@ -87,7 +87,12 @@ pub fn render(a: &Analysis) -> String {
         let _ = writeln!(
             s,
             "             {} · {} · {} · {} iterations{}",
-            show_pm(&figures::FIT_RESIDUAL, Some(f.residual_rms_codes), u.residual_rms_codes, 4),
+            show_pm(
+                &figures::FIT_RESIDUAL,
+                Some(f.residual_rms_codes),
+                u.residual_rms_codes,
+                4
+            ),
             show_pm(&figures::FIT_SINAD, f.sinad_db, u.sinad_db, 2),
             show_pm(&figures::FIT_ENOB, f.enob_bits, u.enob_bits, 3),
             f.iterations,
@@ -111,7 +116,12 @@ pub fn render(a: &Analysis) -> String {
         let _ = writeln!(
             s,
             "             {} · {} · {} · {}",
-            show_pm(&figures::FUNDAMENTAL, sp.fundamental_dbfs, u.fundamental_dbfs, 2),
+            show_pm(
+                &figures::FUNDAMENTAL,
+                sp.fundamental_dbfs,
+                u.fundamental_dbfs,
+                2
+            ),
             show_pm(&figures::SNR, sp.snr_db, u.snr_db, 2),
             show_pm(&figures::SINAD, sp.sinad_db, u.sinad_db, 2),
             show_pm(&figures::THD, sp.thd_dbc, u.thd_dbc, 2)
@@ -144,7 +154,12 @@ pub fn render(a: &Analysis) -> String {
         let _ = writeln!(
             s,
             "             {} per bin · {}",
-            show_pm(&figures::NOISE_FLOOR, sp.noise_floor_dbfs, u.noise_floor_dbfs, 2),
+            show_pm(
+                &figures::NOISE_FLOOR,
+                sp.noise_floor_dbfs,
+                u.noise_floor_dbfs,
+                2
+            ),
             show_pm(&figures::NSD, sp.nsd_dbfs_per_hz, u.nsd_dbfs_per_hz, 2)
         );
         let _ = writeln!(

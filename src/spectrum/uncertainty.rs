@@ -117,7 +117,7 @@ impl BinCorrelation {
                     } else if m == 0 {
                         a[0]
                     } else {
-                        let sign = if m % 2 == 0 { 1.0 } else { -1.0 };
+                        let sign = if m.is_multiple_of(2) { 1.0 } else { -1.0 };
                         sign * a[m] / 2.0
                     }
                 };
@@ -209,7 +209,7 @@ pub fn of_spectrum(
     let mu = measured.noise_per_bin;
     let k = measured.noise_bins as f64;
     let m = records.max(1) as f64;
-    if !(mu > 0.0) || k < 1.0 {
+    if mu.is_nan() || mu <= 0.0 || k < 1.0 {
         return SpectrumUncertainty::default();
     }
     let pc = Pieces {
@@ -219,7 +219,9 @@ pub fn of_spectrum(
         factor,
     };
     let half_band = claims.samples as f64 / 2.0;
-    let db = |rel_var: f64| (rel_var >= 0.0 && rel_var.is_finite()).then(|| DB_PER_NEPER_POWER * rel_var.sqrt());
+    let db = |rel_var: f64| {
+        (rel_var >= 0.0 && rel_var.is_finite()).then(|| DB_PER_NEPER_POWER * rel_var.sqrt())
+    };
 
     // The fundamental: P1 = raw1 − μ·w1.
     let f = &measured.tones[0];
@@ -239,7 +241,10 @@ pub fn of_spectrum(
         .lines
         .iter()
         .zip(&measured.lines)
-        .map(|(c, m)| m.as_ref().map(|m| (pc.var_raw(&corr, &c.bins, m.corrected), m)))
+        .map(|(c, m)| {
+            m.as_ref()
+                .map(|m| (pc.var_raw(&corr, &c.bins, m.corrected), m))
+        })
         .collect();
     let (mut var_lines, mut w_lines) = (0.0, 0.0);
     let (mut var_thd, mut w_thd) = (0.0, 0.0);
@@ -277,7 +282,7 @@ pub fn of_spectrum(
     // A level L (raw, or corrected when above the floor) against P1 and against full scale.
     let level = |var_raw: f64, m: &Measured| -> LevelUncertainty {
         let l = m.level();
-        if !(l > 0.0) {
+        if l.is_nan() || l <= 0.0 {
             return LevelUncertainty::default();
         }
         let sl_mu = if m.at_floor { 0.0 } else { -m.weight / l };
@@ -354,11 +359,18 @@ mod tests {
             let s4: f64 = s.iter().map(|v| v.powi(4)).sum();
             let want = 4096.0 * s4 / (s2 * s2);
             let got = BinCorrelation::of(w).variance_factor();
-            assert!((got / want - 1.0).abs() < ROUNDING, "{}: {got} vs {want}", w.name());
+            assert!(
+                (got / want - 1.0).abs() < ROUNDING,
+                "{}: {got} vs {want}",
+                w.name()
+            );
         }
         let hann = BinCorrelation::of(Window::Hann).variance_factor();
         assert!((hann - 35.0 / 18.0).abs() < ROUNDING);
-        assert_eq!(BinCorrelation::of(Window::Rectangular).variance_factor(), 1.0);
+        assert_eq!(
+            BinCorrelation::of(Window::Rectangular).variance_factor(),
+            1.0
+        );
     }
 
     #[test]
