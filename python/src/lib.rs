@@ -972,6 +972,40 @@ fn figure_table() -> String {
     serde_json::Value::Array(rows).to_string()
 }
 
+/// For the benchmark (python/bench.py): the wall time of each of `repeats` calls of the library's
+/// `analyze` on this array's record, timed in Rust after one conversion, so that the Python call's
+/// cost can be compared with the same analysis called from Rust in the same process.
+#[pyfunction]
+fn _bench_rust_analyze(
+    py: Python<'_>,
+    array: Bound<'_, PyAny>,
+    sample_rate_hz: f64,
+    bits: u32,
+    repeats: usize,
+) -> PyResult<Vec<f64>> {
+    let (codes, _) = codes_of(&array, bits, None, None, "bench")?.map_err(|e| py_error(py, &e))?;
+    let record = Record {
+        source: "bench".into(),
+        codes,
+        sample_rate_hz,
+        bits,
+        full_scale_vpp: None,
+        fin_hint_hz: None,
+    };
+    let settings = AnalysisSettings::default();
+    py.detach(|| {
+        (0..repeats)
+            .map(|_| {
+                let t = std::time::Instant::now();
+                let m = spurline::analyze(&record, &settings);
+                let dt = t.elapsed().as_secs_f64();
+                drop(std::hint::black_box(m));
+                Ok(dt)
+            })
+            .collect()
+    })
+}
+
 #[pymodule]
 fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add("SpurlineError", m.py().get_type::<SpurlineError>())?;
@@ -982,6 +1016,7 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(read, m)?)?;
     m.add_function(wrap_pyfunction!(window, m)?)?;
     m.add_function(wrap_pyfunction!(figure_table, m)?)?;
+    m.add_function(wrap_pyfunction!(_bench_rust_analyze, m)?)?;
     m.add("__version__", env!("CARGO_PKG_VERSION"))?;
     Ok(())
 }
