@@ -972,6 +972,59 @@ fn figure_table() -> String {
     serde_json::Value::Array(rows).to_string()
 }
 
+/// Runs a bench plan over its lot, as `spurline batch PLAN [--limits TABLE] --out OUT` does (the same
+/// files in OUT), and gives the lot's counts and its summary rows (as JSON): the lead columns
+/// (device, condition, verdict, reason) as text, the figures typed by the figure table.
+#[pyfunction]
+#[pyo3(signature = (plan, limits=None, *, out, jobs=None, plots="none"))]
+fn run_plan(
+    py: Python<'_>,
+    plan: std::path::PathBuf,
+    limits: Option<std::path::PathBuf>,
+    out: std::path::PathBuf,
+    jobs: Option<usize>,
+    plots: &str,
+) -> PyResult<(String, String)> {
+    let go = || -> Result<(String, String), Error> {
+        let bench = spurline::BenchPlan::read(&plan)?;
+        let lot = bench.locate()?;
+        let table = limits
+            .as_deref()
+            .map(|p| spurline::LimitTable::read(p, &bench.limit_scope()))
+            .transpose()?;
+        let jobs = match jobs {
+            Some(0) => return Err(Error::setting("jobs", "at least 1 worker thread", "0")),
+            Some(n) => n,
+            None => std::thread::available_parallelism().map_or(1, |n| n.get()),
+        };
+        let options = spurline::BatchOptions {
+            out: out.clone(),
+            jobs,
+            plots: plots.parse()?,
+        };
+        let counts = spurline::run_lot(&bench, &lot, table.as_ref(), &options, &())?;
+        let summary = spurline::LotSummary::in_folder(&out)?;
+        let columns = summary.columns().to_vec();
+        let mut rows = Vec::new();
+        for row in summary.all_rows()? {
+            let mut obj = serde_json::Map::new();
+            for (i, key) in columns.iter().enumerate() {
+                let text = row.cell(i).to_string();
+                let value = if spurline::LEAD_COLUMNS.contains(&key.as_str()) {
+                    serde_json::Value::String(text)
+                } else {
+                    typed_cell(key, text)
+                };
+                obj.insert(key.clone(), value);
+            }
+            rows.push(serde_json::Value::Object(obj));
+        }
+        let counts = serde_json::to_string(&counts).expect("plain data serialises");
+        Ok((counts, serde_json::Value::Array(rows).to_string()))
+    };
+    py.detach(go).map_err(|e| py_error(py, &e))
+}
+
 /// For the benchmark (python/bench.py): the wall time of each of `repeats` calls of the library's
 /// `analyze` on this array's record, timed in Rust after one conversion, so that the Python call's
 /// cost can be compared with the same analysis called from Rust in the same process.
@@ -1016,6 +1069,7 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(read, m)?)?;
     m.add_function(wrap_pyfunction!(window, m)?)?;
     m.add_function(wrap_pyfunction!(figure_table, m)?)?;
+    m.add_function(wrap_pyfunction!(run_plan, m)?)?;
     m.add_function(wrap_pyfunction!(_bench_rust_analyze, m)?)?;
     m.add("__version__", env!("CARGO_PKG_VERSION"))?;
     Ok(())

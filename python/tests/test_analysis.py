@@ -279,3 +279,8 @@ def test_spectrum_arrays_and_display():
     keys = {f["key"] for f in spurline.figure_table() if "{n}" not in f["key"]}
     assert {"spectrum.snr_db", "fit.enob_bits"} <= keys
     assert set(row) >= {k for k in keys if not k.startswith("error")}
+    # Fields the library adds reach Python without a list here: the one-sigma uncertainty of each
+    # figure (README, "Uncertainty of every figure") is an attribute and a typed column.
+    assert r.spectrum.uncertainty.snr_db > 0
+    assert row["spectrum.uncertainty.snr_db"] == r.spectrum.uncertainty.snr_db
+    assert "±" in html

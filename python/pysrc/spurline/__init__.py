@@ -39,6 +39,7 @@ __all__ = [
     "figure_table",
     "read",
     "rows",
+    "run_plan",
     "window",
 ]
 
@@ -442,6 +443,30 @@ def rows(results: Iterable[Analysis], **lead: Any) -> List[Dict[str, Any]]:
         row.update(r.row())
         out.append(row)
     return out
+
+
+def run_plan(
+    plan: PathLike,
+    limits: Optional[PathLike] = None,
+    *,
+    out: PathLike,
+    jobs: Optional[int] = None,
+    plots: str = "none",
+) -> List[Dict[str, Any]]:
+    """Runs a bench plan (TOML) over its lot, judged against a limit table (CSV) when given, exactly as
+    ``spurline batch PLAN --limits TABLE --out OUT`` (the same files are written into ``out``), and
+    returns the lot's summary rows: ``device``, ``condition``, ``verdict``, ``reason`` and every
+    figure, typed (numbers, flags, text; absent ``None``), for ``pandas.DataFrame(rows)``. A record that
+    cannot be read or analysed is a row with its error; a bad plan or limit table raises
+    ``SpurlineError``."""
+    _counts, rows = _native.run_plan(
+        os.fspath(plan),
+        None if limits is None else os.fspath(limits),
+        out=os.fspath(out),
+        jobs=jobs,
+        plots=plots,
+    )
+    return json.loads(rows)
 
 
 def window(name: str, n: int) -> np.ndarray:
