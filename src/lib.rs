@@ -136,10 +136,11 @@ pub use crate::analysis::{
     analyze, analyze_averaged, Analysis, AnalysisSettings, ErrorReport, FitChoice, Measured,
     OneTone, RecordResult, Traces,
 };
-pub use crate::fit::{fit_four, fit_three, FitMethod, FourParamOptions, SineFit};
+pub use crate::fit::{fit_four, fit_three, FitMethod, FitUncertainty, FourParamOptions, SineFit};
 pub use crate::spectrum::{
-    ideal_snr_db, Coherence, HarmonicFigure, LeakageDiagnosis, Spectrum, SpectrumSettings, Spur,
-    Window, WindowChoice, WindowFigures, KAISER_BETA_MAX,
+    ideal_snr_db, Coherence, HarmonicFigure, LeakageDiagnosis, LevelUncertainty, PerHarmonic,
+    Spectrum, SpectrumSettings, SpectrumUncertainty, Spur, Window, WindowChoice, WindowFigures,
+    KAISER_BETA_MAX,
 };
 
 // The other analyses of a record: two tones, interleaving, code-density linearity.
@@ -174,7 +175,10 @@ pub use crate::synth::{
 };
 
 // Reports of records: text, JSON, CSV, SVG plots, the run folder with its page.
-pub use crate::report::csv::{to_csv, to_csv_with_lead};
+pub use crate::report::csv::{
+    read_cell as read_csv_cell, safe_cell as safe_csv_cell, table as csv_table, to_csv,
+    to_csv_with_lead,
+};
 pub use crate::report::json::to_json;
 pub use crate::report::svg::{histogram_svg, residual_svg, spectrum_svg, PlotOptions};
 pub use crate::report::text::{render as render_text, render_interleaved, render_two_tone};
