@@ -6,6 +6,7 @@ mod cli;
 mod compare;
 mod edge_cases;
 mod figures;
+mod formats;
 mod fuzz_props;
 mod imd;
 mod linearity;
