@@ -16,4 +16,5 @@ mod reference;
 mod report;
 mod sweep;
 mod tolerances;
+mod uncertainty;
 mod windows_ref;
