@@ -37,7 +37,8 @@ fn settings(bits: u32, fs: f64) -> IngestSettings {
 fn figures(path: &std::path::Path, s: &IngestSettings) -> Value {
     let r = read_record(path, s).unwrap().record;
     let a = analyze(&r, &AnalysisSettings::default()).unwrap().analysis;
-    let mut v: Value = serde_json::from_str(&to_json(std::slice::from_ref(&a))).unwrap();
+    let mut all: Value = serde_json::from_str(&to_json(std::slice::from_ref(&a))).unwrap();
+    let mut v = all[0].take();
     v.as_object_mut().unwrap().remove("source");
     v
 }
