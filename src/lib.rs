@@ -176,7 +176,10 @@ pub use crate::synth::{
 };
 
 // Reports of records: text, JSON, CSV, SVG plots, the run folder with its page.
-pub use crate::report::csv::{to_csv, to_csv_with_lead};
+pub use crate::report::csv::{
+    read_cell as read_csv_cell, safe_cell as safe_csv_cell, table as csv_table, to_csv,
+    to_csv_with_lead,
+};
 pub use crate::report::json::to_json;
 pub use crate::report::svg::{histogram_svg, residual_svg, spectrum_svg, PlotOptions};
 pub use crate::report::text::{render as render_text, render_interleaved, render_two_tone};
