@@ -126,9 +126,10 @@ pub use crate::record::{
 
 // Reading a record: from a file (with its sidecar), or from bytes in memory.
 pub use crate::ingest::{
-    check_codes, parse_binary, parse_channel, parse_delimited, parse_delimiter, parse_text,
-    read_record, read_sidecar, sidecar_path, write_sidecar, BinaryLayout, ColumnSel, Format,
-    IngestSettings, Ingested, Justify, Metadata, Sidecar, DEFAULT_MIN_SAMPLES,
+    check_codes, parse_binary, parse_channel, parse_delimited, parse_delimiter, parse_npy,
+    parse_text, read_npy_header, read_record, read_sidecar, sidecar_path, write_sidecar,
+    BinaryLayout, ColumnSel, Format, IngestSettings, Ingested, Justify, Metadata, NpyLayout,
+    Samples, Sidecar, DEFAULT_MIN_SAMPLES, STDIN_PATH,
 };
 
 // Analysing a record: the sine fits, the spectrum, the one result record.

@@ -6,6 +6,7 @@ mod cli;
 mod compare;
 mod edge_cases;
 mod figures;
+mod formats;
 mod formula_injection;
 mod fuzz_props;
 mod imd;
