@@ -15,5 +15,6 @@ mod reference;
 mod report;
 mod sweep;
 mod tolerances;
+mod trust;
 mod uncertainty;
 mod windows_ref;
