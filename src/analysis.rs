@@ -355,9 +355,9 @@ fn fit_against_spectrum(
         let tone_hz = sum_kp / sum_p * sp.bin_width_hz;
         let si = crate::report::units::si;
         format!(
-            "; the spectrum's tone is at {}, {} from the fit's {}",
+            "; the spectrum's tone is at {}, {:+.1} Hz from the fit's {}",
             si(tone_hz, "Hz", 9),
-            format!("{:+.1} Hz", tone_hz - fit.frequency_hz),
+            tone_hz - fit.frequency_hz,
             si(fit.frequency_hz, "Hz", 9)
         )
     } else {
