@@ -294,6 +294,9 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
     )
     .map_err(|e| e.with_path(&src))?;
     warnings.extend(spec.warnings);
+    if let Some(w) = fit_against_spectrum(&fit, &spec.spectrum, &spec.powers, &spec.owner) {
+        warnings.push(w);
+    }
     Ok(Measured {
         analysis: Analysis {
             source: src,
@@ -314,6 +317,70 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
             codes: CodeCounts::of(&first.codes, first.bits),
         },
     })
+}
+
+/// The sine fit's SINAD and the spectrum's measure the same noise and distortion and agree within
+/// their uncertainties on a record holding one tone at the fitted frequency. They part when the fit
+/// misses the tone (a three-parameter fit at a wrong `--fin`, a wrong `--fs`) or when the record holds
+/// something the fit cannot follow (an interferer, a second tone): the fit figures are then not the
+/// converter's. The warning names them, says where the spectrum's tone is and what to do.
+fn fit_against_spectrum(
+    fit: &SineFit,
+    sp: &Spectrum,
+    powers: &[f64],
+    owner: &[Owner],
+) -> Option<String> {
+    let (fs, ss) = (fit.sinad_db?, sp.sinad_db?);
+    let (uf, us) = (
+        fit.uncertainty.sinad_db.unwrap_or(0.0),
+        sp.uncertainty.sinad_db.unwrap_or(0.0),
+    );
+    // Four combined sigmas, and at least 1 dB: the two figures differ by design in what they leave
+    // out (the DC bins, the noise under the fundamental's bins, a window's leakage), well under 1 dB
+    // on a sound record.
+    let allowed = (4.0 * uf.hypot(us)).max(1.0);
+    if (fs - ss).abs() <= allowed {
+        return None;
+    }
+    // The tone's frequency from the spectrum: the power-weighted centre of the fundamental's bins
+    // (a window's main lobe is symmetric about the tone).
+    let (mut sum_p, mut sum_kp) = (0.0, 0.0);
+    for (k, (&p, &o)) in powers.iter().zip(owner).enumerate() {
+        if o == spectrum::FUNDAMENTAL {
+            sum_p += p;
+            sum_kp += p * k as f64;
+        }
+    }
+    let peak = if sum_p > 0.0 {
+        let tone_hz = sum_kp / sum_p * sp.bin_width_hz;
+        let si = crate::report::units::si;
+        format!(
+            "; the spectrum's tone is at {}, {:+.1} Hz from the fit's {}",
+            si(tone_hz, "Hz", 9),
+            tone_hz - fit.frequency_hz,
+            si(fit.frequency_hz, "Hz", 9)
+        )
+    } else {
+        String::new()
+    };
+    let fix = match fit.method {
+        fit::FitMethod::ThreeParameter => {
+            "check --fin and --fs, or use the four-parameter fit (--fit four)"
+        }
+        fit::FitMethod::FourParameter => {
+            "look for a second tone, an interferer or a wrong --fs in the record"
+        }
+    };
+    let masked = sp.harmonics.iter().any(|h| h.masked);
+    let culprit = if masked && ss > fs {
+        "the fit figures, or the spectral figures (SINAD, SNR, THD, SFDR, spectral ENOB) where a masked harmonic is left out of them (see the masking warning)"
+    } else {
+        "the fit figures (sine-fit SINAD, sine-fit ENOB, residual rms, amplitude, phase, offset)"
+    };
+    Some(format!(
+        "sine-fit SINAD {fs:.2} dB and spectral SINAD {ss:.2} dB differ by {:.2} dB (allowed {allowed:.2} dB){peak}: {culprit} do not describe the converter; {fix}",
+        fs - ss
+    ))
 }
 
 fn run_fit(r: &Record, y: &[f64], settings: &AnalysisSettings) -> Result<FitOutput> {

@@ -18,5 +18,6 @@ mod reference;
 mod report;
 mod sweep;
 mod tolerances;
+mod trust;
 mod uncertainty;
 mod windows_ref;

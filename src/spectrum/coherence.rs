@@ -61,7 +61,13 @@ pub fn decide(cycles: f64, cycles_std: f64, unwindowed: Unwindowed) -> Coherence
         Unwindowed::Spectrum(p) => p.len().saturating_sub(1),
     };
     let k0 = cycles.round() as usize;
-    if c.coherent || offset.abs() > SPECTRAL_CHECK_CYCLES || k0 < 2 || k0 + 2 > last {
+    // The neighbours the check may read: not DC (bin 0 holds the offset), and not the Nyquist bin of
+    // an even N, where the tone's image lands one bin away and a real record's bin is real, so the
+    // two leakages can cancel. One neighbour is enough: a tone one bin from either edge is judged as
+    // everywhere else in the band.
+    let lower = k0 >= 2;
+    let upper = k0 + 1 < last;
+    if c.coherent || offset.abs() > SPECTRAL_CHECK_CYCLES || !(lower || upper) || k0 >= last {
         return c;
     }
     let taken;
@@ -72,9 +78,25 @@ pub fn decide(cycles: f64, cycles_std: f64, unwindowed: Unwindowed) -> Coherence
         }
         Unwindowed::Spectrum(p) => p,
     };
+    // Leakage of a tone δ bins off centre into the next bin on its side (δ/(1−δ))² and on the other
+    // side (δ/(1+δ))² of the centre bin's power (the rectangular window's Dirichlet kernel, to first
+    // order in δ; Harris 1978).
     let d = offset.abs();
-    let predicted = p[k0] * ((d / (1.0 - d)).powi(2) + (d / (1.0 + d)).powi(2));
-    let measured = p[k0 - 1] + p[k0 + 1];
+    let (toward, away) = ((d / (1.0 - d)).powi(2), (d / (1.0 + d)).powi(2));
+    let (below, above) = if offset >= 0.0 {
+        (away, toward)
+    } else {
+        (toward, away)
+    };
+    let (mut predicted, mut measured) = (0.0, 0.0);
+    if lower {
+        predicted += p[k0] * below;
+        measured += p[k0 - 1];
+    }
+    if upper {
+        predicted += p[k0] * above;
+        measured += p[k0 + 1];
+    }
     if measured < 0.1 * predicted {
         c.coherent = true;
         c.decided_by = "spectrum";

@@ -246,6 +246,37 @@ pub fn measure_consuming(
             masked.join(", ")
         ));
     }
+    // A harmonic that folds within a bin of DC or of the fundamental is the same line and cannot be
+    // told apart by any window; one that lands a bin or more away is hidden only by the window's lobe,
+    // and leaving it out makes the distortion figures read better than the converter.
+    let lobed: Vec<String> = claims
+        .lines
+        .iter()
+        .enumerate()
+        .filter_map(|(i, l)| {
+            let by = l.masked_by?;
+            let owner_bin = match by {
+                Owner::Dc => 0.0,
+                Owner::Tone(t) => claims.tones[t as usize].bin,
+                Owner::Line(j) => claims.lines[j as usize].bin,
+                Owner::Noise => return None,
+            };
+            ((l.bin - owner_bin).abs() >= 1.0).then(|| {
+                format!(
+                    "H{} at bin {:.1} under the {}'s lobe",
+                    i + 2,
+                    l.bin,
+                    claims.name_of(by)
+                )
+            })
+        })
+        .collect();
+    if !lobed.is_empty() {
+        warnings.push(format!(
+            "{}: not measured, so THD, SFDR, SINAD and ENOB leave it out and are bounds (better than the converter may be); analyse a coherent record unwindowed, or use a window with a narrower main lobe (--window hann)",
+            lobed.join(", ")
+        ));
+    }
     if coherence.coherent {
         let j = coherence.cycles.round() as u64;
         let g = crate::freq::gcd(j, n as u64);
