@@ -287,3 +287,9 @@ pub const SCIPY_PSLL_DB: f64 = 1e-4;
 
 /// Bins: 3-dB width against scipy's root search (stopped at about 1e-10): 1e-8.
 pub const SCIPY_BW_BINS: f64 = 1e-8;
+
+/// Relative agreement of control limits, Cpk and its interval with the numpy/scipy script's values
+/// (tests/reference/make_spc_refs.py): the same formulas on the same stored inputs, so only rounding
+/// order differs (about 1e-15), except c4, whose log-gamma comes from statrs on our side and from
+/// scipy's gammaln on theirs (each good to about 1e-14); 1e-10 leaves room for both.
+pub const SPC_REL: f64 = 1e-10;
