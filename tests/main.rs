@@ -17,4 +17,5 @@ mod spc;
 mod store;
 mod sweep;
 mod tolerances;
+mod uncertainty;
 mod windows_ref;
