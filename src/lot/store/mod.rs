@@ -245,6 +245,10 @@ pub(crate) struct MetricRow {
     pub(crate) better: String,
 }
 
+/// Statistics of one condition and metric in a lot: (condition index, metric index, n, mean,
+/// sample σ, min, max).
+pub(crate) type StatRow = (usize, usize, usize, f64, Option<f64>, f64, f64);
+
 /// One figure of one result: (result index, metric index, value, uncertainty).
 pub(crate) type FigureRow = (usize, usize, f64, Option<f64>);
 
@@ -274,8 +278,7 @@ pub struct LotRecord {
     pub(crate) warnings: Vec<(usize, String)>,
     pub(crate) failures: Vec<FailureCells>,
     pub(crate) limits: Vec<StoredLimit>,
-    /// (condition index, metric index, n, mean, sample σ, min, max)
-    pub(crate) stats: Vec<(usize, usize, usize, f64, Option<f64>, f64, f64)>,
+    pub(crate) stats: Vec<StatRow>,
     pub(crate) counts: [usize; 6],
 }
 
@@ -466,7 +469,7 @@ impl LotRecord {
 fn lot_statistics(
     results: &[ResultRow],
     figures: &[FigureRow],
-) -> Vec<(usize, usize, usize, f64, Option<f64>, f64, f64)> {
+) -> Vec<StatRow> {
     let mut groups: BTreeMap<(usize, usize), Vec<f64>> = BTreeMap::new();
     for &(seq, m, v, _) in figures {
         groups

@@ -262,7 +262,7 @@ fn chart_of(
             (l.into_iter().map(|(x, _)| x).collect(), None)
         }
     };
-    if per_point.iter().any(|l| !(l.sigma > 0.0)) {
+    if per_point.iter().any(|l| l.sigma.is_nan() || l.sigma <= 0.0) {
         return None;
     }
     let z: Vec<f64> = means
