@@ -127,9 +127,10 @@ pub use crate::record::{
 
 // Reading a record: from a file (with its sidecar), or from bytes in memory.
 pub use crate::ingest::{
-    check_codes, parse_binary, parse_channel, parse_delimited, parse_delimiter, parse_text,
-    read_record, read_sidecar, sidecar_path, write_sidecar, BinaryLayout, ColumnSel, Format,
-    IngestSettings, Ingested, Justify, Metadata, Sidecar, DEFAULT_MIN_SAMPLES,
+    check_codes, parse_binary, parse_channel, parse_delimited, parse_delimiter, parse_npy,
+    parse_text, read_npy_header, read_record, read_sidecar, sidecar_path, write_sidecar,
+    BinaryLayout, ColumnSel, Format, IngestSettings, Ingested, Justify, Metadata, NpyLayout,
+    Samples, Sidecar, DEFAULT_MIN_SAMPLES, STDIN_PATH,
 };
 
 // Analysing a record: the sine fits, the spectrum, the one result record.
@@ -176,7 +177,10 @@ pub use crate::synth::{
 };
 
 // Reports of records: text, JSON, CSV, SVG plots, the run folder with its page.
-pub use crate::report::csv::{to_csv, to_csv_with_lead};
+pub use crate::report::csv::{
+    read_cell as read_csv_cell, safe_cell as safe_csv_cell, table as csv_table, to_csv,
+    to_csv_with_lead,
+};
 pub use crate::report::json::to_json;
 pub use crate::report::svg::{histogram_svg, residual_svg, spectrum_svg, PlotOptions};
 pub use crate::report::text::{render as render_text, render_interleaved, render_two_tone};

@@ -37,7 +37,7 @@ fn line_of(text: &str, marker: &str) -> usize {
 
 /// The fixture lot in a temporary folder: plan, limit table and the records its script writes with
 /// `spurline synth`.
-fn make_lot() -> tempfile::TempDir {
+pub(crate) fn make_lot() -> tempfile::TempDir {
     let dir = tempfile::tempdir().unwrap();
     for f in ["plan.toml", "limits.csv"] {
         std::fs::copy(fixture(f), dir.path().join(f)).unwrap();
@@ -668,7 +668,7 @@ fn verdicts_and_guardbands() {
 
 // ───────────────────────────── a lot end to end ─────────────────────────────
 
-fn run_batch(lot: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
+pub(crate) fn run_batch(lot: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
     let o = spurline()
         .arg("batch")
         .arg(lot.join("plan.toml"))
@@ -874,7 +874,7 @@ fn exit_codes() {
     assert!(String::from_utf8_lossy(&o.stderr).contains("plan.toml: line 1"));
 }
 
-fn files_under(root: &Path) -> Vec<PathBuf> {
+pub(crate) fn files_under(root: &Path) -> Vec<PathBuf> {
     let mut out = Vec::new();
     let mut stack = vec![root.to_path_buf()];
     while let Some(d) = stack.pop() {
@@ -926,7 +926,7 @@ fn outputs_are_byte_identical_for_any_thread_count() {
 
 // ───────────────────────────── shards and merge ─────────────────────────────
 
-fn merge(out: &Path, shards: &[&Path]) -> std::process::Output {
+pub(crate) fn merge(out: &Path, shards: &[&Path]) -> std::process::Output {
     let o = spurline()
         .arg("merge")
         .arg(out)

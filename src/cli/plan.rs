@@ -324,28 +324,7 @@ fn two_tone_row(p: &TwoTonePlan, ctx: &Context) -> Vec<(String, String)> {
 }
 
 fn write_csv(rows: &[Vec<(String, String)>]) -> Result<String, Error> {
-    let output = |e: csv::Error| {
-        Error::new(
-            spurline::ErrorKind::Output,
-            "stdout",
-            spurline::Location::Whole,
-            "CSV that can be written",
-            e.to_string(),
-        )
-    };
-    let mut w = csv::Writer::from_writer(Vec::new());
-    if let Some(first) = rows.first() {
-        w.write_record(first.iter().map(|(k, _)| k.as_str()))
-            .map_err(output)?;
-    }
-    for row in rows {
-        w.write_record(row.iter().map(|(_, v)| v.as_str()))
-            .map_err(output)?;
-    }
-    let bytes = w
-        .into_inner()
-        .map_err(|e| output(csv::Error::from(e.into_error())))?;
-    Ok(String::from_utf8(bytes).expect("CSV of UTF-8 strings is UTF-8"))
+    Ok(spurline::csv_table(rows))
 }
 
 /// Prime factors of n in increasing order, by trial division; None when n is too large for that to

@@ -7,6 +7,9 @@
 mod binary;
 mod checks;
 mod delimited;
+mod detect;
+mod npy;
+mod samples;
 mod sidecar;
 mod text;
 
@@ -17,6 +20,8 @@ use serde::{Deserialize, Serialize};
 pub use binary::parse_binary;
 pub use checks::check_codes;
 pub use delimited::parse_delimited;
+pub use npy::{parse_npy, read_npy_header, NpyLayout};
+pub use samples::Samples;
 pub use sidecar::{
     parse_channel, parse_delimiter, read_sidecar, sidecar_path, write_sidecar, Sidecar,
 };
@@ -106,6 +111,8 @@ pub enum Format {
     },
     /// Raw binary words.
     Binary(BinaryLayout),
+    /// A NumPy `.npy` array; a 2-D array's column is chosen with [`IngestSettings::column`].
+    Npy,
 }
 
 impl std::str::FromStr for Format {
@@ -118,11 +125,12 @@ impl std::str::FromStr for Format {
 }
 
 impl Format {
-    /// Parses a format name: "text", "csv" (column 0, delimiter detected) or a word format as
+    /// Parses a format name: "text", "csv" (column 0, delimiter detected), "npy" or a word format as
     /// [`Format::parse_word`] reads it.
     pub fn parse(s: &str) -> Result<Format> {
         match s.trim() {
             "text" => Ok(Format::Text),
+            "npy" => Ok(Format::Npy),
             "csv" => Ok(Format::Csv {
                 column: ColumnSel::Index(0),
                 delimiter: None,
@@ -130,7 +138,7 @@ impl Format {
             w => Format::parse_word(w)
                 .map(Format::Binary)
                 .map_err(|e| Error {
-                    expected: format!("text, csv or a word format: {}", WORD_NAMES),
+                    expected: format!("text, csv, npy or a word format: {}", WORD_NAMES),
                     ..e
                 }),
         }
@@ -249,7 +257,20 @@ enum RecordBytes {
 /// Files smaller than this are read: mapping costs more than copying a few pages.
 const MAP_MIN_BYTES: u64 = 1 << 20;
 
+/// The record path that means standard input.
+pub const STDIN_PATH: &str = "-";
+
+/// How standard input is named in errors and as a record's source.
+pub const STDIN_SHOWN: &str = "standard input";
+
 impl RecordBytes {
+    /// Reads standard input to its end (a pipe cannot be mapped).
+    fn stdin() -> std::io::Result<RecordBytes> {
+        let mut bytes = Vec::new();
+        std::io::Read::read_to_end(&mut std::io::stdin().lock(), &mut bytes)?;
+        Ok(RecordBytes::Read(bytes))
+    }
+
     fn open(path: &Path) -> std::io::Result<RecordBytes> {
         let file = std::fs::File::open(path)?;
         let meta = file.metadata()?;
@@ -284,8 +305,18 @@ impl std::ops::Deref for RecordBytes {
 /// bits or sample rate ([`ErrorKind::BadSetting`], naming the option or sidecar key to give), a sidecar
 /// that does not parse ([`ErrorKind::BadMetadata`]), and the parsers' errors.
 pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
-    let shown = path.display().to_string();
-    let bytes = RecordBytes::open(path).map_err(|e| {
+    let stdin = path == Path::new(STDIN_PATH);
+    let shown = if stdin {
+        STDIN_SHOWN.to_string()
+    } else {
+        path.display().to_string()
+    };
+    let opened = if stdin {
+        RecordBytes::stdin()
+    } else {
+        RecordBytes::open(path)
+    };
+    let bytes = opened.map_err(|e| {
         Error::new(
             ErrorKind::Io,
             &shown,
@@ -294,8 +325,15 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             e.to_string(),
         )
     })?;
-    let sidecar_shown = sidecar_path(path)?.display().to_string();
-    let sidecar = read_sidecar(path)?.unwrap_or_default();
+    // Standard input has no sidecar.
+    let (sidecar_shown, sidecar) = if stdin {
+        ("(none for standard input)".to_string(), Sidecar::default())
+    } else {
+        (
+            sidecar_path(path)?.display().to_string(),
+            read_sidecar(path)?.unwrap_or_default(),
+        )
+    };
     let cli = &settings.meta;
     let meta = cli.with_fallback(&sidecar.metadata());
     // Errors about a value name the file it came from.
@@ -307,17 +345,21 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         }
     };
 
-    let bits = meta.bits.ok_or_else(|| {
-        Error::setting(
+    let format = resolve_format(path, &bytes, settings, &sidecar, &sidecar_shown)?;
+    // Formats whose values carry their own scale may go without a resolution.
+    let bits_optional = matches!(format, Format::Npy);
+    if let Some(bits) = meta.bits {
+        check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
+    } else if !bits_optional {
+        return Err(Error::setting(
             "bits",
             format!(
                 "the resolution in bits: give --bits or \"bits\" in the sidecar {sidecar_shown}"
             ),
             "none given",
         )
-        .with_path(&shown)
-    })?;
-    check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
+        .with_path(&shown));
+    }
     let sample_rate_hz = meta.sample_rate_hz.ok_or_else(|| {
         Error::setting(
             "sample_rate_hz",
@@ -341,15 +383,61 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             .map_err(|e| e.with_path(origin(cli.full_scale_vpp.is_some())))?;
     }
 
-    let format = resolve_format(path, settings, &sidecar, &sidecar_shown)?;
     let mut warnings = Vec::new();
     warnings.extend(ignored_settings(settings, &format));
-    let codes = match &format {
-        Format::Text => parse_text(&bytes, &shown, bits)?,
-        Format::Csv { column, delimiter } => {
-            parse_delimited(&bytes, &shown, bits, column, *delimiter)?
+    if matches!(format, Format::Text | Format::Csv { .. }) {
+        detect::refuse_binary(&bytes, &shown)?;
+    }
+    // Only the formats with optional bits reach a read without them.
+    let needed = || meta.bits.unwrap_or(0);
+    let samples = match &format {
+        Format::Text => Samples::Codes(parse_text(&bytes, &shown, needed())?),
+        Format::Csv { column, delimiter } => Samples::Codes(parse_delimited(
+            &bytes,
+            &shown,
+            needed(),
+            column,
+            *delimiter,
+        )?),
+        Format::Binary(layout) => Samples::Codes(parse_binary(&bytes, &shown, needed(), layout)?),
+        Format::Npy => {
+            let column = match &settings.column.clone().or_else(|| sidecar.column.clone()) {
+                None => None,
+                Some(ColumnSel::Index(i)) => Some(*i),
+                Some(ColumnSel::Name(n)) => {
+                    return Err(Error::setting(
+                        "column",
+                        "a 0-based column index (a .npy array has no column names)",
+                        format!("{n:?}"),
+                    )
+                    .with_path(&shown))
+                }
+            };
+            parse_npy(
+                &bytes,
+                &shown,
+                meta.bits,
+                settings.coding.or(sidecar.coding),
+                column,
+            )?
         }
-        Format::Binary(layout) => parse_binary(&bytes, &shown, bits, layout)?,
+    };
+    let codes = match samples {
+        Samples::Codes(c) => c,
+        Samples::Values(v) => {
+            return Err(Error::new(
+                ErrorKind::BadSetting,
+                &shown,
+                Location::Key("format".into()),
+                "integer codes (records of voltages or floats are not read yet)",
+                format!("{} float values", v.len()),
+            ))
+        }
+    };
+    let Some(bits) = meta.bits else {
+        return Err(
+            Error::setting("bits", "the resolution in bits", "none given").with_path(&shown),
+        );
     };
     let min = if settings.min_samples == 0 {
         DEFAULT_MIN_SAMPLES
@@ -395,6 +483,7 @@ fn positive(key: &str, v: f64) -> Result<()> {
 /// The format with the command line's options over the sidecar's over the format's own defaults.
 fn resolve_format(
     path: &Path,
+    bytes: &[u8],
     settings: &IngestSettings,
     sidecar: &Sidecar,
     sidecar_shown: &str,
@@ -403,11 +492,15 @@ fn resolve_format(
         Some(f) => f.clone(),
         None => match sidecar.parsed_format(sidecar_shown)? {
             Some(f) => f,
-            None => by_extension(path, sidecar_shown)?,
+            None => match detect::magic(bytes) {
+                Some(detect::Magic::Npy) => Format::Npy,
+                Some(detect::Magic::Wav) | None => by_extension(path, sidecar_shown)?,
+            },
         },
     };
     Ok(match base {
         Format::Text => Format::Text,
+        Format::Npy => Format::Npy,
         Format::Csv { column, delimiter } => Format::Csv {
             column: settings
                 .column
@@ -451,6 +544,7 @@ fn by_extension(path: &Path, sidecar_shown: &str) -> Result<Format> {
         .and_then(|e| e.to_str())
         .map(str::to_ascii_lowercase);
     match ext.as_deref() {
+        Some("npy") => Ok(Format::Npy),
         Some("csv") => Ok(Format::Csv {
             column: ColumnSel::Index(0),
             delimiter: None,
@@ -497,6 +591,16 @@ fn ignored_settings(s: &IngestSettings, format: &Format) -> Option<String> {
         Format::Binary(_) => (
             "a raw binary record",
             csv.iter().filter(|x| x.1).map(|x| x.0).collect(),
+        ),
+        // A .npy array's values are numbers, not words: only the coding and the column apply.
+        Format::Npy => (
+            "a .npy record",
+            binary[1..]
+                .iter()
+                .chain(&csv[1..])
+                .filter(|x| x.1)
+                .map(|x| x.0)
+                .collect(),
         ),
     };
     (!unused.is_empty()).then(|| {
@@ -557,7 +661,11 @@ mod tests {
             }
         );
         let e = Format::parse("xml").unwrap_err();
-        assert!(e.expected.starts_with("text, csv or"), "{}", e.expected);
+        assert!(
+            e.expected.starts_with("text, csv, npy or"),
+            "{}",
+            e.expected
+        );
     }
 
     /// A temporary folder with the named files written into it.

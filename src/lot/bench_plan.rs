@@ -472,7 +472,7 @@ impl Reader<'_> {
 
 /// True when a name can be a folder name and a pattern part: not empty, no path separators or control
 /// characters, not `.`/`..`, no surrounding spaces, not `*` (the limit table's "every condition").
-fn safe_name(s: &str) -> bool {
+pub(crate) fn safe_name(s: &str) -> bool {
     !s.is_empty()
         && s != "."
         && s != ".."
@@ -481,8 +481,19 @@ fn safe_name(s: &str) -> bool {
         && !s.chars().any(|c| c == '/' || c == '\\' || c.is_control())
 }
 
-const SAFE_NAME: &str =
+pub(crate) const SAFE_NAME: &str =
     "a name without / \\ or control characters, not empty, not . .. or *, no surrounding spaces";
+
+/// True when a name can be a device's: a [`safe_name`] not starting with `.` (a device's folder is
+/// never hidden, and names starting with `.` are the temporary files of an interrupted write).
+pub(crate) fn device_name_ok(s: &str) -> bool {
+    safe_name(s) && !s.starts_with('.')
+}
+
+/// What [`device_name_ok`] asks for, in an error.
+pub(crate) const DEVICE_NAME: &str =
+    "a device name without / \\ or control characters, not empty, \
+     not starting with '.', not *, no surrounding spaces";
 
 /// The placeholders a record pattern may hold.
 const PLACEHOLDERS: [&str; 3] = ["{device}", "{condition}", "{index}"];
@@ -571,8 +582,8 @@ impl BenchPlan {
                 let mut seen: Vec<String> = Vec::new();
                 for d in list {
                     let name = d.get_ref();
-                    if !safe_name(name) {
-                        return Err(r.bad(d.span(), "devices", SAFE_NAME, format!("{name:?}")));
+                    if !device_name_ok(name) {
+                        return Err(r.bad(d.span(), "devices", DEVICE_NAME, format!("{name:?}")));
                     }
                     if seen.contains(name) {
                         return Err(r.bad(
@@ -620,11 +631,11 @@ impl BenchPlan {
                     let e = entry.get_ref();
                     let line = line_at(text, entry.span().start);
                     let dev = e.device.get_ref();
-                    if !safe_name(dev) {
+                    if !device_name_ok(dev) {
                         return Err(r.bad(
                             e.device.span(),
                             "device",
-                            SAFE_NAME,
+                            DEVICE_NAME,
                             format!("{dev:?}"),
                         ));
                     }

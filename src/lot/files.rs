@@ -35,6 +35,53 @@ pub const SHARD_MANIFEST: &str = "shard.json";
 /// File name of the note a shard run writes when it starts (see [`crate::lot::ShardManifest`]).
 pub const SHARD_START_NOTE: &str = "shard-start.json";
 
+/// The names a lot folder keeps for its own files. A device folder never takes one of them (see
+/// [`device_folder`]), and `merge` copies nothing under them from a device folder.
+pub const LOT_FILE_NAMES: [&str; 7] = [
+    SUMMARY_CSV,
+    FAILURES_CSV,
+    YIELD_CSV,
+    INDEX_HTML,
+    RESULTS_JSON,
+    SHARD_MANIFEST,
+    SHARD_START_NOTE,
+];
+
+/// What a device folder's name ends with when the device's own name cannot be the folder's: a name of
+/// the lot's own files ([`LOT_FILE_NAMES`], compared without case), or a name that already ends so
+/// (which keeps the rule one-to-one).
+const DEVICE_FOLDER_SUFFIX: &str = "~device";
+
+/// The folder of a device in a lot folder: its name, or its name with `~device` appended when the
+/// name is one of the lot's own file names (compared without case, for case-insensitive file
+/// systems) or already ends with `~device`. One-to-one, so two devices never share a folder. The name
+/// is a safe name of the plan (one path component, see [`BenchPlan`](crate::lot::BenchPlan)).
+pub fn device_folder(device: &str) -> String {
+    let reserved = LOT_FILE_NAMES
+        .iter()
+        .any(|f| f.eq_ignore_ascii_case(device));
+    if reserved || device.ends_with(DEVICE_FOLDER_SUFFIX) {
+        format!("{device}{DEVICE_FOLDER_SUFFIX}")
+    } else {
+        device.to_string()
+    }
+}
+
+/// The kinds of plot a device folder may hold per condition, as the file name's suffix.
+pub(crate) const PLOT_KINDS: [&str; 3] = ["spectrum", "residual", "histogram"];
+
+/// The stems of the conditions' plot files in a device folder (`<stem>-spectrum.svg`, ...), in plan
+/// order: each condition's name made file-safe, and unique among them (`-2`, `-3`, ... appended), so
+/// that conditions whose names differ only in characters a file name cannot hold (`a+b`, `a=b`) keep
+/// their own plots.
+pub fn plot_stems<S: AsRef<str>>(conditions: &[S]) -> Vec<String> {
+    let mut taken: Vec<String> = Vec::new();
+    conditions
+        .iter()
+        .map(|c| crate::report::unique_name(crate::report::file_safe_name(c.as_ref()), &mut taken))
+        .collect()
+}
+
 /// Leading columns of every summary row, before the result record's columns.
 pub const LEAD_COLUMNS: [&str; 4] = ["device", "condition", "verdict", "reason"];
 
@@ -326,9 +373,12 @@ impl<'a> SummaryRow<'a> {
         self.raw
     }
 
-    /// The cell of a column by place; empty when there is none.
+    /// The text of a column's cell by place (the leading quote the writer puts against spreadsheet
+    /// formulas taken off, see [`crate::report::csv::safe_cell`]); empty when there is none.
     pub fn cell(&self, col: usize) -> &str {
-        self.cells.get(col).unwrap_or("")
+        self.cells
+            .get(col)
+            .map_or("", crate::report::csv::read_cell)
     }
 
     /// The cell of a column by name; `None` when the summary has no such column.
@@ -437,7 +487,10 @@ fn read_rows<T: DeserializeOwned>(path: &Path, columns: &[&str]) -> Result<CsvRo
             Ok(true) => {
                 let line = record.position().map_or(0, |p| p.line() as usize);
                 let start = record.position().map_or(start, |p| p.byte() as usize);
-                let row: T = record
+                // Text cells as written, the quote against spreadsheet formulas taken off.
+                let text: ::csv::StringRecord =
+                    record.iter().map(crate::report::csv::read_cell).collect();
+                let row: T = text
                     .deserialize(Some(rdr.headers().expect("read above")))
                     .map_err(|e| read_error(path, Location::Row(line), &expected, e.to_string()))?;
                 let end = rdr.position().byte() as usize;

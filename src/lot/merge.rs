@@ -12,7 +12,10 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
-use super::files::{RESULTS_JSON, SHARD_MANIFEST, SUMMARY_CSV, YIELD_CSV};
+use super::bench_plan::{device_name_ok, safe_name, DEVICE_NAME, SAFE_NAME};
+use super::files::{
+    device_folder, plot_stems, PLOT_KINDS, RESULTS_JSON, SHARD_MANIFEST, SUMMARY_CSV, YIELD_CSV,
+};
 use super::output::{read_lot_rows, remove_shard_manifest, write_atomic, LotRows, LotWriter};
 use super::result::LotCounts;
 use super::shard::{lot_fingerprint, manifest_error, ShardManifest};
@@ -232,27 +235,174 @@ fn same_folder(a: &Path, b: &Path) -> bool {
     }
 }
 
-/// Copies a device folder, file by file (each written atomically); names starting with '.' (the
-/// temporary files of an interrupted write) are left behind.
-fn copy_folder(from: &Path, to: &Path) -> Result<()> {
-    std::fs::create_dir_all(to).map_err(|e| output_error(to, "a folder to copy into", e))?;
-    let mut entries: Vec<PathBuf> = std::fs::read_dir(from)
-        .map_err(|e| output_error(from, "a readable device folder", e))?
-        .map(|e| e.map(|e| e.path()))
-        .collect::<std::io::Result<_>>()
+/// Checks the names a manifest gives before any of them becomes a path: every device a name batch
+/// accepts for a device (one path component, not `.`/`..`, no separators or control characters, not
+/// starting with `.`), every condition a safe plan name. A crafted `shard.json` naming `../victim`
+/// is refused here, before anything is read or written.
+fn check_names(dir: &Path, man: &ShardManifest) -> Result<()> {
+    for d in &man.devices {
+        if !device_name_ok(d) {
+            return Err(manifest_error(
+                dir,
+                "devices",
+                DEVICE_NAME.into(),
+                format!("{d:?}"),
+            ));
+        }
+    }
+    for c in &man.conditions {
+        if !safe_name(c) {
+            return Err(manifest_error(
+                dir,
+                "conditions",
+                SAFE_NAME.into(),
+                format!("{c:?}"),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// The error for a path in a shard that is not what batch writes there.
+fn not_written_by_batch(path: &Path, expected: &str, found: impl Into<String>) -> Error {
+    Error::new(
+        ErrorKind::BadMetadata,
+        path.display().to_string(),
+        Location::Whole,
+        expected,
+        found,
+    )
+}
+
+/// What a path is, without following a link.
+fn kind_of(meta: &std::fs::Metadata) -> &'static str {
+    let t = meta.file_type();
+    if t.is_symlink() {
+        "a symbolic link"
+    } else if t.is_dir() {
+        "a folder"
+    } else if t.is_file() {
+        "a plain file"
+    } else {
+        "a special file (device, FIFO or socket)"
+    }
+}
+
+/// The files of a device folder that merge copies: the names batch writes there, and only those
+/// (`summary.csv`, `results.json`, and the plots of the run's conditions). Temporary files of an
+/// interrupted write (names starting with '.') are left behind.
+fn copies_of(from: &Path, conditions: &[String]) -> Result<Vec<String>> {
+    let meta = std::fs::symlink_metadata(from)
         .map_err(|e| output_error(from, "a readable device folder", e))?;
-    entries.sort();
-    for p in entries {
-        let Some(name) = p.file_name() else { continue };
-        if name.to_string_lossy().starts_with('.') {
+    if !meta.file_type().is_dir() {
+        return Err(not_written_by_batch(
+            from,
+            "a device folder written by batch (a plain folder, not a link)",
+            kind_of(&meta),
+        ));
+    }
+    let mut allowed: Vec<String> = vec![SUMMARY_CSV.into(), RESULTS_JSON.into()];
+    for stem in plot_stems(conditions) {
+        allowed.extend(PLOT_KINDS.iter().map(|k| format!("{stem}-{k}.svg")));
+    }
+    let mut names = Vec::new();
+    for entry in
+        std::fs::read_dir(from).map_err(|e| output_error(from, "a readable device folder", e))?
+    {
+        let entry = entry.map_err(|e| output_error(from, "a readable device folder", e))?;
+        let name = entry.file_name();
+        let shown = name.to_string_lossy().into_owned();
+        if shown.starts_with('.') {
             continue;
         }
-        if p.is_dir() {
-            copy_folder(&p, &to.join(name))?;
-        } else {
-            let bytes = std::fs::read(&p).map_err(|e| output_error(&p, "a readable file", e))?;
-            write_atomic(&to.join(name), &bytes)?;
+        let path = entry.path();
+        let Some(name) = name.to_str().filter(|n| allowed.iter().any(|a| a == n)) else {
+            return Err(not_written_by_batch(
+                &path,
+                &format!(
+                    "only the files batch writes in a device folder ({SUMMARY_CSV}, {RESULTS_JSON}, \
+                     the conditions' plots)"
+                ),
+                format!("'{shown}'"),
+            ));
+        };
+        names.push(name.to_string());
+    }
+    names.sort();
+    Ok(names)
+}
+
+/// Reads a file of a shard without following a link: the path must be a plain file when looked at,
+/// and the file opened must be that same file (not one swapped in between).
+fn read_plain_file(path: &Path) -> Result<Vec<u8>> {
+    use std::io::Read;
+    let before =
+        std::fs::symlink_metadata(path).map_err(|e| output_error(path, "a readable file", e))?;
+    if !before.file_type().is_file() {
+        return Err(not_written_by_batch(
+            path,
+            "a plain file written by batch (links are never followed)",
+            kind_of(&before),
+        ));
+    }
+    let mut open = std::fs::OpenOptions::new();
+    open.read(true);
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::OpenOptionsExt;
+        open.custom_flags(libc::O_NOFOLLOW | libc::O_NONBLOCK);
+    }
+    let mut file = open
+        .open(path)
+        .map_err(|e| output_error(path, "a readable plain file", e))?;
+    let after = file
+        .metadata()
+        .map_err(|e| output_error(path, "a readable plain file", e))?;
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::MetadataExt;
+        if !after.is_file() || (after.dev(), after.ino()) != (before.dev(), before.ino()) {
+            return Err(not_written_by_batch(
+                path,
+                "the plain file that was there when the folder was listed",
+                "another file (replaced while merging)",
+            ));
         }
+    }
+    let mut bytes = Vec::with_capacity(after.len() as usize);
+    file.read_to_end(&mut bytes)
+        .map_err(|e| output_error(path, "a readable file", e))?;
+    Ok(bytes)
+}
+
+/// Makes `dir` (one component under `out`, which exists) a plain folder to write into: created when
+/// missing, refused when it is a link or not a folder, so that nothing is written through it.
+fn plain_folder_under(out: &Path, name: &str) -> Result<PathBuf> {
+    let dir = out.join(name);
+    match std::fs::symlink_metadata(&dir) {
+        Ok(m) if m.file_type().is_dir() => Ok(dir),
+        Ok(m) => Err(output_error(
+            &dir,
+            "a plain folder for the device (links are never written through)",
+            kind_of(&m),
+        )),
+        Err(_) => {
+            std::fs::create_dir(&dir)
+                .map_err(|e| output_error(&dir, "a folder to copy into", e))?;
+            Ok(dir)
+        }
+    }
+}
+
+/// Copies a device folder: only the plain files batch writes there (see [`copies_of`]), each
+/// written atomically into a plain folder under `out`. Links, subfolders, special files and any
+/// other name are refused with an error naming the path.
+fn copy_device(from: &Path, out: &Path, folder: &str, conditions: &[String]) -> Result<()> {
+    let names = copies_of(from, conditions)?;
+    let to = plain_folder_under(out, folder)?;
+    for name in names {
+        let bytes = read_plain_file(&from.join(&name))?;
+        write_atomic(&to.join(&name), &bytes)?;
     }
     Ok(())
 }
@@ -276,6 +426,9 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
         ));
     }
     let manifests = read_manifests(shards)?;
+    for (dir, man) in shards.iter().zip(&manifests) {
+        check_names(dir, man)?;
+    }
     ShardManifest::check_same_run(shards, &manifests)?;
     let by_shard = place_shards(shards, &manifests)?;
     let order = lot_order(shards, &manifests, &by_shard)?;
@@ -289,16 +442,19 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
     for (dir, man) in shards.iter().zip(&manifests) {
         for d in &man.devices {
             for f in [SUMMARY_CSV, RESULTS_JSON] {
-                let p = dir.join(d).join(f);
-                if !p.is_file() {
-                    return Err(Error::new(
-                        ErrorKind::Io,
-                        p.display().to_string(),
-                        Location::Whole,
-                        format!("the device folder of '{d}' with {f}"),
-                        "no such file",
-                    ));
-                }
+                let p = dir.join(device_folder(d)).join(f);
+                let found = match std::fs::symlink_metadata(&p) {
+                    Ok(m) if m.file_type().is_file() => continue,
+                    Ok(m) => kind_of(&m),
+                    Err(_) => "no such file",
+                };
+                return Err(Error::new(
+                    ErrorKind::Io,
+                    p.display().to_string(),
+                    Location::Whole,
+                    format!("the device folder of '{d}' with {f}, a plain file (links are never followed)"),
+                    found,
+                ));
             }
         }
     }
@@ -343,7 +499,8 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
     };
     for &(s, j) in &order {
         let device = &manifests[s].devices[j];
-        copy_folder(&shards[s].join(device), &out.join(device))?;
+        let folder = device_folder(device);
+        copy_device(&shards[s].join(&folder), out, &folder, &first.conditions)?;
         let results = &rows[row_of[s]].results[j * n..(j + 1) * n];
         for r in results {
             lot.count(&r.device, &r.condition, r.outcome, &r.reason);

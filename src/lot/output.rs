@@ -25,8 +25,9 @@ use std::path::{Path, PathBuf};
 use serde::Serialize;
 
 use super::files::{
-    read_bytes, read_error, read_failures, read_yield, LotSummary, FAILURE_COLUMNS, INDEX_HTML,
-    LEAD_COLUMNS, SHARD_MANIFEST, SUMMARY_CSV, YIELD_COLUMNS, YIELD_CSV,
+    device_folder, plot_stems, read_bytes, read_error, read_failures, read_yield, LotSummary,
+    FAILURE_COLUMNS, INDEX_HTML, LEAD_COLUMNS, SHARD_MANIFEST, SUMMARY_CSV, YIELD_COLUMNS,
+    YIELD_CSV,
 };
 use super::result::{DeviceResult, Lines};
 use crate::error::{Error, ErrorKind, Location, Result};
@@ -88,14 +89,15 @@ pub struct SummaryColumns {
     figures: Vec<String>,
 }
 
+/// One CSV line, every cell through the crate's one cell rule ([`crate::report::csv::safe_cell`]).
 fn csv_line<I, S>(fields: I) -> Vec<u8>
 where
     I: IntoIterator<Item = S>,
-    S: AsRef<[u8]>,
+    S: AsRef<str>,
 {
-    let mut w = ::csv::Writer::from_writer(Vec::new());
-    w.write_record(fields).expect("writing to memory");
-    w.into_inner().expect("writing to memory")
+    let mut w = crate::report::csv::CsvOut::memory();
+    w.push(fields);
+    w.into_text().into_bytes()
 }
 
 impl SummaryColumns {
@@ -111,8 +113,8 @@ impl SummaryColumns {
         csv_line(
             LEAD_COLUMNS
                 .iter()
-                .map(|s| s.as_bytes())
-                .chain(self.figures.iter().map(|s| s.as_bytes())),
+                .copied()
+                .chain(self.figures.iter().map(String::as_str)),
         )
     }
 
@@ -192,7 +194,7 @@ pub(crate) fn index_row(
         s,
         "<tr class=\"{}\"><td><a href=\"{}/summary.csv\">{}</a></td><td>{}</td><td>{}</td><td>{}</td>",
         verdict.outcome.as_str(),
-        url_segment(device),
+        url_segment(&device_folder(device)),
         escape_html(device),
         escape_html(condition),
         verdict.outcome.as_str(),
@@ -250,7 +252,7 @@ pub fn write_device_outputs(
     header: &[u8],
     plots: Plots,
 ) -> Result<()> {
-    let dir = out.join(&device.device);
+    let dir = out.join(device_folder(&device.device));
     create_dir(&dir)?;
     let mut summary = header.to_vec();
     for c in &device.conditions {
@@ -279,10 +281,16 @@ pub fn write_device_outputs(
         "traces are kept only when plots are asked for"
     );
     // The traces were kept for exactly the results `plots` selects: draw them beside the tables.
-    for c in &device.conditions {
+    let names: Vec<&str> = device
+        .conditions
+        .iter()
+        .map(|c| c.condition.as_str())
+        .collect();
+    for (c, stem) in device.conditions.iter().zip(plot_stems(&names)) {
         if let Some(t) = &c.traces {
-            crate::report::write_record_plots(
+            crate::report::write_plots_as(
                 &dir,
+                &stem,
                 &c.condition,
                 &c.analysis,
                 t,

@@ -265,15 +265,7 @@ fn to_csv<T: serde::Serialize>(rows: &[T]) -> String {
         .iter()
         .map(|r| flatten(&serde_json::to_value(r).expect("plain data serialises")))
         .collect();
-    let mut w = ::csv::Writer::from_writer(Vec::new());
-    if let Some(first) = flat.first() {
-        w.write_record(first.iter().map(|(k, _)| k))
-            .expect("memory");
-    }
-    for r in &flat {
-        w.write_record(r.iter().map(|(_, v)| v)).expect("memory");
-    }
-    String::from_utf8(w.into_inner().expect("memory")).expect("UTF-8")
+    crate::report::csv::table(&flat)
 }
 
 /// Writes a sweep into `out` (created when missing): `sweep.csv` (every point), `sweep_summary.csv`

@@ -79,7 +79,7 @@ pub fn file_safe_name(name: &str) -> String {
 
 /// Makes `name` unique among `taken` (compared without case, for case-insensitive file systems) by
 /// appending -2, -3, ...; records the result in `taken`.
-fn unique(name: String, taken: &mut Vec<String>) -> String {
+pub(crate) fn unique_name(name: String, taken: &mut Vec<String>) -> String {
     let clash = |n: &str, taken: &Vec<String>| taken.iter().any(|t| t.eq_ignore_ascii_case(n));
     let mut candidate = name.clone();
     let mut k = 2;
@@ -114,10 +114,6 @@ fn render_plots(
     Ok(out)
 }
 
-fn plot_file(record_name: &str, kind: &str) -> String {
-    format!("{}-{kind}.svg", file_safe_name(record_name))
-}
-
 /// Writes `<record>-spectrum.svg`, `<record>-residual.svg` and `<record>-histogram.svg` into
 /// `device_dir` (each when the record has its data; none for a failed record), the record name made
 /// file-safe, and returns the paths written. Plot titles show the name as given.
@@ -128,9 +124,29 @@ pub fn write_record_plots(
     t: &Traces,
     o: &PlotOptions,
 ) -> Result<Vec<PathBuf>> {
+    write_plots_as(
+        device_dir,
+        &file_safe_name(record_name),
+        record_name,
+        a,
+        t,
+        o,
+    )
+}
+
+/// As [`write_record_plots`], the files named `<stem>-<kind>.svg` with a stem the caller made
+/// file-safe and unique (a lot's conditions, see `crate::lot::plot_stems`).
+pub(crate) fn write_plots_as(
+    device_dir: &Path,
+    stem: &str,
+    record_name: &str,
+    a: &Analysis,
+    t: &Traces,
+    o: &PlotOptions,
+) -> Result<Vec<PathBuf>> {
     let mut written = Vec::new();
     for (kind, svg) in render_plots(record_name, a, t, o)? {
-        let path = device_dir.join(plot_file(record_name, kind));
+        let path = device_dir.join(format!("{stem}-{kind}.svg"));
         write_atomic(&path, svg.as_bytes())?;
         written.push(path);
     }
@@ -177,7 +193,7 @@ pub fn write_run_report(
         let slot = match dir_of.iter().position(|(d, _, _)| d == device) {
             Some(i) => i,
             None => {
-                let folder = unique(file_safe_name(device), &mut device_dirs);
+                let folder = unique_name(file_safe_name(device), &mut device_dirs);
                 dir_of.push((
                     device.clone(),
                     folder,
@@ -195,7 +211,7 @@ pub fn write_run_report(
             let rendered = render_plots(record, a, t, o)?;
             if !rendered.is_empty() {
                 // One file-safe stem per record, unique within the device folder.
-                let stem = unique(file_safe_name(record), &mut dir_of[slot].2);
+                let stem = unique_name(file_safe_name(record), &mut dir_of[slot].2);
                 for (kind, svg) in rendered {
                     let file = format!("{stem}-{kind}.svg");
                     write_atomic(&device_dir.join(&file), svg.as_bytes())?;

@@ -49,17 +49,17 @@ pub fn to_csv(c: &Comparison) -> String {
         crate::report::csv::flatten(&serde_json::to_value(r).expect("plain data serialises"))
     };
     let columns: Vec<String> = flat(&exemplar()).into_iter().map(|(k, _)| k).collect();
-    let mut w = ::csv::WriterBuilder::new().from_writer(Vec::new());
-    w.write_record(&columns).expect("writing to memory");
+    let mut w = crate::report::csv::CsvOut::memory();
+    w.push(&columns);
     for r in &c.rows {
         let map: std::collections::HashMap<String, String> = flat(r).into_iter().collect();
         let rec: Vec<String> = columns
             .iter()
             .map(|k| map.get(k).cloned().unwrap_or_default())
             .collect();
-        w.write_record(&rec).expect("writing to memory");
+        w.push(&rec);
     }
-    String::from_utf8(w.into_inner().expect("memory writer")).expect("UTF-8")
+    w.into_text()
 }
 
 fn values(run: &Run, condition: &str, metric: &str) -> Vec<f64> {

@@ -260,7 +260,12 @@ impl LimitTable {
                     format!("{} cells", rec.len()),
                 ));
             }
-            let cell = |k: &str| col.get(k).and_then(|&i| rec.get(i)).unwrap_or("");
+            // Text cells as the tool writes them (a leading quote against formulas taken off).
+            let cell = |k: &str| {
+                col.get(k)
+                    .and_then(|&i| rec.get(i))
+                    .map_or("", crate::report::csv::read_cell)
+            };
             let number = |k: &str| -> Result<Option<f64>> {
                 let s = cell(k);
                 if s.is_empty() {
@@ -447,13 +452,13 @@ impl LimitTable {
     /// row has one; numbers in Rust's shortest round-trip form.
     pub fn to_csv(&self) -> String {
         let guard = self.limits.iter().any(|l| l.guardband != 0.0);
-        let mut w = ::csv::Writer::from_writer(Vec::new());
+        let mut w = crate::report::csv::CsvOut::memory();
         let mut header = vec!["condition", "metric", "low", "high", "unit"];
         if guard {
             header.push("guardband");
         }
         let num = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
-        w.write_record(&header).expect("writing to memory");
+        w.push(&header);
         for l in &self.limits {
             let mut rec = vec![
                 l.condition.clone().unwrap_or_else(|| "*".to_string()),
@@ -465,9 +470,9 @@ impl LimitTable {
             if guard {
                 rec.push(num(Some(l.guardband)));
             }
-            w.write_record(&rec).expect("writing to memory");
+            w.push(&rec);
         }
-        String::from_utf8(w.into_inner().expect("writing to memory")).expect("UTF-8 in, UTF-8 out")
+        w.into_text()
     }
 }
 

@@ -1,0 +1,74 @@
+#!/usr/bin/env python3
+"""Reference records in the input formats spurline reads, written by general-purpose writers.
+
+Writes tests/reference/formats/: one 12-bit record of 1024 codes (a sine with noise, seeded) as a plain
+integer text record (codes.txt, one code per line), and the same codes written by
+  numpy.save / numpy.lib.format.write_array   .npy in several dtypes, both byte orders, C and Fortran
+                                              order, format versions 1.0, 2.0 and 3.0
+and a manifest (formats.json) listing each file with how to read it and the library versions.
+tests/formats.rs reads every file and checks that it gives the same codes, and the same figures, as the
+text record. Run: python3 tests/reference/make_format_refs.py   (numpy 2.x, scipy 1.x)
+"""
+import json
+import os
+
+import numpy as np
+import scipy
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+OUT = os.path.join(HERE, "formats")
+os.makedirs(OUT, exist_ok=True)
+
+BITS = 12
+N = 1024
+FS = 1.0e6
+rng = np.random.default_rng(1241)
+n = np.arange(N)
+# 37 cycles in 1024 samples (coherent), -1 dBFS, 1.5 codes rms of noise.
+amp = 2 ** (BITS - 1) * 10 ** (-1 / 20)
+x = amp * np.cos(2 * np.pi * 37 * n / N + 0.3) + 1.5 * rng.standard_normal(N)
+codes = np.clip(np.round(x), -(2 ** (BITS - 1)), 2 ** (BITS - 1) - 1).astype(np.int64)
+other = (codes[::-1] // 3).astype(np.int64)  # a second channel, different from the first
+
+manifest = {"generator": {"numpy": np.__version__, "scipy": scipy.__version__},
+            "bits": BITS, "sample_rate_hz": FS, "samples": N, "text": "codes.txt", "files": []}
+
+
+def add(name, **how):
+    manifest["files"].append({"file": name, **how})
+
+
+with open(os.path.join(OUT, "codes.txt"), "w") as f:
+    f.write("".join(f"{int(c)}\n" for c in codes))
+
+
+def write_npy(name, arr, version=None):
+    with open(os.path.join(OUT, name), "wb") as f:
+        np.lib.format.write_array(f, arr, version=version)
+
+
+# .npy: signed dtypes hold the two's complement codes; unsigned ones offset binary (code + 2^(N-1)).
+for dt in ["<i2", ">i2", "<i4", ">i4", "<i8", ">i8", "|i1"]:
+    arr = codes.astype(dt) if dt != "|i1" else (codes >> 4).astype(dt)
+    name = f"codes_{dt[1:]}_{'be' if dt[0] == '>' else 'le'}.npy"
+    np.save(os.path.join(OUT, name), arr)
+    add(name, format="npy", bits=8 if dt == "|i1" else BITS, shift=4 if dt == "|i1" else 0)
+for dt in ["<u2", ">u2", "<u4"]:
+    name = f"codes_{dt[1:]}_{'be' if dt[0] == '>' else 'le'}.npy"
+    np.save(os.path.join(OUT, name), (codes + 2 ** (BITS - 1)).astype(dt))
+    add(name, format="npy", bits=BITS, shift=0)
+# Header versions 2.0 and 3.0 (numpy picks 1.0 for small headers unless told).
+for v in [(2, 0), (3, 0)]:
+    name = f"codes_i2_v{v[0]}.npy"
+    write_npy(name, codes.astype("<i2"), version=v)
+    add(name, format="npy", bits=BITS, shift=0)
+# 2-D arrays of samples by channels: the codes are column 1, in C and in Fortran order.
+both = np.stack([other, codes], axis=1).astype("<i2")
+np.save(os.path.join(OUT, "two_channels_c.npy"), both)
+add("two_channels_c.npy", format="npy", bits=BITS, shift=0, column=1)
+np.save(os.path.join(OUT, "two_channels_f.npy"), np.asfortranarray(both))
+add("two_channels_f.npy", format="npy", bits=BITS, shift=0, column=1)
+
+with open(os.path.join(OUT, "formats.json"), "w") as f:
+    json.dump(manifest, f, indent=1)
+    f.write("\n")
