@@ -466,10 +466,7 @@ impl LotRecord {
 
 /// Per condition and metric: n, mean, sample σ (n − 1), min and max of the stored values, in a
 /// fixed order (condition, metric), summed in result order so that they are deterministic.
-fn lot_statistics(
-    results: &[ResultRow],
-    figures: &[FigureRow],
-) -> Vec<StatRow> {
+fn lot_statistics(results: &[ResultRow], figures: &[FigureRow]) -> Vec<StatRow> {
     let mut groups: BTreeMap<(usize, usize), Vec<f64>> = BTreeMap::new();
     for &(seq, m, v, _) in figures {
         groups
