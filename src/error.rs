@@ -67,6 +67,10 @@ pub enum ErrorKind {
     BadLimits,
     /// An output that could not be written.
     Output,
+    /// A results store (database) that cannot be opened, read or written.
+    Store,
+    /// A lot already in the results store (same fingerprint), refused rather than recorded twice.
+    AlreadyRecorded,
 }
 
 /// The library's error: the file, the place in it, what was expected and what was found.

@@ -109,6 +109,7 @@ mod lot;
 mod plan;
 mod record;
 mod report;
+mod spc;
 mod spectrum;
 mod stats;
 mod synth;
@@ -210,8 +211,17 @@ pub use crate::lot::compare::{
     better_direction, compare, output::write_all as write_comparison, read_run, Change,
     CompareSettings, Comparison, MetricComparison, Run,
 };
+pub use crate::lot::store::{
+    file_fingerprint, host_name, rfc3339, trend, trend_csv, trend_html, utc_now, write_trend,
+    ChartKind, DeviceRow, LotRecord, LotStat, Recorded, RunInfo, RunRow, Store, StoreUrl,
+    StoredLimit, Trend, TrendChart, TrendPoint, TrendSettings, TREND_COLUMNS,
+};
 pub use crate::lot::sweep::{
     read_points, sweep, write_sweep, Sweep, SweepInput, SweepPoint, SweepSummary, SWEPT,
+};
+pub use crate::spc::{
+    c4, cpk_interval, d4_two, individuals, run_rules, xbar_s, CpkInterval, Limits, Rule, Subgroup,
+    D2_TWO,
 };
 pub use crate::stats::{paired, summarize, welch, NoTest, Summary, TTest, SHAPE_MIN_N};
 

@@ -16,6 +16,8 @@ mod pipeline;
 mod plan;
 mod reference;
 mod report;
+mod spc;
+mod store;
 mod sweep;
 mod tolerances;
 mod trust;

@@ -50,6 +50,13 @@ pub struct BatchArgs {
     /// with M from SPURLINE_SHARDS when set.
     #[arg(long, value_name = "K/M|auto")]
     pub shard: Option<String>,
+    /// Record the finished lot into this results store: a SQLite file (created when missing) or a
+    /// PostgreSQL URL. One transaction; a lot already stored is refused (exit status at least 1).
+    #[arg(long, conflicts_with = "shard")]
+    pub store: Option<String>,
+    /// The lot's name in the store [default: the output folder's name].
+    #[arg(long, requires = "store")]
+    pub lot: Option<String>,
 }
 
 /// Runs `batch`.
@@ -62,6 +69,12 @@ pub fn run(args: BatchArgs) -> i32 {
 
 fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
     let plots: Plots = args.plots.parse()?;
+    let started_at = spurline::utc_now();
+    if let Some(s) = &args.store {
+        // A bad store is an error before the lot runs, not after.
+        let url: spurline::StoreUrl = s.parse()?;
+        spurline::Store::open(&url)?;
+    }
     let shard = args.shard.as_deref().map(shard_of).transpose()?;
     let plan = BenchPlan::read(&args.plan)?;
     let lot = plan.locate()?;
@@ -106,7 +119,23 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
             counts
         }
     };
-    Ok(report(&counts, &out))
+    let code = report(&counts, &out);
+    let Some(store) = &args.store else {
+        return Ok(code);
+    };
+    let name = args
+        .lot
+        .clone()
+        .unwrap_or_else(|| super::record::folder_name(&out));
+    let mut info = spurline::RunInfo::now(&name);
+    info.started_at = Some(started_at);
+    info.title = plan.title.clone().unwrap_or_else(|| name.clone());
+    info.plan_fingerprint = Some(spurline::file_fingerprint(&args.plan)?);
+    if let Some(l) = &args.limits {
+        info.limits_fingerprint = Some(spurline::file_fingerprint(l)?);
+    }
+    let stored = super::record::record(store, &out, info, limits.as_ref())?;
+    Ok(code.max(stored))
 }
 
 /// A progress bar on stderr, drawn from what the lot run tells.

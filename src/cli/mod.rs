@@ -11,8 +11,11 @@ mod limits;
 mod linearity;
 mod merge;
 mod plan;
+mod query;
+mod record;
 mod sweep;
 mod synth;
+mod trend;
 mod verify;
 
 use clap::{Args, Parser, Subcommand};
@@ -73,6 +76,14 @@ pub enum Command {
     /// Propose limits from a characterisation run (mean ± k·σ or percentiles), with Cpk against an
     /// existing limit table.
     Limits(limits::LimitsArgs),
+    /// Record a finished lot folder into a results store (SQLite file or PostgreSQL server).
+    Record(record::RecordArgs),
+    /// Ask a results store: the lots, the last N lots of a metric, one device's history, lots below
+    /// a yield, lots that failed a limit (CSV).
+    Query(query::QueryArgs),
+    /// Control charts of the lots in a results store, per condition and metric: limits from a
+    /// baseline, run rules, Cpk per lot; exit status 1 when a rule fires.
+    Trend(trend::TrendArgs),
 }
 
 /// Runs a parsed command line and returns the exit status.
@@ -91,6 +102,9 @@ pub fn run(cli: Cli) -> i32 {
         Command::Batch(a) => batch::run(a),
         Command::Merge(a) => merge::run(a),
         Command::Limits(a) => limits::run(a),
+        Command::Record(a) => record::run(a),
+        Command::Query(a) => query::run(a),
+        Command::Trend(a) => trend::run(a),
     }
 }
 

@@ -18,6 +18,7 @@ mod result;
 mod run;
 mod shard;
 mod status;
+pub mod store;
 pub mod sweep;
 
 pub use array_task::{shard_from_env, ArrayTask, Scheduler};

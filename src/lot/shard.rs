@@ -153,6 +153,17 @@ pub fn run_fingerprint(plan: &BenchPlan, limits: Option<&LimitTable>) -> Result<
     Ok(h.hex())
 }
 
+/// The fingerprint of labelled parts (each part's label, then its bytes), as 16 hex digits: the
+/// results store's fingerprints of a plan, a limit table and a recorded lot.
+pub(crate) fn fingerprint_of(parts: &[(&str, &[u8])]) -> String {
+    let mut h = Fnv::new();
+    for (label, bytes) in parts {
+        h.part(label.as_bytes());
+        h.part(bytes);
+    }
+    h.hex()
+}
+
 /// The fingerprint of a lot's device names in lot order, as 16 hex digits: shards of one run that
 /// found different devices (records added or removed between them) are not merged.
 pub fn lot_fingerprint<S: AsRef<str>>(devices: &[S]) -> String {

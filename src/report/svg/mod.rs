@@ -6,12 +6,14 @@
 //! (plotters rounds them) and every number printed is formatted with fixed decimals, so the same inputs
 //! give byte-identical SVG.
 
+pub mod control;
 pub mod histogram;
 #[cfg(test)]
 pub(crate) mod plot_tests;
 pub mod residual;
 pub mod spectrum;
 
+pub use control::{control_chart_svg, ChartPoint};
 pub use histogram::histogram_svg;
 pub use residual::residual_svg;
 pub use spectrum::spectrum_svg;
