@@ -280,8 +280,9 @@ pub static FIT_PHASE: Figure = number("fit.phase_rad", "phase", Unit::Rad).uncer
 /// Fitted offset.
 pub static FIT_OFFSET: Figure = number("fit.offset_codes", "offset", Unit::Codes).uncertain();
 /// Rms of the fit residual.
-pub static FIT_RESIDUAL: Figure =
-    number("fit.residual_rms_codes", "residual rms", Unit::Codes).lower();
+pub static FIT_RESIDUAL: Figure = number("fit.residual_rms_codes", "residual rms", Unit::Codes)
+    .lower()
+    .uncertain();
 /// SINAD from the fit.
 pub static FIT_SINAD: Figure = number("fit.sinad_db", "sine-fit SINAD", Unit::Db)
     .higher()
@@ -582,23 +583,22 @@ impl Column {
     }
 }
 
-/// The columns of results analysed with harmonics 2..=`harmonics`, in the CSV's order: the rows in
-/// table order, each run of harmonic rows expanded order by order.
-pub fn columns(harmonics: u32) -> Vec<Column> {
+/// The rows `rows` as columns in table order, each run of harmonic rows expanded order by order.
+fn expand(rows: &[&'static Figure], harmonics: u32) -> Vec<Column> {
     let mut out = Vec::new();
     let mut i = 0;
-    while i < TABLE.len() {
-        if !TABLE[i].is_harmonic() {
+    while i < rows.len() {
+        if !rows[i].is_harmonic() {
             out.push(Column {
-                figure: TABLE[i],
+                figure: rows[i],
                 order: None,
             });
             i += 1;
             continue;
         }
-        let run = TABLE[i..].iter().take_while(|f| f.is_harmonic()).count();
+        let run = rows[i..].iter().take_while(|f| f.is_harmonic()).count();
         for order in 2..=harmonics {
-            for figure in &TABLE[i..i + run] {
+            for figure in &rows[i..i + run] {
                 out.push(Column {
                     figure,
                     order: Some(order),
@@ -610,9 +610,57 @@ pub fn columns(harmonics: u32) -> Vec<Column> {
     out
 }
 
-/// The keys of [`columns`]: the CSV's column names after any leading columns.
+/// The part of the record a key belongs to: its first dotted segment (`spectrum`, `fit`, `source`).
+fn part_of(key: &str) -> &str {
+    key.split_once('.').map_or(key, |(part, _)| part)
+}
+
+/// The columns of results analysed with harmonics 2..=`harmonics`, in the CSV's order: the rows in
+/// table order, each run of harmonic rows expanded order by order.
+pub fn columns(harmonics: u32) -> Vec<Column> {
+    expand(&TABLE, harmonics)
+}
+
+/// The columns whose one-sigma uncertainty the record carries, in the order the record writes them:
+/// the figures of one part (`fit`, `spectrum`) that carry an uncertainty, in table order, harmonics
+/// expanded order by order (the `uncertainty` object is the last field of its part).
+pub fn uncertain_columns(part: &str, harmonics: u32) -> Vec<Column> {
+    let rows: Vec<&'static Figure> = TABLE
+        .iter()
+        .copied()
+        .filter(|f| f.uncertainty && part_of(f.key) == part)
+        .collect();
+    expand(&rows, harmonics)
+}
+
+/// The keys of [`columns`] with each part's uncertainty keys ([`Figure::uncertainty_key`]) after the
+/// last row of that part: the CSV's column names after any leading columns.
 pub fn keys(harmonics: u32) -> Vec<String> {
-    columns(harmonics).iter().map(Column::key).collect()
+    let cols = columns(harmonics);
+    let mut out = Vec::with_capacity(cols.len() + 40);
+    for (i, c) in cols.iter().enumerate() {
+        out.push(c.key());
+        let part = part_of(c.figure.key);
+        let last_of_part = cols
+            .get(i + 1)
+            .is_none_or(|next| part_of(next.figure.key) != part);
+        if last_of_part {
+            out.extend(
+                uncertain_columns(part, harmonics)
+                    .iter()
+                    .filter_map(|u| u.figure.uncertainty_key(u.order.unwrap_or(0))),
+            );
+        }
+    }
+    out
+}
+
+/// The figure whose one-sigma uncertainty the key names (`spectrum.uncertainty.snr_db` names
+/// `spectrum.snr_db`), or `None`. An uncertainty is no metric of its own: [`get`] and [`find`] name
+/// figures only.
+pub fn uncertainty_of(key: &str) -> Option<Column> {
+    let (part, rest) = key.split_once(".uncertainty.")?;
+    get(&format!("{part}.{rest}")).filter(|c| c.figure.uncertainty)
 }
 
 /// The headline figures, in their order (SNR first).
@@ -903,7 +951,8 @@ mod tests {
             at("spectrum.harmonics.h3.at_floor") + 1
         );
         assert!(!k.iter().any(|c| c.contains("h4.") || c.contains(ORDER)));
-        assert_eq!(keys(1).len() + 2 * 7, k.len());
+        // Seven rows per harmonic, two of them with an uncertainty column.
+        assert_eq!(keys(1).len() + 2 * (7 + 2), k.len());
         assert_eq!(k.first().map(String::as_str), Some("source"));
         assert_eq!(k.last().map(String::as_str), Some("error.message"));
     }

@@ -136,10 +136,11 @@ pub use crate::analysis::{
     analyze, analyze_averaged, Analysis, AnalysisSettings, ErrorReport, FitChoice, Measured,
     OneTone, RecordResult, Traces,
 };
-pub use crate::fit::{fit_four, fit_three, FitMethod, FourParamOptions, SineFit};
+pub use crate::fit::{fit_four, fit_three, FitMethod, FitUncertainty, FourParamOptions, SineFit};
 pub use crate::spectrum::{
-    ideal_snr_db, Coherence, HarmonicFigure, LeakageDiagnosis, Spectrum, SpectrumSettings, Spur,
-    Window, WindowChoice, WindowFigures, KAISER_BETA_MAX,
+    ideal_snr_db, Coherence, HarmonicFigure, LeakageDiagnosis, LevelUncertainty, PerHarmonic,
+    Spectrum, SpectrumSettings, SpectrumUncertainty, Spur, Window, WindowChoice, WindowFigures,
+    KAISER_BETA_MAX,
 };
 
 // The other analyses of a record: two tones, interleaving, code-density linearity.

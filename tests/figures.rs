@@ -9,7 +9,8 @@ use spurline::figures::{self, Kind};
 use spurline::{Analysis, ErrorReport, OneTone};
 use spurline::{Coherence, HarmonicFigure, LeakageDiagnosis, Spectrum, Spur};
 use spurline::{Error, ErrorKind, Location};
-use spurline::{FitMethod, SineFit};
+use spurline::{FitMethod, FitUncertainty, SineFit};
+use spurline::{LevelUncertainty, PerHarmonic, SpectrumUncertainty};
 use std::collections::BTreeSet;
 
 const HARMONICS: u32 = 4;
@@ -30,6 +31,16 @@ fn populated() -> Analysis {
         cycles_std: 1e-6,
         iterations: 3,
         converged: true,
+        uncertainty: FitUncertainty {
+            frequency_hz: Some(0.01),
+            amplitude_codes: Some(0.02),
+            amplitude_dbfs: Some(0.001),
+            phase_rad: Some(1e-4),
+            offset_codes: Some(0.01),
+            residual_rms_codes: Some(0.002),
+            sinad_db: Some(0.05),
+            enob_bits: Some(0.01),
+        },
     };
     let harmonics = (2..=HARMONICS)
         .map(|order| HarmonicFigure {
@@ -84,6 +95,33 @@ fn populated() -> Analysis {
             sfdr_bias_db: 0.0,
             significant: false,
             advice: Some("none needed".into()),
+        },
+        uncertainty: SpectrumUncertainty {
+            fundamental_dbfs: Some(0.001),
+            snr_db: Some(0.05),
+            sinad_db: Some(0.05),
+            thd_dbc: Some(0.2),
+            sfdr_dbc: Some(0.3),
+            sfdr_dbfs: Some(0.3),
+            enob_bits: Some(0.01),
+            enob_full_scale_bits: Some(0.01),
+            noise_floor_dbfs: Some(0.04),
+            nsd_dbfs_per_hz: Some(0.04),
+            worst_spur: Some(LevelUncertainty {
+                dbc: Some(0.3),
+                dbfs: Some(0.3),
+            }),
+            harmonics: PerHarmonic(
+                (2..=HARMONICS)
+                    .map(|order| {
+                        let u = LevelUncertainty {
+                            dbc: Some(0.3),
+                            dbfs: Some(0.3),
+                        };
+                        (order, u)
+                    })
+                    .collect(),
+            ),
         },
     };
     Analysis {
@@ -165,6 +203,11 @@ fn every_field_of_a_full_record_has_a_row_and_every_row_a_field() {
     );
     // The kind of each row agrees with the JSON value the record writes.
     for (k, v) in &record {
+        // An uncertainty is a number beside a figure that declares one (figures.rs: `uncertain`).
+        if let Some(of) = figures::uncertainty_of(k) {
+            assert!(of.figure.uncertainty && v.is_f64(), "{k}: {v}");
+            continue;
+        }
         let kind = figures::get(k).unwrap().figure.kind;
         let ok = match kind {
             Kind::Number => v.is_f64(),

@@ -15,4 +15,5 @@ mod reference;
 mod report;
 mod sweep;
 mod tolerances;
+mod uncertainty;
 mod windows_ref;

@@ -287,3 +287,14 @@ pub const SCIPY_PSLL_DB: f64 = 1e-4;
 
 /// Bins: 3-dB width against scipy's root search (stopped at about 1e-10): 1e-8.
 pub const SCIPY_BW_BINS: f64 = 1e-8;
+
+// ---- Stated uncertainties ----
+
+/// Relative agreement of a figure's scatter over Monte-Carlo seeds with the one-sigma uncertainty the
+/// record reports (the criterion the project set for its uncertainties, issue 13): the sample standard
+/// deviation of 200 Gaussian errors has a relative standard deviation of 1/√(2·199) = 5 %, so 20 % is
+/// 4 σ of the check itself, and it still catches a formula off by a factor (√2 is 41 %).
+pub const MC_SIGMA_REL: f64 = 0.20;
+
+/// Seeds per Monte-Carlo condition (the project asks for at least 200).
+pub const MC_SEEDS: u64 = 200;

@@ -8,9 +8,11 @@ pub(crate) mod multi_tone;
 mod start;
 mod sums;
 mod three_param;
+pub(crate) mod uncertainty;
 
 pub use four_param::{fit_four, FourParamOptions};
 pub use three_param::fit_three;
+pub use uncertainty::FitUncertainty;
 
 use serde::Serialize;
 use std::f64::consts::{PI, TAU};
@@ -54,6 +56,8 @@ pub struct SineFit {
     pub iterations: u32,
     /// Whether the fit met its stop rule (always true for the three-parameter fit).
     pub converged: bool,
+    /// One-sigma standard uncertainties of the figures above, keyed as they are.
+    pub uncertainty: FitUncertainty,
 }
 
 impl SineFit {
@@ -138,6 +142,7 @@ pub(crate) fn finish(
         cycles_std: cycles_std(amplitude, residual_rms, samples),
         iterations,
         converged,
+        uncertainty: uncertainty::of_fit(method, amplitude, residual_rms, samples, sample_rate_hz),
     }
 }
 

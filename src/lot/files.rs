@@ -198,6 +198,7 @@ impl LotSummary {
             .map(|c| {
                 figures::get(c)
                     .is_some_and(|f| matches!(f.figure.kind, Kind::Number | Kind::Integer))
+                    || figures::uncertainty_of(c).is_some()
             })
             .collect();
         Ok(LotSummary {

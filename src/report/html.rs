@@ -2,7 +2,7 @@
 //! records and their figures, warnings and failures highlighted, and each record's plots. Every name and
 //! message is escaped; the plots are our own SVG (whose text plotters escapes) inlined, or linked.
 
-use super::units::{fixed, si};
+use super::units::{fixed, si, sigma};
 use crate::analysis::Analysis;
 use crate::error::Result;
 use crate::figures::{self, Cells, Figure, Unit};
@@ -270,7 +270,12 @@ pub(crate) fn render_with(
             let c = if f.unit == Unit::Hz {
                 v.map_or("—".to_string(), |v| si(v, f.unit.symbol(), 6))
             } else {
-                fixed(v, 2)
+                // The figure with its one-sigma uncertainty when the record states one: "70.41 ± 0.05".
+                let u = f.uncertainty_key(0).and_then(|k| cells.number(&k));
+                match (v, u) {
+                    (Some(_), Some(u)) => format!("{} ± {}", fixed(v, 2), sigma(u, 2)),
+                    _ => fixed(v, 2),
+                }
             };
             let _ = write!(h, "<td>{}</td>", escape(&c));
         }

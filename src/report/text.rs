@@ -1,6 +1,6 @@
 //! The readable per-record blocks that `analyze`, `imd` and `interleave` print.
 
-use super::units::{fixed, si, with_unit};
+use super::units::{fixed, si, sigma, with_unit};
 use crate::analyses::imd::ImdResult;
 use crate::analyses::interleave::InterleaveResult;
 use crate::analysis::{Analysis, ErrorReport};
@@ -10,6 +10,23 @@ use std::fmt::Write;
 /// "label value unit" of one figure ("SNR 71.23 dB").
 fn show(f: &Figure, value: Option<f64>, digits: usize) -> String {
     format!("{} {}", f.label, with_unit(value, f.unit, digits))
+}
+
+/// "label value ± sigma unit" of one figure with its one-sigma uncertainty ("SNR 71.23 ± 0.05 dB");
+/// without an uncertainty, as [`show`].
+fn show_pm(f: &Figure, value: Option<f64>, sd: Option<f64>, digits: usize) -> String {
+    match (value, sd) {
+        (Some(v), Some(u)) if f.unit != crate::figures::Unit::Hz => format!(
+            "{} {} ± {} {}",
+            f.label,
+            fixed(Some(v), digits),
+            sigma(u, digits),
+            f.unit
+        )
+        .trim_end()
+        .to_string(),
+        _ => show(f, value, digits),
+    }
 }
 
 /// Starts the block of one result: a rule naming its source, then, for a result that failed, its error
@@ -51,26 +68,39 @@ pub fn render(a: &Analysis) -> String {
             crate::fit::FitMethod::ThreeParameter => "three-parameter",
             crate::fit::FitMethod::FourParameter => "four-parameter",
         };
+        let u = &f.uncertainty;
+        let pm = |sd: Option<f64>, digits: usize, unit: &str| {
+            sd.map_or(String::new(), |x| format!(" ± {}{unit}", sigma(x, digits)))
+        };
         let _ = writeln!(
             s,
-            "  sine fit   {method} · {} · {:.3} dBFS ({:.2} codes) · offset {:.3} codes · {:.4} cycles",
+            "  sine fit   {method} · {}{} · {:.3}{} dBFS ({:.2} codes) · offset {:.3}{} codes · {:.4} cycles",
             si(f.frequency_hz, "Hz", 9),
+            u.frequency_hz.map_or(String::new(), |x| format!(" ± {}", si(x, "Hz", 2))),
             f.amplitude_dbfs,
+            pm(u.amplitude_dbfs, 3, ""),
             f.amplitude_codes,
             f.offset_codes,
+            pm(u.offset_codes, 3, ""),
             f.cycles
         );
         let _ = writeln!(
             s,
             "             {} · {} · {} · {} iterations{}",
-            show(&figures::FIT_RESIDUAL, Some(f.residual_rms_codes), 4),
-            show(&figures::FIT_SINAD, f.sinad_db, 2),
-            show(&figures::FIT_ENOB, f.enob_bits, 3),
+            show_pm(
+                &figures::FIT_RESIDUAL,
+                Some(f.residual_rms_codes),
+                u.residual_rms_codes,
+                4
+            ),
+            show_pm(&figures::FIT_SINAD, f.sinad_db, u.sinad_db, 2),
+            show_pm(&figures::FIT_ENOB, f.enob_bits, u.enob_bits, 3),
             f.iterations,
             if f.converged { "" } else { " (NOT converged)" }
         );
     }
     if let Some(sp) = &a.spectrum {
+        let u = &sp.uncertainty;
         let _ = writeln!(
             s,
             "  spectrum   window {} ({}) · {} record(s) averaged · bin {}",
@@ -86,10 +116,15 @@ pub fn render(a: &Analysis) -> String {
         let _ = writeln!(
             s,
             "             {} · {} · {} · {}",
-            show(&figures::FUNDAMENTAL, sp.fundamental_dbfs, 2),
-            show(&figures::SNR, sp.snr_db, 2),
-            show(&figures::SINAD, sp.sinad_db, 2),
-            show(&figures::THD, sp.thd_dbc, 2)
+            show_pm(
+                &figures::FUNDAMENTAL,
+                sp.fundamental_dbfs,
+                u.fundamental_dbfs,
+                2
+            ),
+            show_pm(&figures::SNR, sp.snr_db, u.snr_db, 2),
+            show_pm(&figures::SINAD, sp.sinad_db, u.sinad_db, 2),
+            show_pm(&figures::THD, sp.thd_dbc, u.thd_dbc, 2)
         );
         let spur = sp.worst_spur.as_ref().map_or("—".to_string(), |w| {
             format!(
@@ -102,20 +137,30 @@ pub fn render(a: &Analysis) -> String {
         let _ = writeln!(
             s,
             "             {} / {}, worst spur at {spur}",
-            show(&figures::SFDR, sp.sfdr_dbc, 2),
+            show_pm(&figures::SFDR, sp.sfdr_dbc, u.sfdr_dbc, 2),
             with_unit(sp.sfdr_dbfs, figures::SFDR_DBFS.unit, 2)
         );
         let _ = writeln!(
             s,
             "             {} · {}",
-            show(&figures::ENOB, sp.enob_bits, 3),
-            show(&figures::ENOB_FULL_SCALE, sp.enob_full_scale_bits, 3)
+            show_pm(&figures::ENOB, sp.enob_bits, u.enob_bits, 3),
+            show_pm(
+                &figures::ENOB_FULL_SCALE,
+                sp.enob_full_scale_bits,
+                u.enob_full_scale_bits,
+                3
+            )
         );
         let _ = writeln!(
             s,
             "             {} per bin · {}",
-            show(&figures::NOISE_FLOOR, sp.noise_floor_dbfs, 2),
-            show(&figures::NSD, sp.nsd_dbfs_per_hz, 2)
+            show_pm(
+                &figures::NOISE_FLOOR,
+                sp.noise_floor_dbfs,
+                u.noise_floor_dbfs,
+                2
+            ),
+            show_pm(&figures::NSD, sp.nsd_dbfs_per_hz, u.nsd_dbfs_per_hz, 2)
         );
         let _ = writeln!(
             s,
@@ -133,12 +178,15 @@ pub fn render(a: &Analysis) -> String {
             let level = match (&h.masked_by, h.dbc) {
                 (Some(by), _) => format!("masked by {by}"),
                 (None, Some(d)) if h.at_floor => format!("≤{d:.1} dBc (floor)"),
-                (None, Some(d)) => format!("{d:.1} dBc"),
+                (None, Some(d)) => match u.harmonics.get(h.order).and_then(|x| x.dbc) {
+                    Some(x) => format!("{d:.1} ± {} dBc", sigma(x, 1)),
+                    None => format!("{d:.1} dBc"),
+                },
                 _ => "—".to_string(),
             };
             let _ = write!(
                 s,
-                " H{:<2} {:>12} {:<20}",
+                " H{:<2} {:>12} {:<22}",
                 h.order,
                 si(h.frequency_hz, "Hz", 5),
                 level

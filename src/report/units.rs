@@ -46,6 +46,18 @@ pub fn fixed(value: Option<f64>, decimals: usize) -> String {
     }
 }
 
+/// A one-sigma uncertainty to `decimals` fixed decimals, or with more when those would show it as
+/// zero (one significant digit, at most 6 decimals): "0.05", "0.0003".
+pub fn sigma(value: f64, decimals: usize) -> String {
+    let needed = if value > 0.0 && value.is_finite() {
+        (-value.log10()).ceil().max(0.0) as usize
+    } else {
+        decimals
+    };
+    let d = decimals.max(needed.min(6));
+    format!("{value:.d$}")
+}
+
 /// A figure's value with its unit for people: a frequency with an SI prefix and `digits` significant
 /// digits ("10.00 MHz"), any other value with `digits` fixed decimals and the unit's symbol
 /// ("71.23 dB"); "—" stands for an absent value.

@@ -11,6 +11,7 @@ pub mod coherence;
 mod leakage;
 pub mod metrics;
 pub mod rule;
+pub mod uncertainty;
 
 pub use crate::dft::fft;
 pub use crate::dft::window::*;
@@ -18,6 +19,7 @@ pub use coherence::Coherence;
 pub use leakage::LeakageDiagnosis;
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
 pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice};
+pub use uncertainty::{LevelUncertainty, PerHarmonic, SpectrumUncertainty};
 
 use crate::error::{Error, ErrorKind, Location, Result};
 use crate::fit::SineFit;
@@ -129,6 +131,8 @@ pub struct Spectrum {
     pub noise_bins: usize,
     /// How far the record's own leakage can bias the figures.
     pub leakage: LeakageDiagnosis,
+    /// One-sigma standard uncertainties of the figures above, keyed as they are.
+    pub uncertainty: SpectrumUncertainty,
 }
 
 /// The spectrum with its bin powers (codes², scaled as in [`fft::power_spectrum`]), kept for plots.
@@ -210,6 +214,7 @@ pub fn measure_consuming(
         .map_err(|e| e.to_error(&window.name()))?;
     let measured = claims.measure(&powers);
     let figs = metrics::figures(&claims, &measured, sample_rate_hz, bits);
+    let uncertainty = uncertainty::of_spectrum(&claims, &measured, &figs, window, count);
     let mut warnings = Vec::new();
     leakage::edge_warning(window, taper, n, fit, &claims, &mut warnings);
     if figs.noise_bins < claim::MIN_NOISE_BINS {
@@ -296,6 +301,7 @@ pub fn measure_consuming(
         harmonics: figs.harmonics.clone(),
         noise_bins: figs.noise_bins,
         leakage,
+        uncertainty,
     };
     Ok(SpectrumOutput {
         spectrum,
