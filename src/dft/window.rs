@@ -202,7 +202,7 @@ impl Window {
         w
     }
 
-    /// The first `n/2 + 1` samples of [`Window::samples`] (the rest mirror them: w[i] = w[n − i]); the
+    /// The first `n/2 + 1` samples of [`Window::samples`] (the rest mirror them: `w[i] = w[n − i]`); the
     /// same values, bit for bit. A long record's spectrum applies its window from this half, which
     /// saves half the window's memory (64 MB at 2^24 samples).
     pub fn half_samples(&self, n: usize) -> Vec<f64> {
