@@ -5,7 +5,7 @@ use super::claim::Claims;
 use super::coherence::Coherence;
 use super::metrics::Figures;
 use super::rule::{tone_halfwidth, AUTO_LADDER};
-use crate::dft::fft::power_spectrum;
+use crate::dft::fft::{power_spectrum_owned, Taper};
 use crate::dft::{Leakage, Window};
 use crate::fit::SineFit;
 use serde::Serialize;
@@ -139,11 +139,11 @@ pub(crate) fn diagnose(
 /// beyond fs/2, or below 0, back onto itself, and in shared bins the two add as complex values). The
 /// level error is computed, not bounded: the fitted sine alone goes through the same window and bin
 /// claims, and its claimed power is compared with A²/2. Warns when the error exceeds [`BIAS_WARN_DB`].
-/// `w` is the window's samples, or empty for the rectangular window (never materialised), so the record
-/// length `n` is passed on its own.
+/// `w` is the window's samples (all, or the first half of a long record's), or empty for the rectangular
+/// window (never materialised), so the record length `n` is passed on its own.
 pub(crate) fn edge_warning(
     window: Window,
-    w: &[f64],
+    w: Taper,
     n: usize,
     fit: &SineFit,
     claims: &Claims,
@@ -162,7 +162,7 @@ pub(crate) fn edge_warning(
             fit.amplitude_codes * (TAU * turns + fit.phase_rad).cos()
         })
         .collect();
-    let powers = power_spectrum(&model, w);
+    let powers = power_spectrum_owned(model, w);
     let claimed: f64 = claims.tones[0].bins.iter().map(|&k| powers[k]).sum();
     let expected = 0.5 * fit.amplitude_codes * fit.amplitude_codes;
     let Some(bias) = (claimed > 0.0).then(|| 10.0 * (claimed / expected).log10()) else {

@@ -179,17 +179,25 @@ pub fn measure_consuming(
         settings.guard_bins,
     );
     let half = tone_halfwidth(window, coherence.coherent, settings.guard_bins);
-    // The rectangular window is never materialised: a 2^24-sample record saves 128 MB.
-    let w: std::sync::Arc<[f64]> = if window == Window::Rectangular {
-        Vec::new().into()
+    // The rectangular window is never materialised: a 2^24-sample record saves 128 MB. A long record's
+    // window is built once for it and not cached, so only its first half is made (the same values).
+    let (w, long): (std::sync::Arc<[f64]>, bool) = if window == Window::Rectangular {
+        (Vec::new().into(), false)
+    } else if n > 1 << 20 {
+        (window.half_samples(n).into(), true)
     } else {
-        window.samples_shared(n)
+        (window.samples_shared(n), false)
+    };
+    let taper = if long {
+        fft::Taper::Half(&w)
+    } else {
+        fft::Taper::Full(&w)
     };
     let count = records.len();
     let mut powers: Vec<f64> = Vec::new();
-    // Each record is transformed in place and dropped before the next one.
-    for mut r in records {
-        let p = fft::power_spectrum_in_place(&mut r, &w);
+    // Each record is transformed in place and dropped before its powers are made.
+    for r in records {
+        let p = fft::power_spectrum_owned(r, taper);
         if powers.is_empty() {
             powers = p;
         } else {
@@ -208,7 +216,7 @@ pub fn measure_consuming(
     let figs = metrics::figures(&claims, &measured, sample_rate_hz, bits);
     let uncertainty = uncertainty::of_spectrum(&claims, &measured, &figs, window, count);
     let mut warnings = Vec::new();
-    leakage::edge_warning(window, &w, n, fit, &claims, &mut warnings);
+    leakage::edge_warning(window, taper, n, fit, &claims, &mut warnings);
     if figs.noise_bins < claim::MIN_NOISE_BINS {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise figures are poorly determined (use a longer record or fewer harmonics)",
