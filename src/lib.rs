@@ -109,6 +109,7 @@ mod lot;
 mod plan;
 mod record;
 mod report;
+mod resources;
 mod spc;
 mod spectrum;
 mod stats;
@@ -131,6 +132,12 @@ pub use crate::ingest::{
     parse_text, read_npy_header, read_record, read_sidecar, sidecar_path, write_sidecar,
     BinaryLayout, ColumnSel, Format, IngestSettings, Ingested, Justify, Metadata, NpyLayout,
     Samples, Sidecar, DEFAULT_MIN_SAMPLES, STDIN_PATH,
+};
+
+// Ceilings that keep a run inside the machine: record memory, worker threads, small-file reads.
+pub use crate::resources::{
+    check_jobs, cores, default_memory_limit, machine_memory_bytes, ANALYSIS_BYTES_PER_SAMPLE,
+    MAX_JOBS,
 };
 
 // Analysing a record: the sine fits, the spectrum, the one result record.

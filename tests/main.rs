@@ -14,6 +14,7 @@ mod linearity;
 mod path_traversal;
 mod pipeline;
 mod plan;
+mod resource_limits;
 mod reference;
 mod report;
 mod spc;

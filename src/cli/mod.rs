@@ -210,6 +210,34 @@ pub struct ReadArgs {
     /// CSV delimiter (one character; "tab" for a tab). Detected when absent.
     #[arg(long)]
     pub delimiter: Option<String>,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+}
+
+/// The memory ceiling of a record and streams, shared by the commands that read records.
+#[derive(Debug, Clone, Args)]
+pub struct LimitArgs {
+    /// Memory one record may need (read and analysed), in bytes with an SI prefix (4G = 4e9 bytes)
+    /// [default: half this machine's memory]. A larger record is refused before it is read.
+    #[arg(long, value_name = "BYTES", value_parser = memory_value)]
+    pub max_memory: Option<u64>,
+    /// Read a record path that is not a regular file (a FIFO, a device) as a stream, up to a quarter
+    /// of --max-memory; without it such a path is refused.
+    #[arg(long)]
+    pub stream: bool,
+}
+
+/// Parses a memory size: bytes with an optional SI prefix and "B" ("4G", "512MB", "1e9"), at least
+/// 1 MB.
+pub(crate) fn memory_value(s: &str) -> Result<u64, String> {
+    let t = s.trim();
+    let t = t.strip_suffix('B').unwrap_or(t);
+    match spurline::parse_si(t) {
+        Some(v) if (1e6..=1.8e19).contains(&v) => Ok(v as u64),
+        _ => Err(format!(
+            "expected a memory size in bytes from 1M to 18E (4G, 512MB, 1e9), found '{s}'"
+        )),
+    }
 }
 
 impl ReadArgs {
@@ -246,6 +274,9 @@ impl ReadArgs {
             column,
             delimiter,
             min_samples: 0,
+            max_memory_bytes: self.limits.max_memory.unwrap_or(0),
+            stream: self.limits.stream,
+            ..IngestSettings::default()
         })
     }
 }
