@@ -299,7 +299,7 @@ fn too_large(shown: &str, size: &str, needed: u64, limit: u64) -> Error {
 fn needed_up_front(file_bytes: u64, format: &Format) -> (u64, String) {
     match format {
         Format::Binary(l) => {
-            let frame = (l.word_bytes * l.channels.max(1)) as u64;
+            let frame = (l.word_bytes as u64).saturating_mul(l.channels.max(1) as u64);
             let samples = file_bytes.saturating_sub(l.skip_bytes) / frame.max(1);
             (
                 file_bytes.saturating_add(
