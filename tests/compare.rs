@@ -192,7 +192,8 @@ fn verdicts_directions_and_left_out_items() {
     let snr = find("f10", "spectrum.snr_db");
     let welch_p = format!("p = {:.2e}", snr.welch.as_ref().unwrap().p_value);
     assert!(
-        snr.statement.starts_with("SNR at f10 got better in B: B − A = +1.")
+        snr.statement
+            .starts_with("SNR at f10 got better in B: B − A = +1.")
             && snr.statement.contains("Welch t test")
             && snr.statement.contains(&welch_p)
             && snr.statement.contains("over 8 device(s)"),
@@ -501,15 +502,24 @@ fn one_device_a_side_is_judged_by_the_records_own_uncertainty() {
         );
         assert_eq!(r.a_record_uncertainty, Some(0.1));
         assert!(
-            r.statement.contains("judged by the records' own uncertainty")
+            r.statement
+                .contains("judged by the records' own uncertainty")
                 && r.statement.contains("each record ± 0.100 dB"),
             "{}",
             r.statement
         );
         if verdict == Change::NoSignificantChange {
-            assert!(c.summary[0].contains("No figure changed"), "{:?}", c.summary);
+            assert!(
+                c.summary[0].contains("No figure changed"),
+                "{:?}",
+                c.summary
+            );
         } else {
-            assert!(c.summary[0].contains("B is better than A"), "{:?}", c.summary);
+            assert!(
+                c.summary[0].contains("B is better than A"),
+                "{:?}",
+                c.summary
+            );
         }
     }
 }

@@ -373,7 +373,11 @@ pub fn compare(a: &Run, b: &Run, settings: &CompareSettings) -> Comparison {
                 Some(u) => judge_by_uncertainty(u, better, min_change),
                 None => {
                     let (v, r, d) = judge(chosen, better, min_change, &va, &vb);
-                    (v, r, d.then(|| if use_paired { "paired" } else { "welch" }))
+                    (
+                        v,
+                        r,
+                        d.then_some(if use_paired { "paired" } else { "welch" }),
+                    )
                 }
             };
             let mut row = MetricComparison {
@@ -464,7 +468,10 @@ fn judge_by_uncertainty(
 /// unit's symbol.
 fn name_and_unit(r: &MetricComparison) -> (String, &'static str) {
     match figures::get(&r.metric) {
-        Some(c) => (format!("{} at {}", c.label(), r.condition), c.unit().symbol()),
+        Some(c) => (
+            format!("{} at {}", c.label(), r.condition),
+            c.unit().symbol(),
+        ),
         None => (format!("{} at {}", r.metric, r.condition), ""),
     }
 }
@@ -624,7 +631,9 @@ fn summary(rows: &[MetricComparison]) -> Vec<String> {
         ));
     }
     if same > 0 && !(better.is_empty() && worse.is_empty()) {
-        out.push(format!("{same} other figure(s) did not change meaningfully."));
+        out.push(format!(
+            "{same} other figure(s) did not change meaningfully."
+        ));
     }
     if untested > 0 {
         out.push(format!(

@@ -114,7 +114,11 @@ p.summary{{margin:4px 0;font-size:15px}}li.better{{color:#1D6A72}}li.worse{{colo
     if !changed.is_empty() {
         let _ = writeln!(h, "<ul class=\"changes\">");
         for r in changed {
-            let cls = if r.verdict == Change::Better { "better" } else { "worse" };
+            let cls = if r.verdict == Change::Better {
+                "better"
+            } else {
+                "worse"
+            };
             let _ = writeln!(h, "<li class=\"{cls}\">{}</li>", escape(&r.statement));
         }
         let _ = writeln!(h, "</ul>");
@@ -293,7 +297,8 @@ fn overlay(condition: &str, a: &Run, b: &Run) -> std::result::Result<String, Str
         &format!("{condition}: A {da} · B {db}"),
         &[ta, tb],
         OVERLAY_HEIGHT_PX,
-    ).map_err(|e| e.to_string())
+    )
+    .map_err(|e| e.to_string())
 }
 
 /// Writes `comparison.csv`, `comparison.json` and `comparison.html` into `out` (atomically).

@@ -220,23 +220,23 @@ impl OverlayTrace {
         let p = &t.powers;
         let bin_hz = a.sample_rate_hz / a.samples.max(1) as f64;
         let per = p.len().div_ceil(columns.max(1)).max(1);
-        let points = p
-            .chunks(per)
-            .enumerate()
-            .map(|(i, c)| {
-                let (k, v) = c.iter().enumerate().fold((0, 0.0f64), |best, (j, &x)| {
-                    if x > best.1 {
-                        (j, x)
-                    } else {
-                        best
-                    }
-                });
-                (
-                    (i * per + k) as f64 * bin_hz,
-                    10.0 * (v.max(pfs * 1e-30) / pfs).log10() + offset,
-                )
-            })
-            .collect();
+        let points =
+            p.chunks(per)
+                .enumerate()
+                .map(|(i, c)| {
+                    let (k, v) = c.iter().enumerate().fold((0, 0.0f64), |best, (j, &x)| {
+                        if x > best.1 {
+                            (j, x)
+                        } else {
+                            best
+                        }
+                    });
+                    (
+                        (i * per + k) as f64 * bin_hz,
+                        10.0 * (v.max(pfs * 1e-30) / pfs).log10() + offset,
+                    )
+                })
+                .collect();
         Ok(OverlayTrace {
             name,
             points,
@@ -260,7 +260,7 @@ pub fn overlay_svg(title: &str, traces: &[OverlayTrace], height_px: u32) -> Resu
         .flat_map(|t| t.points.last())
         .map(|p| p.0)
         .fold(0.0f64, f64::max);
-    if !(hi_hz > 0.0) {
+    if hi_hz.is_nan() || hi_hz <= 0.0 {
         return Err(err("no points to draw"));
     }
     let (unit_hz, unit) = frequency_unit(hi_hz);
@@ -268,8 +268,8 @@ pub fn overlay_svg(title: &str, traces: &[OverlayTrace], height_px: u32) -> Resu
         .iter()
         .flat_map(|t| t.points.iter().map(|p| p.1).chain(t.tone.map(|x| x.1)))
         .filter(|v| v.is_finite());
-    let top = ((levels.clone().fold(f64::NEG_INFINITY, f64::max).max(0.0) + 5.0) / 10.0).ceil()
-        * 10.0;
+    let top =
+        ((levels.clone().fold(f64::NEG_INFINITY, f64::max).max(0.0) + 5.0) / 10.0).ceil() * 10.0;
     // The bottom follows the lower of the two floors (the median of the points), 30 dB under it.
     let floor = traces
         .iter()
@@ -377,16 +377,14 @@ pub fn overlay_svg(title: &str, traces: &[OverlayTrace], height_px: u32) -> Resu
                 rgb(colour).stroke_width(2),
             ))
             .map_err(err)?;
-            let tone = t.tone.map_or(String::new(), |(_, d)| format!(", H1 {d:.2} dBFS"));
+            let tone = t
+                .tone
+                .map_or(String::new(), |(_, d)| format!(", H1 {d:.2} dBFS"));
             let style = TextStyle::from((FONT, 12).into_font())
                 .color(&ink)
                 .pos(Pos::new(HPos::Left, VPos::Center));
-            root.draw(&Text::new(
-                format!("{}{tone}", t.name),
-                (x0 + 32, y),
-                style,
-            ))
-            .map_err(err)?;
+            root.draw(&Text::new(format!("{}{tone}", t.name), (x0 + 32, y), style))
+                .map_err(err)?;
         }
         let note = traces
             .iter()
@@ -404,7 +402,9 @@ pub fn overlay_svg(title: &str, traces: &[OverlayTrace], height_px: u32) -> Resu
             .color(&ink)
             .pos(Pos::new(HPos::Left, VPos::Bottom));
         root.draw(&Text::new(
-            format!("{note}; bins scaled by each window's ENBW, rings at each tone's measured level"),
+            format!(
+                "{note}; bins scaled by each window's ENBW, rings at each tone's measured level"
+            ),
             (10, h as i32 - 5),
             style,
         ))
@@ -457,7 +457,11 @@ mod tests {
         let a = trace("A hann", Window::Hann, 301.0);
         let b = trace("B bh4", Window::BlackmanHarris4, 301.37);
         let peak = |t: &OverlayTrace| t.points.iter().map(|p| p.1).fold(f64::MIN, f64::max);
-        assert!((peak(&a) - -1.0).abs() <= MARKER_DB, "Hann peak {}", peak(&a));
+        assert!(
+            (peak(&a) - -1.0).abs() <= MARKER_DB,
+            "Hann peak {}",
+            peak(&a)
+        );
         let scallop = b.scale.scalloping_loss_db;
         assert!(
             peak(&b) <= -1.0 + MARKER_DB && peak(&b) >= -1.0 - scallop - MARKER_DB,
@@ -482,7 +486,12 @@ mod tests {
         let ticks: Vec<(f64, f64)> = texts
             .iter()
             .filter(|t| t.0 < 80.0)
-            .filter_map(|t| t.2.parse::<f64>().ok().filter(|v| *v < 0.0).map(|v| (t.1, v)))
+            .filter_map(|t| {
+                t.2.parse::<f64>()
+                    .ok()
+                    .filter(|v| *v < 0.0)
+                    .map(|v| (t.1, v))
+            })
             .collect();
         assert!(ticks.len() >= 3, "{ticks:?}");
         let (ta, tb) = (ticks[0], ticks[ticks.len() - 1]);
@@ -502,7 +511,8 @@ mod tests {
         let all: Vec<&str> = texts.iter().map(|t| t.2.as_str()).collect();
         assert!(all.contains(&"dBFS, tone peak = level"), "{all:?}");
         assert!(
-            all.iter().any(|t| t.contains("ENBW 1.5 bins") && t.contains("ENBW 2.004")),
+            all.iter()
+                .any(|t| t.contains("ENBW 1.5 bins") && t.contains("ENBW 2.004")),
             "{all:?}"
         );
     }
