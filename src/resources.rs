@@ -282,10 +282,16 @@ mod tests {
 
     #[test]
     fn bounded_read_refuses_more() {
-        let data = vec![7u8; 100];
-        assert_eq!(read_bounded(&data[..], "x", "data", 100, "").unwrap().len(), 100);
+        let data = [7u8; 100];
+        assert_eq!(
+            read_bounded(&data[..], "x", "data", 100, "").unwrap().len(),
+            100
+        );
         let e = read_bounded(&data[..], "x", "data", 99, "; raise it").unwrap_err();
-        assert!(e.expected.contains("99 bytes") && e.expected.contains("raise"), "{e}");
+        assert!(
+            e.expected.contains("99 bytes") && e.expected.contains("raise"),
+            "{e}"
+        );
     }
 
     #[test]

@@ -138,7 +138,10 @@ fn a_plan_or_limit_table_that_is_a_device_is_refused() {
     let o = run_prompt(c);
     let err = stderr(&o);
     assert_eq!(o.status.code(), Some(2), "{err}");
-    assert!(err.contains("/dev/zero") && err.contains("character device"), "{err}");
+    assert!(
+        err.contains("/dev/zero") && err.contains("character device"),
+        "{err}"
+    );
 
     let lot = crate::batch::make_lot();
     let mut c = spurline();
@@ -149,7 +152,10 @@ fn a_plan_or_limit_table_that_is_a_device_is_refused() {
     let o = run_prompt(c);
     let err = stderr(&o);
     assert_eq!(o.status.code(), Some(2), "{err}");
-    assert!(err.contains("/dev/urandom") && err.contains("limit table"), "{err}");
+    assert!(
+        err.contains("/dev/urandom") && err.contains("limit table"),
+        "{err}"
+    );
 }
 
 #[test]
@@ -158,7 +164,10 @@ fn worker_threads_beyond_the_cap_are_refused_with_the_cap() {
     let o = crate::batch::run_batch(lot.path(), &lot.path().join("out"), &["--jobs", "10000"]);
     let err = stderr(&o);
     assert_eq!(o.status.code(), Some(2), "{err}");
-    assert!(err.contains("jobs") && err.contains("1..=256") && err.contains("10000"), "{err}");
+    assert!(
+        err.contains("jobs") && err.contains("1..=256") && err.contains("10000"),
+        "{err}"
+    );
     assert!(!lot.path().join("out").join("summary.csv").exists());
     // The cap itself is accepted (no limit table: exit 0).
     let o = crate::batch::run_batch(lot.path(), &lot.path().join("out"), &["--jobs", "256"]);

@@ -276,7 +276,6 @@ impl ReadArgs {
             min_samples: 0,
             max_memory_bytes: self.limits.max_memory.unwrap_or(0),
             stream: self.limits.stream,
-            ..IngestSettings::default()
         })
     }
 }

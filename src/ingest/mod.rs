@@ -302,9 +302,8 @@ fn needed_up_front(file_bytes: u64, format: &Format) -> (u64, String) {
             let frame = (l.word_bytes as u64).saturating_mul(l.channels.max(1) as u64);
             let samples = file_bytes.saturating_sub(l.skip_bytes) / frame.max(1);
             (
-                file_bytes.saturating_add(
-                    samples.saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE),
-                ),
+                file_bytes
+                    .saturating_add(samples.saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE)),
                 format!(
                     "{} holding {samples} samples of {}-byte words",
                     resources::bytes_shown(file_bytes),
@@ -1134,11 +1133,21 @@ mod tests {
         // 8 KiB of words: 8192 bytes plus the analysis of 4096 samples.
         let need = 8192 + 4096 * resources::ANALYSIS_BYTES_PER_SAMPLE;
         s.max_memory_bytes = need;
-        assert_eq!(read_record(&dir.path().join("r.bin"), &s).unwrap().record.codes.len(), 4096);
+        assert_eq!(
+            read_record(&dir.path().join("r.bin"), &s)
+                .unwrap()
+                .record
+                .codes
+                .len(),
+            4096
+        );
         s.max_memory_bytes = need - 1;
         let e = read_record(&dir.path().join("r.bin"), &s).unwrap_err();
         assert_eq!(e.kind, ErrorKind::TooLarge);
-        assert!(e.found.contains("4096 samples") && e.found.contains(&need.to_string()), "{e}");
+        assert!(
+            e.found.contains("4096 samples") && e.found.contains(&need.to_string()),
+            "{e}"
+        );
         assert!(e.expected.contains("--max-memory"), "{e}");
         // Text: the reading fits, the analysis of the samples counted does not.
         let mut t = cli(1e6, 12);
@@ -1153,7 +1162,10 @@ mod tests {
     fn special_files_are_refused_or_read_with_a_bound() {
         let e = read_record(Path::new("/dev/zero"), &cli(1e6, 12)).unwrap_err();
         assert_eq!(e.kind, ErrorKind::Io);
-        assert!(e.found.contains("character device") && e.found.contains("--stream"), "{e}");
+        assert!(
+            e.found.contains("character device") && e.found.contains("--stream"),
+            "{e}"
+        );
         let mut s = cli(1e6, 12);
         s.stream = true;
         s.format = Some(Format::Binary(Format::parse_word("i16le").unwrap()));

@@ -129,11 +129,8 @@ pub fn read_sidecar(record: &Path) -> Result<Option<Sidecar>> {
             return Ok(None);
         }
     }
-    let bytes = crate::resources::read_small_file(
-        &path,
-        "a readable metadata sidecar",
-        MAX_SIDECAR_BYTES,
-    )?;
+    let bytes =
+        crate::resources::read_small_file(&path, "a readable metadata sidecar", MAX_SIDECAR_BYTES)?;
     serde_json::from_slice(&bytes).map(Some).map_err(|e| {
         let message = e.to_string();
         let suffix = format!(" at line {} column {}", e.line(), e.column());
