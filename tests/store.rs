@@ -632,3 +632,106 @@ fn trend_charts_the_lots_and_flags_a_shift() {
         assert!(page.contains("<svg") && page.contains("WE1"));
     });
 }
+
+#[test]
+fn an_analyze_report_is_recorded_with_records_as_conditions() {
+    on_both("spurline_analyze", |url| {
+        let work = tempfile::tempdir().unwrap();
+        let report = work.path().join("bench-7");
+        let files: Vec<PathBuf> = ["d01", "d02"]
+            .iter()
+            .flat_map(|d| {
+                ["fin_10M_1", "fin_31M_1"].map(|r| records().join(format!("records/{d}/{r}.bin")))
+            })
+            .collect();
+        let run = || {
+            spurline()
+                .arg("analyze")
+                .args(&files)
+                .arg("--report")
+                .arg(&report)
+                .args(["--store", url, "--json"])
+                .output()
+                .unwrap()
+        };
+        let o = run();
+        assert_eq!(
+            o.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        let json: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        let mut store = open(url);
+        let runs = store.runs().unwrap();
+        assert_eq!(runs.len(), 1);
+        // The report folder's name; a report has no verdicts: every result untested.
+        assert_eq!(runs[0].lot, "bench-7");
+        assert_eq!((runs[0].devices, runs[0].results), (2, 4));
+        assert_eq!(runs[0].untested, 4);
+        // Each record's SNR as analyze printed it, under its device and its name as the condition.
+        for (k, f) in files.iter().enumerate() {
+            let device = f.parent().unwrap().file_name().unwrap().to_str().unwrap();
+            let record = f.file_stem().unwrap().to_str().unwrap();
+            let history = store
+                .device_history(device, Some("spectrum.snr_db"))
+                .unwrap();
+            let got = history.iter().find(|h| h.condition == record).unwrap();
+            assert_eq!(
+                Some(got.value),
+                json[k]["spectrum"]["snr_db"].as_f64(),
+                "{device} {record}"
+            );
+        }
+        // The same report again: refused, exit status 1, nothing added.
+        let o = run();
+        assert_eq!(o.status.code(), Some(1));
+        assert!(String::from_utf8_lossy(&o.stderr).contains("already recorded as 'bench-7'"));
+        assert_eq!(open(url).runs().unwrap().len(), 1);
+    });
+}
+
+#[test]
+fn the_demo_records_both_revisions_and_charts_them() {
+    let work = tempfile::tempdir().unwrap();
+    let out = work.path().join("demo");
+    let o = spurline()
+        .args(["demo", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut store = open(out.join("store.sqlite").to_str().unwrap());
+    let runs = store.runs().unwrap();
+    let names: Vec<&str> = runs.iter().map(|r| r.lot.as_str()).collect();
+    assert_eq!(names, ["rev-a", "rev-b"]);
+    for r in &runs {
+        // 12 devices × 3 conditions (src/cli/demo_lot.rs); counts as the lot's own yield file says.
+        assert_eq!((r.devices, r.results), (12, 36));
+        let summary = LotSummary::in_folder(&out.join(format!("lot-{}/results", r.lot))).unwrap();
+        let rows = summary.all_rows().unwrap();
+        let passed = rows.iter().filter(|x| x.verdict() == Some("pass")).count();
+        assert_eq!(r.passed as usize, passed);
+        assert!(r.limits_fingerprint.is_some());
+    }
+    // The trend page: one X̄ chart per condition and metric, both lots on each; rev-b's cleaner
+    // clock moves SNR at 47.3 MHz (aperture jitter: SNR = −20·log10(2π·fin·σt), the handbook
+    // jitter limit) far beyond the spread within the lots, so that chart flags it.
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("trend/trend.json")).unwrap())
+            .unwrap();
+    let charts = json["charts"].as_array().unwrap();
+    assert!(charts.len() >= 9, "{}", charts.len());
+    assert!(charts
+        .iter()
+        .all(|c| c["chart"] == "xbar" && c["points"].as_array().unwrap().len() == 2));
+    let snr = charts
+        .iter()
+        .find(|c| c["condition"] == "fin_47M" && c["metric"] == "spectrum.snr_db")
+        .unwrap();
+    let (a, b) = (&snr["points"][0], &snr["points"][1]);
+    assert!(b["mean"].as_f64().unwrap() > a["mean"].as_f64().unwrap());
+    assert!(b["rules"].as_array().unwrap().iter().any(|r| r == "WE1"));
+    let page = std::fs::read_to_string(out.join("trend/index.html")).unwrap();
+    assert!(page.contains("<svg") && page.contains("rev-b"));
+}
