@@ -225,7 +225,12 @@ fn is_integer(x: f64) -> bool {
 }
 
 fn next_prime(mut n: usize) -> usize {
-    let is_prime = |n: usize| n >= 2 && (2..).take_while(|d| d * d <= n).all(|d| n % d != 0);
+    let is_prime = |n: usize| {
+        n >= 2
+            && (2..)
+                .take_while(|d| d * d <= n)
+                .all(|d| !n.is_multiple_of(d))
+    };
     while !is_prime(n) {
         n += 1;
     }
@@ -456,9 +461,7 @@ fn allowance(key: &str, unit: Unit, t: &BTreeMap<String, f64>, n: usize, fs: f64
 /// line but the tone): also compared as powers, where a measured noise peak is right when its
 /// stated uncertainty covers zero.
 fn is_level(key: &str) -> Option<f64> {
-    if key.ends_with(".dbc") || key.ends_with(".dbfs") && !key.contains("fundamental") {
-        Some(1.0)
-    } else if key == "spectrum.thd_dbc" {
+    if key.ends_with(".dbc") || key.ends_with(".dbfs") || key == "spectrum.thd_dbc" {
         Some(1.0)
     } else if key.starts_with("spectrum.sfdr") {
         Some(-1.0)
