@@ -110,6 +110,7 @@ mod plan;
 mod record;
 mod report;
 mod resources;
+mod si;
 mod spc;
 mod spectrum;
 mod stats;

@@ -22,5 +22,6 @@ mod store;
 mod sweep;
 mod tolerances;
 mod trust;
+mod truth;
 mod uncertainty;
 mod windows_ref;
