@@ -21,6 +21,9 @@ fn num(v: Option<f64>, unit: &str) -> String {
     v.map_or("—".to_string(), |x| format!("{x:.2} {unit}"))
 }
 
+/// Draws one record's plot from its name, result and bin powers.
+type PlotOf<'a, T> = &'a dyn Fn(&str, &RecordResult<T>, &[f64]) -> Result<String>;
+
 /// Writes the folder: `<record>.svg` per analysed record and `index.html`. Returns the page's path.
 fn write_page<T>(
     dir: &Path,
@@ -29,7 +32,7 @@ fn write_page<T>(
     items: &[Traced<T>],
     columns: &[&str],
     cells: &dyn Fn(&RecordResult<T>) -> Vec<String>,
-    plot: &dyn Fn(&str, &RecordResult<T>, &[f64]) -> Result<String>,
+    plot: PlotOf<T>,
 ) -> Result<PathBuf> {
     std::fs::create_dir_all(dir)
         .map_err(|e| output_error(dir, "a folder to write the report into", e))?;

@@ -25,7 +25,7 @@ pub struct Marker {
     pub dbfs: f64,
     /// Its label on the plot.
     pub label: String,
-    /// Its colour (one of [`palette`]).
+    /// Its colour, (red, green, blue), one of the plots' colour scheme.
     pub colour: (u8, u8, u8),
     /// Measured above the noise (a filled dot); at the floor it is a hollow dot.
     pub measured: bool,
