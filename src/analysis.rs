@@ -358,7 +358,7 @@ fn fit_against_spectrum(
     }
     let peak = if sum_p > 0.0 {
         let tone_hz = sum_kp / sum_p * sp.bin_width_hz;
-        let si = crate::report::units::si;
+        let si = crate::si::si;
         format!(
             "; the spectrum's tone is at {}, {:+.1} Hz from the fit's {}",
             si(tone_hz, "Hz", 9),
