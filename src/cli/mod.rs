@@ -110,31 +110,44 @@ pub fn run(cli: Cli) -> i32 {
 
 /// Reads and analyses each file in order (one bad file is a failed result, the rest go on), prints
 /// one JSON array or the text blocks, repeats the errors on stderr, and gives the exit status.
+/// Writes a command's report folder from its traced results; returns the page's path.
+pub(crate) type ReportWriter<'a, T> =
+    &'a dyn Fn(&std::path::Path, &[spurline::Traced<T>]) -> spurline::Result<std::path::PathBuf>;
+
 pub(crate) fn run_files<T: Default + serde::Serialize>(
     files: &[std::path::PathBuf],
     ingest: &spurline::IngestSettings,
     json: bool,
-    analyse: impl Fn(&spurline::Record) -> spurline::Result<RecordResult<T>>,
+    analyse: impl Fn(&spurline::Record) -> spurline::Result<(RecordResult<T>, Vec<f64>)>,
     render: impl Fn(&RecordResult<T>) -> String,
+    report: Option<(&std::path::Path, ReportWriter<T>)>,
 ) -> i32 {
-    let mut results = Vec::with_capacity(files.len());
+    let mut traced: Vec<spurline::Traced<T>> = Vec::new();
     for path in files {
         let shown = path.display().to_string();
-        let r = match spurline::read_record(path, ingest) {
-            Err(e) => RecordResult::failed(&shown, &e, Vec::new()),
+        let (r, powers) = match spurline::read_record(path, ingest) {
+            Err(e) => (RecordResult::failed(&shown, &e, Vec::new()), None),
             Ok(ing) => match analyse(&ing.record) {
-                Ok(mut r) => {
+                Ok((mut r, powers)) => {
                     // The reader's warnings come before the analysis's.
                     let mut w = ing.warnings;
                     w.append(&mut r.warnings);
                     r.warnings = w;
-                    r
+                    (r, Some(powers))
                 }
-                Err(e) => RecordResult::failed(&shown, &e, ing.warnings),
+                Err(e) => (RecordResult::failed(&shown, &e, ing.warnings), None),
             },
         };
-        results.push(r);
+        // Only the page needs the bin powers; without one they are dropped at once.
+        traced.push((r, powers.filter(|_| report.is_some())));
     }
+    if let Some((dir, write)) = report {
+        match write(dir, &traced) {
+            Ok(page) => eprintln!("wrote {}", page.display()),
+            Err(e) => return fail(&e),
+        }
+    }
+    let results: Vec<&RecordResult<T>> = traced.iter().map(|t| &t.0).collect();
     if json {
         // Plain data with Option<f64> figures and finite floats: this cannot fail.
         let mut s = serde_json::to_string_pretty(&results).expect("plain data serialises");
