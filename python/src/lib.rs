@@ -780,7 +780,7 @@ fn ingest_settings(
             channel: channel.map(spurline::parse_channel).transpose()?,
             column,
             delimiter: delimiter.map(spurline::parse_delimiter).transpose()?,
-            min_samples: 0,
+            ..IngestSettings::default()
         })
     };
     Ok(settings())
