@@ -304,3 +304,16 @@ pub const MC_SEEDS: u64 = 200;
 /// order differs (about 1e-15), except c4, whose log-gamma comes from statrs on our side and from
 /// scipy's gammaln on theirs (each good to about 1e-14); 1e-10 leaves room for both.
 pub const SPC_REL: f64 = 1e-10;
+
+// ---- Input formats ----
+
+/// Relative agreement of the figures of a record of values (volts with an inexact full-scale
+/// scaling, or decimal text) with those of the same codes as integers: the values differ from the
+/// scaled codes by one rounding each (about 1e-16 relative) and the analysis adds rounding of the same
+/// order; the bound of 1e-9 relative leaves six decades.
+pub const VALUES_REL: f64 = 1e-9;
+
+/// The absolute floor beside [`VALUES_REL`], for figures of order one that come from a cancellation
+/// (the fitted cycles minus their whole number, a tone's offset from its bin): they keep the absolute
+/// error of the operands (about 1e-14 for tens of cycles), not a relative one.
+pub const VALUES_ABS: f64 = 1e-9;

@@ -556,6 +556,7 @@ fn records_of(
                         sample_rate_hz: d.sample_rate_hz,
                         bits: d.bits,
                         full_scale_vpp: d.full_scale_vpp,
+                        values: None,
                         fin_hint_hz: d.fin_hz,
                     },
                     warnings,
@@ -780,6 +781,7 @@ fn ingest_settings(
             channel: channel.map(spurline::parse_channel).transpose()?,
             column,
             delimiter: delimiter.map(spurline::parse_delimiter).transpose()?,
+            unit: None,
             min_samples: 0,
         })
     };
@@ -1043,6 +1045,7 @@ fn _bench_rust_analyze(
         sample_rate_hz,
         bits,
         full_scale_vpp: None,
+        values: None,
         fin_hint_hz: None,
     };
     let settings = AnalysisSettings::default();

@@ -185,9 +185,14 @@ pub struct ReadArgs {
     /// Expected input frequency in hertz: guides the four-parameter fit, required by --fit three.
     #[arg(long, value_parser = si_value)]
     pub fin: Option<f64>,
-    /// Full-scale range in volts peak-to-peak (reported only).
+    /// Full-scale range in volts peak-to-peak: scales a record of volts to full scale (dBFS); for a
+    /// record of codes it is reported only.
     #[arg(long)]
     pub full_scale_vpp: Option<f64>,
+    /// What the samples are: codes, volts (needs --full-scale-vpp) or full-scale (±1.0 is full
+    /// scale). Decided from the data when absent: integers are codes, decimal fractions volts.
+    #[arg(long, value_parser = ["codes", "volts", "full-scale"])]
+    pub unit: Option<String>,
     /// Record format: text, csv, or a binary word layout i8, u8, i16le, i16be, u16le, u16be, i32le,
     /// i32be, u32le, u32be (signed words hold two's complement, unsigned offset binary, unless --coding).
     #[arg(long)]
@@ -245,6 +250,7 @@ impl ReadArgs {
                 .transpose()?,
             column,
             delimiter,
+            unit: self.unit.as_deref().map(str::parse).transpose()?,
             min_samples: 0,
         })
     }

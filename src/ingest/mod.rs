@@ -12,6 +12,7 @@ mod npy;
 mod samples;
 mod sidecar;
 mod text;
+mod values;
 
 use std::path::Path;
 
@@ -19,18 +20,21 @@ use serde::{Deserialize, Serialize};
 
 pub use binary::parse_binary;
 pub use checks::check_codes;
-pub use delimited::parse_delimited;
+pub use delimited::{parse_delimited, parse_delimited_samples};
 pub use npy::{parse_npy, read_npy_header, NpyLayout};
 pub use samples::Samples;
 pub use sidecar::{
     parse_channel, parse_delimiter, read_sidecar, sidecar_path, write_sidecar, Sidecar,
 };
-pub use text::parse_text;
+pub use text::{parse_text, parse_text_samples};
+pub use values::SampleUnit;
+
+use values::{decide, Decide, Decoded};
 
 use checks::check_bits;
 
 use crate::error::{Error, ErrorKind, Location, Result};
-use crate::record::{Coding, Record};
+use crate::record::{max_code, min_code, Coding, Record};
 
 /// The word formats [`Format::parse_word`] accepts, as listed in errors.
 const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i32le, i32be, u32le, u32be";
@@ -233,6 +237,9 @@ pub struct IngestSettings {
     pub column: Option<ColumnSel>,
     /// CSV delimiter.
     pub delimiter: Option<u8>,
+    /// What the samples are (codes, volts, units of full scale); `None`: decided from the data and
+    /// the full-scale range (see the README's section on values).
+    pub unit: Option<SampleUnit>,
     /// Fewest samples accepted; 0 means [`DEFAULT_MIN_SAMPLES`].
     pub min_samples: usize,
 }
@@ -346,19 +353,13 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     };
 
     let format = resolve_format(path, &bytes, settings, &sidecar, &sidecar_shown)?;
-    // Formats whose values carry their own scale may go without a resolution.
-    let bits_optional = matches!(format, Format::Npy);
+    // Formats that may hold values (with no code grid) may go without a resolution; the check that
+    // codes have one comes after the read.
+    let bits_optional = matches!(format, Format::Npy | Format::Text | Format::Csv { .. });
     if let Some(bits) = meta.bits {
         check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
     } else if !bits_optional {
-        return Err(Error::setting(
-            "bits",
-            format!(
-                "the resolution in bits: give --bits or \"bits\" in the sidecar {sidecar_shown}"
-            ),
-            "none given",
-        )
-        .with_path(&shown));
+        return Err(missing_bits(&shown, &sidecar_shown));
     }
     let sample_rate_hz = meta.sample_rate_hz.ok_or_else(|| {
         Error::setting(
@@ -388,14 +389,21 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     if matches!(format, Format::Text | Format::Csv { .. }) {
         detect::refuse_binary(&bytes, &shown)?;
     }
+    let unit = settings.unit.or(sidecar.unit);
     // Only the formats with optional bits reach a read without them.
     let needed = || meta.bits.unwrap_or(0);
+    // Told the samples are codes, the text readers read codes only (and name the line of a fraction).
+    let values_allowed = unit != Some(SampleUnit::Codes);
     let samples = match &format {
-        Format::Text => Samples::Codes(parse_text(&bytes, &shown, needed())?),
+        Format::Text if values_allowed => parse_text_samples(&bytes, &shown, meta.bits)?,
+        Format::Text => Samples::Codes(parse_text(&bytes, &shown, meta.bits.unwrap_or(32))?),
+        Format::Csv { column, delimiter } if values_allowed => {
+            parse_delimited_samples(&bytes, &shown, meta.bits, column, *delimiter)?
+        }
         Format::Csv { column, delimiter } => Samples::Codes(parse_delimited(
             &bytes,
             &shown,
-            needed(),
+            meta.bits.unwrap_or(32),
             column,
             *delimiter,
         )?),
@@ -422,42 +430,72 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             )?
         }
     };
-    let codes = match samples {
-        Samples::Codes(c) => c,
-        Samples::Values(v) => {
-            return Err(Error::new(
-                ErrorKind::BadSetting,
-                &shown,
-                Location::Key("format".into()),
-                "integer codes (records of voltages or floats are not read yet)",
-                format!("{} float values", v.len()),
-            ))
-        }
+    let npy_column = match &settings.column.clone().or_else(|| sidecar.column.clone()) {
+        Some(ColumnSel::Index(i)) => Some(*i),
+        _ => None,
     };
-    let Some(bits) = meta.bits else {
-        return Err(
-            Error::setting("bits", "the resolution in bits", "none given").with_path(&shown),
-        );
+    let locate = |k: usize| match &format {
+        Format::Npy => npy::element_offset(&bytes, &shown, npy_column, k)
+            .map_or(Location::Whole, Location::Byte),
+        _ => Location::Whole,
+    };
+    let decoded = decide(
+        samples,
+        &Decide {
+            path: &shown,
+            unit,
+            native: None,
+            bits: meta.bits,
+            full_scale_vpp: meta.full_scale_vpp,
+            locate: &locate,
+        },
+        &mut warnings,
+    )?;
+    let (codes, values, bits) = match decoded {
+        Decoded::Codes(codes) => {
+            let Some(bits) = meta.bits else {
+                return Err(missing_bits(&shown, &sidecar_shown));
+            };
+            // The readers checked codes against the 32-bit range when no resolution was known.
+            if let Some(k) = codes
+                .iter()
+                .position(|&c| !(min_code(bits)..=max_code(bits)).contains(&i64::from(c)))
+            {
+                return Err(Error::new(
+                    ErrorKind::CodeOutOfRange,
+                    &shown,
+                    locate(k),
+                    checks::range_text(bits),
+                    format!("{} (sample {k}, 0-based)", codes[k]),
+                ));
+            }
+            (codes, None, bits)
+        }
+        Decoded::Values { values, bits } => (Vec::new(), Some(values), bits),
     };
     let min = if settings.min_samples == 0 {
         DEFAULT_MIN_SAMPLES
     } else {
         settings.min_samples
     };
-    if codes.len() < min {
+    let len = values.as_ref().map_or(codes.len(), |v| v.scaled.len());
+    if len < min {
         return Err(Error::new(
             ErrorKind::TooFewSamples,
             &shown,
             Location::Whole,
             format!("at least {min} samples"),
-            codes.len().to_string(),
+            len.to_string(),
         ));
     }
-    warnings.extend(check_codes(&codes, bits));
+    if values.is_none() {
+        warnings.extend(check_codes(&codes, bits));
+    }
     Ok(Ingested {
         record: Record {
             source: shown,
             codes,
+            values,
             sample_rate_hz,
             bits,
             full_scale_vpp: meta.full_scale_vpp,
@@ -465,6 +503,16 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         },
         warnings,
     })
+}
+
+/// The error for a record of codes read without a resolution.
+fn missing_bits(shown: &str, sidecar_shown: &str) -> Error {
+    Error::setting(
+        "bits",
+        format!("the resolution in bits: give --bits or \"bits\" in the sidecar {sidecar_shown}"),
+        "none given",
+    )
+    .with_path(shown)
 }
 
 /// Rejects a value that is not positive and finite.

@@ -5,7 +5,12 @@ Writes tests/reference/formats/: one 12-bit record of 1024 codes (a sine with no
 integer text record (codes.txt, one code per line), and the same codes written by
   numpy.save / numpy.lib.format.write_array   .npy in several dtypes, both byte orders, C and Fortran
                                               order, format versions 1.0, 2.0 and 3.0
-and a manifest (formats.json) listing each file with how to read it and the library versions.
+and the same codes as values (voltages and units of full scale, code * FSR / 2^N):
+  numpy.save                                  .npy float32/float64, both byte orders
+  Python's float repr                         text and CSV of voltages, one value per line / row
+and a manifest (formats.json) listing each file with how to read it and the library versions
+(`compare`: "exact" for bit-identical figures, "relative" for figures within 1e-9 relative, "analogue"
+for a record read without a resolution, whose dB figures and spectral ENOB are compared).
 tests/formats.rs reads every file and checks that it gives the same codes, and the same figures, as the
 text record. Run: python3 tests/reference/make_format_refs.py   (numpy 2.x, scipy 1.x)
 """
@@ -68,6 +73,31 @@ np.save(os.path.join(OUT, "two_channels_c.npy"), both)
 add("two_channels_c.npy", format="npy", bits=BITS, shift=0, column=1)
 np.save(os.path.join(OUT, "two_channels_f.npy"), np.asfortranarray(both))
 add("two_channels_f.npy", format="npy", bits=BITS, shift=0, column=1)
+
+# Values: voltages over a full-scale range, or units of full scale (±1.0). FSR 2 V and ±1.0 make the
+# float32 values exact (12-bit codes / 2^11); FSR 1.5 V makes the scaling inexact, so figures agree to
+# rounding only.
+volts = codes.astype(np.float64) * 1.5 / 2 ** BITS
+for dt in ["<f8", ">f8"]:
+    name = f"volts_{dt[1:]}_{'be' if dt[0] == '>' else 'le'}.npy"
+    np.save(os.path.join(OUT, name), volts.astype(dt))
+    add(name, format="npy", bits=BITS, full_scale_vpp=1.5, compare="relative")
+unit_fs = (codes.astype(np.float64) / 2 ** (BITS - 1)).astype("<f4")
+np.save(os.path.join(OUT, "full_scale_f4_le.npy"), unit_fs)
+add("full_scale_f4_le.npy", format="npy", bits=BITS, unit="full-scale", compare="exact")
+np.save(os.path.join(OUT, "volts_f4_be.npy"), unit_fs.astype(">f4"))
+add("volts_f4_be.npy", format="npy", bits=BITS, full_scale_vpp=2.0, compare="exact")
+# Float whole numbers with no full-scale range: read as codes.
+np.save(os.path.join(OUT, "codes_f8_le.npy"), codes.astype("<f8"))
+add("codes_f8_le.npy", format="npy", bits=BITS, compare="exact")
+# A purely analogue view: no resolution.
+add("volts_f8_le.npy", format="npy", full_scale_vpp=1.5, compare="analogue")
+with open(os.path.join(OUT, "volts.txt"), "w") as f:
+    f.write("volts\n" + "".join(f"{repr(float(v))}\n" for v in volts))
+add("volts.txt", format="text", bits=BITS, full_scale_vpp=1.5, compare="relative")
+with open(os.path.join(OUT, "volts.csv"), "w") as f:
+    f.write("index,volts\n" + "".join(f"{k},{repr(float(v))}\n" for k, v in enumerate(volts)))
+add("volts.csv", format="csv", bits=BITS, full_scale_vpp=1.5, column="volts", compare="relative")
 
 with open(os.path.join(OUT, "formats.json"), "w") as f:
     json.dump(manifest, f, indent=1)
