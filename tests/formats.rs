@@ -3,7 +3,8 @@
 //! to the same codes, and to bit-identical figures, as the plain integer text record of the same codes.
 //!
 //! Sources: the files themselves (numpy's .npy writer, numpy.lib.format; Python's float repr for the
-//! decimal values); the expected codes are the text record the same script wrote. Offset binary for
+//! decimal values; Python's wave module and scipy.io.wavfile for WAV, struct-packed WAVE_FORMAT_EXTENSIBLE
+//! and RF64 headers, which scipy.io.wavfile reads back); the expected codes are the text record the same script wrote. Offset binary for
 //! unsigned dtypes (code + 2^(N-1)) and ±1.0 as full scale for float samples are common practice, no
 //! source.
 
@@ -99,7 +100,7 @@ fn every_reference_file_gives_the_text_record_codes_and_figures() {
     let text_figures = figures(&text_path, &settings(bits, fs));
     let files = m["files"].as_array().unwrap();
     assert!(
-        files.len() >= 10,
+        files.len() >= 30,
         "the manifest lists {} files",
         files.len()
     );
@@ -117,6 +118,13 @@ fn every_reference_file_gives_the_text_record_codes_and_figures() {
         }
         if let Some(c) = f["column"].as_str() {
             s.column = Some(ColumnSel::Name(c.to_string()));
+        }
+        if let Some(c) = f["channel"].as_str() {
+            s.channel = Some(spurline::parse_channel(c).unwrap());
+        }
+        // A WAV file states its sample rate: none is given.
+        if f["fs_from_file"].as_bool() == Some(true) {
+            s.meta.sample_rate_hz = None;
         }
         // No --format: the content (magic bytes) or the extension decides.
         let got = read_record(&dir().join(name), &s)
@@ -194,10 +202,20 @@ fn a_record_of_values_says_what_it_skips() {
 /// Values with no full-scale range, and whole floats with one, are refused with the options to give.
 #[test]
 fn ambiguous_values_are_refused() {
+    // The refusal names the line of the first value with a fraction (line 1 is the header).
+    let text = std::fs::read_to_string(dir().join("volts.txt")).unwrap();
+    let first_fraction = 2 + text
+        .lines()
+        .skip(1)
+        .position(|l| l.parse::<f64>().unwrap().fract() != 0.0)
+        .unwrap();
     let e = read_record(&dir().join("volts.txt"), &settings(12, 1e6)).unwrap_err();
     assert_eq!(e.kind, ErrorKind::BadSetting);
-    assert_eq!(e.location, Location::Key("full_scale_vpp".into()));
+    assert_eq!(e.location, Location::Line(first_fraction));
     assert!(e.expected.contains("--full-scale-vpp"), "{}", e.expected);
+    // A float array: the byte offset of the first such value.
+    let e = read_record(&dir().join("volts_f8_le.npy"), &settings(12, 1e6)).unwrap_err();
+    assert!(matches!(e.location, Location::Byte(_)), "{e}");
     let mut s = settings(12, 1e6);
     s.meta.full_scale_vpp = Some(2.0);
     let e = read_record(&dir().join("codes_f8_le.npy"), &s).unwrap_err();
@@ -206,13 +224,8 @@ fn ambiguous_values_are_refused() {
     s.unit = Some(spurline::SampleUnit::Codes);
     let e = read_record(&dir().join("volts.txt"), &s).unwrap_err();
     assert_eq!(e.kind, ErrorKind::NotInteger);
-    let first_fraction = 2 + std::fs::read_to_string(dir().join("volts.txt"))
-        .unwrap()
-        .lines()
-        .skip(1)
-        .position(|l| l.contains('.'))
-        .unwrap();
-    assert_eq!(e.location, Location::Line(first_fraction));
+    let first_decimal = 2 + text.lines().skip(1).position(|l| l.contains('.')).unwrap();
+    assert_eq!(e.location, Location::Line(first_decimal));
     // A float array told to be codes: the first fraction at its byte offset.
     let e = read_record(&dir().join("volts_f8_le.npy"), &s).unwrap_err();
     assert_eq!(e.kind, ErrorKind::NotInteger);

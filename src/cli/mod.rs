@@ -193,8 +193,9 @@ pub struct ReadArgs {
     /// scale). Decided from the data when absent: integers are codes, decimal fractions volts.
     #[arg(long, value_parser = ["codes", "volts", "full-scale"])]
     pub unit: Option<String>,
-    /// Record format: text, csv, or a binary word layout i8, u8, i16le, i16be, u16le, u16be, i32le,
-    /// i32be, u32le, u32be (signed words hold two's complement, unsigned offset binary, unless --coding).
+    /// Record format: text, csv, npy, wav, or a binary word layout i8, u8, i16le, i16be, u16le,
+    /// u16be, i32le, i32be, u32le, u32be (signed words hold two's complement, unsigned offset binary,
+    /// unless --coding). Detected from the file's first bytes (npy, wav) or extension when absent.
     #[arg(long)]
     pub format: Option<String>,
     /// Code format in binary words: twos or offset.
@@ -206,7 +207,7 @@ pub struct ReadArgs {
     /// Header bytes to skip at the start of a binary file.
     #[arg(long)]
     pub skip_bytes: Option<u64>,
-    /// Interleaved channels: take channel K of M (1-based), e.g. 2/4.
+    /// Interleaved channels: take channel K of M (1-based), e.g. 2/4 (for WAV, M is the file's count).
     #[arg(long)]
     pub channel: Option<String>,
     /// CSV column: a header name or a 0-based index.

@@ -31,7 +31,7 @@ pub fn parse_delimited(
     column: &ColumnSel,
     delimiter: Option<u8>,
 ) -> Result<Vec<i32>> {
-    parse_columns(bytes, path, bits, column, delimiter, false).map(|(codes, _)| codes)
+    parse_columns(bytes, path, bits, column, delimiter, false).map(|(codes, ..)| codes)
 }
 
 /// Parses one column of a delimited record as codes or as values: codes as [`parse_delimited`]
@@ -45,15 +45,26 @@ pub fn parse_delimited_samples(
     column: &ColumnSel,
     delimiter: Option<u8>,
 ) -> Result<Samples> {
+    parse_delimited_located(bytes, path, bits, column, delimiter).map(|(s, _)| s)
+}
+
+/// As [`parse_delimited_samples`], with the 1-based line of the first value that has a fraction.
+pub(crate) fn parse_delimited_located(
+    bytes: &[u8],
+    path: &str,
+    bits: Option<u32>,
+    column: &ColumnSel,
+    delimiter: Option<u8>,
+) -> Result<(Samples, Option<usize>)> {
     let first = match parse_columns(bytes, path, bits.unwrap_or(32), column, delimiter, false) {
-        Ok((codes, _)) => return Ok(Samples::Codes(codes)),
+        Ok((codes, ..)) => return Ok((Samples::Codes(codes), None)),
         Err(e) => e,
     };
     let (Location::Line(at), ErrorKind::NotInteger) = (&first.location, first.kind) else {
         return Err(first);
     };
     match parse_columns(bytes, path, 32, column, delimiter, true) {
-        Ok((_, values)) => Ok(Samples::Values(values)),
+        Ok((_, values, line)) => Ok((Samples::Values(values), line)),
         // As for text: a later failure names the real problem, an earlier one is the codes reader's.
         Err(e) if matches!(e.location, Location::Line(l) if l > *at) => Err(e),
         Err(_) => Err(first),
@@ -61,7 +72,7 @@ pub fn parse_delimited_samples(
 }
 
 /// The reader of both modes: integer codes at `bits` (the first vector), or (`values`) finite decimal
-/// numbers (the second).
+/// numbers (the second, with the line of the first that has a fraction).
 fn parse_columns(
     bytes: &[u8],
     path: &str,
@@ -69,7 +80,7 @@ fn parse_columns(
     column: &ColumnSel,
     delimiter: Option<u8>,
     values: bool,
-) -> Result<(Vec<i32>, Vec<f64>)> {
+) -> Result<(Vec<i32>, Vec<f64>, Option<usize>)> {
     check_bits(bits).map_err(|e| e.with_path(path))?;
     if bytes.is_empty() {
         return Err(no_samples(path, "an empty file"));
@@ -113,6 +124,7 @@ fn parse_columns(
 
     let mut codes = Vec::new();
     let mut numbers: Vec<f64> = Vec::new();
+    let mut fraction = None;
     // With a column name, the first row is the header that gives the index.
     let (mut pending_name, mut col) = match column {
         ColumnSel::Index(i) => (None, *i),
@@ -176,6 +188,9 @@ fn parse_columns(
         };
         if values {
             if let Some(v) = super::text::parse_value(field) {
+                if fraction.is_none() && v.fract() != 0.0 {
+                    fraction = Some(line);
+                }
                 numbers.push(v);
                 continue;
             }
@@ -225,7 +240,7 @@ fn parse_columns(
         };
         return Err(no_samples(path, found));
     }
-    Ok((codes, numbers))
+    Ok((codes, numbers, fraction))
 }
 
 /// One row's fields, with the empty fields of whitespace separation dropped.

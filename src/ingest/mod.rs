@@ -13,6 +13,7 @@ mod samples;
 mod sidecar;
 mod text;
 mod values;
+mod wav;
 
 use std::path::Path;
 
@@ -28,6 +29,7 @@ pub use sidecar::{
 };
 pub use text::{parse_text, parse_text_samples};
 pub use values::SampleUnit;
+pub use wav::{read_wav_header, WavLayout};
 
 use values::{decide, Decide, Decoded};
 
@@ -117,6 +119,9 @@ pub enum Format {
     Binary(BinaryLayout),
     /// A NumPy `.npy` array; a 2-D array's column is chosen with [`IngestSettings::column`].
     Npy,
+    /// A WAV file (RIFF or RF64): PCM codes or float values, one channel chosen with
+    /// [`IngestSettings::channel`]; the sample rate comes from the file.
+    Wav,
 }
 
 impl std::str::FromStr for Format {
@@ -129,12 +134,13 @@ impl std::str::FromStr for Format {
 }
 
 impl Format {
-    /// Parses a format name: "text", "csv" (column 0, delimiter detected), "npy" or a word format as
+    /// Parses a format name: "text", "csv" (column 0, delimiter detected), "npy", "wav" or a word format as
     /// [`Format::parse_word`] reads it.
     pub fn parse(s: &str) -> Result<Format> {
         match s.trim() {
             "text" => Ok(Format::Text),
             "npy" => Ok(Format::Npy),
+            "wav" => Ok(Format::Wav),
             "csv" => Ok(Format::Csv {
                 column: ColumnSel::Index(0),
                 delimiter: None,
@@ -142,7 +148,7 @@ impl Format {
             w => Format::parse_word(w)
                 .map(Format::Binary)
                 .map_err(|e| Error {
-                    expected: format!("text, csv, npy or a word format: {}", WORD_NAMES),
+                    expected: format!("text, csv, npy, wav or a word format: {}", WORD_NAMES),
                     ..e
                 }),
         }
@@ -353,29 +359,22 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     };
 
     let format = resolve_format(path, &bytes, settings, &sidecar, &sidecar_shown)?;
-    // Formats that may hold values (with no code grid) may go without a resolution; the check that
-    // codes have one comes after the read.
-    let bits_optional = matches!(format, Format::Npy | Format::Text | Format::Csv { .. });
+    // Formats that may hold values (with no code grid), or state their resolution, may go without
+    // one; the check that codes have one comes after the read.
+    let bits_optional = !matches!(format, Format::Binary(_));
     if let Some(bits) = meta.bits {
         check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
     } else if !bits_optional {
         return Err(missing_bits(&shown, &sidecar_shown));
     }
-    let sample_rate_hz = meta.sample_rate_hz.ok_or_else(|| {
-        Error::setting(
-            "sample_rate_hz",
-            format!(
-                "a sample rate in Hz: give --fs or \"sample_rate_hz\" in the sidecar {sidecar_shown}"
-            ),
-            "none given",
-        )
-        .with_path(&shown)
-    })?;
-    crate::record::check_sample_rate(
-        sample_rate_hz,
-        " (give --fs or \"sample_rate_hz\" in the sidecar)",
-    )
-    .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
+    // A WAV file states its sample rate; every other format needs one given.
+    let rate_in_file = matches!(format, Format::Wav);
+    if let Some(fs) = meta.sample_rate_hz {
+        crate::record::check_sample_rate(fs, " (give --fs or \"sample_rate_hz\" in the sidecar)")
+            .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
+    } else if !rate_in_file {
+        return Err(missing_rate(&shown, &sidecar_shown));
+    }
     if let Some(f) = meta.fin_hz {
         positive("fin_hz", f).map_err(|e| e.with_path(origin(cli.fin_hz.is_some())))?;
     }
@@ -394,11 +393,26 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     let needed = || meta.bits.unwrap_or(0);
     // Told the samples are codes, the text readers read codes only (and name the line of a fraction).
     let values_allowed = unit != Some(SampleUnit::Codes);
+    let mut fraction_line = None;
+    let mut native = None;
+    let mut bits_known = meta.bits;
+    let mut file_rate = None;
+    let channel = match settings.channel {
+        Some(c) => Some(c),
+        None => sidecar.parsed_channel(&sidecar_shown)?,
+    };
     let samples = match &format {
-        Format::Text if values_allowed => parse_text_samples(&bytes, &shown, meta.bits)?,
+        Format::Text if values_allowed => {
+            let (s, line) = text::parse_text_located(&bytes, &shown, meta.bits)?;
+            fraction_line = line;
+            s
+        }
         Format::Text => Samples::Codes(parse_text(&bytes, &shown, meta.bits.unwrap_or(32))?),
         Format::Csv { column, delimiter } if values_allowed => {
-            parse_delimited_samples(&bytes, &shown, meta.bits, column, *delimiter)?
+            let (s, line) =
+                delimited::parse_delimited_located(&bytes, &shown, meta.bits, column, *delimiter)?;
+            fraction_line = line;
+            s
         }
         Format::Csv { column, delimiter } => Samples::Codes(parse_delimited(
             &bytes,
@@ -408,6 +422,17 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             *delimiter,
         )?),
         Format::Binary(layout) => Samples::Codes(parse_binary(&bytes, &shown, needed(), layout)?),
+        Format::Wav => {
+            let read = wav::parse_wav(&bytes, &shown, meta.bits, channel)?;
+            warnings.extend(read.warnings);
+            bits_known = read.bits;
+            file_rate = Some(read.sample_rate_hz);
+            if matches!(read.samples, Samples::Values(_)) {
+                // Float WAV is ±1.0 full scale by the usual convention.
+                native = Some(SampleUnit::FullScale);
+            }
+            read.samples
+        }
         Format::Npy => {
             let column = match &settings.column.clone().or_else(|| sidecar.column.clone()) {
                 None => None,
@@ -430,6 +455,24 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             )?
         }
     };
+    let sample_rate_hz = match (meta.sample_rate_hz, file_rate) {
+        (Some(given), Some(stated)) => {
+            if given != stated {
+                warnings.push(format!(
+                    "the sample rate given, {given} Hz, is used instead of the {stated} Hz the file \
+                     states"
+                ));
+            }
+            given
+        }
+        (Some(given), None) => given,
+        (None, Some(stated)) => {
+            crate::record::check_sample_rate(stated, " (the file's header; give --fs)")
+                .map_err(|e| e.with_path(&shown))?;
+            stated
+        }
+        (None, None) => return Err(missing_rate(&shown, &sidecar_shown)),
+    };
     let npy_column = match &settings.column.clone().or_else(|| sidecar.column.clone()) {
         Some(ColumnSel::Index(i)) => Some(*i),
         _ => None,
@@ -437,6 +480,9 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     let locate = |k: usize| match &format {
         Format::Npy => npy::element_offset(&bytes, &shown, npy_column, k)
             .map_or(Location::Whole, Location::Byte),
+        Format::Wav => {
+            wav::sample_offset(&bytes, &shown, channel, k).map_or(Location::Whole, Location::Byte)
+        }
         _ => Location::Whole,
     };
     let decoded = decide(
@@ -444,16 +490,17 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         &Decide {
             path: &shown,
             unit,
-            native: None,
-            bits: meta.bits,
+            native,
+            bits: bits_known,
             full_scale_vpp: meta.full_scale_vpp,
             locate: &locate,
+            fraction_at: fraction_line.map(Location::Line),
         },
         &mut warnings,
     )?;
     let (codes, values, bits) = match decoded {
         Decoded::Codes(codes) => {
-            let Some(bits) = meta.bits else {
+            let Some(bits) = bits_known else {
                 return Err(missing_bits(&shown, &sidecar_shown));
             };
             // The readers checked codes against the 32-bit range when no resolution was known.
@@ -515,6 +562,18 @@ fn missing_bits(shown: &str, sidecar_shown: &str) -> Error {
     .with_path(shown)
 }
 
+/// The error for a record read without a sample rate.
+fn missing_rate(shown: &str, sidecar_shown: &str) -> Error {
+    Error::setting(
+        "sample_rate_hz",
+        format!(
+            "a sample rate in Hz: give --fs or \"sample_rate_hz\" in the sidecar {sidecar_shown}"
+        ),
+        "none given",
+    )
+    .with_path(shown)
+}
+
 /// Rejects a value that is not positive and finite.
 fn positive(key: &str, v: f64) -> Result<()> {
     if v.is_finite() && v > 0.0 {
@@ -542,13 +601,15 @@ fn resolve_format(
             Some(f) => f,
             None => match detect::magic(bytes) {
                 Some(detect::Magic::Npy) => Format::Npy,
-                Some(detect::Magic::Wav) | None => by_extension(path, sidecar_shown)?,
+                Some(detect::Magic::Wav) => Format::Wav,
+                None => by_extension(path, sidecar_shown)?,
             },
         },
     };
     Ok(match base {
         Format::Text => Format::Text,
         Format::Npy => Format::Npy,
+        Format::Wav => Format::Wav,
         Format::Csv { column, delimiter } => Format::Csv {
             column: settings
                 .column
@@ -593,6 +654,7 @@ fn by_extension(path: &Path, sidecar_shown: &str) -> Result<Format> {
         .map(str::to_ascii_lowercase);
     match ext.as_deref() {
         Some("npy") => Ok(Format::Npy),
+        Some("wav") => Ok(Format::Wav),
         Some("csv") => Ok(Format::Csv {
             column: ColumnSel::Index(0),
             delimiter: None,
@@ -646,6 +708,16 @@ fn ignored_settings(s: &IngestSettings, format: &Format) -> Option<String> {
             binary[1..]
                 .iter()
                 .chain(&csv[1..])
+                .filter(|x| x.1)
+                .map(|x| x.0)
+                .collect(),
+        ),
+        // A WAV file's samples are numbers of a stated layout: only the channel applies.
+        Format::Wav => (
+            "a WAV record",
+            binary[..3]
+                .iter()
+                .chain(&csv)
                 .filter(|x| x.1)
                 .map(|x| x.0)
                 .collect(),

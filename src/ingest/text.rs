@@ -122,8 +122,17 @@ pub fn parse_text(bytes: &[u8], path: &str, bits: u32) -> Result<Vec<i32>> {
 /// `1.5e-3`) the whole file as values, one finite decimal number per line, with the same rules for
 /// blank lines, comments and the header. Errors name the 1-based line.
 pub fn parse_text_samples(bytes: &[u8], path: &str, bits: Option<u32>) -> Result<Samples> {
+    parse_text_located(bytes, path, bits).map(|(s, _)| s)
+}
+
+/// As [`parse_text_samples`], with the 1-based line of the first value that has a fraction.
+pub(crate) fn parse_text_located(
+    bytes: &[u8],
+    path: &str,
+    bits: Option<u32>,
+) -> Result<(Samples, Option<usize>)> {
     let first = match parse_text(bytes, path, bits.unwrap_or(32)) {
-        Ok(codes) => return Ok(Samples::Codes(codes)),
+        Ok(codes) => return Ok((Samples::Codes(codes), None)),
         Err(e) => e,
     };
     let Location::Line(at) = first.location else {
@@ -133,7 +142,7 @@ pub fn parse_text_samples(bytes: &[u8], path: &str, bits: Option<u32>) -> Result
         return Err(first);
     }
     match parse_text_values(bytes, path) {
-        Ok(v) => Ok(Samples::Values(v)),
+        Ok((v, line)) => Ok((Samples::Values(v), line)),
         // The values reader failing further on names the real problem; at or before the line the
         // codes reader stopped at, the codes reader's message is the one to give.
         Err(e) if matches!(e.location, Location::Line(l) if l > at) => Err(e),
@@ -160,13 +169,15 @@ pub(crate) fn parse_value(token: &[u8]) -> Option<f64> {
         .filter(|v| v.is_finite())
 }
 
-/// Values, one per line (integers included), with the rules of [`parse_text`] for the rest.
-fn parse_text_values(bytes: &[u8], path: &str) -> Result<Vec<f64>> {
+/// Values, one per line (integers included), with the rules of [`parse_text`] for the rest; and the
+/// line of the first value with a fraction.
+fn parse_text_values(bytes: &[u8], path: &str) -> Result<(Vec<f64>, Option<usize>)> {
     let b = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     let mut values = Vec::with_capacity(b.len() / 8 + 1);
     let mut seen_content = false;
     let mut header = false;
     let mut lines = 0usize;
+    let mut fraction = None;
     for (k, raw) in b.split(|&c| c == b'\n').enumerate() {
         lines = k + 1;
         let content = raw
@@ -179,6 +190,9 @@ fn parse_text_values(bytes: &[u8], path: &str) -> Result<Vec<f64>> {
         }
         if let Some(v) = parse_value(token) {
             seen_content = true;
+            if fraction.is_none() && v.fract() != 0.0 {
+                fraction = Some(k + 1);
+            }
             values.push(v);
             continue;
         }
@@ -203,7 +217,7 @@ fn parse_text_values(bytes: &[u8], path: &str) -> Result<Vec<f64>> {
         };
         return Err(no_samples(path, found));
     }
-    Ok(values)
+    Ok((values, fraction))
 }
 
 /// The slice without leading and trailing whitespace.

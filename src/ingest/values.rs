@@ -67,6 +67,8 @@ pub(crate) struct Decide<'a> {
     pub full_scale_vpp: Option<f64>,
     /// Where sample k sits in the file, for an error about it.
     pub locate: &'a dyn Fn(usize) -> Location,
+    /// Where the first value with a fraction is, when the reader knows (the line of a text record).
+    pub fraction_at: Option<Location>,
 }
 
 /// Decides what the samples are and scales values to codes of the resolution.
@@ -108,13 +110,21 @@ pub(crate) fn decide(samples: Samples, d: &Decide, warnings: &mut Vec<String>) -
                 }
                 (false, Some(_)) => v,
                 (false, None) => {
+                    let k = v.iter().position(|&x| !is_code(x)).unwrap_or(0);
+                    let at = match d.fraction_at.clone().unwrap_or_else(|| (d.locate)(k)) {
+                        Location::Whole => Location::Key("full_scale_vpp".into()),
+                        at => at,
+                    };
                     return Err(Error::new(
                         ErrorKind::BadSetting,
                         d.path,
-                        Location::Key("full_scale_vpp".into()),
+                        at,
                         "the full-scale range of a record of values: give --full-scale-vpp (samples \
                          in volts) or --unit full-scale (samples where ±1.0 is full scale)",
-                        "values with fractions and no full-scale range",
+                        format!(
+                            "a value with a fraction ({}, sample {k} from 0) and no full-scale range",
+                            v.get(k).copied().unwrap_or(0.0)
+                        ),
                     ));
                 }
             }
@@ -216,6 +226,7 @@ mod tests {
             bits,
             full_scale_vpp: fsv,
             locate: &|k| Location::Byte(100 + 4 * k as u64),
+            fraction_at: None,
         };
         decide(samples, &d, &mut w).map(|x| (x, w))
     }
@@ -289,8 +300,12 @@ mod tests {
         assert_eq!(e.location, Location::Key("unit".into()));
         assert!(e.expected.contains("--unit codes"), "{}", e.expected);
         // Fractions and no full scale: refused, naming the options.
-        let e = run(Samples::Values(vec![0.5]), None, Some(12), None).unwrap_err();
-        assert_eq!(e.location, Location::Key("full_scale_vpp".into()));
+        let e = run(Samples::Values(vec![1.0, 0.5]), None, Some(12), None).unwrap_err();
+        assert_eq!(e.location, Location::Byte(104));
+        assert_eq!(
+            e.found,
+            "a value with a fraction (0.5, sample 1 from 0) and no full-scale range"
+        );
         assert!(
             e.expected.contains("--full-scale-vpp") && e.expected.contains("--unit full-scale")
         );
