@@ -782,7 +782,7 @@ mod tests {
         );
         let e = Format::parse("xml").unwrap_err();
         assert!(
-            e.expected.starts_with("text, csv, npy or"),
+            e.expected.starts_with("text, csv, npy, wav or"),
             "{}",
             e.expected
         );
