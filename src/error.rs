@@ -71,6 +71,8 @@ pub enum ErrorKind {
     Store,
     /// A lot already in the results store (same fingerprint), refused rather than recorded twice.
     AlreadyRecorded,
+    /// A record or file larger than its ceiling (the memory it would need, or its kind's size).
+    TooLarge,
 }
 
 /// The library's error: the file, the place in it, what was expected and what was found.

@@ -112,6 +112,7 @@ mod lot;
 mod plan;
 mod record;
 mod report;
+mod resources;
 mod si;
 mod spc;
 mod spectrum;
@@ -138,6 +139,12 @@ pub use crate::ingest::{
     WavLayout, DEFAULT_MIN_SAMPLES, STDIN_PATH,
 };
 
+// Ceilings that keep a run inside the machine: record memory, worker threads, small-file reads.
+pub use crate::resources::{
+    check_jobs, cores, default_memory_limit, machine_memory_bytes, ANALYSIS_BYTES_PER_SAMPLE,
+    MAX_JOBS,
+};
+
 // Analysing a record: the sine fits, the spectrum, the one result record.
 pub use crate::analysis::{
     analyze, analyze_averaged, Analysis, AnalysisSettings, ErrorReport, FitChoice, Measured,
@@ -152,12 +159,12 @@ pub use crate::spectrum::{
 
 // The other analyses of a record: two tones, interleaving, code-density linearity.
 pub use crate::analyses::imd::{
-    analyze_two_tone, ImdResult, ImdSettings, ImdSpectrum, ProductFigure, ProductKind, ToneFit,
-    ToneLevel, TwoTone, TwoToneFit, TwoToneSpur,
+    analyze_two_tone, analyze_two_tone_traced, ImdResult, ImdSettings, ImdSpectrum, ProductFigure,
+    ProductKind, ToneFit, ToneLevel, TwoTone, TwoToneFit, TwoToneSpur,
 };
 pub use crate::analyses::interleave::{
-    analyze_interleaved, ChannelEstimate, InterleaveResult, InterleaveSettings, InterleaveSpectrum,
-    InterleaveSpur, InterleaveSpurKind, Interleaved,
+    analyze_interleaved, analyze_interleaved_traced, ChannelEstimate, InterleaveResult,
+    InterleaveSettings, InterleaveSpectrum, InterleaveSpur, InterleaveSpurKind, Interleaved,
 };
 pub use crate::analyses::linearity::{
     analyze_histogram, plot::write_plots as write_linearity_plots, required_samples, AtCode,
@@ -187,6 +194,10 @@ pub use crate::report::csv::{
     to_csv_with_lead,
 };
 pub use crate::report::json::to_json;
+pub use crate::report::pages::{write_interleave_report, write_two_tone_report, Traced};
+pub use crate::report::svg::marked::{
+    interleave_svg, marked_spectrum_svg, two_tone_svg, MarkedSpectrum, Marker,
+};
 pub use crate::report::svg::{histogram_svg, residual_svg, spectrum_svg, PlotOptions};
 pub use crate::report::text::{render as render_text, render_interleaved, render_two_tone};
 pub use crate::report::units::{fixed as format_fixed, parse_si, si as format_si};

@@ -16,7 +16,7 @@ use serde::Serialize;
 
 use crate::analysis::{analyze, AnalysisSettings, Measured as AnalysisMeasured};
 use crate::error::Result;
-use crate::fit::{fit_four, FourParamOptions};
+use crate::fit::{fit_four, fit_three, FourParamOptions};
 use crate::freq::nearest_coherent;
 use crate::spectrum::{SpectrumSettings, Window, WindowChoice, DB_PER_BIT, SINE_CREST_DB};
 use crate::synth::{synthesize, SynthFrequency, SynthSettings};
@@ -96,6 +96,7 @@ pub fn measure() -> Vec<Measurement> {
     analytic_records(&mut out);
     coherent_sampling(&mut out);
     cramer_rao(&mut out);
+    ieee_1241(&mut out);
     out
 }
 
@@ -558,6 +559,147 @@ fn cramer_rao(out: &mut Vec<Measurement>) {
     );
 }
 
+/// The name every check of IEEE Std 1241's formulas cites.
+const IEEE_1241: &str = "IEEE Std 1241-2010";
+
+// IEEE Std 1241's own formulas on records whose truth is known: the three ENOB forms, the sine fit's
+// SINAD, the noise spectral density from the noise power, and the three-parameter fit's closed form.
+fn ieee_1241(out: &mut Vec<Measurement>) {
+    let mut sheet = Sheet { out };
+    // ENOB, fit form: N − log2(rms error / (q/√12)). An ideal 12-bit converter's error is the
+    // quantiser's q/√12 (0.17 % relative std at 65536 samples), so ENOB = 12; the 1 % of the
+    // residual check above is 0.0144 bits.
+    let ideal12 = simulate(
+        &ideal(12, 65_536, -0.3, 100e6, 7.1e6),
+        &AnalysisSettings::default(),
+    )
+    .map_err(|e| e.to_string());
+    sheet.add(
+        "ideal 12-bit ENOB, sine-fit form N − log2(rms error/(q/√12))",
+        &format!("{IEEE_1241}, ENOB from the fit residual"),
+        "bits",
+        12.0,
+        0.0144,
+        ideal12
+            .clone()
+            .and_then(|m| present(m.analysis.found.fit.and_then(|f| f.enob_bits), "fit ENOB")),
+    );
+    // ENOB, spectral form (SINAD − 1.76)/6.02 at −0.3 dBFS: 12 − 0.3/6.02 bits; full-scale-referred
+    // form (SINAD − input dBFS − 1.76)/6.02: 12 bits. HANDBOOK_BITS: one record's quantisation noise.
+    sheet.add(
+        "ideal 12-bit ENOB at -0.3 dBFS, (SINAD − 1.76)/6.02",
+        &format!("{IEEE_1241}, ENOB from SINAD"),
+        "bits",
+        12.0 - 0.3 / DB_PER_BIT,
+        HANDBOOK_BITS,
+        ideal12.clone().and_then(|m| {
+            present(
+                m.analysis.found.spectrum.and_then(|s| s.enob_bits),
+                "spectral ENOB",
+            )
+        }),
+    );
+    let low = simulate(
+        &ideal(12, 65_536, -20.0, 100e6, 7.1e6),
+        &AnalysisSettings::default(),
+    )
+    .map_err(|e| e.to_string());
+    sheet.add(
+        "ideal 12-bit ENOB at -20 dBFS, full-scale-referred form",
+        &format!("{IEEE_1241}, ENOB referred to a full-scale input"),
+        "bits",
+        12.0,
+        HANDBOOK_BITS,
+        low.and_then(|m| {
+            present(
+                m.analysis
+                    .found
+                    .spectrum
+                    .and_then(|s| s.enob_full_scale_bits),
+                "full-scale ENOB",
+            )
+        }),
+    );
+    // A 12-bit record with 2 codes of Gaussian noise ahead of the quantiser: the error power is
+    // σ² + q²/12. The fit's SINAD = 20·log10((A/√2)/rms error); the residual's rms scatters by
+    // 1/√(2N) = 0.28 % (0.024 dB) at 65536 samples, 0.1 dB is four of those. The noise spectral
+    // density is the noise power over the band 0..fs/2; the same record's noise bins give it to
+    // 0.55 % (0.024 dB), 0.1 dB again.
+    let (sigma, fs, level) = (2.0, 100e6, -1.0);
+    let s = SynthSettings {
+        noise_rms_codes: sigma,
+        ..ideal(12, 65_536, level, fs, 7.1e6)
+    };
+    let noisy = simulate(&s, &AnalysisSettings::default()).map_err(|e| e.to_string());
+    let a = 2048.0 * 10f64.powf(level / 20.0);
+    let error_power = sigma * sigma + 1.0 / 12.0;
+    sheet.add(
+        "sine-fit SINAD, 12 bits with 2 codes of noise",
+        &format!("{IEEE_1241}, SINAD from the sine fit: 20·log10((A/√2)/rms error)"),
+        "dB",
+        10.0 * (a * a / 2.0 / error_power).log10(),
+        0.1,
+        noisy
+            .clone()
+            .and_then(|m| present(m.analysis.found.fit.and_then(|f| f.sinad_db), "fit SINAD")),
+    );
+    sheet.add(
+        "noise spectral density, 12 bits with 2 codes of noise",
+        &format!("{IEEE_1241}, noise power over the band 0..fs/2 (dBFS/Hz)"),
+        "dB",
+        10.0 * (error_power / (2048.0f64.powi(2) / 2.0) / (fs / 2.0)).log10(),
+        0.1,
+        noisy.and_then(|m| {
+            present(
+                m.analysis.found.spectrum.and_then(|s| s.nsd_dbfs_per_hz),
+                "NSD",
+            )
+        }),
+    );
+    // The three-parameter fit in IEEE Std 1241's closed form: with D0 = [cos ωt_n, sin ωt_n, 1],
+    // x = (D0ᵀD0)⁻¹D0ᵀy, A = √(A0² + B0²). Solved here directly (per-sample sin_cos, dense 3×3)
+    // and compared with the fit: both are the same least-squares minimum, so they agree to
+    // rounding (1e-9 of the amplitude).
+    let (n, fin) = (4096usize, 1.2345e6);
+    let s = SynthSettings {
+        frequency: SynthFrequency::Hz(fin),
+        noise_rms_codes: 0.7,
+        offset_codes: 3.2,
+        ..ideal(14, n, -2.0, 10e6, fin)
+    };
+    let direct_and_fit = synthesize(&s).map_err(|e| e.to_string()).and_then(|syn| {
+        let y: Vec<f64> = syn.record.codes.iter().map(|&c| c as f64).collect();
+        let w = TAU * fin / 10e6;
+        let mut m = nalgebra::Matrix3::<f64>::zeros();
+        let mut v = nalgebra::Vector3::<f64>::zeros();
+        for (i, &yi) in y.iter().enumerate() {
+            let (sn, cs) = (w * i as f64).sin_cos();
+            let d = nalgebra::Vector3::new(cs, sn, 1.0);
+            m += d * d.transpose();
+            v += d * yi;
+        }
+        let x = m
+            .lu()
+            .solve(&v)
+            .ok_or_else(|| "singular normal equations".to_string())?;
+        let direct = x[0].hypot(x[1]);
+        let fit = fit_three(&y, 10e6, fin, 14).map_err(|e| e.to_string())?.fit;
+        Ok((direct, fit.amplitude_codes))
+    });
+    let (expected, measured) = match direct_and_fit {
+        Ok((d, f)) => (d, Ok(f)),
+        Err(e) => (f64::NAN, Err(e)),
+    };
+    sheet.add(
+        "three-parameter fit amplitude against the closed form",
+        &format!("{IEEE_1241}, three-parameter sine fit (matrix form)"),
+        "codes",
+        expected,
+        1e-9 * expected.abs(),
+        measured,
+    );
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -571,6 +713,24 @@ mod tests {
             measured,
             tolerance,
             note: None,
+        }
+    }
+
+    // The checks of IEEE Std 1241's formulas name the standard, pass on this build, and fail when
+    // the measured value moves by twice their tolerance (each can fail).
+    #[test]
+    fn ieee_1241_checks_name_the_standard_and_can_fail() {
+        let mut out = Vec::new();
+        ieee_1241(&mut out);
+        assert_eq!(out.len(), 6);
+        for m in &out {
+            assert!(m.source.contains("IEEE Std 1241"), "{}", m.source);
+            assert!(judge(m).pass, "{m:?}");
+            let off = Measurement {
+                measured: m.measured.map(|v| v + 2.0 * m.tolerance),
+                ..m.clone()
+            };
+            assert!(!judge(&off).pass, "{m:?}");
         }
     }
 

@@ -296,3 +296,137 @@ fn interleave_refuses_bad_channel_counts() {
     );
     assert_eq!(json_of(&out)[0]["error"]["kind"], "bad_setting");
 }
+
+/// Loads a page in headless chromium and returns the DOM it built; `None` (with a loud SKIPPED line)
+/// without chromium, a failure when CI is set (.ci/run installs it).
+fn dom_in_browser(page: &Path) -> Option<String> {
+    use crate::report::{find_chromium, spawn_chromium, wait_or_kill};
+    let Some(exe) = find_chromium() else {
+        assert!(
+            std::env::var_os("CI").is_none(),
+            "chromium is not on PATH, and CI is set: the page was not checked in a browser"
+        );
+        use std::io::Write as _;
+        let _ = writeln!(
+            std::io::stderr(),
+            "SKIPPED the browser check of {}: chromium is not installed",
+            page.display()
+        );
+        return None;
+    };
+    let dir = tempfile::tempdir().unwrap();
+    let dom_file = dir.path().join("dom.html");
+    let mut dom = spawn_chromium(
+        &exe,
+        &dir.path().join("profile"),
+        &["--dump-dom".to_string()],
+        &format!("file://{}", page.display()),
+        &dom_file,
+    );
+    assert!(
+        wait_or_kill(&mut dom, std::time::Duration::from_secs(60)),
+        "chromium failed or timed out"
+    );
+    Some(std::fs::read_to_string(&dom_file).unwrap())
+}
+
+/// `imd --report` and `interleave --report` write a page in the run page's shell with each record's
+/// marked spectrum inline and as a file; a bad record is a failed row and the rest go on; the page
+/// renders in a browser as our SVG with no script.
+#[test]
+fn imd_and_interleave_write_their_pages() {
+    let dir = tempfile::tempdir().unwrap();
+    let good = write_codes(dir.path(), "two.txt", &two_tone_codes(1e-3, 1e-3));
+    let bad = dir.path().join("bad.txt");
+    std::fs::write(&bad, "1\n2\nthree\n").unwrap();
+    let out = dir.path().join("imd-report");
+    let st = spurline()
+        .arg("imd")
+        .arg(&good)
+        .arg(&bad)
+        .args(["--fs", "100M", "--bits", "18", "--report"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    // One bad file: exit status 2 (an error), the good record still reported.
+    assert_eq!(
+        st.status.code(),
+        Some(2),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    let page = std::fs::read_to_string(out.join("index.html")).unwrap();
+    assert!(page.contains("<table id=\"records\">") && page.contains("<tr class=\"fail\""));
+    let svg = std::fs::read_to_string(out.join("two.txt.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).expect("well-formed SVG");
+    let texts: Vec<&str> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .filter_map(|n| n.text())
+        .map(str::trim)
+        .collect();
+    // 2f1 − f2 and 2f2 − f1: the third-order products of the standard formulas (handbook).
+    for want in ["f1", "f2", "2f1−f2", "2f2−f1", "order 3"] {
+        assert!(texts.contains(&want), "{want}: {texts:?}");
+    }
+
+    let codes = interleaved(&InterleavedSettings {
+        bits: 16,
+        sample_rate_hz: FS,
+        samples: N,
+        tone: tone(3277.0, -1.0, 0.7),
+        offset_codes: 0.0,
+        channel_offsets_codes: vec![20.0, -20.0],
+        channel_gain_errors: vec![1e-3, -1e-3],
+        channel_timing_errors_s: vec![0.0, 0.0],
+        noise_rms_codes: 0.5,
+        seed: 3,
+    })
+    .unwrap()
+    .codes;
+    let p = write_codes(dir.path(), "tiadc.txt", &codes);
+    let out2 = dir.path().join("il-report");
+    let st = spurline()
+        .arg("interleave")
+        .arg(&p)
+        .args([
+            "--channels",
+            "2",
+            "--fs",
+            "100M",
+            "--bits",
+            "16",
+            "--report",
+        ])
+        .arg(&out2)
+        .output()
+        .unwrap();
+    assert!(
+        st.status.success(),
+        "{}",
+        String::from_utf8_lossy(&st.stderr)
+    );
+    let svg = std::fs::read_to_string(out2.join("tiadc.txt.svg")).unwrap();
+    let doc = roxmltree::Document::parse(&svg).expect("well-formed SVG");
+    let texts: Vec<&str> = doc
+        .descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .filter_map(|n| n.text())
+        .map(str::trim)
+        .collect();
+    // The offset spur at fs/2 and the gain image at fs/2 − fin (interleaving spur places, common
+    // practice, no source).
+    for want in ["fin", "1·fs/2", "1·fs/2+fin"] {
+        assert!(texts.contains(&want), "{want}: {texts:?}");
+    }
+
+    for page in [out.join("index.html"), out2.join("index.html")] {
+        let Some(dom) = dom_in_browser(&page) else {
+            continue;
+        };
+        assert!(dom.contains("<table id=\"records\">"), "no table");
+        assert!(dom.contains("<svg"), "no plot");
+        assert!(dom.matches("<polyline").count() >= 1);
+        assert!(!dom.to_ascii_lowercase().contains("<script"));
+    }
+}

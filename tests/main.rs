@@ -16,6 +16,7 @@ mod pipeline;
 mod plan;
 mod reference;
 mod report;
+mod resource_limits;
 mod spc;
 mod store;
 mod sweep;

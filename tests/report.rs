@@ -421,7 +421,7 @@ fn demo_writes_the_same_full_report_every_time() {
 
 // ---- the page in a real browser ----
 
-fn find_chromium() -> Option<PathBuf> {
+pub(crate) fn find_chromium() -> Option<PathBuf> {
     let path = std::env::var_os("PATH")?;
     std::env::split_paths(&path)
         .flat_map(|d| ["chromium", "chromium-browser"].map(|n| d.join(n)))
@@ -429,7 +429,7 @@ fn find_chromium() -> Option<PathBuf> {
 }
 
 /// Runs chromium headless with a fresh profile, stdout into `stdout_to`; kills it after `limit`.
-fn spawn_chromium(
+pub(crate) fn spawn_chromium(
     exe: &Path,
     profile: &Path,
     extra: &[String],
@@ -456,7 +456,7 @@ fn spawn_chromium(
     cmd.spawn().expect("chromium starts")
 }
 
-fn wait_or_kill(child: &mut std::process::Child, limit: Duration) -> bool {
+pub(crate) fn wait_or_kill(child: &mut std::process::Child, limit: Duration) -> bool {
     let start = Instant::now();
     loop {
         if let Ok(Some(status)) = child.try_wait() {

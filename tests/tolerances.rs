@@ -305,6 +305,20 @@ pub const MC_SEEDS: u64 = 200;
 /// scipy's gammaln on theirs (each good to about 1e-14); 1e-10 leaves room for both.
 pub const SPC_REL: f64 = 1e-10;
 
+/// Agreement with a figure printed to `decimals` places in a textbook's worked example, whose
+/// inputs it was worked from exactly: half a unit in the last printed place (common practice, no
+/// source).
+pub fn printed(decimals: i32) -> f64 {
+    0.5 * 10f64.powi(-decimals)
+}
+
+/// Agreement with the individuals-chart limits printed in Montgomery's worked example (tests/spc.rs):
+/// the book works them from MR̄ printed to 0.01 (±0.005, moving a limit by 3·0.005/1.128 = 0.0133,
+/// the MR limit by 3.267·0.005 = 0.0163), d2 = 1.128 for 1.12838 (3·7.79·0.00038/1.128² = 0.0070)
+/// and D4 = 3.267 for 3.2665 (7.79·0.0005 = 0.0039), then prints to 0.01 (±0.005): at most 0.0253
+/// either way, so 0.026.
+pub const BOOK_IMR_LIMIT_ABS: f64 = 0.026;
+
 /// Relative agreement of a two-sided normal p-value with erfc(z/√2) as tabulated (Abramowitz & Stegun
 /// table 7.1, checked with Python's math.erfc): statrs' normal cdf is good to about 1e-14 relative at
 /// these z; 1e-9 leaves room for the z computed from summed squares.

@@ -373,6 +373,15 @@ fn locate_two(y: &[f64]) -> Result<[f64; 2]> {
 
 /// Analyses a two-tone record: locate, fit, claim and measure (see the module docs).
 pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdResult> {
+    analyze_two_tone_traced(record, settings).map(|(r, _)| r)
+}
+
+/// [`analyze_two_tone`], also giving the bin powers it measured (0..=N/2, codes², under its window)
+/// for the two-tone plot.
+pub fn analyze_two_tone_traced(
+    record: &Record,
+    settings: &ImdSettings,
+) -> Result<(ImdResult, Vec<f64>)> {
     let n = record.len();
     let min = if settings.min_samples == 0 {
         64
@@ -622,7 +631,7 @@ pub fn analyze_two_tone(record: &Record, settings: &ImdSettings) -> Result<ImdRe
             noise_bins: meas.noise_bins,
         }),
     };
-    Ok(ImdResult::of(record, found, warnings))
+    Ok((ImdResult::of(record, found, warnings), powers))
 }
 
 #[cfg(test)]

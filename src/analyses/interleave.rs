@@ -183,6 +183,15 @@ pub fn analyze_interleaved(
     record: &Record,
     settings: &InterleaveSettings,
 ) -> Result<InterleaveResult> {
+    analyze_interleaved_traced(record, settings).map(|(r, _)| r)
+}
+
+/// [`analyze_interleaved`], also giving the bin powers it measured (0..=N/2, codes², under its
+/// window) for the interleaving plot.
+pub fn analyze_interleaved_traced(
+    record: &Record,
+    settings: &InterleaveSettings,
+) -> Result<(InterleaveResult, Vec<f64>)> {
     let n = record.len();
     let m = settings.channels;
     let path = record.source.as_str();
@@ -432,7 +441,7 @@ pub fn analyze_interleaved(
             noise_bins: meas.noise_bins,
         }),
     };
-    Ok(InterleaveResult::of(record, found, warnings))
+    Ok((InterleaveResult::of(record, found, warnings), powers))
 }
 
 #[cfg(test)]

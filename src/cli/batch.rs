@@ -38,9 +38,13 @@ pub struct BatchArgs {
     /// Output folder [default: reports/<plan file name without extension>].
     #[arg(long)]
     pub out: Option<PathBuf>,
-    /// Worker threads [default: the number of cores].
+    /// Worker threads, 1..=256 [default: the number of cores].
     #[arg(long)]
     pub jobs: Option<usize>,
+    /// Memory one record may need (read and analysed), in bytes with an SI prefix (4G = 4e9 bytes)
+    /// [default: half this machine's memory]. Each worker holds one record.
+    #[arg(long, value_name = "BYTES", value_parser = super::memory_value)]
+    pub max_memory: Option<u64>,
     /// Plots per device: none, failures (the failing results) or all.
     #[arg(long, default_value = "none", value_parser = ["none", "failures", "all"])]
     pub plots: String,
@@ -76,7 +80,8 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
         spurline::Store::open(&url)?;
     }
     let shard = args.shard.as_deref().map(shard_of).transpose()?;
-    let plan = BenchPlan::read(&args.plan)?;
+    let mut plan = BenchPlan::read(&args.plan)?;
+    plan.ingest.max_memory_bytes = args.max_memory.unwrap_or(0);
     let lot = plan.locate()?;
     let limits = match &args.limits {
         None => None,
@@ -93,8 +98,8 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
         PathBuf::from("reports").join(stem)
     });
     let jobs = match args.jobs {
-        Some(j) => j,
-        None => std::thread::available_parallelism().map_or(1, |n| n.get()),
+        Some(j) => spurline::check_jobs(j)?,
+        None => spurline::cores(),
     };
     let options = BatchOptions {
         out: out.clone(),

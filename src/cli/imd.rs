@@ -3,7 +3,7 @@
 
 use super::ReadArgs;
 use clap::Args;
-use spurline::{analyze_two_tone, ImdSettings};
+use spurline::{analyze_two_tone_traced, ImdSettings};
 use std::path::PathBuf;
 
 /// Arguments of `imd`.
@@ -29,6 +29,10 @@ pub struct ImdArgs {
     /// Print one JSON array, one object per record in input order, instead of tables.
     #[arg(long)]
     pub json: bool,
+    /// Folder for the report: index.html and one two-tone spectrum per record, the IM products
+    /// marked by order.
+    #[arg(long, value_name = "DIR")]
+    pub report: Option<PathBuf>,
 }
 
 /// Runs `imd`.
@@ -51,7 +55,13 @@ pub fn run(args: ImdArgs) -> i32 {
         &args.files,
         &ingest,
         args.json,
-        |record| analyze_two_tone(record, &settings),
+        |record| analyze_two_tone_traced(record, &settings),
         spurline::render_two_tone,
+        args.report.as_deref().map(|dir| {
+            let write: super::ReportWriter<spurline::TwoTone> = &|d, items| {
+                spurline::write_two_tone_report(d, items, &spurline::PlotOptions::default())
+            };
+            (dir, write)
+        }),
     )
 }

@@ -3,7 +3,7 @@
 
 use super::ReadArgs;
 use clap::Args;
-use spurline::{analyze_interleaved, InterleaveSettings};
+use spurline::{analyze_interleaved_traced, InterleaveSettings};
 use std::path::PathBuf;
 
 /// Arguments of `interleave`.
@@ -29,6 +29,10 @@ pub struct InterleaveArgs {
     /// Print one JSON array, one object per record in input order, instead of tables.
     #[arg(long)]
     pub json: bool,
+    /// Folder for the report: index.html and one spectrum per record, the offset spurs and the
+    /// gain/timing images marked.
+    #[arg(long, value_name = "DIR")]
+    pub report: Option<PathBuf>,
 }
 
 /// Runs `interleave`.
@@ -50,7 +54,13 @@ pub fn run(args: InterleaveArgs) -> i32 {
         &args.files,
         &ingest,
         args.json,
-        |record| analyze_interleaved(record, &settings),
+        |record| analyze_interleaved_traced(record, &settings),
         spurline::render_interleaved,
+        args.report.as_deref().map(|dir| {
+            let write: super::ReportWriter<spurline::Interleaved> = &|d, items| {
+                spurline::write_interleave_report(d, items, &spurline::PlotOptions::default())
+            };
+            (dir, write)
+        }),
     )
 }

@@ -110,31 +110,44 @@ pub fn run(cli: Cli) -> i32 {
 
 /// Reads and analyses each file in order (one bad file is a failed result, the rest go on), prints
 /// one JSON array or the text blocks, repeats the errors on stderr, and gives the exit status.
+/// Writes a command's report folder from its traced results; returns the page's path.
+pub(crate) type ReportWriter<'a, T> =
+    &'a dyn Fn(&std::path::Path, &[spurline::Traced<T>]) -> spurline::Result<std::path::PathBuf>;
+
 pub(crate) fn run_files<T: Default + serde::Serialize>(
     files: &[std::path::PathBuf],
     ingest: &spurline::IngestSettings,
     json: bool,
-    analyse: impl Fn(&spurline::Record) -> spurline::Result<RecordResult<T>>,
+    analyse: impl Fn(&spurline::Record) -> spurline::Result<(RecordResult<T>, Vec<f64>)>,
     render: impl Fn(&RecordResult<T>) -> String,
+    report: Option<(&std::path::Path, ReportWriter<T>)>,
 ) -> i32 {
-    let mut results = Vec::with_capacity(files.len());
+    let mut traced: Vec<spurline::Traced<T>> = Vec::new();
     for path in files {
         let shown = path.display().to_string();
-        let r = match spurline::read_record(path, ingest) {
-            Err(e) => RecordResult::failed(&shown, &e, Vec::new()),
+        let (r, powers) = match spurline::read_record(path, ingest) {
+            Err(e) => (RecordResult::failed(&shown, &e, Vec::new()), None),
             Ok(ing) => match analyse(&ing.record) {
-                Ok(mut r) => {
+                Ok((mut r, powers)) => {
                     // The reader's warnings come before the analysis's.
                     let mut w = ing.warnings;
                     w.append(&mut r.warnings);
                     r.warnings = w;
-                    r
+                    (r, Some(powers))
                 }
-                Err(e) => RecordResult::failed(&shown, &e, ing.warnings),
+                Err(e) => (RecordResult::failed(&shown, &e, ing.warnings), None),
             },
         };
-        results.push(r);
+        // Only the page needs the bin powers; without one they are dropped at once.
+        traced.push((r, powers.filter(|_| report.is_some())));
     }
+    if let Some((dir, write)) = report {
+        match write(dir, &traced) {
+            Ok(page) => eprintln!("wrote {}", page.display()),
+            Err(e) => return fail(&e),
+        }
+    }
+    let results: Vec<&RecordResult<T>> = traced.iter().map(|t| &t.0).collect();
     if json {
         // Plain data with Option<f64> figures and finite floats: this cannot fail.
         let mut s = serde_json::to_string_pretty(&results).expect("plain data serialises");
@@ -216,6 +229,34 @@ pub struct ReadArgs {
     /// CSV delimiter (one character; "tab" for a tab). Detected when absent.
     #[arg(long)]
     pub delimiter: Option<String>,
+    #[command(flatten)]
+    pub limits: LimitArgs,
+}
+
+/// The memory ceiling of a record and streams, shared by the commands that read records.
+#[derive(Debug, Clone, Args)]
+pub struct LimitArgs {
+    /// Memory one record may need (read and analysed), in bytes with an SI prefix (4G = 4e9 bytes)
+    /// [default: half this machine's memory]. A larger record is refused before it is read.
+    #[arg(long, value_name = "BYTES", value_parser = memory_value)]
+    pub max_memory: Option<u64>,
+    /// Read a record path that is not a regular file (a FIFO, a device) as a stream, up to a quarter
+    /// of --max-memory; without it such a path is refused.
+    #[arg(long)]
+    pub stream: bool,
+}
+
+/// Parses a memory size: bytes with an optional SI prefix and "B" ("4G", "512MB", "1e9"), at least
+/// 1 MB.
+pub(crate) fn memory_value(s: &str) -> Result<u64, String> {
+    let t = s.trim();
+    let t = t.strip_suffix('B').unwrap_or(t);
+    match spurline::parse_si(t) {
+        Some(v) if (1e6..=1.8e19).contains(&v) => Ok(v as u64),
+        _ => Err(format!(
+            "expected a memory size in bytes from 1M to 18E (4G, 512MB, 1e9), found '{s}'"
+        )),
+    }
 }
 
 impl ReadArgs {
@@ -253,6 +294,8 @@ impl ReadArgs {
             delimiter,
             unit: self.unit.as_deref().map(str::parse).transpose()?,
             min_samples: 0,
+            max_memory_bytes: self.limits.max_memory.unwrap_or(0),
+            stream: self.limits.stream,
         })
     }
 }

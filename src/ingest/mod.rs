@@ -37,6 +37,7 @@ use checks::check_bits;
 
 use crate::error::{Error, ErrorKind, Location, Result};
 use crate::record::{max_code, min_code, Coding, Record};
+use crate::resources;
 
 /// The word formats [`Format::parse_word`] accepts, as listed in errors.
 const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i32le, i32be, u32le, u32be";
@@ -248,6 +249,12 @@ pub struct IngestSettings {
     pub unit: Option<SampleUnit>,
     /// Fewest samples accepted; 0 means [`DEFAULT_MIN_SAMPLES`].
     pub min_samples: usize,
+    /// Memory ceiling of one record in bytes (reading it and analysing it); 0 means half the
+    /// machine's memory. A record that would need more is refused before it is read.
+    pub max_memory_bytes: u64,
+    /// Read a path that is not a regular file (a FIFO, a device) as a stream, up to a quarter of
+    /// the memory ceiling; without it such a path is refused without reading.
+    pub stream: bool,
 }
 
 /// A record read from a file, with warnings about its codes (clipping, stuck bits, missing codes) and
@@ -260,54 +267,72 @@ pub struct Ingested {
     pub warnings: Vec<String>,
 }
 
-/// A record file's bytes: memory-mapped when it is a regular file of at least [`MAP_MIN_BYTES`] (the
-/// parsers read it straight from the page cache, with no copy on the heap), else read whole.
-enum RecordBytes {
-    Mapped(memmap2::Mmap),
-    Read(Vec<u8>),
-}
-
-/// Files smaller than this are read: mapping costs more than copying a few pages.
-const MAP_MIN_BYTES: u64 = 1 << 20;
-
 /// The record path that means standard input.
 pub const STDIN_PATH: &str = "-";
 
 /// How standard input is named in errors and as a record's source.
 pub const STDIN_SHOWN: &str = "standard input";
 
-impl RecordBytes {
-    /// Reads standard input to its end (a pipe cannot be mapped).
-    fn stdin() -> std::io::Result<RecordBytes> {
-        let mut bytes = Vec::new();
-        std::io::Read::read_to_end(&mut std::io::stdin().lock(), &mut bytes)?;
-        Ok(RecordBytes::Read(bytes))
-    }
+/// The option that raises the memory ceiling, as messages name it.
+const MEMORY_OPTION: &str = "--max-memory";
 
-    fn open(path: &Path) -> std::io::Result<RecordBytes> {
-        let file = std::fs::File::open(path)?;
-        let meta = file.metadata()?;
-        if meta.is_file() && meta.len() >= MAP_MIN_BYTES {
-            // SAFETY: the map is read-only and lives only while this record is parsed. A file changed
-            // by another process meanwhile could give torn values (never unsafety in the parsers,
-            // which take any bytes); records are captures, not files being written.
-            if let Ok(map) = unsafe { memmap2::Mmap::map(&file) } {
-                return Ok(RecordBytes::Mapped(map));
-            }
-        }
-        let mut bytes = Vec::new();
-        std::io::Read::read_to_end(&mut &file, &mut bytes)?;
-        Ok(RecordBytes::Read(bytes))
+/// Bytes read before the format is settled: enough for any magic number.
+const HEAD_BYTES: usize = 64;
+
+/// The memory ceiling of `settings`, resolved: its own, else the machine's default.
+fn memory_limit(settings: &IngestSettings) -> u64 {
+    match settings.max_memory_bytes {
+        0 => resources::default_memory_limit(),
+        n => n,
     }
 }
 
-impl std::ops::Deref for RecordBytes {
-    type Target = [u8];
-    fn deref(&self) -> &[u8] {
-        match self {
-            RecordBytes::Mapped(m) => m,
-            RecordBytes::Read(v) => v,
+/// Error: a record needs more memory than the ceiling.
+fn too_large(shown: &str, size: &str, needed: u64, limit: u64) -> Error {
+    Error::new(
+        ErrorKind::TooLarge,
+        shown,
+        Location::Whole,
+        format!(
+            "a record that fits the memory limit of {} ({}; raise it with {MEMORY_OPTION})",
+            resources::bytes_shown(limit),
+            resources::memory_limit_origin(limit)
+        ),
+        format!(
+            "{size}, which needs about {} to read and analyse",
+            resources::bytes_shown(needed)
+        ),
+    )
+}
+
+/// Memory a record of `file_bytes` needs before its samples are known, by format: a binary record's
+/// samples follow from its length (the file, plus [`resources::ANALYSIS_BYTES_PER_SAMPLE`] a sample);
+/// text, CSV and .npy give at most one sample per 2, 2 and 1 bytes, and only their reading (the file
+/// plus 4 bytes a code) is bounded here: their analysis is checked once the samples are counted.
+fn needed_up_front(file_bytes: u64, format: &Format) -> (u64, String) {
+    match format {
+        Format::Binary(l) => {
+            let frame = (l.word_bytes as u64).saturating_mul(l.channels.max(1) as u64);
+            let samples = file_bytes.saturating_sub(l.skip_bytes) / frame.max(1);
+            (
+                file_bytes
+                    .saturating_add(samples.saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE)),
+                format!(
+                    "{} holding {samples} samples of {}-byte words",
+                    resources::bytes_shown(file_bytes),
+                    l.word_bytes
+                ),
+            )
         }
+        // A WAV sample of 1 byte becomes a 4-byte code, of 4 or 8 bytes an 8-byte value: at most 4×.
+        Format::Npy | Format::Wav => (
+            file_bytes.saturating_add(file_bytes.saturating_mul(4)),
+            resources::bytes_shown(file_bytes),
+        ),
+        Format::Text | Format::Csv { .. } => (
+            file_bytes.saturating_add(file_bytes / 2 * 4),
+            resources::bytes_shown(file_bytes),
+        ),
     }
 }
 
@@ -324,12 +349,27 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     } else {
         path.display().to_string()
     };
-    let opened = if stdin {
-        RecordBytes::stdin()
+    let limit = memory_limit(settings);
+    // A record is read onto the heap, never mapped: a file cut short by another process while it is
+    // read gives a short or failed read of that record, not a SIGBUS that ends the whole run.
+    let (reader, len): (Box<dyn std::io::Read>, Option<u64>) = if stdin {
+        (Box::new(std::io::stdin().lock()), None)
     } else {
-        RecordBytes::open(path)
+        let o = resources::open_input(
+            path,
+            "a readable record file",
+            settings.stream,
+            Some("--stream"),
+        )?;
+        (Box::new(o.file), o.len)
     };
-    let bytes = opened.map_err(|e| {
+    let mut reader = reader;
+    let mut head = Vec::with_capacity(HEAD_BYTES);
+    std::io::Read::read_to_end(
+        &mut std::io::Read::take(&mut reader, HEAD_BYTES as u64),
+        &mut head,
+    )
+    .map_err(|e| {
         Error::new(
             ErrorKind::Io,
             &shown,
@@ -347,6 +387,47 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             read_sidecar(path)?.unwrap_or_default(),
         )
     };
+    let format = resolve_format(path, &head, settings, &sidecar, &sidecar_shown)?;
+    let max_bytes = match len {
+        Some(len) => {
+            let (needed, size) = needed_up_front(len, &format);
+            if needed > limit {
+                return Err(too_large(&shown, &size, needed, limit));
+            }
+            len
+        }
+        // A stream's length is unknown: read at most a quarter of the ceiling (the bytes and their
+        // codes then stay within it).
+        None => limit / 4,
+    };
+    let bytes = resources::read_bounded(
+        std::io::Read::chain(&head[..], reader),
+        &shown,
+        "a record",
+        max_bytes,
+        &format!(" (a stream is read up to a quarter of the memory limit; raise it with {MEMORY_OPTION})"),
+    )
+    .map_err(|mut e| {
+        if e.found.starts_with("more bytes") {
+            e.kind = ErrorKind::TooLarge;
+            if len.is_some() {
+                e.found = "a file that grew while it was read".into();
+            }
+        }
+        e
+    })?;
+    if let Some(len) = len {
+        let got = bytes.len() as u64;
+        if got != len {
+            return Err(Error::new(
+                ErrorKind::Io,
+                &shown,
+                Location::Byte(got),
+                format!("{len} bytes, as the file's size said when it was opened"),
+                "the file ending there (it changed while it was read)",
+            ));
+        }
+    }
     let cli = &settings.meta;
     let meta = cli.with_fallback(&sidecar.metadata());
     // Errors about a value name the file it came from.
@@ -358,7 +439,6 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         }
     };
 
-    let format = resolve_format(path, &bytes, settings, &sidecar, &sidecar_shown)?;
     // Formats that may hold values (with no code grid), or state their resolution, may go without
     // one; the check that codes have one comes after the read.
     let bits_optional = !matches!(format, Format::Binary(_));
@@ -526,6 +606,10 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         settings.min_samples
     };
     let len = values.as_ref().map_or(codes.len(), |v| v.scaled.len());
+    let needed = (len as u64).saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE);
+    if needed > limit {
+        return Err(too_large(&shown, &format!("{len} samples"), needed, limit));
+    }
     if len < min {
         return Err(Error::new(
             ErrorKind::TooFewSamples,
@@ -1125,11 +1209,13 @@ mod tests {
         assert_eq!((r.sample_rate_hz, r.bits), (1e5, 12));
     }
 
-    // Files of at least MAP_MIN_BYTES are memory-mapped, smaller ones read: both must give the same
+    // Large and small files (read in one piece or several) must give the same
     // codes (slow reference: the words written), for binary and text records.
     #[test]
-    fn mapped_and_read_files_give_the_same_codes() {
-        let big = (MAP_MIN_BYTES as usize) / 2 + 17; // i16 words: just over the mapping threshold
+    fn large_and_small_files_give_the_same_codes() {
+        // i16 words: a file above the 1 MiB the reader once mapped, read in more than one piece.
+        const BIG_BYTES: u64 = 1 << 20;
+        let big = (BIG_BYTES as usize) / 2 + 17;
         let words: Vec<i16> = (0..big).map(|i| (i % 4001) as i16 - 2000).collect();
         let sidecar = br#"{"format": "i16le", "sample_rate_hz": 1e6, "bits": 12}"#;
         let text: String = words.iter().map(|w| format!("{w}\n")).collect();
@@ -1140,7 +1226,7 @@ mod tests {
             ("small.json", sidecar),
             ("plain.txt", text.as_bytes()),
         ]);
-        assert!(std::fs::metadata(dir.path().join("big.bin")).unwrap().len() >= MAP_MIN_BYTES);
+        assert!(std::fs::metadata(dir.path().join("big.bin")).unwrap().len() >= BIG_BYTES);
         let read = |name: &str, s: &IngestSettings| {
             read_record(&dir.path().join(name), s).unwrap().record.codes
         };
@@ -1151,6 +1237,59 @@ mod tests {
         t.meta.bits = Some(12);
         t.meta.sample_rate_hz = Some(1e6);
         assert_eq!(read("plain.txt", &t), want);
+    }
+
+    #[test]
+    fn memory_ceiling_refuses_before_reading_and_after_counting() {
+        let words: Vec<i16> = (0..4096).map(|i| (i % 2001) as i16 - 1000).collect();
+        let text: String = words.iter().map(|w| format!("{w}\n")).collect();
+        let dir = files(&[("r.bin", &le16(&words)), ("r.txt", text.as_bytes())]);
+        let mut s = cli(1e6, 12);
+        s.format = Some(Format::Binary(Format::parse_word("i16le").unwrap()));
+        // 8 KiB of words: 8192 bytes plus the analysis of 4096 samples.
+        let need = 8192 + 4096 * resources::ANALYSIS_BYTES_PER_SAMPLE;
+        s.max_memory_bytes = need;
+        assert_eq!(
+            read_record(&dir.path().join("r.bin"), &s)
+                .unwrap()
+                .record
+                .codes
+                .len(),
+            4096
+        );
+        s.max_memory_bytes = need - 1;
+        let e = read_record(&dir.path().join("r.bin"), &s).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::TooLarge);
+        assert!(
+            e.found.contains("4096 samples") && e.found.contains(&need.to_string()),
+            "{e}"
+        );
+        assert!(e.expected.contains("--max-memory"), "{e}");
+        // Text: the reading fits, the analysis of the samples counted does not.
+        let mut t = cli(1e6, 12);
+        t.max_memory_bytes = 4096 * resources::ANALYSIS_BYTES_PER_SAMPLE - 1;
+        let e = read_record(&dir.path().join("r.txt"), &t).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::TooLarge);
+        assert!(e.found.starts_with("4096 samples"), "{e}");
+    }
+
+    #[cfg(target_os = "linux")]
+    #[test]
+    fn special_files_are_refused_or_read_with_a_bound() {
+        let e = read_record(Path::new("/dev/zero"), &cli(1e6, 12)).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::Io);
+        assert!(
+            e.found.contains("character device") && e.found.contains("--stream"),
+            "{e}"
+        );
+        let mut s = cli(1e6, 12);
+        s.stream = true;
+        s.format = Some(Format::Binary(Format::parse_word("i16le").unwrap()));
+        s.max_memory_bytes = 1 << 20;
+        let e = read_record(Path::new("/dev/zero"), &s).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::TooLarge, "{e}");
+        // A quarter of the 1 MiB ceiling.
+        assert!(e.expected.contains("262144 bytes"), "{e}");
     }
 
     #[test]

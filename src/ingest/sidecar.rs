@@ -117,6 +117,9 @@ pub fn sidecar_path(record: &Path) -> Result<PathBuf> {
     Ok(record.with_extension("json"))
 }
 
+/// Largest sidecar read: a few keys and a generator note take a few kB.
+const MAX_SIDECAR_BYTES: u64 = 1 << 20;
+
 /// Reads the sidecar of a record; `None` when there is none.
 ///
 /// Unknown keys and values of the wrong type are [`ErrorKind::BadMetadata`] at the line and column
@@ -124,19 +127,13 @@ pub fn sidecar_path(record: &Path) -> Result<PathBuf> {
 pub fn read_sidecar(record: &Path) -> Result<Option<Sidecar>> {
     let path = sidecar_path(record)?;
     let shown = path.display().to_string();
-    let bytes = match std::fs::read(&path) {
-        Ok(b) => b,
-        Err(e) if e.kind() == std::io::ErrorKind::NotFound => return Ok(None),
-        Err(e) => {
-            return Err(Error::new(
-                ErrorKind::Io,
-                shown,
-                Location::Whole,
-                "a readable metadata sidecar",
-                e.to_string(),
-            ))
+    if let Err(e) = std::fs::symlink_metadata(&path) {
+        if e.kind() == std::io::ErrorKind::NotFound {
+            return Ok(None);
         }
-    };
+    }
+    let bytes =
+        crate::resources::read_small_file(&path, "a readable metadata sidecar", MAX_SIDECAR_BYTES)?;
     serde_json::from_slice(&bytes).map(Some).map_err(|e| {
         let message = e.to_string();
         let suffix = format!(" at line {} column {}", e.line(), e.column());

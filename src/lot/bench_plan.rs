@@ -501,8 +501,11 @@ const PLACEHOLDERS: [&str; 3] = ["{device}", "{condition}", "{index}"];
 impl BenchPlan {
     /// Reads and checks a plan file.
     pub fn read(path: &Path) -> Result<BenchPlan> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| Error::io(path, "a readable bench plan (UTF-8 TOML)", e))?;
+        let text = crate::resources::read_small_text(
+            path,
+            "a readable bench plan (UTF-8 TOML)",
+            crate::resources::MAX_SMALL_FILE_BYTES,
+        )?;
         BenchPlan::parse(&text, path)
     }
 
@@ -933,6 +936,7 @@ fn converter(r: &Reader, c: &ConverterToml) -> Result<IngestSettings> {
         delimiter,
         unit: None,
         min_samples: 0,
+        ..IngestSettings::default()
     })
 }
 

@@ -191,7 +191,8 @@ fn csv_error(path: &Path, expected: &str, e: &::csv::Error) -> Error {
 }
 
 pub(crate) fn read_bytes(path: &Path, what: &str) -> Result<Vec<u8>> {
-    std::fs::read(path).map_err(|e| Error::io(path, what, e))
+    // A lot's files grow with the lot: bounded by the memory ceiling, not by a small-file size.
+    crate::resources::read_small_file(path, what, crate::resources::default_memory_limit() / 4)
 }
 
 /// A lot's (or a device's) `summary.csv`, read whole and parsed row by row ([`LotSummary::rows`]).

@@ -65,9 +65,7 @@ pub fn run_lot(
     options: &BatchOptions,
     observer: &dyn LotObserver,
 ) -> Result<LotCounts> {
-    if options.jobs == 0 {
-        return Err(Error::setting("jobs", "at least 1 worker thread", "0"));
-    }
+    crate::resources::check_jobs(options.jobs)?;
     let pool = rayon::ThreadPoolBuilder::new()
         .num_threads(options.jobs)
         .build()

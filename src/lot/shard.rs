@@ -224,8 +224,11 @@ impl ShardManifest {
 
     fn read_file(path: &Path) -> Result<ShardManifest> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| Error::io(path, "the manifest of a finished `batch --shard` run", e))?;
+        let text = crate::resources::read_small_text(
+            path,
+            "the manifest of a finished `batch --shard` run",
+            crate::resources::MAX_SMALL_FILE_BYTES,
+        )?;
         let m: ShardManifest = serde_json::from_str(&text).map_err(|e| {
             Error::new(
                 ErrorKind::BadMetadata,

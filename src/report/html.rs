@@ -151,6 +151,18 @@ section.record ul.msgs { margin: 4px 0 10px; padding-left: 18px; }
 footer { padding: 0 28px 24px; color: #5d636b; font-size: 12px; }
 "#;
 
+/// The page shell every page of the tool shares: the run page's style, a header with the title and
+/// one line under it (`subtitle_html`, already escaped), then `body_html` in `<main>`.
+pub(crate) fn page(title: &str, subtitle_html: &str, body_html: &str) -> String {
+    let t = escape(title);
+    format!(
+        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
+         <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
+         <title>{t}</title>\n<style>{STYLE}</style>\n</head>\n<body>\n<header>\n<h1>{t}</h1>\n\
+         <p>{subtitle_html}</p>\n</header>\n<main>\n{body_html}</main>\n</body>\n</html>\n"
+    )
+}
+
 /// The figures of the page's table: the input's frequency and level, then the headline figures.
 fn table_figures() -> Vec<&'static Figure> {
     let mut f = vec![&figures::FIN, &figures::FUNDAMENTAL];

@@ -8,6 +8,7 @@
 pub mod csv;
 pub mod html;
 pub mod json;
+pub mod pages;
 pub mod svg;
 pub mod text;
 pub mod units;

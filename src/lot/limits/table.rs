@@ -140,8 +140,11 @@ impl LimitTable {
     /// Reads and resolves a limit table file.
     pub fn read(path: &Path, scope: &Scope) -> Result<LimitTable> {
         let shown = path.display().to_string();
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| Error::io(path, "a readable limit table (UTF-8 CSV)", e))?;
+        let text = crate::resources::read_small_text(
+            path,
+            "a readable limit table (UTF-8 CSV)",
+            crate::resources::MAX_SMALL_FILE_BYTES,
+        )?;
         LimitTable::parse(&text, &shown, scope)
     }
 

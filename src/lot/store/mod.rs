@@ -174,7 +174,11 @@ impl RunInfo {
 
 /// The fingerprint of a file's bytes (a plan or a limit table), as 16 hex digits.
 pub fn file_fingerprint(path: &Path) -> Result<String> {
-    let bytes = std::fs::read(path).map_err(|e| Error::io(path, "a readable file", e))?;
+    let bytes = crate::resources::read_small_file(
+        path,
+        "a readable file",
+        crate::resources::MAX_SMALL_FILE_BYTES,
+    )?;
     Ok(fingerprint_of(&[("file", &bytes)]))
 }
 

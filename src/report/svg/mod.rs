@@ -8,6 +8,7 @@
 
 pub mod control;
 pub mod histogram;
+pub mod marked;
 #[cfg(test)]
 pub(crate) mod plot_tests;
 pub mod residual;
@@ -74,6 +75,10 @@ pub mod palette {
     pub const HARMONIC: (u8, u8, u8) = (0xC8, 0x64, 0x2A);
     /// The worst spur's marker, and the mean residual per phase.
     pub const SPUR: (u8, u8, u8) = (0xA4, 0x24, 0x3B);
+    /// Second-order lines: two-tone IM2 products, interleaving offset spurs.
+    pub const ORDER_2: (u8, u8, u8) = (0x6A, 0x4C, 0x93);
+    /// Third-order two-tone products.
+    pub const ORDER_3: (u8, u8, u8) = (0xA4, 0x24, 0x3B);
     /// The average noise floor line.
     pub const FLOOR: (u8, u8, u8) = (0x6B, 0x7A, 0x3A);
     /// Background of the box of figures.

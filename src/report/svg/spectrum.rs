@@ -249,7 +249,7 @@ pub fn largest_spurs(
 }
 
 /// A label placed on the plot: its box in pixels (left, top, right, bottom).
-type LabelBox = (i32, i32, i32, i32);
+pub(crate) type LabelBox = (i32, i32, i32, i32);
 
 fn overlaps(a: LabelBox, b: LabelBox) -> bool {
     a.0 < b.2 && b.0 < a.2 && a.1 < b.3 && b.1 < a.3
@@ -258,7 +258,7 @@ fn overlaps(a: LabelBox, b: LabelBox) -> bool {
 /// Places a label of `chars` characters centred above the point (x, y): the lowest of a few rows
 /// that overlaps no label already placed and stays inside `area` (left, top, right, bottom). Returns
 /// the label's bottom-centre anchor, or `None` when every row is taken (the marker stays, unlabelled).
-fn place_label(
+pub(crate) fn place_label(
     placed: &mut Vec<LabelBox>,
     x: i32,
     y: i32,
