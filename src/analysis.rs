@@ -70,7 +70,7 @@ pub struct RecordResult<T> {
     pub samples: usize,
     /// Sample rate, hertz.
     pub sample_rate_hz: f64,
-    /// Resolution N, bits.
+    /// Resolution N, bits; 0 for a record of values given without one (an analogue view).
     pub bits: u32,
     /// What the analysis found; all absent (`T::default()`) when the record failed.
     #[serde(flatten)]
@@ -88,7 +88,7 @@ impl<T> RecordResult<T> {
             source: record.source.clone(),
             samples: record.len(),
             sample_rate_hz: record.sample_rate_hz,
-            bits: record.bits,
+            bits: record.bits_reported(),
             found,
             warnings,
             error: None,
@@ -245,6 +245,7 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
         if r.len() != first.len()
             || r.sample_rate_hz != first.sample_rate_hz
             || r.bits != first.bits
+            || r.has_codes() != first.has_codes()
         {
             return Err(Error::new(
                 ErrorKind::BadSetting,
@@ -258,14 +259,17 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
             ));
         }
     }
-    let data: Vec<Vec<f64>> = records
-        .iter()
-        .map(|r| r.codes.iter().map(|&c| c as f64).collect())
-        .collect();
+    let data: Vec<Vec<f64>> = records.iter().map(Record::samples_f64).collect();
     let mut warnings = Vec::new();
     let mut fits = Vec::with_capacity(records.len());
     for (r, y) in records.iter().zip(&data) {
-        let out = run_fit(r, y, settings).map_err(|e| e.with_path(&r.source))?;
+        let mut out = run_fit(r, y, settings).map_err(|e| e.with_path(&r.source))?;
+        if r.bits_reported() == 0 {
+            // The fit form of ENOB counts in steps of the stated resolution; without one it would
+            // report the nominal scale's bits.
+            out.fit.enob_bits = None;
+            out.fit.uncertainty.enob_bits = None;
+        }
         fits.push(out);
     }
     let FitOutput {
@@ -319,7 +323,12 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
             residual,
             powers: spec.powers,
             owner: spec.owner,
-            codes: CodeCounts::of(&first.codes, first.bits),
+            // A record of values has no code grid to count.
+            codes: if first.has_codes() {
+                CodeCounts::of(&first.codes, first.bits)
+            } else {
+                CodeCounts::None
+            },
         },
     })
 }
@@ -505,6 +514,7 @@ mod tests {
             sample_rate_hz,
             bits,
             full_scale_vpp: None,
+            values: None,
             fin_hint_hz: None,
         }
     }

@@ -84,6 +84,9 @@
 //! - Codes are signed integers centred on mid-scale (offset binary is converted at ingest). For N bits the
 //!   full-scale range is 2^N codes, a full-scale sine has peak amplitude 2^(N-1) codes and is 0 dBFS.
 //!   Ideal quantisation noise is q/√12 with q = 1 code.
+//! - A record of values (voltages, floats) has no code grid: given its full-scale range, its samples are
+//!   scaled to the same codes (FSR = 2^N codes, 0 V or 0.0 at mid-scale), the code checks are skipped,
+//!   and without a stated resolution the fit ENOB is left out (ENOB from SINAD alone).
 //! - Windows are the periodic (DFT-even) form. Bin powers are scaled by N·Σw² (one-sided, doubled for
 //!   0 < k < N/2) so that the power summed over a tone's bins equals A²/2 and noise sums need no ENBW factor.
 //! - Bin claiming order: DC, the tones (the fundamental; f1 and f2), then the lines derived from them
@@ -123,16 +126,17 @@ mod verify;
 // Errors and the record.
 pub use crate::error::{Error, ErrorKind, Location, Result};
 pub use crate::record::{
-    full_scale_amplitude_codes, full_scale_power, max_code, min_code, Coding, Record, BITS_RANGE,
-    MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ,
+    full_scale_amplitude_codes, full_scale_power, max_code, min_code, Coding, Record, Values,
+    BITS_RANGE, MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ, NOMINAL_BITS,
 };
 
 // Reading a record: from a file (with its sidecar), or from bytes in memory.
 pub use crate::ingest::{
-    check_codes, parse_binary, parse_channel, parse_delimited, parse_delimiter, parse_npy,
-    parse_text, read_npy_header, read_record, read_sidecar, sidecar_path, write_sidecar,
-    BinaryLayout, ColumnSel, Format, IngestSettings, Ingested, Justify, Metadata, NpyLayout,
-    Samples, Sidecar, DEFAULT_MIN_SAMPLES, STDIN_PATH,
+    check_codes, parse_binary, parse_channel, parse_delimited, parse_delimited_samples,
+    parse_delimiter, parse_npy, parse_text, parse_text_samples, read_npy_header, read_record,
+    read_sidecar, read_wav_header, sidecar_path, write_sidecar, BinaryLayout, ColumnSel, Format,
+    IngestSettings, Ingested, Justify, Metadata, NpyLayout, SampleUnit, Samples, Sidecar,
+    WavLayout, DEFAULT_MIN_SAMPLES, STDIN_PATH,
 };
 
 // Ceilings that keep a run inside the machine: record memory, worker threads, small-file reads.

@@ -1,4 +1,5 @@
-//! The record: signed output codes centred on mid-scale, plus what is known about how they were taken.
+//! The record: signed output codes centred on mid-scale (or values with no code grid, scaled to the same
+//! full scale), plus what is known about how they were taken.
 
 use serde::Serialize;
 
@@ -77,17 +78,38 @@ impl std::str::FromStr for Coding {
     }
 }
 
+/// Resolution on which a record of values given without `--bits` is analysed: figures in codes are
+/// then in units of 2^-16 of the full-scale range. Every figure in dB and the spectral ENOB do not
+/// depend on it; the fit ENOB, which would, is left out.
+pub const NOMINAL_BITS: u32 = 16;
+
+/// Samples with no code grid (voltages, floats), held instead of codes.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Values {
+    /// The samples in codes of the record's `bits`: the full-scale range spans 2^N codes and 0 (volts
+    /// or units) is mid-scale, so a full-scale sine has peak amplitude 2^(N-1), as for codes.
+    #[serde(skip)]
+    pub scaled: Vec<f64>,
+    /// Whether the record's `bits` is the converter's resolution as given; false: the nominal
+    /// [`NOMINAL_BITS`] of an analogue view (no fit ENOB, `bits` reported as 0).
+    pub bits_given: bool,
+}
+
 /// One captured record of converter output codes.
 ///
 /// Codes are signed and centred on mid-scale: an N-bit record holds codes in
 /// `-2^(N-1) ..= 2^(N-1) - 1`. A full-scale sine has peak amplitude 2^(N-1) codes (0 dBFS).
+/// A record of values (voltages, floats) has no codes: `values` holds its samples on the same scale.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Record {
     /// Where the record came from (file path or a generated name).
     pub source: String,
-    /// The codes, signed, centred on mid-scale.
+    /// The codes, signed, centred on mid-scale; empty for a record of values.
     #[serde(skip)]
     pub codes: Vec<i32>,
+    /// The samples of a record of values (no code grid); `None` for a record of codes.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub values: Option<Values>,
     /// Sample rate in hertz.
     pub sample_rate_hz: f64,
     /// Converter resolution N in bits (1..=32).
@@ -113,11 +135,32 @@ impl Record {
     }
     /// Number of samples.
     pub fn len(&self) -> usize {
-        self.codes.len()
+        match &self.values {
+            Some(v) => v.scaled.len(),
+            None => self.codes.len(),
+        }
     }
     /// True when the record holds no samples.
     pub fn is_empty(&self) -> bool {
-        self.codes.is_empty()
+        self.len() == 0
+    }
+    /// The samples as f64 in codes of `bits`: the codes, or the scaled values.
+    pub fn samples_f64(&self) -> Vec<f64> {
+        match &self.values {
+            Some(v) => v.scaled.clone(),
+            None => self.codes.iter().map(|&c| f64::from(c)).collect(),
+        }
+    }
+    /// Whether the samples sit on a code grid (a record of codes, not of values).
+    pub fn has_codes(&self) -> bool {
+        self.values.is_none()
+    }
+    /// The resolution as reported: `bits`, or 0 for a record of values given without one.
+    pub fn bits_reported(&self) -> u32 {
+        match &self.values {
+            Some(v) if !v.bits_given => 0,
+            _ => self.bits,
+        }
     }
 }
 

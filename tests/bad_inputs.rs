@@ -66,6 +66,24 @@ fn text(codes: &[i64]) -> Vec<u8> {
         .into_bytes()
 }
 
+/// A mono 16-bit PCM WAV file at 1 MHz holding `samples`, its data chunk claiming `extra` more bytes
+/// than it holds (RIFF/WAVE layout; from memory).
+fn wav16(samples: &[i16], extra: u32) -> Vec<u8> {
+    let data: Vec<u8> = samples.iter().flat_map(|s| s.to_le_bytes()).collect();
+    let mut b = b"RIFF".to_vec();
+    b.extend((36 + data.len() as u32).to_le_bytes());
+    b.extend(b"WAVEfmt ");
+    b.extend(16u32.to_le_bytes());
+    b.extend([1, 0, 1, 0]); // PCM, one channel
+    b.extend(1_000_000u32.to_le_bytes());
+    b.extend(2_000_000u32.to_le_bytes());
+    b.extend([2, 0, 16, 0]); // block of 2 bytes, 16 bits
+    b.extend(b"data");
+    b.extend((data.len() as u32 + extra).to_le_bytes());
+    b.extend(data);
+    b
+}
+
 fn le16(words: &[u16]) -> Vec<u8> {
     words.iter().flat_map(|w| w.to_le_bytes()).collect()
 }
@@ -163,12 +181,13 @@ fn cases() -> Vec<Case> {
             at: "line 3",
         },
         Case {
-            name: "a decimal number on the first line",
-            files: vec![("d.txt", b"1.5\n2\n".to_vec())],
+            // A decimal fraction makes the record values, which need a full-scale range.
+            name: "a decimal number on the first line and no full-scale range",
+            files: vec![("d.txt", b"2\n1.5\n".to_vec())],
             argv: analyze("d.txt", &META),
-            kind: "not_integer",
+            kind: "bad_setting",
             file: "d.txt",
-            at: "line 1",
+            at: "line 2",
         },
         Case {
             name: "two codes on one line",
@@ -266,6 +285,35 @@ fn cases() -> Vec<Case> {
             kind: "bad_setting",
             file: "",
             at: "'delimiter'",
+        },
+        // ---- WAV records (RIFF layout: 12-byte header, 24-byte fmt chunk, 8-byte data header) ----
+        Case {
+            name: "WAV whose data chunk says more bytes than the file holds",
+            files: vec![("cut.wav", wav16(&[0, 1, 2, 3], 2))],
+            argv: analyze("cut.wav", &META),
+            kind: "partial_word",
+            file: "cut.wav",
+            at: "byte offset 52",
+        },
+        Case {
+            name: "WAV of a compressed format (tag 2)",
+            files: vec![("adpcm.wav", {
+                let mut b = wav16(&[0; 32], 0);
+                b[20] = 2;
+                b
+            })],
+            argv: analyze("adpcm.wav", &META),
+            kind: "bad_metadata",
+            file: "adpcm.wav",
+            at: "byte offset 20",
+        },
+        Case {
+            name: "WAV of 16-bit samples read as 20 bits",
+            files: vec![("w.wav", wav16(&[0; 32], 0))],
+            argv: analyze("w.wav", &["--bits", "20"]),
+            kind: "bad_setting",
+            file: "w.wav",
+            at: "'bits'",
         },
         // ---- raw binary records ----
         Case {

@@ -883,6 +883,7 @@ proptest! {
             sample_rate_hz: fs,
             bits,
             full_scale_vpp: fsv,
+            values: None,
             fin_hint_hz: hint.map(|h| match (&shape, h.is_nan()) {
                 (Shape::Sine { cycles, .. }, true) => cycles / 2.0 * fs,
                 (_, true) => 0.1 * fs,

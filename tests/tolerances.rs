@@ -340,3 +340,16 @@ pub const TRUTH_SEED: u64 = 13;
 /// biased low by p/(2N) for p fitted parameters (0.3 % at the shortest records of 64 samples,
 /// 0.01 dB of SINAD). 0.02 dB covers these, and is a tenth of the 0.2 dB a lab resolves.
 pub const TRUTH_ALLOWANCE_DB: f64 = 0.02;
+
+// ---- Input formats ----
+
+/// Relative agreement of the figures of a record of values (volts with an inexact full-scale
+/// scaling, or decimal text) with those of the same codes as integers: the values differ from the
+/// scaled codes by one rounding each (about 1e-16 relative) and the analysis adds rounding of the same
+/// order; the bound of 1e-9 relative leaves six decades.
+pub const VALUES_REL: f64 = 1e-9;
+
+/// The absolute floor beside [`VALUES_REL`], for figures of order one that come from a cancellation
+/// (the fitted cycles minus their whole number, a tone's offset from its bin): they keep the absolute
+/// error of the operands (about 1e-14 for tens of cycles), not a relative one.
+pub const VALUES_ABS: f64 = 1e-9;

@@ -556,6 +556,7 @@ fn records_of(
                         sample_rate_hz: d.sample_rate_hz,
                         bits: d.bits,
                         full_scale_vpp: d.full_scale_vpp,
+                        values: None,
                         fin_hint_hz: d.fin_hz,
                     },
                     warnings,
@@ -1043,6 +1044,7 @@ fn _bench_rust_analyze(
         sample_rate_hz,
         bits,
         full_scale_vpp: None,
+        values: None,
         fin_hint_hz: None,
     };
     let settings = AnalysisSettings::default();

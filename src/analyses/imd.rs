@@ -400,7 +400,7 @@ pub fn analyze_two_tone_traced(
     }
     let fs = record.sample_rate_hz;
     let bits = record.bits;
-    let y: Vec<f64> = record.codes.iter().map(|&c| c as f64).collect();
+    let y: Vec<f64> = record.samples_f64();
     let located = locate_two(&y).map_err(|e| e.with_path(path))?;
     let start = [located[0] / n as f64, located[1] / n as f64];
     let centre = (n as f64 - 1.0) / 2.0;

@@ -216,7 +216,7 @@ pub fn analyze_interleaved_traced(
     }
     let fs = record.sample_rate_hz;
     let bits = record.bits;
-    let y: Vec<f64> = record.codes.iter().map(|&c| c as f64).collect();
+    let y: Vec<f64> = record.samples_f64();
     let out = fit_four(
         &y,
         fs,

@@ -198,11 +198,17 @@ pub struct ReadArgs {
     /// Expected input frequency in hertz: guides the four-parameter fit, required by --fit three.
     #[arg(long, value_parser = si_value)]
     pub fin: Option<f64>,
-    /// Full-scale range in volts peak-to-peak (reported only).
+    /// Full-scale range in volts peak-to-peak: scales a record of volts to full scale (dBFS); for a
+    /// record of codes it is reported only.
     #[arg(long)]
     pub full_scale_vpp: Option<f64>,
-    /// Record format: text, csv, or a binary word layout i8, u8, i16le, i16be, u16le, u16be, i32le,
-    /// i32be, u32le, u32be (signed words hold two's complement, unsigned offset binary, unless --coding).
+    /// What the samples are: codes, volts (needs --full-scale-vpp) or full-scale (±1.0 is full
+    /// scale). Decided from the data when absent: integers are codes, decimal fractions volts.
+    #[arg(long, value_parser = ["codes", "volts", "full-scale"])]
+    pub unit: Option<String>,
+    /// Record format: text, csv, npy, wav, or a binary word layout i8, u8, i16le, i16be, u16le,
+    /// u16be, i32le, i32be, u32le, u32be (signed words hold two's complement, unsigned offset binary,
+    /// unless --coding). Detected from the file's first bytes (npy, wav) or extension when absent.
     #[arg(long)]
     pub format: Option<String>,
     /// Code format in binary words: twos or offset.
@@ -214,7 +220,7 @@ pub struct ReadArgs {
     /// Header bytes to skip at the start of a binary file.
     #[arg(long)]
     pub skip_bytes: Option<u64>,
-    /// Interleaved channels: take channel K of M (1-based), e.g. 2/4.
+    /// Interleaved channels: take channel K of M (1-based), e.g. 2/4 (for WAV, M is the file's count).
     #[arg(long)]
     pub channel: Option<String>,
     /// CSV column: a header name or a 0-based index.
@@ -286,6 +292,7 @@ impl ReadArgs {
                 .transpose()?,
             column,
             delimiter,
+            unit: self.unit.as_deref().map(str::parse).transpose()?,
             min_samples: 0,
             max_memory_bytes: self.limits.max_memory.unwrap_or(0),
             stream: self.limits.stream,

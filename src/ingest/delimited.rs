@@ -2,6 +2,7 @@
 //! with the delimiter given or detected from the first line that is not a comment.
 
 use super::checks::{check_bits, no_samples, parse_int, range_text, show_token, to_code, IntToken};
+use super::samples::Samples;
 use super::ColumnSel;
 use crate::error::{Error, ErrorKind, Location, Result};
 
@@ -30,6 +31,56 @@ pub fn parse_delimited(
     column: &ColumnSel,
     delimiter: Option<u8>,
 ) -> Result<Vec<i32>> {
+    parse_columns(bytes, path, bits, column, delimiter, false).map(|(codes, ..)| codes)
+}
+
+/// Parses one column of a delimited record as codes or as values: codes as [`parse_delimited`]
+/// reads them (at `bits`, or the 32-bit range when `None`), and when a field of the column holds a
+/// number that is not an integer (`-0.25`, `1.5e-3`) the whole column as values, finite decimal
+/// numbers. Errors name the 1-based line.
+pub fn parse_delimited_samples(
+    bytes: &[u8],
+    path: &str,
+    bits: Option<u32>,
+    column: &ColumnSel,
+    delimiter: Option<u8>,
+) -> Result<Samples> {
+    parse_delimited_located(bytes, path, bits, column, delimiter).map(|(s, _)| s)
+}
+
+/// As [`parse_delimited_samples`], with the 1-based line of the first value that has a fraction.
+pub(crate) fn parse_delimited_located(
+    bytes: &[u8],
+    path: &str,
+    bits: Option<u32>,
+    column: &ColumnSel,
+    delimiter: Option<u8>,
+) -> Result<(Samples, Option<usize>)> {
+    let first = match parse_columns(bytes, path, bits.unwrap_or(32), column, delimiter, false) {
+        Ok((codes, ..)) => return Ok((Samples::Codes(codes), None)),
+        Err(e) => e,
+    };
+    let (Location::Line(at), ErrorKind::NotInteger) = (&first.location, first.kind) else {
+        return Err(first);
+    };
+    match parse_columns(bytes, path, 32, column, delimiter, true) {
+        Ok((_, values, line)) => Ok((Samples::Values(values), line)),
+        // As for text: a later failure names the real problem, an earlier one is the codes reader's.
+        Err(e) if matches!(e.location, Location::Line(l) if l > *at) => Err(e),
+        Err(_) => Err(first),
+    }
+}
+
+/// The reader of both modes: integer codes at `bits` (the first vector), or (`values`) finite decimal
+/// numbers (the second, with the line of the first that has a fraction).
+fn parse_columns(
+    bytes: &[u8],
+    path: &str,
+    bits: u32,
+    column: &ColumnSel,
+    delimiter: Option<u8>,
+    values: bool,
+) -> Result<(Vec<i32>, Vec<f64>, Option<usize>)> {
     check_bits(bits).map_err(|e| e.with_path(path))?;
     if bytes.is_empty() {
         return Err(no_samples(path, "an empty file"));
@@ -72,6 +123,8 @@ pub fn parse_delimited(
         .from_reader(&content[..]);
 
     let mut codes = Vec::new();
+    let mut numbers: Vec<f64> = Vec::new();
+    let mut fraction = None;
     // With a column name, the first row is the header that gives the index.
     let (mut pending_name, mut col) = match column {
         ColumnSel::Index(i) => (None, *i),
@@ -133,6 +186,26 @@ pub fn parse_delimited(
                 ),
             ));
         };
+        if values {
+            if let Some(v) = super::text::parse_value(field) {
+                if fraction.is_none() && v.fract() != 0.0 {
+                    fraction = Some(line);
+                }
+                numbers.push(v);
+                continue;
+            }
+            if was_first && field.iter().any(u8::is_ascii_alphabetic) {
+                header = true;
+                continue;
+            }
+            return Err(Error::new(
+                ErrorKind::NotInteger,
+                path,
+                Location::Line(line),
+                format!("a number (an integer code, or a value such as -0.25) in column {col} (0-based)"),
+                show_token(field),
+            ));
+        }
         match parse_int(field) {
             IntToken::Value(v) => codes.push(to_code(v, bits, path, Location::Line(line))?),
             IntToken::TooLarge => {
@@ -159,7 +232,7 @@ pub fn parse_delimited(
             }
         }
     }
-    if codes.is_empty() {
+    if codes.is_empty() && numbers.is_empty() {
         let found = if header {
             "a header row and no codes"
         } else {
@@ -167,7 +240,7 @@ pub fn parse_delimited(
         };
         return Err(no_samples(path, found));
     }
-    Ok(codes)
+    Ok((codes, numbers, fraction))
 }
 
 /// One row's fields, with the empty fields of whitespace separation dropped.

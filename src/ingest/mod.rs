@@ -12,6 +12,8 @@ mod npy;
 mod samples;
 mod sidecar;
 mod text;
+mod values;
+mod wav;
 
 use std::path::Path;
 
@@ -19,18 +21,22 @@ use serde::{Deserialize, Serialize};
 
 pub use binary::parse_binary;
 pub use checks::check_codes;
-pub use delimited::parse_delimited;
+pub use delimited::{parse_delimited, parse_delimited_samples};
 pub use npy::{parse_npy, read_npy_header, NpyLayout};
 pub use samples::Samples;
 pub use sidecar::{
     parse_channel, parse_delimiter, read_sidecar, sidecar_path, write_sidecar, Sidecar,
 };
-pub use text::parse_text;
+pub use text::{parse_text, parse_text_samples};
+pub use values::SampleUnit;
+pub use wav::{read_wav_header, WavLayout};
+
+use values::{decide, Decide, Decoded};
 
 use checks::check_bits;
 
 use crate::error::{Error, ErrorKind, Location, Result};
-use crate::record::{Coding, Record};
+use crate::record::{max_code, min_code, Coding, Record};
 use crate::resources;
 
 /// The word formats [`Format::parse_word`] accepts, as listed in errors.
@@ -114,6 +120,9 @@ pub enum Format {
     Binary(BinaryLayout),
     /// A NumPy `.npy` array; a 2-D array's column is chosen with [`IngestSettings::column`].
     Npy,
+    /// A WAV file (RIFF or RF64): PCM codes or float values, one channel chosen with
+    /// [`IngestSettings::channel`]; the sample rate comes from the file.
+    Wav,
 }
 
 impl std::str::FromStr for Format {
@@ -126,12 +135,13 @@ impl std::str::FromStr for Format {
 }
 
 impl Format {
-    /// Parses a format name: "text", "csv" (column 0, delimiter detected), "npy" or a word format as
+    /// Parses a format name: "text", "csv" (column 0, delimiter detected), "npy", "wav" or a word format as
     /// [`Format::parse_word`] reads it.
     pub fn parse(s: &str) -> Result<Format> {
         match s.trim() {
             "text" => Ok(Format::Text),
             "npy" => Ok(Format::Npy),
+            "wav" => Ok(Format::Wav),
             "csv" => Ok(Format::Csv {
                 column: ColumnSel::Index(0),
                 delimiter: None,
@@ -139,7 +149,7 @@ impl Format {
             w => Format::parse_word(w)
                 .map(Format::Binary)
                 .map_err(|e| Error {
-                    expected: format!("text, csv, npy or a word format: {}", WORD_NAMES),
+                    expected: format!("text, csv, npy, wav or a word format: {}", WORD_NAMES),
                     ..e
                 }),
         }
@@ -234,6 +244,9 @@ pub struct IngestSettings {
     pub column: Option<ColumnSel>,
     /// CSV delimiter.
     pub delimiter: Option<u8>,
+    /// What the samples are (codes, volts, units of full scale); `None`: decided from the data and
+    /// the full-scale range (see the README's section on values).
+    pub unit: Option<SampleUnit>,
     /// Fewest samples accepted; 0 means [`DEFAULT_MIN_SAMPLES`].
     pub min_samples: usize,
     /// Memory ceiling of one record in bytes (reading it and analysing it); 0 means half the
@@ -311,7 +324,8 @@ fn needed_up_front(file_bytes: u64, format: &Format) -> (u64, String) {
                 ),
             )
         }
-        Format::Npy => (
+        // A WAV sample of 1 byte becomes a 4-byte code, of 4 or 8 bytes an 8-byte value: at most 4×.
+        Format::Npy | Format::Wav => (
             file_bytes.saturating_add(file_bytes.saturating_mul(4)),
             resources::bytes_shown(file_bytes),
         ),
@@ -425,35 +439,22 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         }
     };
 
-    // Formats whose values carry their own scale may go without a resolution.
-    let bits_optional = matches!(format, Format::Npy);
+    // Formats that may hold values (with no code grid), or state their resolution, may go without
+    // one; the check that codes have one comes after the read.
+    let bits_optional = !matches!(format, Format::Binary(_));
     if let Some(bits) = meta.bits {
         check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
     } else if !bits_optional {
-        return Err(Error::setting(
-            "bits",
-            format!(
-                "the resolution in bits: give --bits or \"bits\" in the sidecar {sidecar_shown}"
-            ),
-            "none given",
-        )
-        .with_path(&shown));
+        return Err(missing_bits(&shown, &sidecar_shown));
     }
-    let sample_rate_hz = meta.sample_rate_hz.ok_or_else(|| {
-        Error::setting(
-            "sample_rate_hz",
-            format!(
-                "a sample rate in Hz: give --fs or \"sample_rate_hz\" in the sidecar {sidecar_shown}"
-            ),
-            "none given",
-        )
-        .with_path(&shown)
-    })?;
-    crate::record::check_sample_rate(
-        sample_rate_hz,
-        " (give --fs or \"sample_rate_hz\" in the sidecar)",
-    )
-    .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
+    // A WAV file states its sample rate; every other format needs one given.
+    let rate_in_file = matches!(format, Format::Wav);
+    if let Some(fs) = meta.sample_rate_hz {
+        crate::record::check_sample_rate(fs, " (give --fs or \"sample_rate_hz\" in the sidecar)")
+            .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
+    } else if !rate_in_file {
+        return Err(missing_rate(&shown, &sidecar_shown));
+    }
     if let Some(f) = meta.fin_hz {
         positive("fin_hz", f).map_err(|e| e.with_path(origin(cli.fin_hz.is_some())))?;
     }
@@ -467,18 +468,51 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     if matches!(format, Format::Text | Format::Csv { .. }) {
         detect::refuse_binary(&bytes, &shown)?;
     }
+    let unit = settings.unit.or(sidecar.unit);
     // Only the formats with optional bits reach a read without them.
     let needed = || meta.bits.unwrap_or(0);
+    // Told the samples are codes, the text readers read codes only (and name the line of a fraction).
+    let values_allowed = unit != Some(SampleUnit::Codes);
+    let mut fraction_line = None;
+    let mut native = None;
+    let mut bits_known = meta.bits;
+    let mut file_rate = None;
+    let channel = match settings.channel {
+        Some(c) => Some(c),
+        None => sidecar.parsed_channel(&sidecar_shown)?,
+    };
     let samples = match &format {
-        Format::Text => Samples::Codes(parse_text(&bytes, &shown, needed())?),
+        Format::Text if values_allowed => {
+            let (s, line) = text::parse_text_located(&bytes, &shown, meta.bits)?;
+            fraction_line = line;
+            s
+        }
+        Format::Text => Samples::Codes(parse_text(&bytes, &shown, meta.bits.unwrap_or(32))?),
+        Format::Csv { column, delimiter } if values_allowed => {
+            let (s, line) =
+                delimited::parse_delimited_located(&bytes, &shown, meta.bits, column, *delimiter)?;
+            fraction_line = line;
+            s
+        }
         Format::Csv { column, delimiter } => Samples::Codes(parse_delimited(
             &bytes,
             &shown,
-            needed(),
+            meta.bits.unwrap_or(32),
             column,
             *delimiter,
         )?),
         Format::Binary(layout) => Samples::Codes(parse_binary(&bytes, &shown, needed(), layout)?),
+        Format::Wav => {
+            let read = wav::parse_wav(&bytes, &shown, meta.bits, channel)?;
+            warnings.extend(read.warnings);
+            bits_known = read.bits;
+            file_rate = Some(read.sample_rate_hz);
+            if matches!(read.samples, Samples::Values(_)) {
+                // Float WAV is ±1.0 full scale by the usual convention.
+                native = Some(SampleUnit::FullScale);
+            }
+            read.samples
+        }
         Format::Npy => {
             let column = match &settings.column.clone().or_else(|| sidecar.column.clone()) {
                 None => None,
@@ -501,51 +535,98 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             )?
         }
     };
-    let codes = match samples {
-        Samples::Codes(c) => c,
-        Samples::Values(v) => {
-            return Err(Error::new(
-                ErrorKind::BadSetting,
-                &shown,
-                Location::Key("format".into()),
-                "integer codes (records of voltages or floats are not read yet)",
-                format!("{} float values", v.len()),
-            ))
+    let sample_rate_hz = match (meta.sample_rate_hz, file_rate) {
+        (Some(given), Some(stated)) => {
+            if given != stated {
+                warnings.push(format!(
+                    "the sample rate given, {given} Hz, is used instead of the {stated} Hz the file \
+                     states"
+                ));
+            }
+            given
         }
+        (Some(given), None) => given,
+        (None, Some(stated)) => {
+            crate::record::check_sample_rate(stated, " (the file's header; give --fs)")
+                .map_err(|e| e.with_path(&shown))?;
+            stated
+        }
+        (None, None) => return Err(missing_rate(&shown, &sidecar_shown)),
     };
-    let Some(bits) = meta.bits else {
-        return Err(
-            Error::setting("bits", "the resolution in bits", "none given").with_path(&shown),
-        );
+    let npy_column = match &settings.column.clone().or_else(|| sidecar.column.clone()) {
+        Some(ColumnSel::Index(i)) => Some(*i),
+        _ => None,
+    };
+    let locate = |k: usize| match &format {
+        Format::Npy => npy::element_offset(&bytes, &shown, npy_column, k)
+            .map_or(Location::Whole, Location::Byte),
+        Format::Wav => {
+            wav::sample_offset(&bytes, &shown, channel, k).map_or(Location::Whole, Location::Byte)
+        }
+        _ => Location::Whole,
+    };
+    let decoded = decide(
+        samples,
+        &Decide {
+            path: &shown,
+            unit,
+            native,
+            bits: bits_known,
+            full_scale_vpp: meta.full_scale_vpp,
+            locate: &locate,
+            fraction_at: fraction_line.map(Location::Line),
+        },
+        &mut warnings,
+    )?;
+    let (codes, values, bits) = match decoded {
+        Decoded::Codes(codes) => {
+            let Some(bits) = bits_known else {
+                return Err(missing_bits(&shown, &sidecar_shown));
+            };
+            // The readers checked codes against the 32-bit range when no resolution was known.
+            if let Some(k) = codes
+                .iter()
+                .position(|&c| !(min_code(bits)..=max_code(bits)).contains(&i64::from(c)))
+            {
+                return Err(Error::new(
+                    ErrorKind::CodeOutOfRange,
+                    &shown,
+                    locate(k),
+                    checks::range_text(bits),
+                    format!("{} (sample {k}, 0-based)", codes[k]),
+                ));
+            }
+            (codes, None, bits)
+        }
+        Decoded::Values { values, bits } => (Vec::new(), Some(values), bits),
     };
     let min = if settings.min_samples == 0 {
         DEFAULT_MIN_SAMPLES
     } else {
         settings.min_samples
     };
-    let needed = (codes.len() as u64).saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE);
+    let len = values.as_ref().map_or(codes.len(), |v| v.scaled.len());
+    let needed = (len as u64).saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE);
     if needed > limit {
-        return Err(too_large(
-            &shown,
-            &format!("{} samples", codes.len()),
-            needed,
-            limit,
-        ));
+        return Err(too_large(&shown, &format!("{len} samples"), needed, limit));
     }
-    if codes.len() < min {
+    if len < min {
         return Err(Error::new(
             ErrorKind::TooFewSamples,
             &shown,
             Location::Whole,
             format!("at least {min} samples"),
-            codes.len().to_string(),
+            len.to_string(),
         ));
     }
-    warnings.extend(check_codes(&codes, bits));
+    if values.is_none() {
+        warnings.extend(check_codes(&codes, bits));
+    }
     Ok(Ingested {
         record: Record {
             source: shown,
             codes,
+            values,
             sample_rate_hz,
             bits,
             full_scale_vpp: meta.full_scale_vpp,
@@ -553,6 +634,28 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         },
         warnings,
     })
+}
+
+/// The error for a record of codes read without a resolution.
+fn missing_bits(shown: &str, sidecar_shown: &str) -> Error {
+    Error::setting(
+        "bits",
+        format!("the resolution in bits: give --bits or \"bits\" in the sidecar {sidecar_shown}"),
+        "none given",
+    )
+    .with_path(shown)
+}
+
+/// The error for a record read without a sample rate.
+fn missing_rate(shown: &str, sidecar_shown: &str) -> Error {
+    Error::setting(
+        "sample_rate_hz",
+        format!(
+            "a sample rate in Hz: give --fs or \"sample_rate_hz\" in the sidecar {sidecar_shown}"
+        ),
+        "none given",
+    )
+    .with_path(shown)
 }
 
 /// Rejects a value that is not positive and finite.
@@ -582,13 +685,15 @@ fn resolve_format(
             Some(f) => f,
             None => match detect::magic(bytes) {
                 Some(detect::Magic::Npy) => Format::Npy,
-                Some(detect::Magic::Wav) | None => by_extension(path, sidecar_shown)?,
+                Some(detect::Magic::Wav) => Format::Wav,
+                None => by_extension(path, sidecar_shown)?,
             },
         },
     };
     Ok(match base {
         Format::Text => Format::Text,
         Format::Npy => Format::Npy,
+        Format::Wav => Format::Wav,
         Format::Csv { column, delimiter } => Format::Csv {
             column: settings
                 .column
@@ -633,6 +738,7 @@ fn by_extension(path: &Path, sidecar_shown: &str) -> Result<Format> {
         .map(str::to_ascii_lowercase);
     match ext.as_deref() {
         Some("npy") => Ok(Format::Npy),
+        Some("wav") => Ok(Format::Wav),
         Some("csv") => Ok(Format::Csv {
             column: ColumnSel::Index(0),
             delimiter: None,
@@ -686,6 +792,16 @@ fn ignored_settings(s: &IngestSettings, format: &Format) -> Option<String> {
             binary[1..]
                 .iter()
                 .chain(&csv[1..])
+                .filter(|x| x.1)
+                .map(|x| x.0)
+                .collect(),
+        ),
+        // A WAV file's samples are numbers of a stated layout: only the channel applies.
+        Format::Wav => (
+            "a WAV record",
+            binary[..3]
+                .iter()
+                .chain(&csv)
                 .filter(|x| x.1)
                 .map(|x| x.0)
                 .collect(),
@@ -750,7 +866,7 @@ mod tests {
         );
         let e = Format::parse("xml").unwrap_err();
         assert!(
-            e.expected.starts_with("text, csv, npy or"),
+            e.expected.starts_with("text, csv, npy, wav or"),
             "{}",
             e.expected
         );

@@ -185,6 +185,28 @@ pub fn read_npy_header(bytes: &[u8], path: &str) -> Result<NpyLayout> {
     })
 }
 
+/// The byte offset of sample `k` of the chosen column, for an error about it (`None` when the header
+/// does not read or the column is not there).
+pub(crate) fn element_offset(
+    bytes: &[u8],
+    path: &str,
+    column: Option<usize>,
+    k: usize,
+) -> Option<u64> {
+    let l = read_npy_header(bytes, path).ok()?;
+    let col = column.unwrap_or(0) as u64;
+    if col >= l.columns {
+        return None;
+    }
+    let w = l.item_bytes as u64;
+    let (start, step) = if l.fortran || l.columns == 1 {
+        (col * l.rows * w, w)
+    } else {
+        (col * w, l.columns * w)
+    };
+    Some(l.data_offset as u64 + start + k as u64 * step)
+}
+
 /// The dimensions of the `'shape': (a, b, ...)` entry of a header, when they read as integers.
 fn shape_dims(text: &[u8]) -> Option<Vec<u64>> {
     let text = std::str::from_utf8(text).ok()?;

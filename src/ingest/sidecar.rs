@@ -46,6 +46,9 @@ pub struct Sidecar {
     /// CSV delimiter: a one-character string (a space means runs of whitespace).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub delimiter: Option<String>,
+    /// What the samples are: "codes", "volts" or "full_scale" (±1.0 is full scale).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub unit: Option<super::SampleUnit>,
     /// Free-form provenance (what made the record); kept and written back, not interpreted.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub generator: Option<serde_json::Value>,
@@ -139,7 +142,7 @@ pub fn read_sidecar(record: &Path) -> Result<Option<Sidecar>> {
             ErrorKind::BadMetadata,
             shown,
             Location::LineColumn(e.line(), e.column()),
-            "a JSON object with only the keys sample_rate_hz, bits, fin_hz, full_scale_vpp, format, \
+            "a JSON object with only the keys sample_rate_hz, bits, fin_hz, full_scale_vpp, format, unit, \
              coding, justify, skip_bytes, channel, column, delimiter, generator",
             found,
         )
@@ -239,6 +242,7 @@ mod tests {
             channel: Some("2/4".into()),
             column: Some(ColumnSel::Name("code".into())),
             delimiter: Some(";".into()),
+            unit: Some(super::super::SampleUnit::Volts),
             generator: Some(serde_json::json!({"tool": "synth", "seed": 7, "notes": ["a", "b"]})),
         }
     }

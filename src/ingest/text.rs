@@ -1,8 +1,10 @@
-//! Text records: one signed integer code per line, with blank lines, `#` comments and one optional
-//! header line. A single pass over the bytes with no allocation per line, so that 2^20 codes parse in a
-//! few milliseconds.
+//! Text records: one signed integer code per line (or one value, such as a voltage, per line), with
+//! blank lines, `#` comments and one optional header line. Codes take a single pass over the bytes with
+//! no allocation per line, so that 2^20 codes parse in a few milliseconds; a file holding a decimal
+//! fraction or an exponent is read again as values.
 
 use super::checks::{check_bits, no_samples, show_token, to_code, INT_LIMIT};
+use super::samples::Samples;
 use crate::error::{Error, ErrorKind, Location, Result};
 
 /// Whitespace allowed around a code ('\r' covers CRLF line ends).
@@ -113,6 +115,109 @@ pub fn parse_text(bytes: &[u8], path: &str, bits: u32) -> Result<Vec<i32>> {
         return Err(no_samples(path, found));
     }
     Ok(codes)
+}
+
+/// Parses a text record of codes or of values: codes as [`parse_text`] reads them (at `bits`, or
+/// the 32-bit range when `None`), and when a line holds a number that is not an integer (`-0.25`,
+/// `1.5e-3`) the whole file as values, one finite decimal number per line, with the same rules for
+/// blank lines, comments and the header. Errors name the 1-based line.
+pub fn parse_text_samples(bytes: &[u8], path: &str, bits: Option<u32>) -> Result<Samples> {
+    parse_text_located(bytes, path, bits).map(|(s, _)| s)
+}
+
+/// As [`parse_text_samples`], with the 1-based line of the first value that has a fraction.
+pub(crate) fn parse_text_located(
+    bytes: &[u8],
+    path: &str,
+    bits: Option<u32>,
+) -> Result<(Samples, Option<usize>)> {
+    let first = match parse_text(bytes, path, bits.unwrap_or(32)) {
+        Ok(codes) => return Ok((Samples::Codes(codes), None)),
+        Err(e) => e,
+    };
+    let Location::Line(at) = first.location else {
+        return Err(first);
+    };
+    if first.kind != ErrorKind::NotInteger {
+        return Err(first);
+    }
+    match parse_text_values(bytes, path) {
+        Ok((v, line)) => Ok((Samples::Values(v), line)),
+        // The values reader failing further on names the real problem; at or before the line the
+        // codes reader stopped at, the codes reader's message is the one to give.
+        Err(e) if matches!(e.location, Location::Line(l) if l > at) => Err(e),
+        Err(_) => Err(first),
+    }
+}
+
+/// What a value line must hold, as errors say it.
+const VALUE_EXPECTED: &str = "a number (an integer code, or a value such as -0.25 or 1.5e-3)";
+
+/// Parses a number token as a finite f64: decimal digits with an optional sign, fraction and
+/// exponent (no `inf`, `nan` or hexadecimal).
+pub(crate) fn parse_value(token: &[u8]) -> Option<f64> {
+    let plain = token
+        .iter()
+        .all(|&c| c.is_ascii_digit() || matches!(c, b'+' | b'-' | b'.' | b'e' | b'E'));
+    if !plain || !token.iter().any(u8::is_ascii_digit) {
+        return None;
+    }
+    std::str::from_utf8(token)
+        .ok()?
+        .parse::<f64>()
+        .ok()
+        .filter(|v| v.is_finite())
+}
+
+/// Values, one per line (integers included), with the rules of [`parse_text`] for the rest; and the
+/// line of the first value with a fraction.
+fn parse_text_values(bytes: &[u8], path: &str) -> Result<(Vec<f64>, Option<usize>)> {
+    let b = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let mut values = Vec::with_capacity(b.len() / 8 + 1);
+    let mut seen_content = false;
+    let mut header = false;
+    let mut lines = 0usize;
+    let mut fraction = None;
+    for (k, raw) in b.split(|&c| c == b'\n').enumerate() {
+        lines = k + 1;
+        let content = raw
+            .iter()
+            .position(|&c| c == b'#')
+            .map_or(raw, |p| &raw[..p]);
+        let token = trim(content);
+        if token.is_empty() {
+            continue;
+        }
+        if let Some(v) = parse_value(token) {
+            seen_content = true;
+            if fraction.is_none() && v.fract() != 0.0 {
+                fraction = Some(k + 1);
+            }
+            values.push(v);
+            continue;
+        }
+        if !seen_content && token.iter().any(u8::is_ascii_alphabetic) {
+            seen_content = true;
+            header = true;
+            continue;
+        }
+        return Err(Error::new(
+            ErrorKind::NotInteger,
+            path,
+            Location::Line(k + 1),
+            VALUE_EXPECTED,
+            show_token(token),
+        ));
+    }
+    if values.is_empty() {
+        let found = if header {
+            "a header line and no values".to_string()
+        } else {
+            format!("no values in {lines} lines")
+        };
+        return Err(no_samples(path, found));
+    }
+    Ok((values, fraction))
 }
 
 /// The slice without leading and trailing whitespace.
@@ -264,6 +369,47 @@ mod tests {
         let e = parse_text(&[0x00, 0xff, 0xfe, b'\n', 0x80], "g.txt", 12).unwrap_err();
         assert_eq!(e.kind, ErrorKind::NotInteger);
         assert_eq!(e.location, Location::Line(1));
+    }
+
+    // Decimal notation of values (fraction, exponent) is common practice, no source; the expected
+    // numbers are the literals themselves.
+    #[test]
+    fn a_fraction_or_exponent_makes_the_file_values() {
+        let s = "volts\n# comment\n0\n-0.25\n1.5e-3 # tail\n\r\n+2.\n.5\r\n";
+        assert_eq!(
+            parse_text_samples(s.as_bytes(), "r.txt", Some(12)).unwrap(),
+            Samples::Values(vec![0.0, -0.25, 1.5e-3, 2.0, 0.5])
+        );
+        // Integers stay codes, checked against the resolution (32 bits without one).
+        assert_eq!(
+            parse_text_samples(b"1\n-2\n", "r.txt", None).unwrap(),
+            Samples::Codes(vec![1, -2])
+        );
+        let e = parse_text_samples(b"4096\n", "r.txt", Some(12)).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::CodeOutOfRange);
+    }
+
+    #[test]
+    fn bad_values_name_their_line() {
+        for (s, line, found) in [
+            ("0.5\n1.0\nabc\n", 3, "'abc'"),
+            ("0.5\nnan\n", 2, "'nan'"),
+            ("0.5\ninf\n", 2, "'inf'"),
+            ("0.5\n1e999\n", 2, "'1e999'"),
+            ("0.5\n1.2.3\n", 2, "'1.2.3'"),
+            ("0.5\n0x10\n", 2, "'0x10'"),
+        ] {
+            let e = parse_text_samples(s.as_bytes(), "r.txt", Some(12)).unwrap_err();
+            assert_eq!(e.kind, ErrorKind::NotInteger, "{s}");
+            assert_eq!(e.location, Location::Line(line), "{s}");
+            assert_eq!(e.found, found, "{s}");
+        }
+        // Junk before any fraction: the codes reader's message.
+        let e = parse_text_samples(b"1\nx y\n0.5\n", "r.txt", Some(12)).unwrap_err();
+        assert_eq!(e.location, Location::Line(2));
+        assert!(e.expected.contains("integer code"), "{}", e.expected);
+        let e = parse_text_samples(b"volts\n# none\n1.5 x\n", "r.txt", None).unwrap_err();
+        assert_eq!(e.location, Location::Line(3));
     }
 
     #[test]

@@ -934,6 +934,7 @@ fn converter(r: &Reader, c: &ConverterToml) -> Result<IngestSettings> {
         channel,
         column: c.column.clone(),
         delimiter,
+        unit: None,
         min_samples: 0,
         ..IngestSettings::default()
     })

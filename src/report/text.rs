@@ -50,6 +50,15 @@ pub fn block_head(
     true
 }
 
+/// The resolution as the record line shows it; 0 is a record of values given without one.
+fn resolution(bits: u32) -> String {
+    if bits == 0 {
+        "no resolution given".to_string()
+    } else {
+        format!("{bits} bits")
+    }
+}
+
 /// Renders one result record as a block of labelled lines.
 pub fn render(a: &Analysis) -> String {
     let mut s = String::new();
@@ -58,9 +67,9 @@ pub fn render(a: &Analysis) -> String {
     }
     let _ = writeln!(
         s,
-        "  record     {} samples · {} bits · fs {}",
+        "  record     {} samples · {} · fs {}",
         a.samples,
-        a.bits,
+        resolution(a.bits),
         si(a.sample_rate_hz, "Hz", 6)
     );
     if let Some(f) = &a.fit {
@@ -237,9 +246,9 @@ pub fn render_two_tone(r: &ImdResult) -> String {
     }
     let _ = writeln!(
         s,
-        "  record     {} samples · {} bits · fs {}",
+        "  record     {} samples · {} · fs {}",
         r.samples,
-        r.bits,
+        resolution(r.bits),
         si(r.sample_rate_hz, "Hz", 6)
     );
     if let (Some(fit), Some(sp)) = (&r.fit, &r.spectrum) {
@@ -339,9 +348,9 @@ pub fn render_interleaved(r: &InterleaveResult) -> String {
     }
     let _ = writeln!(
         s,
-        "  record     {} samples · {} bits · fs {} · {} channels",
+        "  record     {} samples · {} · fs {} · {} channels",
         r.samples,
-        r.bits,
+        resolution(r.bits),
         si(r.sample_rate_hz, "Hz", 6),
         r.channels
     );

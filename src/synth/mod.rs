@@ -405,6 +405,7 @@ pub fn synthesize(s: &SynthSettings) -> Result<Synthesized> {
             sample_rate_hz: s.sample_rate_hz,
             bits: s.bits,
             full_scale_vpp: None,
+            values: None,
             fin_hint_hz: Some(model.frequency_hz),
         },
         frequency_hz: model.frequency_hz,
@@ -1216,6 +1217,7 @@ mod tests {
             sample_rate_hz: 1.0,
             bits: 12,
             full_scale_vpp: None,
+            values: None,
             fin_hint_hz: None,
         };
         let path = dir.path().join("w.bin");

@@ -199,6 +199,7 @@ pub fn two_tone(s: &TwoToneSettings) -> Result<Record> {
         sample_rate_hz: s.sample_rate_hz,
         bits: s.bits,
         full_scale_vpp: None,
+        values: None,
         fin_hint_hz: Some(s.tones[0].frequency_hz),
     })
 }
@@ -282,6 +283,7 @@ pub fn interleaved(s: &InterleavedSettings) -> Result<Record> {
         sample_rate_hz: s.sample_rate_hz,
         bits: s.bits,
         full_scale_vpp: None,
+        values: None,
         fin_hint_hz: Some(s.tone.frequency_hz),
     })
 }

@@ -5,15 +5,27 @@ Writes tests/reference/formats/: one 12-bit record of 1024 codes (a sine with no
 integer text record (codes.txt, one code per line), and the same codes written by
   numpy.save / numpy.lib.format.write_array   .npy in several dtypes, both byte orders, C and Fortran
                                               order, format versions 1.0, 2.0 and 3.0
-and a manifest (formats.json) listing each file with how to read it and the library versions.
+and the same codes as values (voltages and units of full scale, code * FSR / 2^N):
+  numpy.save                                  .npy float32/float64, both byte orders
+  Python's float repr                         text and CSV of voltages, one value per line / row
+and as WAV files (the sample rate in the header; no --fs given when read):
+  wave (Python's standard library)            PCM 8, 16, 24 and 32 bits, mono and stereo
+  scipy.io.wavfile.write                      IEEE float 32 and 64 bits (±1.0 full scale), PCM 16
+  struct.pack by the layouts in the comments  WAVE_FORMAT_EXTENSIBLE (24 valid bits in 32), RF64
+and a manifest (formats.json) listing each file with how to read it and the library versions
+(`compare`: "exact" for bit-identical figures, "relative" for figures within 1e-9 relative, "analogue"
+for a record read without a resolution, whose dB figures and spectral ENOB are compared).
 tests/formats.rs reads every file and checks that it gives the same codes, and the same figures, as the
 text record. Run: python3 tests/reference/make_format_refs.py   (numpy 2.x, scipy 1.x)
 """
 import json
 import os
+import struct
+import wave
 
 import numpy as np
 import scipy
+import scipy.io.wavfile
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 OUT = os.path.join(HERE, "formats")
@@ -68,6 +80,92 @@ np.save(os.path.join(OUT, "two_channels_c.npy"), both)
 add("two_channels_c.npy", format="npy", bits=BITS, shift=0, column=1)
 np.save(os.path.join(OUT, "two_channels_f.npy"), np.asfortranarray(both))
 add("two_channels_f.npy", format="npy", bits=BITS, shift=0, column=1)
+
+# Values: voltages over a full-scale range, or units of full scale (±1.0). FSR 2 V and ±1.0 make the
+# float32 values exact (12-bit codes / 2^11); FSR 1.5 V makes the scaling inexact, so figures agree to
+# rounding only.
+volts = codes.astype(np.float64) * 1.5 / 2 ** BITS
+for dt in ["<f8", ">f8"]:
+    name = f"volts_{dt[1:]}_{'be' if dt[0] == '>' else 'le'}.npy"
+    np.save(os.path.join(OUT, name), volts.astype(dt))
+    add(name, format="npy", bits=BITS, full_scale_vpp=1.5, compare="relative")
+unit_fs = (codes.astype(np.float64) / 2 ** (BITS - 1)).astype("<f4")
+np.save(os.path.join(OUT, "full_scale_f4_le.npy"), unit_fs)
+add("full_scale_f4_le.npy", format="npy", bits=BITS, unit="full-scale", compare="exact")
+np.save(os.path.join(OUT, "volts_f4_be.npy"), unit_fs.astype(">f4"))
+add("volts_f4_be.npy", format="npy", bits=BITS, full_scale_vpp=2.0, compare="exact")
+# Float whole numbers with no full-scale range: read as codes.
+np.save(os.path.join(OUT, "codes_f8_le.npy"), codes.astype("<f8"))
+add("codes_f8_le.npy", format="npy", bits=BITS, compare="exact")
+# A purely analogue view: no resolution.
+add("volts_f8_le.npy", format="npy", full_scale_vpp=1.5, compare="analogue")
+with open(os.path.join(OUT, "volts.txt"), "w") as f:
+    f.write("volts\n" + "".join(f"{repr(float(v))}\n" for v in volts))
+add("volts.txt", format="text", bits=BITS, full_scale_vpp=1.5, compare="relative")
+with open(os.path.join(OUT, "volts.csv"), "w") as f:
+    f.write("index,volts\n" + "".join(f"{k},{repr(float(v))}\n" for k, v in enumerate(volts)))
+add("volts.csv", format="csv", bits=BITS, full_scale_vpp=1.5, column="volts", compare="relative")
+
+# WAV. PCM is left-justified in its container (the WAV rule): a 12-bit code c in a 16-bit sample is
+# c << 4, so the record is read with bits=12 and gives the codes back exactly. 8-bit WAV is unsigned
+# (offset binary, mid-scale 128): it holds c >> 4, compared with shift 4 as the 8-bit npy file.
+
+
+def write_wave(name, width, frames, channels=1):
+    with wave.open(os.path.join(OUT, name), "wb") as w:
+        w.setnchannels(channels)
+        w.setsampwidth(width)
+        w.setframerate(int(FS))
+        w.writeframes(frames)
+
+
+write_wave("pcm8.wav", 1, ((codes >> 4) + 128).astype("u1").tobytes())
+add("pcm8.wav", format="wav", bits=8, shift=4, fs_from_file=True)
+write_wave("pcm16.wav", 2, (codes << 4).astype("<i2").tobytes())
+add("pcm16.wav", format="wav", bits=BITS, fs_from_file=True)
+c24 = (codes << 12).astype("<i4")
+write_wave("pcm24.wav", 3, b"".join(int(v).to_bytes(4, "little", signed=True)[:3] for v in c24))
+add("pcm24.wav", format="wav", bits=BITS, fs_from_file=True)
+# Stereo 32-bit: the codes are channel 2.
+both32 = np.stack([(other << 20), (codes << 20)], axis=1).astype("<i4")
+write_wave("pcm32_stereo.wav", 4, both32.tobytes(), channels=2)
+add("pcm32_stereo.wav", format="wav", bits=BITS, channel="2/2", fs_from_file=True)
+# scipy: float samples, ±1.0 full scale (codes / 2^11 is exact in float32 and float64).
+scipy.io.wavfile.write(os.path.join(OUT, "float32.wav"), int(FS), (codes / 2 ** (BITS - 1)).astype("<f4"))
+add("float32.wav", format="wav", bits=BITS, fs_from_file=True, compare="exact")
+scipy.io.wavfile.write(os.path.join(OUT, "float64.wav"), int(FS), (codes / 2 ** (BITS - 1)).astype("<f8"))
+add("float64.wav", format="wav", bits=BITS, fs_from_file=True, compare="exact")
+scipy.io.wavfile.write(os.path.join(OUT, "scipy_pcm16.wav"), int(FS), (codes << 4).astype("<i2"))
+add("scipy_pcm16.wav", format="wav", bits=BITS, fs_from_file=True)
+
+
+def fmt_chunk(tag, channels, bits, valid=None):
+    """The fmt chunk: tag, channels, rate, byte rate, block align, bits; for WAVE_FORMAT_EXTENSIBLE
+    (0xFFFE) cbSize 22, valid bits, channel mask, and the sub-format GUID whose first two bytes are the
+    format tag (PCM 1, float 3) and whose rest is 00000000-0010-8000-00AA00389B71."""
+    block = channels * (bits // 8)
+    body = struct.pack("<HHIIHH", 0xFFFE if valid else tag, channels, int(FS), int(FS) * block, block, bits)
+    if valid:
+        guid = struct.pack("<H", tag) + bytes.fromhex("000000001000800000aa00389b71")
+        body += struct.pack("<HHI", 22, valid, 0) + guid
+    return b"fmt " + struct.pack("<I", len(body)) + body
+
+
+# WAVE_FORMAT_EXTENSIBLE: a 24-bit converter in 32-bit containers (valid bits 24), codes << 20.
+data = (codes << 20).astype("<i4").tobytes()
+body = b"WAVE" + fmt_chunk(1, 1, 32, valid=24) + b"data" + struct.pack("<I", len(data)) + data
+with open(os.path.join(OUT, "extensible_24in32.wav"), "wb") as f:
+    f.write(b"RIFF" + struct.pack("<I", len(body)) + body)
+add("extensible_24in32.wav", format="wav", bits=BITS, fs_from_file=True)
+# RF64 (EBU Tech 3306): RIFF size and data size 0xFFFFFFFF, the true sizes in a ds64 chunk (RIFF size,
+# data size, sample count as 64-bit values, then a table length of 0) that comes first.
+data = (codes << 4).astype("<i2").tobytes()
+rest = fmt_chunk(1, 1, 16) + b"data" + struct.pack("<I", 0xFFFFFFFF) + data
+riff_size = 4 + 8 + 28 + len(rest)
+ds64 = b"ds64" + struct.pack("<IQQQI", 28, riff_size, len(data), N, 0)
+with open(os.path.join(OUT, "rf64_pcm16.wav"), "wb") as f:
+    f.write(b"RF64" + struct.pack("<I", 0xFFFFFFFF) + b"WAVE" + ds64 + rest)
+add("rf64_pcm16.wav", format="wav", bits=BITS, fs_from_file=True)
 
 with open(os.path.join(OUT, "formats.json"), "w") as f:
     json.dump(manifest, f, indent=1)

@@ -106,8 +106,17 @@ impl CodeHistogram {
     /// Adds a record's codes.
     ///
     /// Errors (`BadSetting`, key `bits`, naming the record) when its resolution differs from the
-    /// histogram's, and those of [`CodeHistogram::add_codes`].
+    /// histogram's, (`BadSetting`, key `unit`) for a record of values, and those of
+    /// [`CodeHistogram::add_codes`].
     pub fn add_record(&mut self, record: &Record) -> Result<()> {
+        if !record.has_codes() {
+            return Err(Error::setting(
+                "unit",
+                "a record of integer codes (the code-density test counts codes)",
+                "a record of values with no code grid",
+            )
+            .with_path(&record.source));
+        }
         if record.bits != self.bits {
             return Err(Error::setting(
                 "bits",
