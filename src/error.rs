@@ -71,6 +71,8 @@ pub enum ErrorKind {
     Store,
     /// A lot already in the results store (same fingerprint), refused rather than recorded twice.
     AlreadyRecorded,
+    /// A record whose analysis would need more memory than is available, refused before it starts.
+    TooLarge,
 }
 
 /// The library's error: the file, the place in it, what was expected and what was found.

@@ -80,12 +80,22 @@ pub fn power_spectrum_owned(mut x: Vec<f64>, taper: Taper) -> Vec<f64> {
     powers_of(output, n, scale)
 }
 
-/// Windows `x` in place, runs the FFT, and returns its output with the power scale 1/(N·Σw²).
-fn transform(x: &mut [f64], taper: Taper) -> (Vec<Complex<f64>>, f64) {
+/// [`power_spectrum_owned`] in two steps: [`apply_taper`] windows the records (then the window can be
+/// given back before the transform allocates its buffers), and this transforms one of them, given the
+/// Σw² that [`apply_taper`] returned. The same powers to the bit.
+pub fn power_spectrum_tapered(mut x: Vec<f64>, sum_w2: f64) -> Vec<f64> {
+    let n = x.len();
+    let (output, scale) = fft_scaled(&mut x, sum_w2);
+    drop(x);
+    powers_of(output, n, scale)
+}
+
+/// Windows `x` in place and returns Σw² (N for the rectangular window, which is not multiplied).
+pub fn apply_taper(x: &mut [f64], taper: Taper) -> f64 {
     let n = x.len();
     let half = n / 2;
     // Both forms visit the same window values in the same order, so Σw² and the products are the same.
-    let sum_w2: f64 = match taper {
+    match taper {
         Taper::Full(w) if w.is_empty() || w.iter().all(|&v| v == 1.0) => n as f64,
         Taper::Half(w) if w.is_empty() || w.iter().all(|&v| v == 1.0) => n as f64,
         Taper::Full(w) => {
@@ -106,8 +116,25 @@ fn transform(x: &mut [f64], taper: Taper) -> (Vec<Complex<f64>>, f64) {
                 .rev()
                 .fold(first, |acc, v| acc + v * v)
         }
+    }
+}
+
+/// Windows `x` in place, runs the FFT, and returns its output with the power scale 1/(N·Σw²).
+fn transform(x: &mut [f64], taper: Taper) -> (Vec<Complex<f64>>, f64) {
+    let sum_w2 = apply_taper(x, taper);
+    fft_scaled(x, sum_w2)
+}
+
+/// Runs the FFT of `x` (already windowed) and returns its output with the power scale 1/(N·Σw²).
+fn fft_scaled(x: &mut [f64], sum_w2: f64) -> (Vec<Complex<f64>>, f64) {
+    let n = x.len();
+    // A huge record's plan (its twiddle factors: about 12 bytes per sample) is made for it and given
+    // back with it, not kept in the thread's planner.
+    let plan = if n <= KEEP_BUFFERS_MAX {
+        PLANNER.with(|p| p.borrow_mut().plan_fft_forward(n))
+    } else {
+        RealFftPlanner::new().plan_fft_forward(n)
     };
-    let plan = PLANNER.with(|p| p.borrow_mut().plan_fft_forward(n));
     let (mut output, mut scratch) = BUFFERS.with(|b| {
         let mut b = b.borrow_mut();
         (
