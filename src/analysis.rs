@@ -414,13 +414,22 @@ fn measure_records(
     let first = &records[0];
     let src = first.source.clone();
     let mut warnings = Vec::new();
-    let mut fits = Vec::with_capacity(records.len());
-    for (i, (r, y)) in records.iter().zip(&data).enumerate() {
-        // Only the first record's residual is ever drawn.
-        let keep = i == 0 && settings.keep_residual;
-        let out = run_fit(r, y, settings, keep).map_err(|e| e.with_path(&r.source))?;
-        fits.push(out);
-    }
+    // The spectrum's FFT plan (about two transforms' worth of work for a new length) is made on the
+    // second core while the fits run; in a lot whose workers are all busy it is simply made next.
+    let (fits, plan) = rayon::join(
+        || -> Result<Vec<FitOutput>> {
+            let mut fits = Vec::with_capacity(records.len());
+            for (i, (r, y)) in records.iter().zip(&data).enumerate() {
+                // Only the first record's residual is ever drawn.
+                let keep = i == 0 && settings.keep_residual;
+                let out = run_fit(r, y, settings, keep).map_err(|e| e.with_path(&r.source))?;
+                fits.push(out);
+            }
+            Ok(fits)
+        },
+        || crate::dft::fft::plan(samples),
+    );
+    let mut fits = fits?;
     let FitOutput {
         fit,
         residual,
@@ -444,8 +453,10 @@ fn measure_records(
         first.sample_rate_hz,
         first.bits,
         &settings.spectrum,
+        Some(&plan),
     )
     .map_err(|e| e.with_path(&src))?;
+    drop(plan);
     warnings.extend(spec.warnings);
     if let Some(w) = fit_against_spectrum(&fit, &spec.spectrum, &spec.powers, &spec.owner) {
         warnings.push(w);

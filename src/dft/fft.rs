@@ -1,8 +1,13 @@
 //! Real FFTs through realfft (on rustfft), one planner per thread so plans are reused across records.
 
 use realfft::num_complex::Complex;
-use realfft::RealFftPlanner;
+use realfft::{RealFftPlanner, RealToComplex};
 use std::cell::RefCell;
+use std::sync::Arc;
+
+/// A forward real-FFT plan of one length; plans are shared, so one made on another thread (while the
+/// fit runs) serves the spectrum.
+pub type Plan = Arc<dyn RealToComplex<f64>>;
 
 thread_local! {
     static PLANNER: RefCell<RealFftPlanner<f64>> = RefCell::new(RealFftPlanner::new());
@@ -83,9 +88,9 @@ pub fn power_spectrum_owned(mut x: Vec<f64>, taper: Taper) -> Vec<f64> {
 /// [`power_spectrum_owned`] in two steps: [`apply_taper`] windows the records (then the window can be
 /// given back before the transform allocates its buffers), and this transforms one of them, given the
 /// Σw² that [`apply_taper`] returned. The same powers to the bit.
-pub fn power_spectrum_tapered(mut x: Vec<f64>, sum_w2: f64) -> Vec<f64> {
+pub fn power_spectrum_tapered(mut x: Vec<f64>, sum_w2: f64, plan: Option<&Plan>) -> Vec<f64> {
     let n = x.len();
-    let (output, scale) = fft_scaled(&mut x, sum_w2);
+    let (output, scale) = fft_scaled(&mut x, sum_w2, plan);
     drop(x);
     powers_of(output, n, scale)
 }
@@ -122,18 +127,26 @@ pub fn apply_taper(x: &mut [f64], taper: Taper) -> f64 {
 /// Windows `x` in place, runs the FFT, and returns its output with the power scale 1/(N·Σw²).
 fn transform(x: &mut [f64], taper: Taper) -> (Vec<Complex<f64>>, f64) {
     let sum_w2 = apply_taper(x, taper);
-    fft_scaled(x, sum_w2)
+    fft_scaled(x, sum_w2, None)
 }
 
-/// Runs the FFT of `x` (already windowed) and returns its output with the power scale 1/(N·Σw²).
-fn fft_scaled(x: &mut [f64], sum_w2: f64) -> (Vec<Complex<f64>>, f64) {
-    let n = x.len();
-    // A huge record's plan (its twiddle factors: about 12 bytes per sample) is made for it and given
-    // back with it, not kept in the thread's planner.
-    let plan = if n <= KEEP_BUFFERS_MAX {
+/// The plan of length `n`: from this thread's planner (which keeps it for the next record of that
+/// length), or, for a huge record, made for it alone (its twiddle factors, about 12 bytes per sample,
+/// are given back with it). Any thread gives the same plan for the same length.
+pub fn plan(n: usize) -> Plan {
+    if n <= KEEP_BUFFERS_MAX {
         PLANNER.with(|p| p.borrow_mut().plan_fft_forward(n))
     } else {
         RealFftPlanner::new().plan_fft_forward(n)
+    }
+}
+
+/// Runs the FFT of `x` (already windowed) and returns its output with the power scale 1/(N·Σw²).
+fn fft_scaled(x: &mut [f64], sum_w2: f64, plan: Option<&Plan>) -> (Vec<Complex<f64>>, f64) {
+    let n = x.len();
+    let plan = match plan {
+        Some(p) if p.len() == n => p.clone(),
+        _ => self::plan(n),
     };
     let (mut output, mut scratch) = BUFFERS.with(|b| {
         let mut b = b.borrow_mut();

@@ -26,7 +26,7 @@ pub fn parse_text(bytes: &[u8], path: &str, bits: u32) -> Result<Vec<i32>> {
             return Ok(codes);
         }
     }
-    let (codes, line, header) = scan(b, path, bits, false)?;
+    let (codes, line, header) = scan(b, path, bits, false, b.len() / 4 + 1)?;
     if codes.is_empty() {
         let found = if bytes.is_empty() {
             "an empty file".to_string()
@@ -51,23 +51,33 @@ fn parse_halves(b: &[u8], path: &str, bits: u32) -> Option<Vec<i32>> {
     let cut = mid + b[mid..].iter().position(|&c| c == b'\n')? + 1;
     let (lo, hi) = b.split_at(cut);
     let plain = |half: &[u8], later: bool| {
-        scan(half, path, bits, later)
+        let room = if later { half.len() } else { b.len() };
+        scan(half, path, bits, later, room / 4 + 1)
             .ok()
             .filter(|(codes, _, header)| !header && !codes.is_empty())
             .map(|(codes, _, _)| codes)
     };
     let (first, second) = rayon::join(|| plain(lo, false), || plain(hi, true));
+    // The first half's vector was given room for the whole text's codes: the second half is appended
+    // in place.
     let mut codes = first?;
     codes.extend_from_slice(&second?);
     Some(codes)
 }
 
 /// One pass over the lines of `b`: the codes, the number of lines, and whether a header was seen.
-/// `later`: `b` is not the start of the text, so no header is allowed in it.
-fn scan(b: &[u8], path: &str, bits: u32, later: bool) -> Result<(Vec<i32>, usize, bool)> {
+/// `later`: `b` is not the start of the text, so no header is allowed in it. `room`: the codes' first
+/// capacity (the shortest line "0\n" is 2 bytes; a quarter of the length is a good first guess for
+/// typical files).
+fn scan(
+    b: &[u8],
+    path: &str,
+    bits: u32,
+    later: bool,
+    room: usize,
+) -> Result<(Vec<i32>, usize, bool)> {
     let n = b.len();
-    // Shortest line "0\n" is 2 bytes; a quarter of the length is a good first guess for typical files.
-    let mut codes = Vec::with_capacity(n / 4 + 1);
+    let mut codes = Vec::with_capacity(room);
     let mut line = 0usize;
     let mut seen_content = later;
     let mut header = false;
@@ -321,7 +331,7 @@ mod tests {
         }
         assert!(text.len() >= PARALLEL_MIN_BYTES);
         assert_eq!(parse(&text, 16).unwrap(), codes);
-        let (whole, lines, header) = scan(text.as_bytes(), "r.txt", 16, false).unwrap();
+        let (whole, lines, header) = scan(text.as_bytes(), "r.txt", 16, false, 0).unwrap();
         assert_eq!(whole, codes);
         assert!(header && lines > codes.len());
         // A bad line late in the text: its own line number, from the one-pass parse.

@@ -149,13 +149,15 @@ pub struct SpectrumOutput {
 }
 
 /// [`measure`] on records the caller no longer needs: each one is windowed and transformed in place,
-/// which saves a copy of the record (128 MB at 2^24 samples).
+/// which saves a copy of the record (128 MB at 2^24 samples). `plan`: the transform's plan when the
+/// caller has made it already (see [`fft::plan`]).
 pub fn measure_consuming(
     records: Vec<Vec<f64>>,
     fit: &SineFit,
     sample_rate_hz: f64,
     bits: u32,
     settings: &SpectrumSettings,
+    plan: Option<&fft::Plan>,
 ) -> Result<SpectrumOutput> {
     let n = records.first().map_or(0, |r| r.len());
     if n < 8 || records.iter().any(|r| r.len() != n) {
@@ -205,7 +207,7 @@ pub fn measure_consuming(
     let mut powers: Vec<f64> = Vec::new();
     // Each record is transformed in place and dropped before its powers are made.
     for r in records {
-        let p = fft::power_spectrum_tapered(r, sum_w2);
+        let p = fft::power_spectrum_tapered(r, sum_w2, plan);
         if powers.is_empty() {
             powers = p;
         } else {
