@@ -321,7 +321,9 @@ mod tests {
     // either half (or a header) is reported as the one pass reports it: the same line, the same kind.
     #[test]
     fn long_texts_parsed_in_halves_agree_with_one_pass() {
-        let codes: Vec<i32> = (0..300_000).map(|i| (i * 7919 % 65536) - 32768).collect();
+        let codes: Vec<i32> = (0..300_000i64)
+            .map(|i| (i * 7919 % 65536 - 32768) as i32)
+            .collect();
         let mut text = String::from("# capture\ncodes\n");
         for (i, c) in codes.iter().enumerate() {
             text.push_str(&format!("{c}\r\n"));
