@@ -71,7 +71,8 @@ pub enum ErrorKind {
     Store,
     /// A lot already in the results store (same fingerprint), refused rather than recorded twice.
     AlreadyRecorded,
-    /// A record or file larger than its ceiling (the memory it would need, or its kind's size).
+    /// A record or file larger than its ceiling (the memory its analysis would need, or its kind's
+    /// size), refused before the work starts.
     TooLarge,
 }
 

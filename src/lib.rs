@@ -147,8 +147,9 @@ pub use crate::resources::{
 
 // Analysing a record: the sine fits, the spectrum, the one result record.
 pub use crate::analysis::{
-    analyze, analyze_averaged, Analysis, AnalysisSettings, ErrorReport, FitChoice, Measured,
-    OneTone, RecordResult, Traces,
+    analyze, analyze_averaged, analyze_record, check_memory, memory_available, memory_needed,
+    Analysis, AnalysisSettings, CodeCounts, ErrorReport, FitChoice, Measured, OneTone,
+    RecordResult, Traces,
 };
 pub use crate::fit::{fit_four, fit_three, FitMethod, FitUncertainty, FourParamOptions, SineFit};
 pub use crate::spectrum::{

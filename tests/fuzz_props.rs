@@ -825,6 +825,7 @@ fn analysis_settings() -> impl Strategy<Value = AnalysisSettings> {
                 guard_bins,
             },
             min_samples: 0,
+            keep_residual: true,
         })
 }
 

@@ -4,7 +4,7 @@
 use super::{AnalysisArgs, ReadArgs, EXIT_ERROR, EXIT_OK};
 use clap::Args;
 use spurline::read_record;
-use spurline::{analyze, analyze_averaged, Analysis, Traces};
+use spurline::{analyze_averaged, analyze_record, Analysis, Traces};
 use std::path::{Path, PathBuf};
 
 /// Arguments of `analyze`.
@@ -74,7 +74,11 @@ pub fn run(args: AnalyzeArgs) -> i32 {
         Err(e) => return fail_all(&e),
     };
     let settings = match args.analysis.settings() {
-        Ok(s) => s,
+        // The residual is kept only for a report's plot.
+        Ok(s) => spurline::AnalysisSettings {
+            keep_residual: args.report.is_some(),
+            ..s
+        },
         Err(e) => return fail_all(&e),
     };
     let started_at = spurline::utc_now();
@@ -91,22 +95,47 @@ pub fn run(args: AnalyzeArgs) -> i32 {
     let keep = args.report.is_some();
     let mut results: Vec<(Analysis, Option<Traces>)> = Vec::new();
     let mut any_error = false;
+    // Without --average each record is read, analysed and given up before the next is read, so a
+    // list of long records needs the memory of one.
     let mut loaded = Vec::new();
     for path in &args.files {
-        match read_record(path, &ingest) {
-            Ok(ing) => loaded.push(ing),
+        let ing = match read_record(path, &ingest) {
+            Ok(ing) => ing,
             Err(e) => {
                 any_error = true;
                 results.push((
                     Analysis::failed(&path.display().to_string(), &e, Vec::new()),
                     None,
                 ));
+                continue;
+            }
+        };
+        if args.average {
+            loaded.push(ing);
+            continue;
+        }
+        let source = ing.record.source.clone();
+        match analyze_record(ing.record, &settings) {
+            Ok(m) => {
+                let mut a = m.analysis;
+                let mut w = ing.warnings;
+                w.extend(a.warnings);
+                a.warnings = w;
+                results.push((a, keep.then_some(m.traces)));
+            }
+            Err(e) => {
+                any_error = true;
+                results.push((Analysis::failed(&source, &e, ing.warnings), None));
             }
         }
     }
-    if args.average && !loaded.is_empty() {
-        let records: Vec<_> = loaded.iter().map(|i| i.record.clone()).collect();
-        let mut warnings: Vec<String> = loaded.iter().flat_map(|i| i.warnings.clone()).collect();
+    if !loaded.is_empty() {
+        let mut warnings = Vec::new();
+        let mut records = Vec::with_capacity(loaded.len());
+        for ing in loaded {
+            warnings.extend(ing.warnings);
+            records.push(ing.record);
+        }
         match analyze_averaged(&records, &settings) {
             Ok(m) => {
                 let mut a = m.analysis;
@@ -117,22 +146,6 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             Err(e) => {
                 any_error = true;
                 results.push((Analysis::failed(&records[0].source, &e, warnings), None));
-            }
-        }
-    } else {
-        for ing in loaded {
-            match analyze(&ing.record, &settings) {
-                Ok(m) => {
-                    let mut a = m.analysis;
-                    let mut w = ing.warnings;
-                    w.extend(a.warnings);
-                    a.warnings = w;
-                    results.push((a, keep.then_some(m.traces)));
-                }
-                Err(e) => {
-                    any_error = true;
-                    results.push((Analysis::failed(&ing.record.source, &e, ing.warnings), None));
-                }
             }
         }
     }

@@ -339,6 +339,7 @@ impl AnalysisArgs {
                 guard_bins: self.guard_bins,
             },
             min_samples: 0,
+            keep_residual: true,
         })
     }
 }

@@ -1,8 +1,13 @@
 //! Real FFTs through realfft (on rustfft), one planner per thread so plans are reused across records.
 
 use realfft::num_complex::Complex;
-use realfft::RealFftPlanner;
+use realfft::{RealFftPlanner, RealToComplex};
 use std::cell::RefCell;
+use std::sync::Arc;
+
+/// A forward real-FFT plan of one length; plans are shared, so one made on another thread (while the
+/// fit runs) serves the spectrum.
+pub type Plan = Arc<dyn RealToComplex<f64>>;
 
 thread_local! {
     static PLANNER: RefCell<RealFftPlanner<f64>> = RefCell::new(RealFftPlanner::new());
@@ -80,12 +85,22 @@ pub fn power_spectrum_owned(mut x: Vec<f64>, taper: Taper) -> Vec<f64> {
     powers_of(output, n, scale)
 }
 
-/// Windows `x` in place, runs the FFT, and returns its output with the power scale 1/(N·Σw²).
-fn transform(x: &mut [f64], taper: Taper) -> (Vec<Complex<f64>>, f64) {
+/// [`power_spectrum_owned`] in two steps: [`apply_taper`] windows the records (then the window can be
+/// given back before the transform allocates its buffers), and this transforms one of them, given the
+/// Σw² that [`apply_taper`] returned. The same powers to the bit.
+pub fn power_spectrum_tapered(mut x: Vec<f64>, sum_w2: f64, plan: Option<&Plan>) -> Vec<f64> {
+    let n = x.len();
+    let (output, scale) = fft_scaled(&mut x, sum_w2, plan);
+    drop(x);
+    powers_of(output, n, scale)
+}
+
+/// Windows `x` in place and returns Σw² (N for the rectangular window, which is not multiplied).
+pub fn apply_taper(x: &mut [f64], taper: Taper) -> f64 {
     let n = x.len();
     let half = n / 2;
     // Both forms visit the same window values in the same order, so Σw² and the products are the same.
-    let sum_w2: f64 = match taper {
+    match taper {
         Taper::Full(w) if w.is_empty() || w.iter().all(|&v| v == 1.0) => n as f64,
         Taper::Half(w) if w.is_empty() || w.iter().all(|&v| v == 1.0) => n as f64,
         Taper::Full(w) => {
@@ -106,8 +121,33 @@ fn transform(x: &mut [f64], taper: Taper) -> (Vec<Complex<f64>>, f64) {
                 .rev()
                 .fold(first, |acc, v| acc + v * v)
         }
+    }
+}
+
+/// Windows `x` in place, runs the FFT, and returns its output with the power scale 1/(N·Σw²).
+fn transform(x: &mut [f64], taper: Taper) -> (Vec<Complex<f64>>, f64) {
+    let sum_w2 = apply_taper(x, taper);
+    fft_scaled(x, sum_w2, None)
+}
+
+/// The plan of length `n`: from this thread's planner (which keeps it for the next record of that
+/// length), or, for a huge record, made for it alone (its twiddle factors, about 12 bytes per sample,
+/// are given back with it). Any thread gives the same plan for the same length.
+pub fn plan(n: usize) -> Plan {
+    if n <= KEEP_BUFFERS_MAX {
+        PLANNER.with(|p| p.borrow_mut().plan_fft_forward(n))
+    } else {
+        RealFftPlanner::new().plan_fft_forward(n)
+    }
+}
+
+/// Runs the FFT of `x` (already windowed) and returns its output with the power scale 1/(N·Σw²).
+fn fft_scaled(x: &mut [f64], sum_w2: f64, plan: Option<&Plan>) -> (Vec<Complex<f64>>, f64) {
+    let n = x.len();
+    let plan = match plan {
+        Some(p) if p.len() == n => p.clone(),
+        _ => self::plan(n),
     };
-    let plan = PLANNER.with(|p| p.borrow_mut().plan_fft_forward(n));
     let (mut output, mut scratch) = BUFFERS.with(|b| {
         let mut b = b.borrow_mut();
         (

@@ -193,9 +193,9 @@ impl Window {
         if n <= 1 {
             return vec![1.0; n];
         }
-        // The periodic form is even about n/2 (w[i] = w[n − i]): compute half, mirror the rest.
-        let mut w = self.half_samples(n);
-        w.reserve_exact(n - w.len());
+        // The periodic form is even about n/2 (w[i] = w[n − i]): compute half, mirror the rest (into
+        // the same allocation: no second buffer and copy).
+        let mut w = self.half_samples_in(n, n);
         for i in w.len()..n {
             w.push(w[n - i]);
         }
@@ -206,11 +206,17 @@ impl Window {
     /// same values, bit for bit. A long record's spectrum applies its window from this half, which
     /// saves half the window's memory (64 MB at 2^24 samples).
     pub fn half_samples(&self, n: usize) -> Vec<f64> {
+        self.half_samples_in(n, 0)
+    }
+
+    /// [`Window::half_samples`] in a vector with room for `capacity` samples.
+    fn half_samples_in(&self, n: usize, capacity: usize) -> Vec<f64> {
         if n <= 1 {
             return vec![1.0; n];
         }
         let half = n / 2;
-        let mut w = vec![0.0; half + 1];
+        let mut w = Vec::with_capacity(capacity.max(half + 1));
+        w.resize(half + 1, 0.0);
         match self.coefficients() {
             Some(a) => {
                 let table = cos_table(n);

@@ -201,13 +201,15 @@ pub(crate) struct ResidualPass {
     pub sums: [f64; 5],
 }
 
-/// One pass computing the residual of `p` over `y` and its sums.
-pub(crate) fn residual_pass(y: &[f64], p: Centred) -> ResidualPass {
-    sums::wide_vectors!(residual_pass_in [] (y: &[f64], p: Centred) -> ResidualPass)
+/// One pass computing the residual of `p` over `y` and its sums. With `keep` false the residual is not
+/// kept (`residual` is empty): the sums are the same to the bit, and a long record saves 8 bytes per
+/// sample.
+pub(crate) fn residual_pass(y: &[f64], p: Centred, keep: bool) -> ResidualPass {
+    sums::wide_vectors!(residual_pass_in [] (y: &[f64], p: Centred, keep: bool) -> ResidualPass)
 }
 
 #[inline(always)]
-fn residual_pass_in(y: &[f64], p: Centred) -> ResidualPass {
+fn residual_pass_in(y: &[f64], p: Centred, keep: bool) -> ResidualPass {
     use sums::{BLOCK, WIDE};
     let samples = y.len();
     let phasor = sums::Phasor {
@@ -217,8 +219,13 @@ fn residual_pass_in(y: &[f64], p: Centred) -> ResidualPass {
     let (ss, cs) = (TAU * sums::reduced_product(p.cycles_per_sample, WIDE as f64)).sin_cos();
     // The residual is written into the spare capacity (no zero-fill of a buffer first, and no growth
     // check in the loop, which would keep the accumulators out of registers).
-    let mut out: Vec<f64> = Vec::with_capacity(samples);
-    let spare = &mut out.spare_capacity_mut()[..samples];
+    // A residual not kept is written block by block into one small buffer instead: the loop is the same.
+    let mut out: Vec<f64> = Vec::with_capacity(if keep { samples } else { 0 });
+    let mut discard = if keep {
+        Vec::new()
+    } else {
+        Vec::with_capacity(BLOCK.max(WIDE))
+    };
     let mut acc = [[0.0; WIDE]; 6];
     let full = samples - samples % WIDE;
     let mut block_start = 0;
@@ -226,7 +233,12 @@ fn residual_pass_in(y: &[f64], p: Centred) -> ResidualPass {
         let block_end = (block_start + BLOCK).min(full);
         let (mut c, mut s) = sums::seed_wide(phasor, block_start);
         let mut t: [f64; WIDE] = std::array::from_fn(|j| (block_start + j) as f64 - phasor.centre);
-        let outs = spare[block_start..block_end].chunks_exact_mut(WIDE);
+        let dst_block = if keep {
+            &mut out.spare_capacity_mut()[block_start..block_end]
+        } else {
+            &mut discard.spare_capacity_mut()[..block_end - block_start]
+        };
+        let outs = dst_block.chunks_exact_mut(WIDE);
         for (chunk, dst) in y[block_start..block_end].chunks_exact(WIDE).zip(outs) {
             for j in 0..WIDE {
                 let r = chunk[j] - (p.a * c[j] + p.b * s[j] + p.c);
@@ -249,7 +261,9 @@ fn residual_pass_in(y: &[f64], p: Centred) -> ResidualPass {
     for (n, &yn) in y.iter().enumerate().skip(full) {
         let (c, s) = phasor.cos_sin_at(n);
         let r = yn - (p.a * c + p.b * s + p.c);
-        spare[n].write(r);
+        if keep {
+            out.spare_capacity_mut()[n].write(r);
+        }
         let tr = (n as f64 - phasor.centre) * r;
         acc[0][0] += r * r;
         acc[1][0] += r;
@@ -258,8 +272,10 @@ fn residual_pass_in(y: &[f64], p: Centred) -> ResidualPass {
         acc[4][0] += tr * c;
         acc[5][0] += tr * s;
     }
-    // SAFETY: the loops above wrote every one of the first `samples` slots.
-    unsafe { out.set_len(samples) };
+    if keep {
+        // SAFETY: the loops above wrote every one of the first `samples` slots.
+        unsafe { out.set_len(samples) };
+    }
     let t = acc.map(|a| sums::total(&sums::fold_wide(&a)));
     ResidualPass {
         residual: out,
@@ -268,9 +284,9 @@ fn residual_pass_in(y: &[f64], p: Centred) -> ResidualPass {
     }
 }
 
-/// Computes the residual of the centred model, and its rms.
-pub(crate) fn residual_of(y: &[f64], p: Centred) -> (Vec<f64>, f64) {
-    let pass = residual_pass(y, p);
+/// Computes the residual of the centred model (empty unless `keep`), and its rms.
+pub(crate) fn residual_of(y: &[f64], p: Centred, keep: bool) -> (Vec<f64>, f64) {
+    let pass = residual_pass(y, p, keep);
     let rms = (pass.sum_sq / y.len() as f64).sqrt();
     (pass.residual, rms)
 }

@@ -59,7 +59,7 @@ pub fn fit_three(
         ));
     }
     let p = solve_three(y, frequency_hz / sample_rate_hz)?;
-    let (residual, rms) = residual_of(y, p);
+    let (residual, rms) = residual_of(y, p, true);
     let fit = finish(
         p,
         y.len(),

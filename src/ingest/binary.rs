@@ -222,6 +222,44 @@ fn decode_frames<const W: usize, const BIG_ENDIAN: bool>(
     decoder: &Decoder,
     codes: &mut Vec<i32>,
 ) -> Option<usize> {
+    // One channel of right-justified words whose values are all in range (the usual capture): two
+    // passes that vectorise (decode, then the range of what was decoded) instead of a check and an
+    // early return per word. Any word out of range sends the record to the word-by-word loop below,
+    // which finds it; the codes are the same either way.
+    if frame == W && decoder.justify == Justify::Right {
+        let half = 1i64 << (decoder.bits - 1);
+        let word_bits = decoder.word_bits;
+        let valid = match decoder.coding {
+            Coding::TwosComplement => {
+                codes.extend(
+                    data.chunks_exact(W)
+                        .map(|f| sign_extend(read_word(f, BIG_ENDIAN), word_bits) as i32),
+                );
+                let (min, max) = codes
+                    .iter()
+                    .fold((i32::MAX, i32::MIN), |(a, b), &c| (a.min(c), b.max(c)));
+                i64::from(min) >= -half && i64::from(max) < half
+            }
+            Coding::OffsetBinary => {
+                let top = data
+                    .chunks_exact(W)
+                    .fold(0u32, |m, f| m.max(read_word(f, BIG_ENDIAN)));
+                if i64::from(top) < 2 * half {
+                    codes.extend(
+                        data.chunks_exact(W)
+                            .map(|f| (i64::from(read_word(f, BIG_ENDIAN)) - half) as i32),
+                    );
+                    true
+                } else {
+                    false
+                }
+            }
+        };
+        if valid {
+            return None;
+        }
+        codes.clear();
+    }
     for (k, f) in data.chunks_exact(frame).enumerate() {
         let raw = read_word(&f[first..first + W], BIG_ENDIAN);
         match decoder.decode(raw) {

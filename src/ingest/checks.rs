@@ -135,16 +135,19 @@ pub fn check_codes(codes: &[i32], bits: u32) -> Vec<String> {
         return warnings;
     }
     let (lo, hi) = (min_code(bits), max_code(bits));
-    // Separate passes in i32 vectorise; one pass doing all four in i64 cost as much as the parse.
-    let min = i64::from(codes.iter().copied().min().unwrap_or(0));
-    let max = i64::from(codes.iter().copied().max().unwrap_or(0));
+    // Passes in i32 that vectorise; one pass doing all four in i64 cost as much as the parse.
+    let (min, max) = codes
+        .iter()
+        .fold((i32::MAX, i32::MIN), |(a, b), &c| (a.min(c), b.max(c)));
+    let (min, max) = (i64::from(min), i64::from(max));
     if min < lo || max > hi {
         return warnings;
     }
     // In range, so the end codes are i32 values too.
     let (lo32, hi32) = (lo as i32, hi as i32);
-    let at_lo = codes.iter().filter(|&&c| c == lo32).count();
-    let at_hi = codes.iter().filter(|&&c| c == hi32).count();
+    let (at_lo, at_hi) = codes.iter().fold((0usize, 0usize), |(a, b), &c| {
+        (a + usize::from(c == lo32), b + usize::from(c == hi32))
+    });
     let n = codes.len();
 
     if bits >= 2 && at_lo + at_hi > 0 {
@@ -169,13 +172,14 @@ pub fn check_codes(codes: &[i32], bits: u32) -> Vec<String> {
 /// Warnings for bits of the offset-binary code that never change although the observed range spans them.
 fn stuck_bits(codes: &[i32], bits: u32, min: i64, max: i64) -> Vec<String> {
     let half = 1i64 << (bits - 1);
-    let (mut all_or, mut all_and) = (0u64, u64::MAX);
-    for &c in codes {
-        // Offset binary of an in-range code is 0..2^N-1, non-negative.
-        let u = (i64::from(c) + half) as u64;
-        all_or |= u;
-        all_and &= u;
-    }
+    // Offset binary of an in-range code is 0..2^N-1, N <= 32: a u32, formed with wrapping adds that
+    // vectorise.
+    let half32 = half as u32;
+    let (all_or, all_and) = codes.iter().fold((0u32, u32::MAX), |(o, a), &c| {
+        let u = (c as u32).wrapping_add(half32);
+        (o | u, a & u)
+    });
+    let (all_or, all_and) = (u64::from(all_or), u64::from(all_and));
     let (umin, umax) = ((min + half) as u64, (max + half) as u64);
     let mut stuck0 = Vec::new();
     let mut stuck1 = Vec::new();

@@ -23,11 +23,65 @@ fn is_space(b: u8) -> bool {
 pub fn parse_text(bytes: &[u8], path: &str, bits: u32) -> Result<Vec<i32>> {
     check_bits(bits).map_err(|e| e.with_path(path))?;
     let b = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    if b.len() >= PARALLEL_MIN_BYTES {
+        if let Some(codes) = parse_halves(b, path, bits) {
+            return Ok(codes);
+        }
+    }
+    let (codes, line, header) = scan(b, path, bits, false, b.len() / 4 + 1)?;
+    if codes.is_empty() {
+        let found = if bytes.is_empty() {
+            "an empty file".to_string()
+        } else if header {
+            "a header line and no codes".to_string()
+        } else {
+            format!("no codes in {line} lines")
+        };
+        return Err(no_samples(path, found));
+    }
+    Ok(codes)
+}
+
+/// Texts at least this long are parsed in two halves at once (on two threads when the pool has them).
+const PARALLEL_MIN_BYTES: usize = 1 << 20;
+
+/// Parses the two halves of `b` (cut after a line end) at once; `None` when either half meets anything
+/// but codes, blank lines and comments (a header, a bad line, no codes): the caller then parses the
+/// whole text in one pass, which names the right line and decides the header as the rules say.
+fn parse_halves(b: &[u8], path: &str, bits: u32) -> Option<Vec<i32>> {
+    let mid = b.len() / 2;
+    let cut = mid + b[mid..].iter().position(|&c| c == b'\n')? + 1;
+    let (lo, hi) = b.split_at(cut);
+    let plain = |half: &[u8], later: bool| {
+        let room = if later { half.len() } else { b.len() };
+        scan(half, path, bits, later, room / 4 + 1)
+            .ok()
+            .filter(|(codes, _, header)| !header && !codes.is_empty())
+            .map(|(codes, _, _)| codes)
+    };
+    let (first, second) = rayon::join(|| plain(lo, false), || plain(hi, true));
+    // The first half's vector was given room for the whole text's codes: the second half is appended
+    // in place.
+    let mut codes = first?;
+    codes.extend_from_slice(&second?);
+    Some(codes)
+}
+
+/// One pass over the lines of `b`: the codes, the number of lines, and whether a header was seen.
+/// `later`: `b` is not the start of the text, so no header is allowed in it. `room`: the codes' first
+/// capacity (the shortest line "0\n" is 2 bytes; a quarter of the length is a good first guess for
+/// typical files).
+fn scan(
+    b: &[u8],
+    path: &str,
+    bits: u32,
+    later: bool,
+    room: usize,
+) -> Result<(Vec<i32>, usize, bool)> {
     let n = b.len();
-    // Shortest line "0\n" is 2 bytes; a quarter of the length is a good first guess for typical files.
-    let mut codes = Vec::with_capacity(n / 4 + 1);
+    let mut codes = Vec::with_capacity(room);
     let mut line = 0usize;
-    let mut seen_content = false;
+    let mut seen_content = later;
     let mut header = false;
     let mut i = 0usize;
     while i < n {
@@ -104,17 +158,7 @@ pub fn parse_text(bytes: &[u8], path: &str, bits: u32) -> Result<Vec<i32>> {
             show_token(token),
         ));
     }
-    if codes.is_empty() {
-        let found = if bytes.is_empty() {
-            "an empty file".to_string()
-        } else if header {
-            "a header line and no codes".to_string()
-        } else {
-            format!("no codes in {line} lines")
-        };
-        return Err(no_samples(path, found));
-    }
-    Ok(codes)
+    Ok((codes, line, header))
 }
 
 /// Parses a text record of codes or of values: codes as [`parse_text`] reads them (at `bits`, or
@@ -417,5 +461,38 @@ mod tests {
         let codes: Vec<i32> = (0..10_000).map(|i| (i * 7919 % 4096) - 2048).collect();
         let text: String = codes.iter().map(|c| format!("{c}\n")).collect();
         assert_eq!(parse(&text, 12).unwrap(), codes);
+    }
+
+    // A text long enough to be parsed in two halves gives the codes of one pass, and an error in
+    // either half (or a header) is reported as the one pass reports it: the same line, the same kind.
+    #[test]
+    fn long_texts_parsed_in_halves_agree_with_one_pass() {
+        let codes: Vec<i32> = (0..300_000i64)
+            .map(|i| (i * 7919 % 65536 - 32768) as i32)
+            .collect();
+        let mut text = String::from("# capture\ncodes\n");
+        for (i, c) in codes.iter().enumerate() {
+            text.push_str(&format!("{c}\r\n"));
+            if i % 1000 == 0 {
+                text.push_str("  # note\n\n");
+            }
+        }
+        assert!(text.len() >= PARALLEL_MIN_BYTES);
+        assert_eq!(parse(&text, 16).unwrap(), codes);
+        let (whole, lines, header) = scan(text.as_bytes(), "r.txt", 16, false, 0).unwrap();
+        assert_eq!(whole, codes);
+        assert!(header && lines > codes.len());
+        // A bad line late in the text: its own line number, from the one-pass parse.
+        let bad_at = text.len() * 3 / 4;
+        let cut = bad_at + text[bad_at..].find('\n').unwrap() + 1;
+        let line = text[..cut].matches('\n').count() + 1;
+        let bad = format!("{}12x4\n{}", &text[..cut], &text[cut..]);
+        let e = parse(&bad, 16).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::NotInteger);
+        assert_eq!(e.location, Location::Line(line));
+        // A second header-like line in the second half is an error there too.
+        let late_header = format!("{}volts\n{}", &text[..cut], &text[cut..]);
+        let e = parse(&late_header, 16).unwrap_err();
+        assert_eq!(e.location, Location::Line(line));
     }
 }

@@ -989,6 +989,7 @@ fn analysis(r: &Reader, a: &AnalysisToml) -> Result<(AnalysisSettings, usize, f6
                 guard_bins: a.guard_bins,
             },
             min_samples: 0,
+            keep_residual: true,
         },
         average,
         tolerance,

@@ -206,7 +206,7 @@ fn run_one(
         .map(|f| f.display().to_string())
         .unwrap_or_default();
     let mut warnings = Vec::new();
-    let measured = read_and_analyze(plan, cond, device, files, &mut warnings);
+    let measured = read_and_analyze(plan, cond, device, files, plots, &mut warnings);
     let (analysis, traces) = match measured {
         Ok(m) => {
             let mut a = m.analysis;
@@ -247,6 +247,7 @@ fn read_and_analyze(
     cond: &Condition,
     device: &str,
     files: &[PathBuf],
+    plots: Plots,
     warnings: &mut Vec<String>,
 ) -> Result<crate::analysis::Measured> {
     if files.is_empty() {
@@ -276,7 +277,12 @@ fn read_and_analyze(
         }
         records.push(got.record);
     }
-    analyze_averaged(&records, &cond.settings)
+    // The residual is made only when a plot may draw it.
+    let settings = crate::analysis::AnalysisSettings {
+        keep_residual: cond.settings.keep_residual && plots != Plots::None,
+        ..cond.settings
+    };
+    analyze_averaged(&records, &settings)
 }
 
 fn short_name(p: &Path) -> String {

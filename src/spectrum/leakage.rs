@@ -143,7 +143,6 @@ pub(crate) fn diagnose(
 /// window (never materialised), so the record length `n` is passed on its own.
 pub(crate) fn edge_warning(
     window: Window,
-    w: Taper,
     n: usize,
     fit: &SineFit,
     claims: &Claims,
@@ -162,7 +161,15 @@ pub(crate) fn edge_warning(
             fit.amplitude_codes * (TAU * turns + fit.phase_rad).cos()
         })
         .collect();
-    let powers = power_spectrum_owned(model, w);
+    // The window is made again here (the spectrum gave it back before its transform), in the form
+    // the spectrum used: the same values, so the same powers to the bit.
+    let powers = if window == Window::Rectangular {
+        power_spectrum_owned(model, Taper::Full(&[]))
+    } else if n > 1 << 20 {
+        power_spectrum_owned(model, Taper::Half(&window.half_samples(n)))
+    } else {
+        power_spectrum_owned(model, Taper::Full(&window.samples_shared(n)))
+    };
     let claimed: f64 = claims.tones[0].bins.iter().map(|&k| powers[k]).sum();
     let expected = 0.5 * fit.amplitude_codes * fit.amplitude_codes;
     let Some(bias) = (claimed > 0.0).then(|| 10.0 * (claimed / expected).log10()) else {

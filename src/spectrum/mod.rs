@@ -149,13 +149,15 @@ pub struct SpectrumOutput {
 }
 
 /// [`measure`] on records the caller no longer needs: each one is windowed and transformed in place,
-/// which saves a copy of the record (128 MB at 2^24 samples).
+/// which saves a copy of the record (128 MB at 2^24 samples). `plan`: the transform's plan when the
+/// caller has made it already (see [`fft::plan`]).
 pub fn measure_consuming(
     records: Vec<Vec<f64>>,
     fit: &SineFit,
     sample_rate_hz: f64,
     bits: u32,
     settings: &SpectrumSettings,
+    plan: Option<&fft::Plan>,
 ) -> Result<SpectrumOutput> {
     let n = records.first().map_or(0, |r| r.len());
     if n < 8 || records.iter().any(|r| r.len() != n) {
@@ -194,10 +196,18 @@ pub fn measure_consuming(
         fft::Taper::Full(&w)
     };
     let count = records.len();
+    let mut records = records;
+    // Every record is windowed first (Σw² is the window's, the same for each), and the window is given
+    // back before the transforms allocate their output and plan.
+    let mut sum_w2 = 0.0;
+    for r in records.iter_mut() {
+        sum_w2 = fft::apply_taper(r, taper);
+    }
+    drop(w);
     let mut powers: Vec<f64> = Vec::new();
     // Each record is transformed in place and dropped before its powers are made.
     for r in records {
-        let p = fft::power_spectrum_owned(r, taper);
+        let p = fft::power_spectrum_tapered(r, sum_w2, plan);
         if powers.is_empty() {
             powers = p;
         } else {
@@ -216,7 +226,7 @@ pub fn measure_consuming(
     let figs = metrics::figures(&claims, &measured, sample_rate_hz, bits);
     let uncertainty = uncertainty::of_spectrum(&claims, &measured, &figs, window, count);
     let mut warnings = Vec::new();
-    leakage::edge_warning(window, taper, n, fit, &claims, &mut warnings);
+    leakage::edge_warning(window, n, fit, &claims, &mut warnings);
     if figs.noise_bins < claim::MIN_NOISE_BINS {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise figures are poorly determined (use a longer record or fewer harmonics)",
