@@ -2,7 +2,7 @@
 //! spectrum, then one result record that every output format is made from.
 
 use crate::error::{Error, ErrorKind, Location, Result};
-use crate::fit::{self, FitOutput, FourParamOptions, SineFit};
+use crate::fit::{self, Clipping, FitOutput, FourParamOptions, SineFit};
 use crate::record::Record;
 use crate::spectrum::{self, claim::Owner, Spectrum, SpectrumSettings};
 use serde::Serialize;
@@ -135,6 +135,8 @@ pub struct OneTone {
     pub fit: Option<SineFit>,
     /// The spectral figures.
     pub spectrum: Option<Spectrum>,
+    /// Samples at the end codes and samples clipped (of the first record when several were averaged).
+    pub clipping: Option<Clipping>,
 }
 
 /// The result record of one analysis: every output (text, JSON, CSV, HTML) is made from this.
@@ -297,6 +299,10 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
     if let Some(w) = fit_against_spectrum(&fit, &spec.spectrum, &spec.powers, &spec.owner) {
         warnings.push(w);
     }
+    let clipping = fit::clipping::clipping(&first.codes, first.bits, &fit);
+    if let Some(w) = clipping_note(&clipping) {
+        warnings.push(w);
+    }
     Ok(Measured {
         analysis: Analysis {
             source: src,
@@ -306,6 +312,7 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
                     full_scale_vpp: first.full_scale_vpp,
                     fit: Some(fit),
                     spectrum: Some(spec.spectrum),
+                    clipping: Some(clipping),
                 },
                 warnings,
             )
@@ -380,6 +387,26 @@ fn fit_against_spectrum(
     Some(format!(
         "sine-fit SINAD {fs:.2} dB and spectral SINAD {ss:.2} dB differ by {:.2} dB (allowed {allowed:.2} dB){peak}: {culprit} do not describe the converter; {fix}",
         fs - ss
+    ))
+}
+
+/// What the end-code samples mean: how many of them were clipped (the figure the limits and the
+/// tables use), and how many are the sine's peaks inside the end codes' own LSB.
+fn clipping_note(c: &Clipping) -> Option<String> {
+    if c.end_code_samples == 0 {
+        return None;
+    }
+    let Some(est) = c.clipped_samples else {
+        return Some(format!(
+            "{} samples at the end codes, too many to fit the sine to the rest: the number clipped is not estimated (lower the input level)",
+            c.end_code_samples
+        ));
+    };
+    let u = c.uncertainty.clipped_samples.unwrap_or(0.0);
+    Some(format!(
+        "clipping: {est:.1} ± {u:.1} samples clipped of the {} at the end codes (estimated from the sine fitted to the other samples; the rest are the sine's peaks within the end codes' LSB){}",
+        c.end_code_samples,
+        if est >= 0.5 { "; lower the input level if the clipping is not intended" } else { "" }
     ))
 }
 

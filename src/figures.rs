@@ -467,6 +467,15 @@ pub static LEAKAGE_SIGNIFICANT: Figure =
     flag("spectrum.leakage.significant", "leakage significant");
 /// What would fix the leakage.
 pub static LEAKAGE_ADVICE: Figure = text("spectrum.leakage.advice", "leakage advice");
+/// Samples at the end codes.
+pub static END_CODE_SAMPLES: Figure = integer(
+    "clipping.end_code_samples",
+    "samples at the end codes",
+    Unit::Count,
+);
+/// Samples clipped (estimated from the sine fitted off the end codes).
+pub static CLIPPED_SAMPLES: Figure =
+    number("clipping.clipped_samples", "clipped samples", Unit::Count).uncertain();
 /// What the user should know about the record.
 pub static WARNINGS: Figure = text("warnings", "warnings");
 /// The class of error of a failed record.
@@ -474,7 +483,7 @@ pub static ERROR_KIND: Figure = text("error.kind", "error kind");
 /// The whole error message of a failed record.
 pub static ERROR_MESSAGE: Figure = text("error.message", "error");
 
-static TABLE: [&Figure; 63] = [
+static TABLE: [&Figure; 65] = [
     &SOURCE,
     &SAMPLES,
     &SAMPLE_RATE,
@@ -535,6 +544,8 @@ static TABLE: [&Figure; 63] = [
     &SFDR_BIAS,
     &LEAKAGE_SIGNIFICANT,
     &LEAKAGE_ADVICE,
+    &END_CODE_SAMPLES,
+    &CLIPPED_SAMPLES,
     &WARNINGS,
     &ERROR_KIND,
     &ERROR_MESSAGE,

@@ -138,7 +138,10 @@ pub use crate::analysis::{
     analyze, analyze_averaged, Analysis, AnalysisSettings, ErrorReport, FitChoice, Measured,
     OneTone, RecordResult, Traces,
 };
-pub use crate::fit::{fit_four, fit_three, FitMethod, FitUncertainty, FourParamOptions, SineFit};
+pub use crate::fit::{
+    fit_four, fit_three, Clipping, ClippingUncertainty, FitMethod, FitUncertainty,
+    FourParamOptions, SineFit,
+};
 pub use crate::spectrum::{
     ideal_snr_db, Coherence, HarmonicFigure, LeakageDiagnosis, LevelUncertainty, PerHarmonic,
     Spectrum, SpectrumSettings, SpectrumUncertainty, Spur, Window, WindowChoice, WindowFigures,

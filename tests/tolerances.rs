@@ -304,3 +304,12 @@ pub const MC_SEEDS: u64 = 200;
 /// order differs (about 1e-15), except c4, whose log-gamma comes from statrs on our side and from
 /// scipy's gammaln on theirs (each good to about 1e-14); 1e-10 leaves room for both.
 pub const SPC_REL: f64 = 1e-10;
+
+/// Samples: a count of samples of a coherent record (J coprime with N) whose phase falls in an arc
+/// differs from N·(arc / 2π) by less than one sample per arc end, since the samples sit on the N
+/// equally spaced phases (sine geometry); two edges of the range (top and bottom) give two samples.
+pub const CLIPPED_PHASE_SAMPLES: f64 = 2.0;
+
+/// Samples: the generator counts whole samples while the estimate is an expected count; half a sample
+/// of rounding each way, one in all.
+pub const CLIPPED_ROUNDING_SAMPLES: f64 = 1.0;

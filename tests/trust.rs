@@ -2,6 +2,7 @@
 //! 2): each now ends correct within its stated uncertainty or with a warning naming the figure, the
 //! cause and the fix. Records come from the simulated converter with known truth.
 
+use crate::tolerances::{CLIPPED_PHASE_SAMPLES, CLIPPED_ROUNDING_SAMPLES};
 use spurline::{analyze, Analysis, AnalysisSettings, FitChoice};
 use spurline::{synthesize, SynthFrequency, SynthSettings};
 
@@ -113,4 +114,118 @@ fn harmonics_hidden_by_a_window_lobe_are_named() {
         a.warnings
     );
     assert!(warned(&a, "spectral figures"), "{:?}", a.warnings);
+}
+
+/// Samples of a sine of amplitude `a` codes on `n` equally spaced phases beyond the level `t`:
+/// n·(1/2 − asin(t/a)/π) (sine geometry; 0 when the sine stays inside).
+fn beyond(n: usize, a: f64, t: f64) -> f64 {
+    n as f64 * (0.5 - (t / a).min(1.0).asin() / std::f64::consts::PI)
+}
+
+/// A near-full-scale 12-bit sine whose peaks go 0.015 codes beyond the top code's outer edge (2047.5)
+/// clips about 11 samples of 8192, while about 90 samples sit at the end codes because the top code
+/// holds every input in [2046.5, 2047.5): the end-code count overstates the clipping eightfold. The
+/// clipped samples are estimated within their uncertainty of the analytic count; the same at +0.5 dBFS,
+/// where about 1,750 samples clip and the sine must be fitted to the others to be found.
+#[test]
+fn clipped_samples_are_counted_not_end_codes() {
+    let n = 8192;
+    for a in [2047.515, 2048.0 * 10f64.powf(0.5 / 20.0)] {
+        let s = SynthSettings {
+            bits: 12,
+            sample_rate_hz: 1e6,
+            samples: n,
+            amplitude_dbfs: 20.0 * (a / 2048.0f64).log10(),
+            frequency: SynthFrequency::Hz(1001.0 * 1e6 / n as f64),
+            noise_rms_codes: 0.0,
+            ..SynthSettings::default()
+        };
+        let rec = synthesize(&s).unwrap().record;
+        let at_ends = rec
+            .codes
+            .iter()
+            .filter(|&&c| c == 2047 || c == -2048)
+            .count();
+        let a_run = analyze(&rec, &AnalysisSettings::default())
+            .unwrap()
+            .analysis;
+        let c = a_run.clipping.as_ref().unwrap();
+        assert_eq!(c.end_code_samples, at_ends);
+        // Top edge 2047.5, bottom edge −2048.5 (codes are floor(x + 1/2), each code 1 LSB wide).
+        let truth = beyond(n, a, 2047.5) + beyond(n, a, 2048.5);
+        let (est, u) = (
+            c.clipped_samples.unwrap(),
+            c.uncertainty.clipped_samples.unwrap(),
+        );
+        assert!(
+            (est - truth).abs() <= 4.0 * u + CLIPPED_PHASE_SAMPLES,
+            "amplitude {a}: {est} ± {u} vs {truth} ({at_ends} at the end codes)"
+        );
+        // Near full scale the estimate tells clipping from end-code hits: its band stays well below the
+        // end-code count.
+        if a < 2048.0 {
+            assert!(
+                est + 4.0 * u < at_ends as f64 / 4.0,
+                "{est} ± {u}, {at_ends}"
+            );
+        }
+        assert!(
+            warned(&a_run, "samples clipped of the"),
+            "{:?}",
+            a_run.warnings
+        );
+    }
+}
+
+/// The same with 0.3 codes of Gaussian noise: a sample clips when the noisy input passes the edge, so
+/// the truth is the generator's own count of inputs beyond the edges (counted before quantisation from
+/// the analog value, never from the codes); the estimate's uncertainty includes the spread of that
+/// count. Well inside full scale nothing is at the end codes and nothing is clipped.
+#[test]
+fn clipped_samples_with_noise_agree_with_the_generator() {
+    for (dbfs, seed) in [(-0.003, 1), (0.01, 2), (0.3, 3)] {
+        let s = SynthSettings {
+            bits: 12,
+            sample_rate_hz: 1e6,
+            samples: 16_384,
+            amplitude_dbfs: dbfs,
+            frequency: SynthFrequency::Hz(1.23457e5),
+            noise_rms_codes: 0.3,
+            seed,
+            ..SynthSettings::default()
+        };
+        let out = synthesize(&s).unwrap();
+        let a = analyze(&out.record, &AnalysisSettings::default())
+            .unwrap()
+            .analysis;
+        let c = a.clipping.as_ref().unwrap();
+        let (est, u) = (
+            c.clipped_samples.unwrap(),
+            c.uncertainty.clipped_samples.unwrap(),
+        );
+        let truth = out.clipped_samples as f64;
+        eprintln!(
+            "{dbfs} dBFS: {est} ± {u} vs {truth} ({} at the end codes)",
+            c.end_code_samples
+        );
+        assert!(
+            (est - truth).abs() <= 4.0 * u + CLIPPED_ROUNDING_SAMPLES,
+            "{dbfs} dBFS: {est} ± {u} vs {truth} ({} at the end codes)",
+            c.end_code_samples
+        );
+        assert!(c.end_code_samples > out.clipped_samples, "{c:?}");
+    }
+    let s = SynthSettings {
+        amplitude_dbfs: -1.0,
+        ..SynthSettings::default()
+    };
+    let a = analyze(
+        &synthesize(&s).unwrap().record,
+        &AnalysisSettings::default(),
+    )
+    .unwrap()
+    .analysis;
+    let c = a.clipping.as_ref().unwrap();
+    assert_eq!((c.end_code_samples, c.clipped_samples), (0, Some(0.0)));
+    assert!(!warned(&a, "clipped"), "{:?}", a.warnings);
 }

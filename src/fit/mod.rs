@@ -2,6 +2,7 @@
 //! the frequency must be found, and the fit of several sines at once (`multi_tone`). All work on a
 //! centred time index in f64.
 
+pub(crate) mod clipping;
 mod closed;
 mod four_param;
 pub(crate) mod multi_tone;
@@ -10,6 +11,7 @@ mod sums;
 mod three_param;
 pub(crate) mod uncertainty;
 
+pub use clipping::{Clipping, ClippingUncertainty};
 pub use four_param::{fit_four, FourParamOptions};
 pub use three_param::fit_three;
 pub use uncertainty::FitUncertainty;
