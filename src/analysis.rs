@@ -270,26 +270,27 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
         let out = run_fit(r, y, settings).map_err(|e| e.with_path(&r.source))?;
         fits.push(out);
     }
+    let all_fits: Vec<SineFit> = fits.iter().map(|o| o.fit.clone()).collect();
     let FitOutput {
         fit,
         residual,
         warnings: fit_warnings,
     } = fits.swap_remove(0);
     warnings.extend(fit_warnings);
-    for (r, other) in records.iter().skip(1).zip(&fits) {
-        if (other.fit.cycles - fit.cycles).abs() > 0.5 {
+    for (r, other) in records.iter().skip(1).zip(&all_fits[1..]) {
+        if (other.cycles - fit.cycles).abs() > 0.5 {
             warnings.push(format!(
                 "{} has its tone at {:.3} cycles, {:.3} cycles from the first record: averaging smears it",
                 r.source,
-                other.fit.cycles,
-                other.fit.cycles - fit.cycles
+                other.cycles,
+                other.cycles - fit.cycles
             ));
         }
     }
     // The spectra are taken in the f64 copies themselves, which are not needed after them.
     let spec = spectrum::measure_consuming(
         data,
-        &fit,
+        &all_fits,
         first.sample_rate_hz,
         first.bits,
         &settings.spectrum,

@@ -42,6 +42,8 @@ pub enum Unit {
     Cycles,
     /// FFT bins.
     Bins,
+    /// Samples of the record, as a measured (possibly fractional) number.
+    Samples,
     /// Volts peak-to-peak.
     Vpp,
     /// A count of things (samples, records, iterations).
@@ -65,6 +67,7 @@ impl Unit {
             Unit::Rad => "rad",
             Unit::Cycles => "cycles",
             Unit::Bins => "bins",
+            Unit::Samples => "samples",
             Unit::Vpp => "Vpp",
             Unit::Count | Unit::None => "",
         }
@@ -474,8 +477,9 @@ pub static END_CODE_SAMPLES: Figure = integer(
     Unit::Count,
 );
 /// Samples clipped (estimated from the sine fitted off the end codes).
-pub static CLIPPED_SAMPLES: Figure =
-    number("clipping.clipped_samples", "clipped samples", Unit::Count).uncertain();
+pub static CLIPPED_SAMPLES: Figure = number("clipping.clipped_samples", "clipped", Unit::Samples)
+    .lower()
+    .uncertain();
 /// What the user should know about the record.
 pub static WARNINGS: Figure = text("warnings", "warnings");
 /// The class of error of a failed record.

@@ -2,7 +2,10 @@
 //! 2): each now ends correct within its stated uncertainty or with a warning naming the figure, the
 //! cause and the fix. Records come from the simulated converter with known truth.
 
-use crate::tolerances::{CLIPPED_PHASE_SAMPLES, CLIPPED_ROUNDING_SAMPLES};
+use crate::tolerances::{
+    CLIPPED_PHASE_SAMPLES, CLIPPED_ROUNDING_SAMPLES, HANDBOOK_BITS, HANDBOOK_DB, HARMONIC_DB,
+    TONE_LEVEL_DB,
+};
 use spurline::{analyze, Analysis, AnalysisSettings, FitChoice};
 use spurline::{synthesize, SynthFrequency, SynthSettings};
 
@@ -228,4 +231,113 @@ fn clipped_samples_with_noise_agree_with_the_generator() {
     let c = a.clipping.as_ref().unwrap();
     assert_eq!((c.end_code_samples, c.clipped_samples), (0, Some(0.0)));
     assert!(!warned(&a, "clipped"), "{:?}", a.warnings);
+}
+
+/// Handbook SNR of a 12-bit sine at `dbfs` with `noise` codes rms of Gaussian noise: signal A²/2 over
+/// q²/12 + σ² (quantisation and Gaussian noise add in power; handbook formula).
+fn handbook_snr_db(dbfs: f64, noise: f64) -> f64 {
+    let a = 2048.0 * 10f64.powf(dbfs / 20.0);
+    10.0 * ((a * a / 2.0) / (1.0 / 12.0 + noise * noise)).log10()
+}
+
+/// A non-coherent tone a few bins from Nyquist or from DC: under the window its lobe shares bins with
+/// its mirror image or with DC and its level read up to about 1 dB low, with SNR and SINAD biased with
+/// it. The fitted sine is now removed in time and the figures come from the residual's spectrum: the
+/// level is the synthesised −1 dBFS and SNR, SINAD and ENOB are the handbook's within their stated
+/// uncertainty (plus the handbook allowance for one record's quantisation noise); the warning is a note.
+#[test]
+fn tone_near_nyquist_or_dc_is_measured_from_the_residual() {
+    let n = 4096;
+    // (cycles, phase, whether the level would read off by more than 0.1 dB under the window)
+    for (cycles, phase, noted) in [
+        (2046.5, 0.0, true),
+        (2046.5, 2.0, true),
+        (2045.3, 1.0, false),
+        (2046.8, 0.5, true),
+        (9.5, 0.0, true),
+        (10.3, 1.3, true),
+    ] {
+        let s = SynthSettings {
+            bits: 12,
+            sample_rate_hz: 1e6,
+            samples: n,
+            amplitude_dbfs: -1.0,
+            phase_rad: phase,
+            frequency: SynthFrequency::Hz(cycles * 1e6 / n as f64),
+            noise_rms_codes: 0.3,
+            ..SynthSettings::default()
+        };
+        let a = run(&s, &AnalysisSettings::default(), None);
+        let sp = a.spectrum.as_ref().unwrap();
+        let u = &sp.uncertainty;
+        assert!(!sp.coherent, "{cycles}");
+        assert_eq!(
+            warned(&a, "note: the fundamental's bins"),
+            noted,
+            "{cycles}: {:?}",
+            a.warnings
+        );
+        let level = sp.fundamental_dbfs.unwrap();
+        assert!(
+            (level + 1.0).abs() <= 4.0 * u.fundamental_dbfs.unwrap() + TONE_LEVEL_DB,
+            "{cycles}: level {level}"
+        );
+        let truth = handbook_snr_db(-1.0, 0.3);
+        for (name, got, sigma) in [
+            ("SNR", sp.snr_db, u.snr_db),
+            ("SINAD", sp.sinad_db, u.sinad_db),
+        ] {
+            let (got, sigma) = (got.unwrap(), sigma.unwrap());
+            assert!(
+                (got - truth).abs() <= 4.0 * sigma + HANDBOOK_DB,
+                "{cycles}, phase {phase}: {name} {got} ± {sigma} vs {truth}"
+            );
+        }
+        // ENOB = (SINAD − 1.76)/6.02 (IEEE Std 1241's spectral form).
+        let enob_truth = (truth - 1.76) / 6.02;
+        let enob = sp.enob_bits.unwrap();
+        assert!(
+            (enob - enob_truth).abs() <= 4.0 * u.enob_bits.unwrap() + HANDBOOK_BITS,
+            "{cycles}: ENOB {enob} vs {enob_truth}"
+        );
+        assert!(!warned(&a, "leakage of the"), "{cycles}: {:?}", a.warnings);
+    }
+}
+
+/// The spectrum's re-check of coherence at the band's edges: coherent tones of 1, 2, N/2 − 2 and
+/// N/2 − 1 cycles with strong second and third harmonics (−50 and −55 dBc). The harmonics pull the
+/// four-parameter frequency off the integer; the re-check must still run there and judge the records
+/// coherent, so that the harmonics are measured at the levels put in (within their stated uncertainty
+/// and the quantiser's own share, HARMONIC_DB).
+#[test]
+fn coherence_recheck_runs_at_the_band_edges() {
+    let n = 4096;
+    for cycles in [1.0, 2.0, (n / 2 - 2) as f64, (n / 2 - 1) as f64] {
+        let s = SynthSettings {
+            bits: 12,
+            sample_rate_hz: 1e6,
+            samples: n,
+            amplitude_dbfs: -1.0,
+            phase_rad: 0.7,
+            frequency: SynthFrequency::Hz(cycles * 1e6 / n as f64),
+            noise_rms_codes: 0.3,
+            harmonics_dbc: vec![(2, -50.0), (3, -55.0)],
+            ..SynthSettings::default()
+        };
+        let a = run(&s, &AnalysisSettings::default(), None);
+        let sp = a.spectrum.as_ref().unwrap();
+        assert!(sp.coherent, "{cycles}: {:?}", sp.coherence);
+        for (h, want) in [(2u32, -50.0), (3, -55.0)] {
+            let fig = &sp.harmonics[(h - 2) as usize];
+            if fig.masked {
+                continue;
+            }
+            let sigma = sp.uncertainty.harmonics.get(h).unwrap().dbc.unwrap();
+            let got = fig.dbc.unwrap();
+            assert!(
+                (got - want).abs() <= 4.0 * sigma + HARMONIC_DB,
+                "{cycles}: H{h} {got} ± {sigma} vs {want}"
+            );
+        }
+    }
 }

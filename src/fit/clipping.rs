@@ -4,11 +4,11 @@
 //! the end codes without exceeding them (about √(2/A)/π of the samples at each end for a full-scale
 //! sine of A codes, 1 % at 12 bits).
 
-use super::SineFit;
+use super::{for_each_phase, SineFit};
 use crate::record::{max_code, min_code};
 use serde::Serialize;
 use statrs::function::erf::erfc;
-use std::f64::consts::{PI, TAU};
+use std::f64::consts::PI;
 
 /// The clipping figures of one record (`clipping` in the JSON).
 #[derive(Debug, Clone, PartialEq, Default, Serialize)]
@@ -32,27 +32,6 @@ pub struct ClippingUncertainty {
 
 /// Below this many samples off the end codes the censored fit is not attempted.
 const MIN_FREE_SAMPLES: usize = 16;
-
-/// Samples between exact re-seeds of the rotation recurrence (its rounding grows by about 1e-16 per
-/// step, so 1024 steps keep the model within 1e-12 of its exact value).
-const RESEED: usize = 1024;
-
-/// Visits (n, cos θ_n, sin θ_n) for θ_n = 2π·f·(n − centre), f in cycles per sample, by a rotation
-/// recurrence re-seeded from `sin_cos` every [`RESEED`] samples.
-fn for_each_phase(samples: usize, cycles_per_sample: f64, mut visit: impl FnMut(usize, f64, f64)) {
-    let centre = super::centre_of(samples);
-    let (rs, rc) = (TAU * cycles_per_sample).sin_cos();
-    let (mut c, mut s) = (0.0, 0.0);
-    for n in 0..samples {
-        if n % RESEED == 0 {
-            // The phase in turns, reduced before it is scaled, keeps long records exact.
-            let turns = (cycles_per_sample * (n as f64 - centre)).fract();
-            (s, c) = (TAU * turns).sin_cos();
-        }
-        visit(n, c, s);
-        (c, s) = (c * rc - s * rs, s * rc + c * rs);
-    }
-}
 
 /// Φ(z), the standard normal distribution function (by erfc, which keeps the tails exact).
 fn normal_cdf(z: f64) -> f64 {
@@ -172,19 +151,6 @@ pub fn clipping(codes: &[i32], bits: u32, fit: &SineFit) -> Clipping {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    // The recurrence against sin_cos per sample (slow, obviously correct reference): within 1e-12 over
-    // several re-seeds (see RESEED).
-    #[test]
-    fn rotation_recurrence_matches_sin_cos() {
-        const AGREE: f64 = 1e-12;
-        let (n, f) = (5000, 0.123_456_789);
-        let centre = crate::fit::centre_of(n);
-        for_each_phase(n, f, |i, c, s| {
-            let (ws, wc) = (TAU * f * (i as f64 - centre)).sin_cos();
-            assert!((c - wc).abs() < AGREE && (s - ws).abs() < AGREE, "{i}");
-        });
-    }
 
     // Φ at published points: Φ(0) = 0.5, Φ(1.96) = 0.975 (standard normal table, to 3 decimals).
     #[test]
