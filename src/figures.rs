@@ -859,8 +859,8 @@ mod tests {
     }
 
     // The crate's naming convention (crate docs: units in names): a key whose last part carries a unit
-    // suffix has that unit. Only the fit's cycle uncertainty (`cycles_std`) has a unit its name does
-    // not carry.
+    // suffix has that unit. Only the fit's cycle uncertainty (`cycles_std`) and the clipped-sample
+    // estimate have a unit their names do not carry.
     #[test]
     fn units_agree_with_the_names() {
         let suffixes = [
@@ -884,6 +884,9 @@ mod tests {
             match named {
                 Some((_, unit)) => assert_eq!(f.unit, *unit, "{}", f.key),
                 None if f.key == "fit.cycles_std" => assert_eq!(f.unit, Unit::Cycles),
+                // An estimated number of samples, a measure (limits can be set on it), unlike the
+                // counts `samples` and `clipping.end_code_samples`.
+                None if f.key == "clipping.clipped_samples" => assert_eq!(f.unit, Unit::Samples),
                 None => assert!(!f.unit.is_measure(), "{} has no unit in its name", f.key),
             }
         }

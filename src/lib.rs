@@ -158,16 +158,18 @@ pub use crate::analyses::interleave::{
     InterleaveSpur, InterleaveSpurKind, Interleaved,
 };
 pub use crate::analyses::linearity::{
-    analyze_histogram, plot::write_plots as write_linearity_plots, required_samples, AtCode,
-    CodeHistogram, CodeResult, EndCode, Extremes, Linearity, LinearitySettings, SampleAdvice,
-    SineEstimate, MAX_HISTOGRAM_BITS, OVERDRIVE_RATIO,
+    analyze_histogram, distinct_phases, phase_coverage, plot::write_plots as write_linearity_plots,
+    required_phases, required_samples, AtCode, CodeHistogram, CodeResult, EndCode, Extremes,
+    Linearity, LinearitySettings, PhaseCoverage, SampleAdvice, SineEstimate, MAX_HISTOGRAM_BITS,
+    OVERDRIVE_RATIO,
 };
 
 // Planning a coherent test.
 pub use crate::freq::{fold_to_first_zone, nearest_coherent, CoherentChoice};
 pub use crate::plan::{
-    harmonic_places, imd_products, plan_tone, plan_two_tone, samples_for_resolution, HarmonicPlace,
-    ImdProduct, Placement, TonePlan, TwoTonePlan, MAX_PLAN_HARMONIC,
+    harmonic_places, imd_products, plan_histogram, plan_tone, plan_two_tone,
+    samples_for_resolution, HarmonicPlace, HistogramPlan, ImdProduct, Placement, TonePlan,
+    TwoTonePlan, MAX_PLAN_HARMONIC,
 };
 
 // Simulated converters, for demos and tests.

@@ -7,6 +7,7 @@ use crate::tolerances::{
     TONE_LEVEL_DB,
 };
 use spurline::{analyze, Analysis, AnalysisSettings, FitChoice};
+use spurline::{phase_coverage, plan_histogram};
 use spurline::{synthesize, SynthFrequency, SynthSettings};
 
 fn run(s: &SynthSettings, settings: &AnalysisSettings, fin_hint: Option<f64>) -> Analysis {
@@ -339,5 +340,51 @@ fn coherence_recheck_runs_at_the_band_edges() {
                 "{cycles}: H{h} {got} ± {sigma} vs {want}"
             );
         }
+    }
+}
+
+/// A histogram test at a simple ratio: an ideal 10-bit converter overdriven at fin/fs = 1/81 samples
+/// only 81 distinct phases (IEEE Std 1241's rule, from memory: fin/fs = M/N with M, N coprime gives N
+/// phases), however many samples are taken, so the phase coverage is reported as not enough for a
+/// DNL of ±0.1 LSB (π·2^10/0.1 = 32,170 phases needed, sine geometry). The plan's histogram frequency
+/// for the same target gives a record length with that many phases, and a record taken at it is
+/// judged enough.
+#[test]
+fn histogram_test_at_a_simple_ratio_counts_its_phases() {
+    let fs = 1e6;
+    let overdriven = |samples: usize, fin: f64| SynthSettings {
+        bits: 10,
+        sample_rate_hz: fs,
+        samples,
+        amplitude_dbfs: 0.5,
+        frequency: SynthFrequency::Hz(fin),
+        noise_rms_codes: 0.0,
+        ..SynthSettings::default()
+    };
+    let rec = synthesize(&overdriven(1 << 20, fs / 81.0)).unwrap().record;
+    let p = phase_coverage(&[rec], 0.1).unwrap().unwrap();
+    assert_eq!(p.distinct_phases, 81, "{p:?}");
+    assert_eq!(p.required_phases, 32_170);
+    assert!(!p.sufficient);
+
+    let h = plan_histogram(fs, 4096, fs / 81.0, 10, 0.1).unwrap();
+    assert!(
+        h.samples as u64 >= h.required_phases && h.samples == 1 << 15,
+        "{h:?}"
+    );
+    assert_eq!(gcd(h.tone.cycles, h.samples as u64), 1);
+    let rec = synthesize(&overdriven(h.samples, h.tone.frequency_hz))
+        .unwrap()
+        .record;
+    let p = phase_coverage(&[rec], 0.1).unwrap().unwrap();
+    assert_eq!(p.distinct_phases, h.samples as u64, "{p:?}");
+    assert!(p.sufficient);
+}
+
+fn gcd(a: u64, b: u64) -> u64 {
+    if b == 0 {
+        a
+    } else {
+        gcd(b, a % b)
     }
 }
