@@ -288,18 +288,36 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
         }
     }
     // The spectra are taken in the f64 copies themselves, which are not needed after them.
-    let spec = spectrum::measure_consuming(
+    let mut spec = match spectrum::measure_consuming(
         data,
         &all_fits,
         first.sample_rate_hz,
         first.bits,
         &settings.spectrum,
-    )
-    .map_err(|e| e.with_path(&src))?;
-    warnings.extend(spec.warnings);
-    if let Some(w) = fit_against_spectrum(&fit, &spec.spectrum, &spec.powers, &spec.owner) {
-        warnings.push(w);
+    ) {
+        Ok(spec) => Some(spec),
+        // A tone among the DC bins (a few cycles in the record, not coherent) cannot be told from DC
+        // by any window, but the sine fit finds it: the fit figures stand, the spectral ones are
+        // withheld with the reason.
+        Err(e) if e.kind == ErrorKind::ToneAtEdge => {
+            warnings.push(format!(
+                "spectral figures withheld (fundamental level, SNR, SINAD, THD, SFDR, spectral and full-scale ENOB, noise floor, NSD, harmonics, worst spur): the spectrum needs {}, and found {}; the sine-fit figures are reported, with sine-fit SINAD and ENOB counting distortion as noise",
+                e.expected, e.found
+            ));
+            None
+        }
+        Err(e) => return Err(e.with_path(&src)),
+    };
+    if let Some(spec) = &mut spec {
+        warnings.append(&mut spec.warnings);
+        if let Some(w) = fit_against_spectrum(&fit, &spec.spectrum, &spec.powers, &spec.owner) {
+            warnings.push(w);
+        }
     }
+    let (spectrum_figures, powers, owner) = match spec {
+        Some(s) => (Some(s.spectrum), s.powers, s.owner),
+        None => (None, Vec::new(), Vec::new()),
+    };
     let clipping = fit::clipping::clipping(&first.codes, first.bits, &fit);
     if let Some(w) = clipping_note(&clipping) {
         warnings.push(w);
@@ -312,7 +330,7 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
                 OneTone {
                     full_scale_vpp: first.full_scale_vpp,
                     fit: Some(fit),
-                    spectrum: Some(spec.spectrum),
+                    spectrum: spectrum_figures,
                     clipping: Some(clipping),
                 },
                 warnings,
@@ -320,8 +338,8 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
         },
         traces: Traces {
             residual,
-            powers: spec.powers,
-            owner: spec.owner,
+            powers,
+            owner,
             codes: CodeCounts::of(&first.codes, first.bits),
         },
     })

@@ -313,3 +313,8 @@ pub const CLIPPED_PHASE_SAMPLES: f64 = 2.0;
 /// Samples: the generator counts whole samples while the estimate is an expected count; half a sample
 /// of rounding each way, one in all.
 pub const CLIPPED_ROUNDING_SAMPLES: f64 = 1.0;
+
+/// Codes: a sine fit's amplitude against the amplitude synthesised, beyond four of its stated sigmas:
+/// the quantiser's error is a deterministic function of the input, not white noise, and moves the
+/// fitted amplitude of a 12-bit sine by a few thousandths of a code (from memory); 0.01 codes covers it.
+pub const FIT_QUANTISER_CODES: f64 = 0.01;

@@ -13,7 +13,8 @@ use crate::record::Record;
 /// The phase coverage of the records of a histogram test (`phases` in its JSON).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct PhaseCoverage {
-    /// The input frequency over the sample rate, fin/fs, from the first record's four-parameter fit.
+    /// The input frequency over the sample rate, fin/fs, from the first record's four-parameter fit:
+    /// the simplest ratio M/N within four of its sigmas, when one has N up to the samples taken.
     pub fin_over_fs: f64,
     /// Distinct sampling phases: one over the largest gap between the sorted phases of all samples
     /// (N for fin/fs = M/N with M, N coprime and at least N samples).
@@ -54,9 +55,42 @@ pub fn distinct_phases(fin_over_fs: f64, starts: &[f64], len: usize) -> u64 {
     (count as u64).min(phases.len() as u64)
 }
 
+/// The simplest fraction p/q within `tolerance` of `x` (0 ≤ x < 1) with q ≤ `max_denominator`, from
+/// the continued-fraction convergents of x; `None` when no convergent that close has a small enough
+/// denominator. A measured fin/fs is taken as the ratio M/N the generator was set to when one lies
+/// within the fit's uncertainty: the phases it gives are then exact.
+pub fn nearest_ratio(x: f64, tolerance: f64, max_denominator: u64) -> Option<(u64, u64)> {
+    let (mut h0, mut h1) = (0u64, 1u64);
+    let (mut k0, mut k1) = (1u64, 0u64);
+    let mut rest = x;
+    for _ in 0..64 {
+        let a = rest.floor();
+        if !(a.is_finite() && a >= 0.0 && a < 1e15) {
+            return None;
+        }
+        let a = a as u64;
+        let h = a.checked_mul(h1)?.checked_add(h0)?;
+        let k = a.checked_mul(k1)?.checked_add(k0)?;
+        if k > max_denominator {
+            return None;
+        }
+        if k > 0 && (x - h as f64 / k as f64).abs() <= tolerance {
+            return Some((h, k));
+        }
+        (h0, h1, k0, k1) = (h1, h, k1, k);
+        let frac = rest - rest.floor();
+        if frac <= 0.0 {
+            return None;
+        }
+        rest = 1.0 / frac;
+    }
+    None
+}
+
 /// The phase coverage of `records` (one resolution and length) for a DNL uncertainty of `dnl_lsb`:
 /// each record's sine is found by a four-parameter fit (its frequency and phase; the clipped tails of
-/// an overdriven sine are symmetric and leave the frequency in place). Errors: the fit's.
+/// an overdriven sine are symmetric and leave the frequency in place), started from the record's
+/// input frequency when it has one (`--fin`, the sidecar's `fin_hz`). Errors: the fit's.
 pub fn phase_coverage(records: &[Record], dnl_lsb: f64) -> Result<Option<PhaseCoverage>> {
     let Some(first) = records.first() else {
         return Ok(None);
@@ -65,11 +99,21 @@ pub fn phase_coverage(records: &[Record], dnl_lsb: f64) -> Result<Option<PhaseCo
     let mut ratio = 0.0;
     for r in records {
         let y: Vec<f64> = r.codes.iter().map(|&c| f64::from(c)).collect();
-        let out = fit_four(&y, r.sample_rate_hz, r.bits, FourParamOptions::default())
-            .map_err(|e| e.with_path(&r.source))?;
+        let options = FourParamOptions {
+            hint_hz: r.fin_hint_hz,
+            ..FourParamOptions::default()
+        };
+        let out =
+            fit_four(&y, r.sample_rate_hz, r.bits, options).map_err(|e| e.with_path(&r.source))?;
         let f = out.fit.cycles / r.len() as f64;
         if starts.is_empty() {
-            ratio = f;
+            // Four sigmas of the fitted cycles per sample (the fit's Cramér-Rao form).
+            let tolerance = 4.0 * out.fit.cycles_std / r.len() as f64;
+            let most = (r.len() * records.len()) as u64;
+            ratio = match nearest_ratio(f, tolerance, most) {
+                Some((m, n)) => m as f64 / n as f64,
+                None => f,
+            };
         }
         starts.push(out.fit.phase_rad / std::f64::consts::TAU);
     }
@@ -101,6 +145,23 @@ mod tests {
         assert!(distinct_phases(7.0 / 1024.0, &[0.0], 100) <= 100);
         // Two records at different phases of 1/81 double the phases when offset by half a step.
         assert_eq!(distinct_phases(1.0 / 81.0, &[0.0, 0.5 / 81.0], 1000), 162);
+    }
+
+    // Continued fractions: 0.0123456... within 1e-9 is 1/81; 405/32768 is found exactly; the golden
+    // ratio's fraction has no convergent within 1e-12 below a denominator of 1000 (its convergents are
+    // ratios of Fibonacci numbers, each about 1/(√5·k²) away).
+    #[test]
+    fn nearest_ratio_finds_the_set_fraction() {
+        assert_eq!(
+            nearest_ratio(1.0 / 81.0 + 1e-12, 1e-9, 1 << 20),
+            Some((1, 81))
+        );
+        assert_eq!(
+            nearest_ratio(405.0 / 32768.0, 1e-15, 1 << 20),
+            Some((405, 32768))
+        );
+        assert_eq!(nearest_ratio((3.0 - 5f64.sqrt()) / 2.0, 1e-12, 1000), None);
+        assert_eq!(nearest_ratio(0.0, 1e-12, 10), Some((0, 1)));
     }
 
     // π·2^10/0.1 = 32,169.9 → 32,170 (the derivation in required_phases' docs).
