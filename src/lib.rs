@@ -214,7 +214,7 @@ pub use crate::lot::limits::{
 // Comparing two lots; sweeps over one; the statistics behind limits and comparisons.
 pub use crate::lot::compare::{
     better_direction, compare, output::write_all as write_comparison, read_run, Change,
-    CompareSettings, Comparison, MetricComparison, Run,
+    CompareSettings, Comparison, MetricComparison, Run, UncertaintyTest,
 };
 pub use crate::lot::store::{
     file_fingerprint, host_name, rfc3339, trend, trend_csv, trend_html, utc_now, write_trend,

@@ -182,6 +182,32 @@ fn verdicts_directions_and_left_out_items() {
     // Same devices in both runs: the paired analysis is there too.
     assert_eq!(find("f10", "spectrum.snr_db").pairs, 8);
     assert!(find("f10", "spectrum.snr_db").paired.is_some());
+    // The verdict in plain words: which figures got better and which worse, with the test behind it.
+    let summary = c.summary.join(" ");
+    assert!(
+        summary.contains("B is better than A in 1 figure(s): SNR at f10 (+1.")
+            && summary.contains("B is worse than A in 1 figure(s): THD at f10 (+1."),
+        "{summary}"
+    );
+    let snr = find("f10", "spectrum.snr_db");
+    let welch_p = format!("p = {:.2e}", snr.welch.as_ref().unwrap().p_value);
+    assert!(
+        snr.statement
+            .starts_with("SNR at f10 got better in B: B − A = +1.")
+            && snr.statement.contains("Welch t test")
+            && snr.statement.contains(&welch_p)
+            && snr.statement.contains("over 8 device(s)"),
+        "{}",
+        snr.statement
+    );
+    assert!(find("f10", "spectrum.thd_dbc")
+        .statement
+        .starts_with("THD at f10 got worse in B"));
+    assert!(
+        tiny.statement.contains("did not change"),
+        "{}",
+        tiny.statement
+    );
     // No NaN reaches an output.
     let json = serde_json::to_string(&c).unwrap();
     assert!(!json.contains("NaN") && !json.contains("null,\"ci"));
@@ -314,6 +340,20 @@ fn compare_command_writes_its_outputs_escaped() {
         .find(|r| r["metric"] == "spectrum.snr_db")
         .unwrap();
     assert_eq!(snr["decided_by"], "paired", "{snr}");
+    // The terminal says the verdict in words, and the page carries the plain-words verdict.
+    let stdout = String::from_utf8_lossy(&st.stdout);
+    let verdict = snr["verdict"].as_str().unwrap().replace('_', " ");
+    let line = stdout
+        .lines()
+        .find(|l| l.contains("spectrum.snr_db"))
+        .unwrap();
+    assert!(line.contains(&verdict), "{line}");
+    assert!(html.contains("<section class=\"verdict\">"));
+    let statement = snr["statement"].as_str().unwrap();
+    assert!(
+        statement.contains("paired t test over 4 devices"),
+        "{statement}"
+    );
 }
 
 // Limits and compare take their directions from one table (src/figures.rs), so every metric a limit
@@ -412,5 +452,74 @@ fn limits_and_compare_agree_on_every_direction() {
     for p in propose(&data, &metrics, &settings, None) {
         assert_eq!(p.direction, Better::Lower, "{}", p.metric);
         assert!(p.low.is_none() && p.high.is_some(), "{}", p.metric);
+    }
+}
+
+/// Writes a summary.csv whose rows carry the record's own SNR uncertainty.
+fn write_run_with_sigma(dir: &Path, rows: &[(&str, f64, f64)]) {
+    std::fs::create_dir_all(dir).unwrap();
+    let mut s = String::from(
+        "device,condition,bits,sample_rate_hz,spectrum.snr_db,spectrum.uncertainty.snr_db\n",
+    );
+    for (dev, snr, u) in rows {
+        s.push_str(&format!("{dev},f10,12,100000000,{snr},{u}\n"));
+    }
+    std::fs::write(dir.join("summary.csv"), s).unwrap();
+}
+
+/// One device a side: no t test is possible, but each record states its own uncertainty, so the
+/// difference is judged against it (a normal z test). A 1 dB change with ±0.1 dB per record is
+/// z = 1/√0.02 = 7.07, p = erfc(5) = 1.53746e-12; a 0.1 dB change is z = 0.707, p = erfc(0.5) =
+/// 0.479500 (Abramowitz & Stegun table 7.1; checked with Python's math.erfc).
+#[test]
+fn one_device_a_side_is_judged_by_the_records_own_uncertainty() {
+    use crate::tolerances::NORMAL_P_REL;
+    let dir = tempfile::tempdir().unwrap();
+    for (shift, p_want, verdict) in [
+        (1.0, 1.5374597944280351e-12, Change::Better),
+        (0.1, 0.4795001221869535, Change::NoSignificantChange),
+    ] {
+        let (ra, rb) = (
+            dir.path().join(format!("a{shift}")),
+            dir.path().join(format!("b{shift}")),
+        );
+        write_run_with_sigma(&ra, &[("d1", 70.0, 0.1)]);
+        write_run_with_sigma(&rb, &[("d1", 70.0 + shift, 0.1)]);
+        let c = compare(
+            &read_run(&ra).unwrap(),
+            &read_run(&rb).unwrap(),
+            &CompareSettings::default(),
+        );
+        let r = &c.rows[0];
+        assert_eq!(r.metric, "spectrum.snr_db");
+        assert_eq!(r.verdict, verdict, "{}", r.statement);
+        assert_eq!(r.decided_by.as_deref(), Some("record uncertainty"));
+        let u = r.by_uncertainty.as_ref().unwrap();
+        assert!(
+            (u.p_value - p_want).abs() <= NORMAL_P_REL * p_want,
+            "p {} vs {p_want}",
+            u.p_value
+        );
+        assert_eq!(r.a_record_uncertainty, Some(0.1));
+        assert!(
+            r.statement
+                .contains("judged by the records' own uncertainty")
+                && r.statement.contains("each record ± 0.100 dB"),
+            "{}",
+            r.statement
+        );
+        if verdict == Change::NoSignificantChange {
+            assert!(
+                c.summary[0].contains("No figure changed"),
+                "{:?}",
+                c.summary
+            );
+        } else {
+            assert!(
+                c.summary[0].contains("B is better than A"),
+                "{:?}",
+                c.summary
+            );
+        }
     }
 }

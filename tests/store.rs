@@ -57,10 +57,13 @@ fn pg_store(name: &str) -> Option<String> {
     };
     let mut admin = postgres::Client::connect(&format!("{base} dbname=postgres"), postgres::NoTls)
         .expect("the test server named by SPURLINE_TEST_PG");
+    // Two statements: one query string of both would be one implicit transaction, which
+    // PostgreSQL refuses for DROP/CREATE DATABASE.
     admin
-        .batch_execute(&format!(
-            "DROP DATABASE IF EXISTS {name}; CREATE DATABASE {name}"
-        ))
+        .batch_execute(&format!("DROP DATABASE IF EXISTS {name}"))
+        .unwrap();
+    admin
+        .batch_execute(&format!("CREATE DATABASE {name}"))
         .unwrap();
     Some(format!("{base} dbname={name}"))
 }

@@ -90,9 +90,13 @@ fn go(args: &CompareArgs) -> Result<(), Error> {
     for w in &c.warnings {
         println!("warning: {w}");
     }
+    for line in &c.summary {
+        println!("{line}");
+    }
+    println!();
     println!(
-        "{:<10} {:<30} {:>9} {:>9} {:>9} {:>8}  verdict",
-        "condition", "metric", "mean A", "mean B", "B − A", "p"
+        "{:<10} {:<30} {:>9} {:>9} {:>9} {:>8}  {:<22} why",
+        "condition", "metric", "mean A", "mean B", "B − A", "p", "verdict"
     );
     for r in &c.rows {
         let t = if r.decided_by.as_deref() == Some("paired") {
@@ -100,16 +104,24 @@ fn go(args: &CompareArgs) -> Result<(), Error> {
         } else {
             r.welch.as_ref()
         };
+        let (diff, p) = match (&r.by_uncertainty, t) {
+            (Some(u), _) if r.decided_by.as_deref() == Some("record uncertainty") => {
+                (Some(u.difference), Some(u.p_value))
+            }
+            (_, Some(t)) => (Some(t.difference), Some(t.p_value)),
+            _ => (None, None),
+        };
         println!(
-            "{:<10} {:<30} {:>9} {:>9} {:>9} {:>8}  {}",
+            "{:<10} {:<30} {:>9} {:>9} {:>9} {:>8}  {:<22} {}",
             r.condition,
             r.metric,
             r.a.as_ref()
                 .map_or("—".into(), |s| format!("{:.3}", s.mean)),
             r.b.as_ref()
                 .map_or("—".into(), |s| format!("{:.3}", s.mean)),
-            t.map_or("—".into(), |t| format!("{:+.3}", t.difference)),
-            t.map_or("—".into(), |t| format!("{:.2e}", t.p_value)),
+            diff.map_or("—".into(), |d| format!("{d:+.3}")),
+            p.map_or("—".into(), |p| format!("{p:.2e}")),
+            r.verdict.words(),
             r.reason
         );
     }

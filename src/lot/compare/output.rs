@@ -1,7 +1,7 @@
 //! Writes a comparison: `comparison.csv` and `comparison.json` (both from the one comparison record) and
 //! `comparison.html` (self-contained, every name escaped, plots inline).
 
-use super::plots::{distributions_svg, versus_frequency_svg};
+use super::plots::{distributions_svg, overlay_svg, versus_frequency_svg, OverlayTrace};
 use super::{Better, Change, Comparison, MetricComparison, Run};
 use crate::error::Result;
 use crate::figures;
@@ -40,6 +40,17 @@ fn exemplar() -> MetricComparison {
         decided_by: Some(String::new()),
         verdict: Change::NoTest,
         reason: String::new(),
+        a_record_uncertainty: Some(0.0),
+        b_record_uncertainty: Some(0.0),
+        by_uncertainty: Some(super::UncertaintyTest {
+            difference: 0.0,
+            sigma: 0.0,
+            z: 0.0,
+            p_value: 0.0,
+            ci_low: 0.0,
+            ci_high: 0.0,
+        }),
+        statement: String::new(),
     }
 }
 
@@ -70,15 +81,6 @@ fn values(run: &Run, condition: &str, metric: &str) -> Vec<f64> {
         .collect()
 }
 
-fn verdict_word(v: Change) -> &'static str {
-    match v {
-        Change::Better => "better",
-        Change::Worse => "worse",
-        Change::NoSignificantChange => "no significant change",
-        Change::NoTest => "no test",
-    }
-}
-
 fn num(v: Option<f64>, d: usize) -> String {
     v.filter(|x| x.is_finite())
         .map_or("—".to_string(), |x| format!("{x:.d$}"))
@@ -93,12 +95,42 @@ pub fn to_html(c: &Comparison, a: &Run, b: &Run) -> Result<String> {
 body{{font-family:sans-serif;margin:0;background:#F6F3EC;color:#3A3F47}}header{{background:#23395B;color:#FCFBF8;padding:14px 24px}}\
 main{{padding:16px 24px}}table{{border-collapse:collapse;font-size:13px}}td,th{{padding:3px 8px;border-bottom:1px solid #DCD8CF;text-align:right}}\
 th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A72;font-weight:bold}}tr.worse td.v{{color:#A4243B;font-weight:bold}}\
-.warn{{background:#FBE9D9;padding:6px 10px;border-left:4px solid #C8642A}}.plots{{display:flex;flex-wrap:wrap;gap:10px}}</style></head><body>\n\
+.warn{{background:#FBE9D9;padding:6px 10px;border-left:4px solid #C8642A}}section.verdict{{background:#FCFBF8;padding:10px 16px;margin-bottom:14px;border-left:4px solid #23395B}}\
+p.summary{{margin:4px 0;font-size:15px}}li.better{{color:#1D6A72}}li.worse{{color:#A4243B}}ul.all{{font-size:13px}}.plots{{display:flex;flex-wrap:wrap;gap:10px}}</style></head><body>\n\
 <header><h1>Revision comparison</h1><p>A = {} · B = {} · {:.0}% intervals · B − A</p></header><main>\n",
         escape(&c.run_a),
         escape(&c.run_b),
         c.confidence * 100.0
     );
+    let _ = writeln!(h, "<section class=\"verdict\"><h2>Verdict</h2>");
+    for line in &c.summary {
+        let _ = writeln!(h, "<p class=\"summary\">{}</p>", escape(line));
+    }
+    let changed: Vec<&MetricComparison> = c
+        .rows
+        .iter()
+        .filter(|r| matches!(r.verdict, Change::Better | Change::Worse))
+        .collect();
+    if !changed.is_empty() {
+        let _ = writeln!(h, "<ul class=\"changes\">");
+        for r in changed {
+            let cls = if r.verdict == Change::Better {
+                "better"
+            } else {
+                "worse"
+            };
+            let _ = writeln!(h, "<li class=\"{cls}\">{}</li>", escape(&r.statement));
+        }
+        let _ = writeln!(h, "</ul>");
+    }
+    let _ = writeln!(
+        h,
+        "<details><summary>Every figure in plain words</summary><ul class=\"all\">"
+    );
+    for r in &c.rows {
+        let _ = writeln!(h, "<li>{}</li>", escape(&r.statement));
+    }
+    let _ = writeln!(h, "</ul></details></section>");
     for w in &c.warnings {
         let _ = writeln!(h, "<p class=\"warn\">{}</p>", escape(w));
     }
@@ -146,7 +178,7 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A7
             num(r.welch.as_ref().map(|t| t.p_value), 4),
             r.pairs,
             num(r.paired.as_ref().map(|t| t.p_value), 4),
-            verdict_word(r.verdict),
+            r.verdict.words(),
             escape(&r.reason)
         );
     }
@@ -189,7 +221,7 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.better td.v{{color:#1D6A7
         }
     }
     let _ = writeln!(h, "</div>");
-    let _ = writeln!(h, "<h2>Representative spectra</h2><p>Per condition, the device whose SNR is the median of its run, A and B overlaid (each pixel column keeps its largest bin).</p><div class=\"plots\">");
+    let _ = writeln!(h, "<h2>Representative spectra</h2><p>Per condition, the device whose SNR is the median of its run, A and B overlaid (each pixel column keeps its largest bin). Bins are scaled by each record's window ENBW, so a tone's peak reads its level in dBFS; rings mark each fundamental's measured level.</p><div class=\"plots\">");
     for cond in &conditions {
         match overlay(cond, a, b) {
             Ok(svg) => h.push_str(&svg),
@@ -221,13 +253,15 @@ fn representative(run: &Run, condition: &str) -> Option<(String, String)> {
     Some(((*d).clone(), src.clone()))
 }
 
-/// Re-reads and re-analyses one record; returns its spectrum in dBFS, reduced to `columns` points.
-fn spectrum_points(
+/// One run's representative record, analysed again for its bins: the trace amplitude-normalised by
+/// the window's ENBW (as the spectrum plot draws it), each pixel column's largest bin kept.
+fn spectrum_trace(
     run: &Run,
     condition: &str,
+    name: String,
     source: &str,
     columns: usize,
-) -> std::result::Result<Vec<(f64, f64)>, String> {
+) -> std::result::Result<OverlayTrace, String> {
     let (bits, fs) = run
         .setup
         .get(condition)
@@ -246,37 +280,23 @@ fn spectrum_points(
         crate::ingest::read_record(Path::new(source), &settings).map_err(|e| e.to_string())?;
     let m = crate::analysis::analyze(&rec.record, &crate::analysis::AnalysisSettings::default())
         .map_err(|e| e.to_string())?;
-    let pfs = crate::record::full_scale_power(rec.record.bits);
-    let p = &m.traces.powers;
-    let bin_hz = rec.record.sample_rate_hz / rec.record.len() as f64;
-    let per = p.len().div_ceil(columns.max(1)).max(1);
-    Ok(p.chunks(per)
-        .enumerate()
-        .map(|(i, c)| {
-            let (k, v) =
-                c.iter().enumerate().fold(
-                    (0, 0.0f64),
-                    |best, (j, &x)| if x > best.1 { (j, x) } else { best },
-                );
-            (
-                (i * per + k) as f64 * bin_hz,
-                10.0 * (v.max(pfs * 1e-30) / pfs).log10(),
-            )
-        })
-        .collect())
+    OverlayTrace::of(name, &m.analysis, &m.traces, columns).map_err(|e| e.to_string())
 }
+
+/// Height of the overlay plots on the page, pixels.
+const OVERLAY_HEIGHT_PX: u32 = 380;
 
 fn overlay(condition: &str, a: &Run, b: &Run) -> std::result::Result<String, String> {
     let (da, sa) = representative(a, condition).ok_or("run A has no record with an SNR")?;
     let (db, sb) = representative(b, condition).ok_or("run B has no record with an SNR")?;
-    let pa = spectrum_points(a, condition, &sa, 600).map_err(|e| format!("run A, {da}: {e}"))?;
-    let pb = spectrum_points(b, condition, &sb, 600).map_err(|e| format!("run B, {db}: {e}"))?;
-    super::plots::series_svg(
+    let ta = spectrum_trace(a, condition, format!("A {da}"), &sa, 600)
+        .map_err(|e| format!("run A, {da}: {e}"))?;
+    let tb = spectrum_trace(b, condition, format!("B {db}"), &sb, 600)
+        .map_err(|e| format!("run B, {db}: {e}"))?;
+    overlay_svg(
         &format!("{condition}: A {da} · B {db}"),
-        "frequency (MHz)",
-        "dBFS per bin",
-        &[("A", &pa), ("B", &pb)],
-        1e6,
+        &[ta, tb],
+        OVERLAY_HEIGHT_PX,
     )
     .map_err(|e| e.to_string())
 }

@@ -24,9 +24,22 @@ impl PgStore {
     pub(crate) fn connect(conn: &str) -> Result<PgStore> {
         let shown = "the PostgreSQL store".to_string();
         let client = Client::connect(conn, NoTls)
-            .map_err(|e| store_error(&shown, "a reachable PostgreSQL server", e))?;
+            .map_err(|e| store_error(&shown, "a reachable PostgreSQL server", pg_text(&e)))?;
         Ok(PgStore { client, shown })
     }
+}
+
+/// An error's whole text: the crate's own says only "db error"; the server's message (and its
+/// detail) is in the source chain.
+fn pg_text(e: &postgres::Error) -> String {
+    let mut text = e.to_string();
+    let mut cause = std::error::Error::source(e);
+    while let Some(c) = cause {
+        text.push_str(": ");
+        text.push_str(&c.to_string());
+        cause = c.source();
+    }
+    text
 }
 
 fn retryable(e: &postgres::Error) -> bool {
@@ -182,7 +195,7 @@ fn write_once(client: &mut Client, lot: &LotRecord) -> std::result::Result<i64, 
 impl Backend for PgStore {
     fn migrate(&mut self) -> Result<i64> {
         let shown = self.shown.clone();
-        let e = |e: postgres::Error| store_error(&shown, "a spurline results store", e);
+        let e = |e: postgres::Error| store_error(&shown, "a spurline results store", pg_text(&e));
         let mut tx = self.client.transaction().map_err(e)?;
         // One migrator at a time, whichever tester connects first.
         tx.execute("SELECT pg_advisory_xact_lock($1)", &[&MIGRATION_LOCK])
@@ -225,13 +238,32 @@ impl Backend for PgStore {
                 }
                 Err(Failed::Db(e)) if retryable(&e) && attempt < RETRIES => attempt += 1,
                 Err(Failed::Db(e)) => {
-                    // Two testers recording the same lot at once: the loser meets the unique key.
-                    if e.code() == Some(&postgres::error::SqlState::UNIQUE_VIOLATION)
-                        && e.to_string().contains("fingerprint")
-                    {
-                        return Err(already_recorded(&self.shown, lot, &lot.info.lot));
+                    // Two testers recording the same lot at once: the loser's check above saw
+                    // no row (the winner had not committed) and its insert meets the unique key
+                    // once the winner commits. The error's text is only "db error": the
+                    // constraint's name says which key it was.
+                    let on_fingerprint = e.as_db_error().is_some_and(|d| {
+                        *d.code() == postgres::error::SqlState::UNIQUE_VIOLATION
+                            && d.table() == Some("runs")
+                            && d.constraint() == Some("runs_fingerprint_key")
+                    });
+                    if on_fingerprint {
+                        let name = self
+                            .client
+                            .query_opt(
+                                "SELECT lot FROM runs WHERE fingerprint = $1",
+                                &[&lot.fingerprint],
+                            )
+                            .ok()
+                            .flatten()
+                            .map_or_else(|| lot.info.lot.clone(), |r| r.get(0));
+                        return Err(already_recorded(&self.shown, lot, &name));
                     }
-                    return Err(store_error(&self.shown, "a lot written into the store", e));
+                    return Err(store_error(
+                        &self.shown,
+                        "a lot written into the store",
+                        pg_text(&e),
+                    ));
                 }
             }
         }
@@ -239,7 +271,7 @@ impl Backend for PgStore {
 
     fn select(&mut self, sql: &str, params: &[Cell]) -> Result<Vec<Vec<Cell>>> {
         let shown = self.shown.clone();
-        let e = |e: postgres::Error| store_error(&shown, "a readable results store", e);
+        let e = |e: postgres::Error| store_error(&shown, "a readable results store", pg_text(&e));
         let owned: Vec<Box<dyn ToSql + Sync>> = params
             .iter()
             .map(|c| -> Box<dyn ToSql + Sync> {
