@@ -65,7 +65,7 @@ pub fn nearest_ratio(x: f64, tolerance: f64, max_denominator: u64) -> Option<(u6
     let mut rest = x;
     for _ in 0..64 {
         let a = rest.floor();
-        if !(a.is_finite() && a >= 0.0 && a < 1e15) {
+        if !(0.0..1e15).contains(&a) {
             return None;
         }
         let a = a as u64;
