@@ -277,6 +277,11 @@ pub fn analyze_averaged(records: &[Record], settings: &AnalysisSettings) -> Resu
         warnings: fit_warnings,
     } = fits.swap_remove(0);
     warnings.extend(fit_warnings);
+    if settings.fit == FitChoice::Three {
+        if let Some(w) = given_fin_against_the_tone(first, &data[0], &fit) {
+            warnings.push(w);
+        }
+    }
     for (r, other) in records.iter().skip(1).zip(&all_fits[1..]) {
         if (other.cycles - fit.cycles).abs() > 0.5 {
             warnings.push(format!(
@@ -379,7 +384,7 @@ fn fit_against_spectrum(
     }
     let peak = if sum_p > 0.0 {
         let tone_hz = sum_kp / sum_p * sp.bin_width_hz;
-        let si = crate::report::units::si;
+        let si = crate::si::si;
         format!(
             "; the spectrum's tone is at {}, {:+.1} Hz from the fit's {}",
             si(tone_hz, "Hz", 9),
@@ -426,6 +431,43 @@ fn clipping_note(c: &Clipping) -> Option<String> {
         "clipping: {est:.1} ± {u:.1} samples clipped of the {} at the end codes (estimated from the sine fitted to the other samples; the rest are the sine's peaks within the end codes' LSB){}",
         c.end_code_samples,
         if est >= 0.5 { "; lower the input level if the clipping is not intended" } else { "" }
+    ))
+}
+
+/// A three-parameter fit takes the given frequency as exact (IEEE Std 1241, the three-parameter
+/// fit): a `--fin` a small fraction of a bin off the tone leaves SINAD nearly intact but turns the
+/// phase, the cycle count and the reported frequency wrong by far more than their uncertainties. A
+/// four-parameter fit started at the given frequency finds the tone's own frequency with its
+/// Cramér-Rao uncertainty (Rife & Boorstyn 1974); when the two differ by more than four of those
+/// sigmas (and more than 1e-9 cycles of rounding) the warning names the figures that follow the
+/// given frequency, by how much it misses the tone, and the fix.
+fn given_fin_against_the_tone(r: &Record, y: &[f64], fit: &SineFit) -> Option<String> {
+    /// Cycles below which two frequencies are the same number (the fits' own convergence).
+    const SAME_CYCLES: f64 = 1e-9;
+    let four = fit::fit_four(
+        y,
+        r.sample_rate_hz,
+        r.bits,
+        FourParamOptions {
+            hint_hz: Some(fit.frequency_hz),
+            ..FourParamOptions::default()
+        },
+    )
+    .ok()?
+    .fit;
+    let sigma = four.cycles_std;
+    let miss = fit.cycles - four.cycles;
+    if !miss.is_finite() || !sigma.is_finite() || miss.abs() <= 4.0 * sigma + SAME_CYCLES {
+        return None;
+    }
+    let si = crate::report::units::si;
+    Some(format!(
+        "--fin {} misses the tone a four-parameter fit finds at {} by {:+.4} Hz ({:.1} sigma, {:+.2e} bins): the fin, cycles, phase and fundamental frequency follow the given --fin, and so do the fit figures (amplitude, offset, residual rms, sine-fit SINAD, sine-fit ENOB); correct --fin or use the four-parameter fit (--fit four)",
+        si(fit.frequency_hz, "Hz", 9),
+        si(four.frequency_hz, "Hz", 9),
+        fit.frequency_hz - four.frequency_hz,
+        miss.abs() / sigma,
+        miss
     ))
 }
 

@@ -109,6 +109,7 @@ mod lot;
 mod plan;
 mod record;
 mod report;
+mod si;
 mod spc;
 mod spectrum;
 mod stats;

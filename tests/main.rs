@@ -21,5 +21,6 @@ mod store;
 mod sweep;
 mod tolerances;
 mod trust;
+mod truth;
 mod uncertainty;
 mod windows_ref;

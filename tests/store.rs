@@ -293,6 +293,72 @@ fn a_transaction_that_fails_midway_leaves_no_trace() {
     }
 }
 
+/// A copy of a lot folder as a larger lot: every device of `from` `copies` times, named
+/// `{prefix}{k}` + its name, so that a writer's transaction lasts long enough to overlap another's.
+fn widened_lot(from: &Path, to: &Path, prefix: &str, copies: usize) {
+    std::fs::create_dir_all(to).unwrap();
+    for f in ["summary.csv", "failures.csv"] {
+        let text = std::fs::read_to_string(from.join(f)).unwrap();
+        let mut lines = text.lines();
+        let mut out = format!("{}\n", lines.next().unwrap());
+        let body: Vec<&str> = lines.collect();
+        for k in 0..copies {
+            for line in &body {
+                assert!(line.starts_with("d0"), "{f}: {line}");
+                out.push_str(&format!("{prefix}{k:03}{line}\n"));
+            }
+        }
+        std::fs::write(to.join(f), out).unwrap();
+    }
+}
+
+/// Per lot in the store: (lot, runs of that name, results, figures, warnings), read with plain SQL
+/// beside the store's own reader.
+fn rows_per_lot(url: &str) -> Vec<(String, i64, i64, i64, i64)> {
+    let sql = "SELECT r.lot, \
+               (SELECT count(*) FROM runs x WHERE x.lot = r.lot), \
+               (SELECT count(*) FROM results x WHERE x.run_id = r.id), \
+               (SELECT count(*) FROM figures x WHERE x.run_id = r.id), \
+               (SELECT count(*) FROM warnings x WHERE x.run_id = r.id) \
+               FROM runs r ORDER BY r.lot";
+    if url.contains("dbname=") {
+        let mut c = postgres::Client::connect(url, postgres::NoTls).unwrap();
+        c.query(sql, &[])
+            .unwrap()
+            .iter()
+            .map(|r| (r.get(0), r.get(1), r.get(2), r.get(3), r.get(4)))
+            .collect()
+    } else {
+        let c = rusqlite::Connection::open(url).unwrap();
+        // The file is whole after the writers' race (SQLite's own check).
+        let ok: String = c
+            .query_row("PRAGMA integrity_check", [], |r| r.get(0))
+            .unwrap();
+        assert_eq!(ok, "ok");
+        let mut st = c.prepare(sql).unwrap();
+        st.query_map([], |r| {
+            Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?, r.get(4)?))
+        })
+        .unwrap()
+        .map(Result::unwrap)
+        .collect()
+    }
+}
+
+/// The migrations each applied once, whoever of the racing writers created the store.
+fn migrations_applied(url: &str) -> (i64, i64) {
+    let sql = "SELECT count(*), count(DISTINCT version) FROM schema_version";
+    if url.contains("dbname=") {
+        let mut c = postgres::Client::connect(url, postgres::NoTls).unwrap();
+        let r = c.query_one(sql, &[]).unwrap();
+        (r.get(0), r.get(1))
+    } else {
+        let c = rusqlite::Connection::open(url).unwrap();
+        c.query_row(sql, [], |r| Ok((r.get(0)?, r.get(1)?)))
+            .unwrap()
+    }
+}
+
 #[test]
 fn concurrent_writers_each_land_once() {
     let work = tempfile::tempdir().unwrap();
@@ -305,21 +371,54 @@ fn concurrent_writers_each_land_once() {
         .output()
         .unwrap();
     assert!(o.status.code().unwrap() <= 1);
+    // Four lots of 200 devices each (the fixture's 4 devices, 50 times over): 400 results and some
+    // 20,000 figures per lot, so that the writers' transactions overlap.
     let lots: Vec<PathBuf> = ["p", "q", "r", "s"]
         .iter()
         .map(|p| {
             let d = work.path().join(format!("lot_{p}"));
-            renamed_lot(&base, &d, p);
+            widened_lot(&base, &d, p, 50);
             d
         })
         .collect();
+    let expected: Vec<(String, i64, i64, i64, i64)> = lots
+        .iter()
+        .map(|d| {
+            let name = d.file_name().unwrap().to_string_lossy().to_string();
+            let rec =
+                spurline::LotRecord::from_folder(d, spurline::RunInfo::now(&name), None).unwrap();
+            let warnings = LotSummary::in_folder(d)
+                .unwrap()
+                .all_rows()
+                .unwrap()
+                .iter()
+                .map(|r| {
+                    // The summary joins a result's warnings with " | " (`figures::flatten`).
+                    r.text(figures::WARNINGS.key).map_or(0, |t| {
+                        t.split(" | ").filter(|w| !w.trim().is_empty()).count() as i64
+                    })
+                })
+                .sum();
+            (
+                name,
+                1,
+                rec.results() as i64,
+                rec.figures() as i64,
+                warnings,
+            )
+        })
+        .collect();
+    assert!(
+        expected.iter().all(|e| e.2 == 400 && e.3 > 10_000),
+        "{expected:?}"
+    );
     let sqlite = work.path().join("store.sqlite");
     // The issue's numbers: 2 writers into one SQLite file, 4 into one PostgreSQL store; each writer
-    // here also races a second copy of the same lot, which must be refused.
+    // here also races a second copy of the same lot, which must be refused (exit status 1). The
+    // store does not exist before the race: the writers also race to create it and migrate it.
     let mut cases = vec![(sqlite.to_str().unwrap().to_string(), 2usize)];
     cases.extend(pg_store("spurline_concurrent").map(|u| (u, 4)));
     for (url, writers) in cases {
-        drop(open(&url));
         let children: Vec<_> = lots[..writers]
             .iter()
             .chain(lots[..writers].iter())
@@ -334,32 +433,40 @@ fn concurrent_writers_each_land_once() {
                     .unwrap()
             })
             .collect();
-        let codes: Vec<i32> = children
+        let outs: Vec<_> = children
             .into_iter()
-            .map(|c| c.wait_with_output().unwrap().status.code().unwrap())
+            .map(|c| c.wait_with_output().unwrap())
+            .collect();
+        let codes: Vec<i32> = outs.iter().map(|o| o.status.code().unwrap()).collect();
+        let errs: Vec<String> = outs
+            .iter()
+            .map(|o| String::from_utf8_lossy(&o.stderr).to_string())
             .collect();
         assert_eq!(
             codes.iter().filter(|&&c| c == 0).count(),
             writers,
-            "{codes:?}"
+            "{codes:?} {errs:?}"
         );
         assert_eq!(
             codes.iter().filter(|&&c| c == 1).count(),
             writers,
-            "{codes:?}"
+            "{codes:?} {errs:?}"
         );
+        // The refused ones say why.
+        for (c, e) in codes.iter().zip(&errs) {
+            assert!(*c == 0 || e.contains("already recorded as 'lot_"), "{e}");
+        }
+        // Every lot once, each with all its rows: none lost, none doubled.
+        assert_eq!(rows_per_lot(&url), expected[..writers].to_vec(), "{url}");
+        let (applied, distinct) = migrations_applied(&url);
+        assert_eq!(applied, distinct);
         let mut store = open(&url);
-        let mut names: Vec<String> = store.runs().unwrap().into_iter().map(|r| r.lot).collect();
-        names.sort();
-        let want: Vec<String> = lots[..writers]
-            .iter()
-            .map(|d| d.file_name().unwrap().to_string_lossy().to_string())
-            .collect();
-        assert_eq!(names, want);
+        assert_eq!(applied, store.schema_version());
         for p in &["p", "q", "r", "s"][..writers] {
+            // The fixture's two conditions, once each.
             assert_eq!(
                 store
-                    .device_history(&format!("{p}d01"), Some("spectrum.snr_db"))
+                    .device_history(&format!("{p}049d01"), Some("spectrum.snr_db"))
                     .unwrap()
                     .len(),
                 2
@@ -524,4 +631,107 @@ fn trend_charts_the_lots_and_flags_a_shift() {
         let page = std::fs::read_to_string(out.join("index.html")).unwrap();
         assert!(page.contains("<svg") && page.contains("WE1"));
     });
+}
+
+#[test]
+fn an_analyze_report_is_recorded_with_records_as_conditions() {
+    on_both("spurline_analyze", |url| {
+        let work = tempfile::tempdir().unwrap();
+        let report = work.path().join("bench-7");
+        let files: Vec<PathBuf> = ["d01", "d02"]
+            .iter()
+            .flat_map(|d| {
+                ["fin_10M_1", "fin_31M_1"].map(|r| records().join(format!("records/{d}/{r}.bin")))
+            })
+            .collect();
+        let run = || {
+            spurline()
+                .arg("analyze")
+                .args(&files)
+                .arg("--report")
+                .arg(&report)
+                .args(["--store", url, "--json"])
+                .output()
+                .unwrap()
+        };
+        let o = run();
+        assert_eq!(
+            o.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        let json: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+        let mut store = open(url);
+        let runs = store.runs().unwrap();
+        assert_eq!(runs.len(), 1);
+        // The report folder's name; a report has no verdicts: every result untested.
+        assert_eq!(runs[0].lot, "bench-7");
+        assert_eq!((runs[0].devices, runs[0].results), (2, 4));
+        assert_eq!(runs[0].untested, 4);
+        // Each record's SNR as analyze printed it, under its device and its name as the condition.
+        for (k, f) in files.iter().enumerate() {
+            let device = f.parent().unwrap().file_name().unwrap().to_str().unwrap();
+            let record = f.file_stem().unwrap().to_str().unwrap();
+            let history = store
+                .device_history(device, Some("spectrum.snr_db"))
+                .unwrap();
+            let got = history.iter().find(|h| h.condition == record).unwrap();
+            assert_eq!(
+                Some(got.value),
+                json[k]["spectrum"]["snr_db"].as_f64(),
+                "{device} {record}"
+            );
+        }
+        // The same report again: refused, exit status 1, nothing added.
+        let o = run();
+        assert_eq!(o.status.code(), Some(1));
+        assert!(String::from_utf8_lossy(&o.stderr).contains("already recorded as 'bench-7'"));
+        assert_eq!(open(url).runs().unwrap().len(), 1);
+    });
+}
+
+#[test]
+fn the_demo_records_both_revisions_and_charts_them() {
+    let work = tempfile::tempdir().unwrap();
+    let out = work.path().join("demo");
+    let o = spurline()
+        .args(["demo", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let mut store = open(out.join("store.sqlite").to_str().unwrap());
+    let runs = store.runs().unwrap();
+    let names: Vec<&str> = runs.iter().map(|r| r.lot.as_str()).collect();
+    assert_eq!(names, ["rev-a", "rev-b"]);
+    for r in &runs {
+        // 12 devices × 3 conditions (src/cli/demo_lot.rs); counts as the lot's own yield file says.
+        assert_eq!((r.devices, r.results), (12, 36));
+        let summary = LotSummary::in_folder(&out.join(format!("lot-{}/results", r.lot))).unwrap();
+        let rows = summary.all_rows().unwrap();
+        let passed = rows.iter().filter(|x| x.verdict() == Some("pass")).count();
+        assert_eq!(r.passed as usize, passed);
+        assert!(r.limits_fingerprint.is_some());
+    }
+    // The trend page: one X̄ chart per condition and metric, both lots on each; rev-b's cleaner
+    // clock moves SNR at 47.3 MHz (aperture jitter: SNR = −20·log10(2π·fin·σt), the handbook
+    // jitter limit) far beyond the spread within the lots, so that chart flags it.
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("trend/trend.json")).unwrap())
+            .unwrap();
+    let charts = json["charts"].as_array().unwrap();
+    assert!(charts.len() >= 9, "{}", charts.len());
+    assert!(charts
+        .iter()
+        .all(|c| c["chart"] == "xbar" && c["points"].as_array().unwrap().len() == 2));
+    let snr = charts
+        .iter()
+        .find(|c| c["condition"] == "fin_47M" && c["metric"] == "spectrum.snr_db")
+        .unwrap();
+    let (a, b) = (&snr["points"][0], &snr["points"][1]);
+    assert!(b["mean"].as_f64().unwrap() > a["mean"].as_f64().unwrap());
+    assert!(b["rules"].as_array().unwrap().iter().any(|r| r == "WE1"));
+    let page = std::fs::read_to_string(out.join("trend/index.html")).unwrap();
+    assert!(page.contains("<svg") && page.contains("rev-b"));
 }

@@ -30,6 +30,14 @@ pub struct AnalyzeArgs {
     /// Draw the report's spectra on a log frequency axis.
     #[arg(long, requires = "report")]
     pub log_frequency: bool,
+    /// Record the report into this results store (a SQLite file, created when missing, or a
+    /// PostgreSQL URL): each record file's folder is a device, its name a condition. One
+    /// transaction; the same report recorded twice is refused (exit status at least 1).
+    #[arg(long, requires = "report")]
+    pub store: Option<String>,
+    /// The lot's name in the store [default: the report folder's name].
+    #[arg(long, requires = "store")]
+    pub lot: Option<String>,
 }
 
 /// Device and record names of a record file: its folder's name (or "records") and its file stem.
@@ -69,6 +77,16 @@ pub fn run(args: AnalyzeArgs) -> i32 {
         Ok(s) => s,
         Err(e) => return fail_all(&e),
     };
+    let started_at = spurline::utc_now();
+    if let Some(s) = &args.store {
+        // A bad store is an error before the records are read, not after.
+        if let Err(e) = s
+            .parse::<spurline::StoreUrl>()
+            .and_then(|u| spurline::Store::open(&u))
+        {
+            return super::fail(&e);
+        }
+    }
     // Traces are kept only when a report will draw them.
     let keep = args.report.is_some();
     let mut results: Vec<(Analysis, Option<Traces>)> = Vec::new();
@@ -171,6 +189,22 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             "spurline: wrote report {}",
             dir.join("index.html").display()
         );
+        if let Some(store) = &args.store {
+            let name = args
+                .lot
+                .clone()
+                .unwrap_or_else(|| super::record::folder_name(dir));
+            let mut info = spurline::RunInfo::now(&name);
+            info.started_at = Some(started_at);
+            info.title = title;
+            let stored = match super::record::record(store, dir, info, None, args.json) {
+                Ok(code) => code,
+                Err(e) => return super::fail(&e),
+            };
+            if !any_error {
+                return stored;
+            }
+        }
     }
     if any_error {
         EXIT_ERROR

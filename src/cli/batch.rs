@@ -134,7 +134,7 @@ fn go(args: &BatchArgs) -> Result<i32, spurline::Error> {
     if let Some(l) = &args.limits {
         info.limits_fingerprint = Some(spurline::file_fingerprint(l)?);
     }
-    let stored = super::record::record(store, &out, info, limits.as_ref())?;
+    let stored = super::record::record(store, &out, info, limits.as_ref(), false)?;
     Ok(code.max(stored))
 }
 

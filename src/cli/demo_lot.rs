@@ -2,15 +2,18 @@
 //! (d01..d12) are built on two board revisions. Revision A has the original sampling clock; revision B
 //! has a cleaner clock (less aperture jitter) but a new regulator that lifts the third harmonic. Each
 //! device is captured at three input frequencies, the two lots are run against one limit table, and the
-//! revisions are compared device by device.
+//! revisions are compared device by device. Both lots are recorded into a results store
+//! (`store.sqlite`, made afresh each run) and charted lot against lot (`trend/`).
 
 use rand::{Rng, SeedableRng};
 use spurline::LimitTable;
 use spurline::{compare, read_run, write_comparison, Change, CompareSettings};
+use spurline::{file_fingerprint, trend, write_trend, ChartKind, TrendSettings};
 use spurline::{run_lot, BatchOptions, BenchPlan, Plots};
 use spurline::{synthesize, write_record, OutputLayout, SynthFrequency, SynthSettings};
 use spurline::{write_sidecar, Sidecar};
 use spurline::{Error, ErrorKind, Location};
+use spurline::{LotRecord, RunInfo, Store, StoreUrl};
 use std::path::Path;
 
 const DEVICES: usize = 12;
@@ -72,6 +75,7 @@ pub fn run(out: &Path) -> Result<(), Error> {
         .map(|_| (rng.gen_range(0.22..0.36), rng.gen_range(-1.5..1.5)))
         .collect();
     let mut runs = Vec::new();
+    let mut plans = Vec::new();
     for (ri, (rev, jitter, h3)) in REVISIONS.iter().enumerate() {
         let lot_dir = out.join(format!("lot-{rev}"));
         for (d, (noise, h3_spread)) in parts.iter().enumerate() {
@@ -144,7 +148,9 @@ pub fn run(out: &Path) -> Result<(), Error> {
             results_dir.join("yield.csv").display()
         );
         runs.push(results_dir);
+        plans.push(plan_path);
     }
+    record_and_trend(out, &runs, &plans, &limits_path)?;
     let (a, b) = (read_run(&runs[0])?, read_run(&runs[1])?);
     let c = compare(
         &a,
@@ -176,5 +182,76 @@ pub fn run(out: &Path) -> Result<(), Error> {
         );
     }
     println!("wrote {}", cmp_dir.join("comparison.html").display());
+    Ok(())
+}
+
+/// When the scenario's lots ran (fixed, so the demo's files are the same every run): rev-a on the
+/// first bench day, rev-b four weeks later.
+const RUN_TIMES: [(&str, &str); 2] = [
+    ("2026-11-02T08:00:00Z", "2026-11-02T08:40:00Z"),
+    ("2026-11-30T08:00:00Z", "2026-11-30T08:40:00Z"),
+];
+
+/// Records both lots into a fresh store under `out` and draws their trend page: an X̄ chart of the
+/// two lots (σ from the spread within each lot, both lots as the baseline), where the revision
+/// change shows as a shift.
+fn record_and_trend(
+    out: &Path,
+    runs: &[std::path::PathBuf],
+    plans: &[std::path::PathBuf],
+    limits_path: &Path,
+) -> Result<(), Error> {
+    let store_path = out.join("store.sqlite");
+    // A fresh store each run: the same lots would otherwise be refused as already recorded.
+    for suffix in ["", "-wal", "-shm", "-journal"] {
+        let p = out.join(format!("store.sqlite{suffix}"));
+        if p.is_file() {
+            std::fs::remove_file(&p).map_err(|e| io(&p, e))?;
+        }
+    }
+    let url = StoreUrl::Sqlite(store_path.clone());
+    let mut store = Store::open(&url)?;
+    for (((rev, _, _), (dir, plan_path)), (start, end)) in
+        REVISIONS.iter().zip(runs.iter().zip(plans)).zip(RUN_TIMES)
+    {
+        let plan = BenchPlan::read(plan_path)?;
+        let limits = LimitTable::read(limits_path, &plan.limit_scope())?;
+        let mut info = RunInfo::now(rev);
+        info.title = plan.title.clone().unwrap_or_else(|| rev.to_string());
+        info.plan_fingerprint = Some(file_fingerprint(plan_path)?);
+        info.limits_fingerprint = Some(file_fingerprint(limits_path)?);
+        info.started_at = Some(start.to_string());
+        info.ended_at = end.to_string();
+        // The scenario's bench, not this machine: the store's bytes do not depend on where the
+        // demo runs.
+        info.host = "demo-bench".to_string();
+        let lot = LotRecord::from_folder(dir, info, Some(&limits))?;
+        store.record(&lot)?;
+    }
+    drop(store);
+    let mut store = Store::open(&url)?;
+    let t = trend(
+        &mut store,
+        &TrendSettings {
+            baseline: REVISIONS.len(),
+            chart: ChartKind::Xbar,
+            ..TrendSettings::default()
+        },
+    )?;
+    drop(store);
+    let trend_dir = out.join("trend");
+    write_trend(&trend_dir, &t)?;
+    println!(
+        "\nrecorded both lots into {}; X-bar charts of the two lots, {} of {} with a run rule fired \
+         (the revision change):",
+        store_path.display(),
+        t.charts.iter().filter(|c| !c.fired().is_empty()).count(),
+        t.charts.len()
+    );
+    for c in t.charts.iter().filter(|c| !c.fired().is_empty()) {
+        let names: Vec<&str> = c.fired().iter().map(|r| r.name()).collect();
+        println!("  {:<8} {:<28} {}", c.condition, c.metric, names.join(" "));
+    }
+    println!("wrote {}", trend_dir.join("index.html").display());
     Ok(())
 }

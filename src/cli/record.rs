@@ -56,7 +56,7 @@ pub fn run(args: RecordArgs) -> i32 {
                 info.limits_fingerprint = Some(file_fingerprint(l)?);
             }
         }
-        record(&args.store, &args.lot_dir, info, limits.as_ref())
+        record(&args.store, &args.lot_dir, info, limits.as_ref(), false)
     };
     match go() {
         Ok(code) => code,
@@ -71,13 +71,15 @@ pub(crate) fn folder_name(dir: &Path) -> String {
         .map_or("lot".to_string(), |n| n.to_string_lossy().to_string())
 }
 
-/// Records a finished lot folder into the store and says so; a lot already stored is exit status 1
-/// (reported, nothing written).
+/// Records a finished lot folder into the store and says so (on stderr when `stdout_taken`: stdout
+/// holds a document such as `analyze --json`'s); a lot already stored is exit status 1 (reported,
+/// nothing written).
 pub(crate) fn record(
     store: &str,
     dir: &Path,
     info: RunInfo,
     limits: Option<&LimitTable>,
+    stdout_taken: bool,
 ) -> Result<i32, spurline::Error> {
     let url: StoreUrl = store.parse()?;
     let lot = LotRecord::from_folder(dir, info, limits)?;
@@ -85,7 +87,7 @@ pub(crate) fn record(
     let start = std::time::Instant::now();
     match store.record(&lot) {
         Ok(r) => {
-            println!(
+            let said = format!(
                 "recorded lot '{}' into {url}: run {}, {} results, {} figures, fingerprint {} ({:.2} s)",
                 lot.info().lot,
                 r.run_id,
@@ -94,6 +96,11 @@ pub(crate) fn record(
                 r.fingerprint,
                 start.elapsed().as_secs_f64()
             );
+            if stdout_taken {
+                eprintln!("spurline: {said}");
+            } else {
+                println!("{said}");
+            }
             Ok(EXIT_OK)
         }
         Err(e) if e.kind == spurline::ErrorKind::AlreadyRecorded => {

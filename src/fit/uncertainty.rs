@@ -14,7 +14,7 @@ use std::f64::consts::{LN_10, LN_2};
 pub(crate) const DB_PER_NEPER_POWER: f64 = 10.0 / LN_10;
 
 /// One-sigma standard uncertainties of a fit's figures, keyed as the figures are; `None` where the
-/// figure is absent or not measured (the frequency of a three-parameter fit is given, not fitted).
+/// figure is absent.
 #[derive(Debug, Clone, PartialEq, Default, Serialize)]
 pub struct FitUncertainty {
     /// Of the fitted frequency, hertz.
@@ -43,8 +43,9 @@ pub struct FitUncertainty {
 /// frame is diagonal (Kay 1993, Example 3.14, from memory; the frequency's element is checked against
 /// the inverse Fisher information in `super::tests`):
 /// var(A) = 2σ²/N, var(C) = σ²/N, var(φ_centre) = 2σ²/(A²N), var(ω) = 24σ²/(A²N(N²−1)).
-/// The phase at sample 0 is φ_centre − ω·(N−1)/2, so a four-parameter fit adds ((N−1)/2)²·var(ω)
-/// (four times the centred variance in all); a three-parameter fit knows ω. The residual rms s of
+/// The phase at sample 0 is φ_centre − ω·(N−1)/2, so it adds ((N−1)/2)²·var(ω) (four times the
+/// centred variance in all); a three-parameter fit is given ω, but only as well as the record can
+/// check it, so it states the same. The residual rms s of
 /// Gaussian noise has var(s) ≈ σ²/(2(N − p)) (chi-square with N − p degrees of freedom, delta method).
 /// SINAD = 20·log10(A/(√2·s)) and ENOB = N_bits − log2(s·√12) follow by the delta method.
 pub fn of_fit(
@@ -66,19 +67,18 @@ pub fn of_fit(
     let sd_amp = sigma * (2.0 / n).sqrt();
     let sd_offset = sigma / n.sqrt();
     let var_phase_centre = 2.0 * sigma * sigma / (amplitude * amplitude * n);
-    let (frequency_hz, var_phase) = match method {
-        FitMethod::ThreeParameter => (None, var_phase_centre),
-        FitMethod::FourParameter => {
-            // cycles_std is the Cramér-Rao form in cycles per record: ω's sd times N/(2π).
-            let sd_cycles = cycles_std(amplitude, sigma, samples);
-            let sd_omega = sd_cycles * std::f64::consts::TAU / n;
-            let centre = (n - 1.0) / 2.0;
-            (
-                Some(sd_cycles * sample_rate_hz / n),
-                var_phase_centre + (centre * sd_omega).powi(2),
-            )
-        }
-    };
+    // The frequency's Cramér-Rao σ, for both fits: a three-parameter fit takes its frequency as
+    // given, but the record can check a given frequency only to this σ (the analysis warns when a
+    // four-parameter fit finds the tone further away), so the given frequency, and the phase it
+    // carries back to sample 0, are stated with it. cycles_std is the form in cycles per record:
+    // ω's sd times N/(2π).
+    let sd_cycles = cycles_std(amplitude, sigma, samples);
+    let sd_omega = sd_cycles * std::f64::consts::TAU / n;
+    let centre = (n - 1.0) / 2.0;
+    let (frequency_hz, var_phase) = (
+        Some(sd_cycles * sample_rate_hz / n),
+        var_phase_centre + (centre * sd_omega).powi(2),
+    );
     let rel_amp = sd_amp / amplitude;
     let sd_rms = sigma / (2.0 * (n - p)).sqrt();
     let (sinad, enob) = if residual_rms > 0.0 {
@@ -118,11 +118,16 @@ mod tests {
         assert!((u.amplitude_codes.unwrap() / sd_a - 1.0).abs() < EXACT);
         let want_dbfs = 20.0 / LN_10 * sd_a / 1000.0;
         assert!((u.amplitude_dbfs.unwrap() / want_dbfs - 1.0).abs() < EXACT);
-        assert!(u.frequency_hz.is_none());
-        let four = of_fit(FitMethod::FourParameter, 1000.0, 1.0, 10_004, 1e6);
-        // The four-parameter phase at sample 0 has about four times the centred variance.
-        let ratio = four.phase_rad.unwrap() / u.phase_rad.unwrap();
+        // The phase at sample 0 has about four times the centred variance 2σ²/(A²N) (the
+        // frequency's share carried back half a record), for either fit.
+        let centred = (2.0 / (1000.0f64.powi(2) * n)).sqrt();
+        let ratio = u.phase_rad.unwrap() / centred;
         assert!((ratio - 2.0).abs() < 1e-3, "{ratio}");
+        // The frequency's σ is the Cramér-Rao form for both fits.
+        let four = of_fit(FitMethod::FourParameter, 1000.0, 1.0, 10_004, 1e6);
+        let want = cycles_std(1000.0, (10_004.0f64 / 10_000.0).sqrt(), 10_004) * 1e6 / 10_004.0;
+        assert!((four.frequency_hz.unwrap() / want - 1.0).abs() < EXACT);
+        assert!(u.frequency_hz.is_some());
         assert!(of_fit(FitMethod::FourParameter, 0.0, 1.0, 100, 1.0)
             .amplitude_codes
             .is_none());

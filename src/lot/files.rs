@@ -196,7 +196,8 @@ pub(crate) fn read_bytes(path: &Path, what: &str) -> Result<Vec<u8>> {
 
 /// A lot's (or a device's) `summary.csv`, read whole and parsed row by row ([`LotSummary::rows`]).
 /// Only `device` and `condition` columns are required, so that summaries put together by hand read
-/// too; the batch's other lead columns are optional.
+/// too; the batch's other lead columns are optional. The summary of an `analyze --report` folder
+/// (`device`, `record`) reads as a lot whose conditions are its record names.
 #[derive(Debug)]
 pub struct LotSummary {
     path: PathBuf,
@@ -220,7 +221,7 @@ impl LotSummary {
     }
 
     /// Reads a summary CSV file and its header. Errors: a file that cannot be read, a header that
-    /// does not parse, no `device` or `condition` column.
+    /// does not parse, no `device` column, or neither a `condition` nor a `record` column.
     pub fn read(path: &Path) -> Result<LotSummary> {
         let bytes = read_bytes(path, "a readable lot summary.csv")?;
         let mut rdr = ::csv::ReaderBuilder::new().from_reader(bytes.as_slice());
@@ -232,11 +233,15 @@ impl LotSummary {
             .collect();
         let header_len = rdr.position().byte() as usize;
         let col = |name: &str| columns.iter().position(|h| h == name);
-        let (Some(device), Some(condition)) = (col("device"), col("condition")) else {
+        // An analyze report names records where a lot names conditions.
+        let (Some(device), Some(condition)) =
+            (col("device"), col("condition").or_else(|| col("record")))
+        else {
             return Err(read_error(
                 path,
                 Location::Row(1),
-                "columns 'device' and 'condition' (a lot summary written by spurline batch)",
+                "columns 'device' and 'condition' (a lot summary written by spurline batch) \
+                 or 'device' and 'record' (a report of spurline analyze)",
                 format!("the columns {}", columns.join(", ")),
             ));
         };

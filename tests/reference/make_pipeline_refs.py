@@ -186,6 +186,27 @@ def db(x):
     return 10 * math.log10(x) if x > 0 and math.isfinite(x) else None
 
 
+def dirichlet(x, N):
+    """|D(x)| normalised to 1 at x = 0: the rectangular window's response x bins off."""
+    return 1.0 if x == 0 else abs(math.sin(math.pi * x) / (N * math.sin(math.pi * x / N)))
+
+
+def unwindowed_lobe(P, owner, k, mean, N, noise):
+    """An unclaimed sine off the bin grid, unwindowed: its offset d from the two largest bins' ratio
+    (noise expectation removed), solved numerically on the Dirichlet kernel, and its power
+    from the largest bin over D(d)^2 (spurline's convention, src/spectrum/claim.rs)."""
+    def excess(j):
+        return max(P[j] - mean, 0.0) if 0 <= j < len(P) and owner[j] == noise else 0.0
+    peak = P[k] - mean
+    if peak <= 0:
+        return P[k]
+    r = min(math.sqrt(max(excess(k - 1), excess(k + 1)) / peak), 1.0)
+    if r == 0:
+        return P[k]
+    d = scipy.optimize.brentq(lambda x: dirichlet(1 - x, N) / dirichlet(x, N) - r, 1e-12, 0.5)
+    return mean + peak / dirichlet(d, N) ** 2
+
+
 def analyse(codes, bits):
     y = codes.astype(np.float64)
     N = len(y)
@@ -259,6 +280,8 @@ def analyse(codes, bits):
     k_big = max(noise_idx, key=lambda k: (P[k], -k))
     lobe = sum(P[k] for k in range(max(k_big - half, 0), min(k_big + half, last) + 1)
                if owner[k] == NOISE)
+    if half == 0:
+        lobe = unwindowed_lobe(P, owner, k_big, mean, N, NOISE)
     if worst is None or lobe > worst:
         worst = lobe
         spur_is_harmonic = False

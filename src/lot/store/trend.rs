@@ -446,6 +446,30 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.fired td.v{{color:#A4243B
         );
     }
     let _ = writeln!(h, "</table>");
+    // The charts number their lots 1..N, oldest first: which lot is which, from the chart with the
+    // most lots (every chart, when every lot measured every metric).
+    let lots: Vec<(&str, &str)> =
+        t.charts
+            .iter()
+            .max_by_key(|c| c.points.len())
+            .map_or_else(Vec::new, |c| {
+                c.points
+                    .iter()
+                    .map(|p| (p.ended_at.as_str(), p.lot.as_str()))
+                    .collect()
+            });
+    let _ = write!(h, "<p>Lots, oldest first:");
+    for (k, (ended, lot)) in lots.iter().enumerate() {
+        let _ = write!(
+            h,
+            " {}&nbsp;{}&nbsp;({}){}",
+            k + 1,
+            escape(lot),
+            escape(ended),
+            if k + 1 < lots.len() { "," } else { "" }
+        );
+    }
+    let _ = writeln!(h, "</p>");
     for l in &t.left_out {
         let _ = writeln!(h, "<p>{}</p>", escape(l));
     }
