@@ -2,7 +2,7 @@
 //! spectrum, then one result record that every output format is made from.
 
 use crate::error::{Error, ErrorKind, Location, Result};
-use crate::fit::{self, FitOutput, FourParamOptions, SineFit};
+use crate::fit::{self, Clipping, FitOutput, FourParamOptions, SineFit};
 use crate::record::Record;
 use crate::spectrum::{self, claim::Owner, Spectrum, SpectrumSettings};
 use serde::Serialize;
@@ -149,6 +149,8 @@ pub struct OneTone {
     pub fit: Option<SineFit>,
     /// The spectral figures.
     pub spectrum: Option<Spectrum>,
+    /// Samples at the end codes and samples clipped (of the first record when several were averaged).
+    pub clipping: Option<Clipping>,
 }
 
 /// The result record of one analysis: every output (text, JSON, CSV, HTML) is made from this.
@@ -430,8 +432,7 @@ fn measure_records(
             for (i, (r, y)) in records.iter().zip(&data).enumerate() {
                 // Only the first record's residual is ever drawn.
                 let keep = i == 0 && settings.keep_residual;
-                let mut out =
-                    run_fit(r, y, settings, keep).map_err(|e| e.with_path(&r.source))?;
+                let mut out = run_fit(r, y, settings, keep).map_err(|e| e.with_path(&r.source))?;
                 if r.bits_reported() == 0 {
                     // The fit form of ENOB counts in steps of the stated resolution; without one it
                     // would report the nominal scale's bits.
@@ -445,6 +446,7 @@ fn measure_records(
         || crate::dft::fft::plan(samples),
     );
     let mut fits = fits?;
+    let all_fits: Vec<SineFit> = fits.iter().map(|o| o.fit.clone()).collect();
     let FitOutput {
         fit,
         residual,
@@ -456,29 +458,55 @@ fn measure_records(
             warnings.push(w);
         }
     }
-    for (r, other) in records.iter().skip(1).zip(&fits) {
-        if (other.fit.cycles - fit.cycles).abs() > 0.5 {
+    for (r, other) in records.iter().skip(1).zip(&all_fits[1..]) {
+        if (other.cycles - fit.cycles).abs() > 0.5 {
             warnings.push(format!(
                 "{} has its tone at {:.3} cycles, {:.3} cycles from the first record: averaging smears it",
                 r.source,
-                other.fit.cycles,
-                other.fit.cycles - fit.cycles
+                other.cycles,
+                other.cycles - fit.cycles
             ));
         }
     }
+    // Clipping is counted on the first record's samples before the spectrum consumes them (a record of
+    // values has no end codes).
+    let clipping = first
+        .has_codes()
+        .then(|| fit::clipping::clipping(&data[0], first.bits, &fit));
     // The spectra are taken in the f64 copies themselves, which are not needed after them.
-    let spec = spectrum::measure_consuming(
+    let mut spec = match spectrum::measure_consuming(
         data,
-        &fit,
+        &all_fits,
         first.sample_rate_hz,
         first.bits,
         &settings.spectrum,
         Some(&plan),
-    )
-    .map_err(|e| e.with_path(&src))?;
+    ) {
+        Ok(spec) => Some(spec),
+        // A tone among the DC bins (a few cycles in the record, not coherent) cannot be told from DC
+        // by any window, but the sine fit finds it: the fit figures stand, the spectral ones are
+        // withheld with the reason.
+        Err(e) if e.kind == ErrorKind::ToneAtEdge => {
+            warnings.push(format!(
+                "spectral figures withheld (fundamental level, SNR, SINAD, THD, SFDR, spectral and full-scale ENOB, noise floor, NSD, harmonics, worst spur): the spectrum needs {}, and found {}; the sine-fit figures are reported, with sine-fit SINAD and ENOB counting distortion as noise",
+                e.expected, e.found
+            ));
+            None
+        }
+        Err(e) => return Err(e.with_path(&src)),
+    };
     drop(plan);
-    warnings.extend(spec.warnings);
-    if let Some(w) = fit_against_spectrum(&fit, &spec.spectrum, &spec.powers, &spec.owner) {
+    if let Some(spec) = &mut spec {
+        warnings.append(&mut spec.warnings);
+        if let Some(w) = fit_against_spectrum(&fit, &spec.spectrum, &spec.powers, &spec.owner) {
+            warnings.push(w);
+        }
+    }
+    let (spectrum_figures, powers, owner) = match spec {
+        Some(s) => (Some(s.spectrum), s.powers, s.owner),
+        None => (None, Vec::new(), Vec::new()),
+    };
+    if let Some(w) = clipping.as_ref().and_then(clipping_note) {
         warnings.push(w);
     }
     Ok(Measured {
@@ -490,15 +518,16 @@ fn measure_records(
                 OneTone {
                     full_scale_vpp: first.full_scale_vpp,
                     fit: Some(fit),
-                    spectrum: Some(spec.spectrum),
+                    spectrum: spectrum_figures,
+                    clipping,
                 },
                 warnings,
             )
         },
         traces: Traces {
             residual,
-            powers: spec.powers,
-            owner: spec.owner,
+            powers,
+            owner,
             codes: counts,
         },
     })
@@ -565,6 +594,26 @@ fn fit_against_spectrum(
     Some(format!(
         "sine-fit SINAD {fs:.2} dB and spectral SINAD {ss:.2} dB differ by {:.2} dB (allowed {allowed:.2} dB){peak}: {culprit} do not describe the converter; {fix}",
         fs - ss
+    ))
+}
+
+/// What the end-code samples mean: how many of them were clipped (the figure the limits and the
+/// tables use), and how many are the sine's peaks inside the end codes' own LSB.
+fn clipping_note(c: &Clipping) -> Option<String> {
+    if c.end_code_samples == 0 {
+        return None;
+    }
+    let Some(est) = c.clipped_samples else {
+        return Some(format!(
+            "{} samples at the end codes, too many to fit the sine to the rest: the number clipped is not estimated (lower the input level)",
+            c.end_code_samples
+        ));
+    };
+    let u = c.uncertainty.clipped_samples.unwrap_or(0.0);
+    Some(format!(
+        "clipping: {est:.1} ± {u:.1} samples clipped of the {} at the end codes (estimated from the sine fitted to the other samples; the rest are the sine's peaks within the end codes' LSB){}",
+        c.end_code_samples,
+        if est >= 0.5 { "; lower the input level if the clipping is not intended" } else { "" }
     ))
 }
 
@@ -748,6 +797,7 @@ mod tests {
             sample_rate_hz: 1e6,
             bits: 12,
             full_scale_vpp: None,
+            values: None,
             fin_hint_hz: None,
         }
     }

@@ -42,6 +42,8 @@ pub enum Unit {
     Cycles,
     /// FFT bins.
     Bins,
+    /// Samples of the record, as a measured (possibly fractional) number.
+    Samples,
     /// Volts peak-to-peak.
     Vpp,
     /// A count of things (samples, records, iterations).
@@ -65,6 +67,7 @@ impl Unit {
             Unit::Rad => "rad",
             Unit::Cycles => "cycles",
             Unit::Bins => "bins",
+            Unit::Samples => "samples",
             Unit::Vpp => "Vpp",
             Unit::Count | Unit::None => "",
         }
@@ -467,6 +470,16 @@ pub static LEAKAGE_SIGNIFICANT: Figure =
     flag("spectrum.leakage.significant", "leakage significant");
 /// What would fix the leakage.
 pub static LEAKAGE_ADVICE: Figure = text("spectrum.leakage.advice", "leakage advice");
+/// Samples at the end codes.
+pub static END_CODE_SAMPLES: Figure = integer(
+    "clipping.end_code_samples",
+    "samples at the end codes",
+    Unit::Count,
+);
+/// Samples clipped (estimated from the sine fitted off the end codes).
+pub static CLIPPED_SAMPLES: Figure = number("clipping.clipped_samples", "clipped", Unit::Samples)
+    .lower()
+    .uncertain();
 /// What the user should know about the record.
 pub static WARNINGS: Figure = text("warnings", "warnings");
 /// The class of error of a failed record.
@@ -474,7 +487,7 @@ pub static ERROR_KIND: Figure = text("error.kind", "error kind");
 /// The whole error message of a failed record.
 pub static ERROR_MESSAGE: Figure = text("error.message", "error");
 
-static TABLE: [&Figure; 63] = [
+static TABLE: [&Figure; 65] = [
     &SOURCE,
     &SAMPLES,
     &SAMPLE_RATE,
@@ -535,6 +548,8 @@ static TABLE: [&Figure; 63] = [
     &SFDR_BIAS,
     &LEAKAGE_SIGNIFICANT,
     &LEAKAGE_ADVICE,
+    &END_CODE_SAMPLES,
+    &CLIPPED_SAMPLES,
     &WARNINGS,
     &ERROR_KIND,
     &ERROR_MESSAGE,
@@ -844,8 +859,8 @@ mod tests {
     }
 
     // The crate's naming convention (crate docs: units in names): a key whose last part carries a unit
-    // suffix has that unit. Only the fit's cycle uncertainty (`cycles_std`) has a unit its name does
-    // not carry.
+    // suffix has that unit. Only the fit's cycle uncertainty (`cycles_std`) and the clipped-sample
+    // estimate have a unit their names do not carry.
     #[test]
     fn units_agree_with_the_names() {
         let suffixes = [
@@ -869,6 +884,9 @@ mod tests {
             match named {
                 Some((_, unit)) => assert_eq!(f.unit, *unit, "{}", f.key),
                 None if f.key == "fit.cycles_std" => assert_eq!(f.unit, Unit::Cycles),
+                // An estimated number of samples, a measure (limits can be set on it), unlike the
+                // counts `samples` and `clipping.end_code_samples`.
+                None if f.key == "clipping.clipped_samples" => assert_eq!(f.unit, Unit::Samples),
                 None => assert!(!f.unit.is_measure(), "{} has no unit in its name", f.key),
             }
         }

@@ -151,7 +151,10 @@ pub use crate::analysis::{
     Analysis, AnalysisSettings, CodeCounts, ErrorReport, FitChoice, Measured, OneTone,
     RecordResult, Traces,
 };
-pub use crate::fit::{fit_four, fit_three, FitMethod, FitUncertainty, FourParamOptions, SineFit};
+pub use crate::fit::{
+    fit_four, fit_three, Clipping, ClippingUncertainty, FitMethod, FitUncertainty,
+    FourParamOptions, SineFit,
+};
 pub use crate::spectrum::{
     ideal_snr_db, Coherence, HarmonicFigure, LeakageDiagnosis, LevelUncertainty, PerHarmonic,
     Spectrum, SpectrumSettings, SpectrumUncertainty, Spur, Window, WindowChoice, WindowFigures,
@@ -168,16 +171,18 @@ pub use crate::analyses::interleave::{
     InterleaveSettings, InterleaveSpectrum, InterleaveSpur, InterleaveSpurKind, Interleaved,
 };
 pub use crate::analyses::linearity::{
-    analyze_histogram, plot::write_plots as write_linearity_plots, required_samples, AtCode,
-    CodeHistogram, CodeResult, EndCode, Extremes, Linearity, LinearitySettings, SampleAdvice,
-    SineEstimate, MAX_HISTOGRAM_BITS, OVERDRIVE_RATIO,
+    analyze_histogram, distinct_phases, phase_coverage, plot::write_plots as write_linearity_plots,
+    required_phases, required_samples, AtCode, CodeHistogram, CodeResult, EndCode, Extremes,
+    Linearity, LinearitySettings, PhaseCoverage, SampleAdvice, SineEstimate, MAX_HISTOGRAM_BITS,
+    OVERDRIVE_RATIO,
 };
 
 // Planning a coherent test.
 pub use crate::freq::{fold_to_first_zone, nearest_coherent, CoherentChoice};
 pub use crate::plan::{
-    harmonic_places, imd_products, plan_tone, plan_two_tone, samples_for_resolution, HarmonicPlace,
-    ImdProduct, Placement, TonePlan, TwoTonePlan, MAX_PLAN_HARMONIC,
+    harmonic_places, imd_products, plan_histogram, plan_tone, plan_two_tone,
+    samples_for_resolution, HarmonicPlace, HistogramPlan, ImdProduct, Placement, TonePlan,
+    TwoTonePlan, MAX_PLAN_HARMONIC,
 };
 
 // Simulated converters, for demos and tests.

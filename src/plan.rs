@@ -117,6 +117,65 @@ pub struct TonePlan {
     pub harmonics: Vec<HarmonicPlace>,
 }
 
+/// A histogram (code-density) test frequency for one target: a record long enough for the sampling
+/// phases the DNL uncertainty needs, at a coherent J coprime with it, and the records to take.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct HistogramPlan {
+    /// Resolution N, bits.
+    pub bits: u32,
+    /// The DNL uncertainty planned for, LSB (at 95 % confidence for the sample count).
+    pub dnl_uncertainty_lsb: f64,
+    /// Sampling phases the DNL uncertainty needs (see [`crate::required_phases`]).
+    pub required_phases: u64,
+    /// The record length used: the plan's when it gives enough phases, else the smallest power of
+    /// two that does.
+    pub samples: usize,
+    /// The coherent choice: J odd and coprime with the record length, so every sample of a record is
+    /// its own phase (IEEE Std 1241's fin/fs = M/N with M, N coprime, from memory).
+    pub tone: CoherentChoice,
+    /// Distinct phases the records hold: the record length.
+    pub distinct_phases: u64,
+    /// Samples the DNL uncertainty needs at 95 % confidence (see [`crate::required_samples`]).
+    pub required_samples: u64,
+    /// Records of that length to take (sampling the same phases, their histograms add).
+    pub records: u64,
+}
+
+/// Plans a histogram test near `target_hz` at `fs` for N = `bits` and a DNL uncertainty of `dnl_lsb`,
+/// starting from records of `samples` samples (lengthened to a power of two when they hold too few
+/// phases). Errors: `BadSetting` for a resolution or uncertainty the advice refuses, and those of
+/// [`nearest_coherent`].
+pub fn plan_histogram(
+    fs: f64,
+    samples: usize,
+    target_hz: f64,
+    bits: u32,
+    dnl_lsb: f64,
+) -> Result<HistogramPlan> {
+    let settings = crate::analyses::linearity::LinearitySettings {
+        confidence: 0.95,
+        dnl_uncertainty_lsb: dnl_lsb,
+    };
+    let required_samples = crate::analyses::linearity::required_samples(bits, &settings)?;
+    let required_phases = crate::analyses::linearity::required_phases(bits, dnl_lsb);
+    let length = if samples as u64 >= required_phases {
+        samples
+    } else {
+        (required_phases as usize).next_power_of_two()
+    };
+    let tone = nearest_coherent(fs, length, target_hz, false)?;
+    Ok(HistogramPlan {
+        bits,
+        dnl_uncertainty_lsb: dnl_lsb,
+        required_phases,
+        samples: length,
+        tone,
+        distinct_phases: length as u64,
+        required_samples,
+        records: required_samples.div_ceil(length as u64),
+    })
+}
+
 /// Highest harmonic order a plan accepts.
 pub const MAX_PLAN_HARMONIC: u32 = 100;
 

@@ -7,9 +7,9 @@
 use serde_json::Value;
 use spurline::figures::{self, Kind};
 use spurline::{Analysis, ErrorReport, OneTone};
+use spurline::{Clipping, ClippingUncertainty, FitMethod, FitUncertainty, SineFit};
 use spurline::{Coherence, HarmonicFigure, LeakageDiagnosis, Spectrum, Spur};
 use spurline::{Error, ErrorKind, Location};
-use spurline::{FitMethod, FitUncertainty, SineFit};
 use spurline::{LevelUncertainty, PerHarmonic, SpectrumUncertainty};
 use std::collections::BTreeSet;
 
@@ -133,6 +133,13 @@ fn populated() -> Analysis {
             full_scale_vpp: Some(2.0),
             fit: Some(fit),
             spectrum: Some(spectrum),
+            clipping: Some(Clipping {
+                end_code_samples: 3,
+                clipped_samples: Some(1.5),
+                uncertainty: ClippingUncertainty {
+                    clipped_samples: Some(0.5),
+                },
+            }),
         },
         warnings: vec!["one".into(), "two".into()],
         error: Some(ErrorReport {

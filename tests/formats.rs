@@ -131,6 +131,12 @@ fn every_reference_file_gives_the_text_record_codes_and_figures() {
             .unwrap_or_else(|e| panic!("{name}: {e}"))
             .record;
         let got_figures = figures(&dir().join(name), &s);
+        // A record of values has no end codes, so no clipping figures; the rest as for the codes.
+        let mut text_figures = text_figures.clone();
+        if !got.has_codes() {
+            assert!(got_figures["clipping"].is_null(), "{name}");
+            text_figures["clipping"] = Value::Null;
+        }
         match f["compare"].as_str().unwrap_or("exact") {
             "exact" => {
                 if got.has_codes() {

@@ -205,6 +205,7 @@ fn csv_and_json_agree_field_for_field() {
     // (DESIGN.md naming convention).
     let units = [
         "hz", "s", "db", "dbfs", "dbc", "bits", "codes", "lsb", "rad", "cycles", "bins", "vpp",
+        "samples",
     ];
     let counts = [
         "samples",

@@ -319,6 +319,20 @@ pub fn printed(decimals: i32) -> f64 {
 /// either way, so 0.026.
 pub const BOOK_IMR_LIMIT_ABS: f64 = 0.026;
 
+/// Samples: a count of samples of a coherent record (J coprime with N) whose phase falls in an arc
+/// differs from N·(arc / 2π) by less than one sample per arc end, since the samples sit on the N
+/// equally spaced phases (sine geometry); two edges of the range (top and bottom) give two samples.
+pub const CLIPPED_PHASE_SAMPLES: f64 = 2.0;
+
+/// Samples: the generator counts whole samples while the estimate is an expected count; half a sample
+/// of rounding each way, one in all.
+pub const CLIPPED_ROUNDING_SAMPLES: f64 = 1.0;
+
+/// Codes: a sine fit's amplitude against the amplitude synthesised, beyond four of its stated sigmas:
+/// the quantiser's error is a deterministic function of the input, not white noise, and moves the
+/// fitted amplitude of a 12-bit sine by a few thousandths of a code (from memory); 0.01 codes covers it.
+pub const FIT_QUANTISER_CODES: f64 = 0.01;
+
 /// Relative agreement of a two-sided normal p-value with erfc(z/√2) as tabulated (Abramowitz & Stegun
 /// table 7.1, checked with Python's math.erfc): statrs' normal cdf is good to about 1e-14 relative at
 /// these z; 1e-9 leaves room for the z computed from summed squares.

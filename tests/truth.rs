@@ -483,6 +483,9 @@ struct Tally {
 fn checked_keys() -> Vec<(String, Option<String>, Unit)> {
     let mut v: Vec<(String, Option<String>, Unit)> = figures::columns(HARMONICS)
         .into_iter()
+        // The clipped-sample count is checked against the generator's own count of samples beyond
+        // the range in tests/trust.rs; the harness's truth is spectral.
+        .filter(|c| !c.key().starts_with("clipping."))
         .filter_map(|c| {
             let u = c.figure.uncertainty_key(c.order.unwrap_or(0))?;
             Some((c.key(), Some(u), c.unit()))

@@ -5,8 +5,8 @@ use super::{ReadArgs, EXIT_ERROR, EXIT_OK};
 use clap::Args;
 use spurline::Error;
 use spurline::{
-    analyze_histogram, write_linearity_plots, AtCode, CodeHistogram, Extremes, Linearity,
-    LinearitySettings,
+    analyze_histogram, phase_coverage, write_linearity_plots, AtCode, CodeHistogram, Extremes,
+    Linearity, LinearitySettings, PhaseCoverage,
 };
 use spurline::{read_record, read_sidecar};
 use std::fmt::Write as _;
@@ -95,7 +95,14 @@ fn go(args: &LinearityArgs) -> Result<String, Vec<Error>> {
     for r in &records {
         hist.add_record(r).map_err(|e| vec![e])?;
     }
-    let result = analyze_histogram(&hist, &settings).map_err(|e| vec![e])?;
+    let mut result = analyze_histogram(&hist, &settings).map_err(|e| vec![e])?;
+    result.phases = phase_coverage(&records, settings.dnl_uncertainty_lsb).map_err(|e| vec![e])?;
+    if let Some(p) = result.phases.filter(|p| !p.sufficient) {
+        eprintln!(
+            "warning: {}",
+            phase_warning(&p, settings.dnl_uncertainty_lsb)
+        );
+    }
     let mut out = if args.json {
         let mut s = serde_json::to_string_pretty(&result).expect("plain data serialises");
         s.push('\n');
@@ -181,5 +188,30 @@ fn render(r: &Linearity) -> String {
         if a.sufficient { "enough" } else { "NOT enough" },
         a.achieved_dnl_uncertainty_lsb
     );
+    if let Some(p) = &r.phases {
+        let _ = writeln!(
+            s,
+            "  phases: fin/fs = {:.9}; {} distinct sampling phases, {} needed for ±{} LSB: {}",
+            p.fin_over_fs,
+            p.distinct_phases,
+            p.required_phases,
+            a.dnl_uncertainty_lsb,
+            if p.sufficient { "enough" } else { "NOT enough" }
+        );
+        if !p.sufficient {
+            let _ = writeln!(s, "  warning: {}", phase_warning(p, a.dnl_uncertainty_lsb));
+        }
+    }
     s
+}
+
+/// The warning for too few sampling phases: the figures it touches, why, and the fix.
+fn phase_warning(p: &PhaseCoverage, dnl_lsb: f64) -> String {
+    format!(
+        "only {} distinct sampling phases (fin/fs = {:.9}): the histogram repeats their pattern, so DNL, \
+         INL and missing codes can be off by up to ±{:.3} LSB whatever the sample count ({} phases needed \
+         for ±{dnl_lsb} LSB); choose fin/fs = M/N with M and N coprime and N at least that, for example \
+         with `spurline plan --histogram-bits`",
+        p.distinct_phases, p.fin_over_fs, p.phase_dnl_error_lsb, p.required_phases
+    )
 }

@@ -6,8 +6,8 @@ use clap::Args;
 use spurline::format_si as si;
 use spurline::Error;
 use spurline::{
-    plan_tone, plan_two_tone, samples_for_resolution, HarmonicPlace, Placement, TonePlan,
-    TwoTonePlan,
+    plan_histogram, plan_tone, plan_two_tone, samples_for_resolution, HarmonicPlace, Placement,
+    TonePlan, TwoTonePlan,
 };
 use std::fmt::Write as _;
 
@@ -53,6 +53,13 @@ pub struct PlanArgs {
     /// Print CSV (one row per target, units in the column names) instead of text.
     #[arg(long)]
     pub csv: bool,
+    /// Also plan a histogram (code-density) test at this resolution: a record length with enough
+    /// distinct sampling phases and a frequency coprime with it, per target (text output).
+    #[arg(long, value_name = "BITS")]
+    pub histogram_bits: Option<u32>,
+    /// DNL uncertainty the histogram plan is for, in LSB.
+    #[arg(long, default_value_t = 0.1)]
+    pub dnl_uncertainty: f64,
 }
 
 fn tone_pair(s: &str) -> Result<(f64, f64), String> {
@@ -223,7 +230,36 @@ fn go(args: &PlanArgs) -> Result<String, Error> {
         };
         write_csv(&rows)
     } else {
-        Ok(render(&plans, &ctx, args))
+        let mut text = render(&plans, &ctx, args);
+        if let (Some(bits), Plans::Single(p)) = (args.histogram_bits, &plans) {
+            for t in p {
+                let h = plan_histogram(
+                    args.fs,
+                    samples,
+                    t.tone.target_hz,
+                    bits,
+                    args.dnl_uncertainty,
+                )?;
+                let _ = writeln!(
+                    text,
+                    "histogram test near {} Hz, {} bits, DNL ±{} LSB: {} distinct phases needed; N = {} \
+                     samples{} at J = {} ({} Hz, coprime with N) gives {} phases; {} samples at 95 % \
+                     confidence: {} records",
+                    t.tone.target_hz,
+                    h.bits,
+                    h.dnl_uncertainty_lsb,
+                    h.required_phases,
+                    h.samples,
+                    if h.samples == samples { "" } else { " (lengthened)" },
+                    h.tone.cycles,
+                    h.tone.frequency_hz,
+                    h.distinct_phases,
+                    h.required_samples,
+                    h.records
+                );
+            }
+        }
+        Ok(text)
     }
 }
 

@@ -153,6 +153,11 @@ fn to_frame(p: Centred, from: usize, to: usize) -> Centred {
 /// is then within the fit's own scatter of that stretch, and the whole record needs about two passes
 /// fewer.
 const PREFIX_MIN: usize = 1 << 18;
+/// A fit this far below one cycle is still taken as one whole cycle: strong low-order harmonics pull
+/// the fitted frequency of a one-cycle record by about 1e-3 cycles (their columns are not orthogonal
+/// to the frequency's over so short a span), while a record of 0.9 cycles or fewer stays refused.
+const ONE_CYCLE_SLACK: f64 = 0.01;
+
 /// Below this step (cycles in the record) a step that does not halve is taken as rounding, not as slow
 /// convergence; the exact check after the residual pass decides.
 const STALL_CYCLES: f64 = 1e-9;
@@ -436,7 +441,7 @@ pub fn fit_four(
             options.max_iterations
         ));
     }
-    if p.cycles_per_sample * (n as f64) < 1.0 {
+    if p.cycles_per_sample * (n as f64) < 1.0 - ONE_CYCLE_SLACK {
         return Err(Error::new(
             ErrorKind::DegenerateFit,
             "",

@@ -2,6 +2,7 @@
 //! the frequency must be found, and the fit of several sines at once (`multi_tone`). All work on a
 //! centred time index in f64.
 
+pub(crate) mod clipping;
 mod closed;
 mod four_param;
 pub(crate) mod multi_tone;
@@ -10,6 +11,7 @@ mod sums;
 mod three_param;
 pub(crate) mod uncertainty;
 
+pub use clipping::{Clipping, ClippingUncertainty};
 pub use four_param::{fit_four, FourParamOptions};
 pub use three_param::fit_three;
 pub use uncertainty::FitUncertainty;
@@ -67,6 +69,51 @@ impl SineFit {
             self.amplitude_codes * self.phase_rad.cos(),
             -self.amplitude_codes * self.phase_rad.sin(),
         )
+    }
+}
+
+/// Samples between exact re-seeds of the rotation recurrence (its rounding grows by about 1e-16 per
+/// step, so 1024 steps keep the model within 1e-12 of its exact value).
+const RESEED: usize = 1024;
+
+/// Visits (n, cos θ_n, sin θ_n) for θ_n = 2π·f·(n − centre), f in cycles per sample, by a rotation
+/// recurrence re-seeded from `sin_cos` every [`RESEED`] samples.
+pub(crate) fn for_each_phase(
+    samples: usize,
+    cycles_per_sample: f64,
+    mut visit: impl FnMut(usize, f64, f64),
+) {
+    let centre = centre_of(samples);
+    let (rs, rc) = (TAU * cycles_per_sample).sin_cos();
+    let (mut c, mut s) = (0.0, 0.0);
+    for n in 0..samples {
+        if n % RESEED == 0 {
+            // The phase in turns, reduced before it is scaled, keeps long records exact.
+            let turns = (cycles_per_sample * (n as f64 - centre)).fract();
+            (s, c) = (TAU * turns).sin_cos();
+        }
+        visit(n, c, s);
+        (c, s) = (c * rc - s * rs, s * rc + c * rs);
+    }
+}
+
+impl SineFit {
+    /// Subtracts the fitted sine and offset from `y` (the record it was fitted to), sample by sample,
+    /// leaving the fit's residual.
+    pub fn subtract_from(&self, y: &mut [f64]) {
+        let n = y.len();
+        if n == 0 {
+            return;
+        }
+        let f = self.cycles / n as f64;
+        // In the centred frame the phase is φ + 2π·f·centre, the turns reduced exactly.
+        let psi = self.phase_rad + TAU * sums::reduced_product(f, centre_of(n));
+        let (a, b) = (
+            self.amplitude_codes * psi.cos(),
+            -self.amplitude_codes * psi.sin(),
+        );
+        let c = self.offset_codes;
+        for_each_phase(n, f, |i, cs, sn| y[i] -= c + a * cs + b * sn);
     }
 }
 
@@ -294,6 +341,42 @@ pub(crate) fn residual_of(y: &[f64], p: Centred, keep: bool) -> (Vec<f64>, f64) 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // Subtracting the fitted sine from the record it was fitted to gives the fit's own residual (computed
+    // by the fit's passes, a different path): a 1000-code sine evaluated two ways over 2^16 samples
+    // agrees to about 1e-10 codes; 1e-8 leaves a hundredfold margin.
+    #[test]
+    fn subtract_from_gives_the_fits_residual() {
+        const AGREE_CODES: f64 = 1e-8;
+        let n = 1 << 16;
+        let y: Vec<f64> = (0..n)
+            .map(|i| {
+                1000.0 * (TAU * 0.123_456_7 * i as f64 + 0.4).cos()
+                    + 3.0
+                    + ((i * 7919) % 13) as f64 * 0.01
+            })
+            .collect();
+        let out = fit_four(&y, 1e6, 12, FourParamOptions::default()).unwrap();
+        let mut r = y.clone();
+        out.fit.subtract_from(&mut r);
+        for (i, (a, b)) in r.iter().zip(&out.residual).enumerate() {
+            assert!((a - b).abs() < AGREE_CODES, "{i}: {a} vs {b}");
+        }
+    }
+
+    // The recurrence against sin_cos per sample (slow, obviously correct reference): within 1e-12 over
+    // several re-seeds (see RESEED).
+    #[test]
+    fn rotation_recurrence_matches_sin_cos() {
+        const AGREE: f64 = 1e-12;
+        let (n, f) = (5000, 0.123_456_789);
+        let centre = crate::fit::centre_of(n);
+        for_each_phase(n, f, |i, c, s| {
+            let (ws, wc) = (TAU * f * (i as f64 - centre)).sin_cos();
+            assert!((c - wc).abs() < AGREE && (s - ws).abs() < AGREE, "{i}");
+        });
+    }
+
     use nalgebra::{Matrix4, Vector4};
 
     // Slow, obvious reference: the Cramér-Rao bound of the frequency of A·cos(ωn + φ) + C in real white

@@ -282,7 +282,7 @@ pub struct Measured {
 }
 
 impl Measured {
-    fn of(raw: f64, weight: f64, noise_per_bin: f64) -> Measured {
+    pub(crate) fn of(raw: f64, weight: f64, noise_per_bin: f64) -> Measured {
         let expected_noise = noise_per_bin * weight;
         let corrected = raw - expected_noise;
         Measured {

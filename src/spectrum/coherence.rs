@@ -42,10 +42,27 @@ pub enum Unwindowed<'a> {
 ///
 /// Coherent when the cycle count is within 4σ of an integer (at least 1e-9 cycles). An offset beyond
 /// that but below [`SPECTRAL_CHECK_CYCLES`] is checked against the unwindowed spectrum: a tone really δ
-/// cycles off an integer leaks about δ²·P into each neighbour of its bin (rectangular window,
-/// |sinc(1 ∓ δ)|²); when the two neighbours hold less than a tenth of that, the offset is a fit bias and
-/// the tone is coherent. Tones within two bins of DC or of Nyquist are not checked.
+/// cycles off an integer leaks about (δ/(j − δ))²·P into the bin j bins from its own (rectangular
+/// window, |sinc|²); when the nearest usable bins on each side hold less than a tenth of that, the
+/// offset is a fit bias and the tone is coherent. Equivalent to [`decide_with`] with no harmonics.
 pub fn decide(cycles: f64, cycles_std: f64, unwindowed: Unwindowed) -> Coherence {
+    decide_with(cycles, cycles_std, unwindowed, 0)
+}
+
+/// Bins searched on each side of the tone for one the spectral check can read.
+const CHECK_REACH_BINS: usize = 32;
+
+/// [`decide`] for a tone whose harmonics 2..=`harmonics` may be strong: the check skips the bins they
+/// fold onto (a harmonic beside the tone, as H2 of a one-cycle tone is, would read as leakage), DC, and
+/// the Nyquist bin of an even N (the tone's image lands there, and a real record's bin is real, so the
+/// two leakages can cancel), and reads the nearest bin left on each side. Edges never skip the check:
+/// a tone one bin from DC or from Nyquist is read on its one open side.
+pub fn decide_with(
+    cycles: f64,
+    cycles_std: f64,
+    unwindowed: Unwindowed,
+    harmonics: u32,
+) -> Coherence {
     let offset = cycles - cycles.round();
     let tol = (COHERENCE_SIGMAS * cycles_std).max(1e-9);
     let mut c = Coherence {
@@ -56,18 +73,31 @@ pub fn decide(cycles: f64, cycles_std: f64, unwindowed: Unwindowed) -> Coherence
         decided_by: "fit",
     };
     // N/2 is the last bin of the one-sided spectrum, for odd and even N alike.
-    let last = match unwindowed {
-        Unwindowed::Record(r) => r.len() / 2,
-        Unwindowed::Spectrum(p) => p.len().saturating_sub(1),
+    let (last, n) = match unwindowed {
+        Unwindowed::Record(r) => (r.len() / 2, r.len()),
+        Unwindowed::Spectrum(p) => {
+            let last = p.len().saturating_sub(1);
+            // The length is needed only to fold harmonics; a spectrum does not tell an odd length
+            // from the even one below it, and the even one is taken.
+            (last, 2 * last)
+        }
     };
     let k0 = cycles.round() as usize;
-    // The neighbours the check may read: not DC (bin 0 holds the offset), and not the Nyquist bin of
-    // an even N, where the tone's image lands one bin away and a real record's bin is real, so the
-    // two leakages can cancel. One neighbour is enough: a tone one bin from either edge is judged as
-    // everywhere else in the band.
-    let lower = k0 >= 2;
-    let upper = k0 + 1 < last;
-    if c.coherent || offset.abs() > SPECTRAL_CHECK_CYCLES || !(lower || upper) || k0 >= last {
+    if c.coherent || offset.abs() > SPECTRAL_CHECK_CYCLES || k0 == 0 || k0 >= last {
+        return c;
+    }
+    let harmonic_bins: Vec<usize> = (2..=harmonics.min(64))
+        .map(|h| crate::freq::fold_bin(h as f64 * k0 as f64, n).round() as usize)
+        .collect();
+    let usable = |k: usize| k >= 1 && k < last && k != k0 && !harmonic_bins.contains(&k);
+    let below = (1..=CHECK_REACH_BINS.min(k0))
+        .map(|j| k0 - j)
+        .find(|&k| usable(k));
+    let above = (1..=CHECK_REACH_BINS)
+        .map(|j| k0 + j)
+        .take_while(|&k| k < last)
+        .find(|&k| usable(k));
+    if below.is_none() && above.is_none() {
         return c;
     }
     let taken;
@@ -78,24 +108,17 @@ pub fn decide(cycles: f64, cycles_std: f64, unwindowed: Unwindowed) -> Coherence
         }
         Unwindowed::Spectrum(p) => p,
     };
-    // Leakage of a tone δ bins off centre into the next bin on its side (δ/(1−δ))² and on the other
-    // side (δ/(1+δ))² of the centre bin's power (the rectangular window's Dirichlet kernel, to first
-    // order in δ; Harris 1978).
-    let d = offset.abs();
-    let (toward, away) = ((d / (1.0 - d)).powi(2), (d / (1.0 + d)).powi(2));
-    let (below, above) = if offset >= 0.0 {
-        (away, toward)
-    } else {
-        (toward, away)
+    // Leakage of a tone δ bins off centre into the bin j bins away (j signed), relative to the centre
+    // bin's power: (δ/(j − δ))² (the rectangular window's Dirichlet kernel, to first order in δ;
+    // Harris 1978).
+    let share = |k: usize| {
+        let j = k as f64 - k0 as f64;
+        (offset / (j - offset)).powi(2)
     };
     let (mut predicted, mut measured) = (0.0, 0.0);
-    if lower {
-        predicted += p[k0] * below;
-        measured += p[k0 - 1];
-    }
-    if upper {
-        predicted += p[k0] * above;
-        measured += p[k0 + 1];
+    for k in below.into_iter().chain(above) {
+        predicted += p[k0] * share(k);
+        measured += p[k];
     }
     if measured < 0.1 * predicted {
         c.coherent = true;

@@ -139,20 +139,25 @@ pub(crate) fn diagnose(
 /// beyond fs/2, or below 0, back onto itself, and in shared bins the two add as complex values). The
 /// level error is computed, not bounded: the fitted sine alone goes through the same window and bin
 /// claims, and its claimed power is compared with A²/2. Warns when the error exceeds [`BIAS_WARN_DB`].
-/// `w` is the window's samples (all, or the first half of a long record's), or empty for the rectangular
-/// window (never materialised), so the record length `n` is passed on its own.
+/// When the tone was removed in time before the spectrum was taken (`removed`), the figures do not
+/// carry that error and the warning becomes a note saying so (starting with [`super::EDGE_NOTE`]).
+/// The window is made again from `window` and the record length `n` (the spectrum gave its own back
+/// before the transform). Returns the fitted sine's
+/// bin powers when the fundamental is at an edge (they were computed for the check).
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn edge_warning(
     window: Window,
     n: usize,
     fit: &SineFit,
     claims: &Claims,
+    removed: bool,
     warnings: &mut Vec<String>,
-) {
+) -> Option<Vec<f64>> {
     let (k, half, last) = (claims.tones[0].centre, claims.tone_halfwidth, n / 2);
     let near_dc = k <= 2 * half;
     let near_nyquist = k + half >= last;
     if !(near_dc || near_nyquist) || fit.amplitude_codes <= 0.0 {
-        return;
+        return None;
     }
     let cycles_per_sample = fit.cycles / n as f64;
     let model: Vec<f64> = (0..n)
@@ -172,11 +177,9 @@ pub(crate) fn edge_warning(
     };
     let claimed: f64 = claims.tones[0].bins.iter().map(|&k| powers[k]).sum();
     let expected = 0.5 * fit.amplitude_codes * fit.amplitude_codes;
-    let Some(bias) = (claimed > 0.0).then(|| 10.0 * (claimed / expected).log10()) else {
-        return;
-    };
-    if bias.abs() <= BIAS_WARN_DB || !bias.is_finite() {
-        return;
+    let bias = 10.0 * (claimed / expected).log10();
+    if claimed <= 0.0 || bias.abs() <= BIAS_WARN_DB || !bias.is_finite() {
+        return Some(powers);
     }
     let (lo, hi) = (k.saturating_sub(half), (k + half).min(last));
     let (meets, fix) = if near_dc {
@@ -190,8 +193,18 @@ pub(crate) fn edge_warning(
             "a lower input frequency or a longer record",
         )
     };
-    warnings.push(format!(
-        "the fundamental's bins ({lo}..={hi} under the {} window) {meets}, so its level reads {bias:+.2} dB off (computed from the fitted sine); use {fix}",
-        window.name()
-    ));
+    if removed {
+        let meets = meets.split(':').next().unwrap_or_default();
+        warnings.push(format!(
+            "{} ({lo}..={hi} under the {} window) {meets}, where its level would read {bias:+.2} dB off: the fitted sine (offset and mirror image included) was removed in time, the tone's level is the fit's, and noise and distortion come from the spectrum of the residual",
+            super::EDGE_NOTE,
+            window.name()
+        ));
+    } else {
+        warnings.push(format!(
+            "the fundamental's bins ({lo}..={hi} under the {} window) {meets}, so its level reads {bias:+.2} dB off (computed from the fitted sine); use {fix}",
+            window.name()
+        ));
+    }
+    Some(powers)
 }

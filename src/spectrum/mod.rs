@@ -50,6 +50,14 @@ impl Default for SpectrumSettings {
     }
 }
 
+/// The start of the note that says a tone near DC or Nyquist was removed in time before its spectrum
+/// was measured.
+pub const EDGE_NOTE: &str = "note: the fundamental's bins";
+
+/// A fit that leaves more than this share of the tone's power (−45 dBc) in its residual misses the
+/// tone: the fundamental's level from the fit is then off by more than 0.05 dB (20·log10(1 + √share)).
+const LEFTOVER_TONE: f64 = 3.162_277_660_168_379_5e-5;
+
 /// Owner of the fundamental's bins in a one-tone claim.
 pub const FUNDAMENTAL: Owner = Owner::Tone(0);
 
@@ -151,15 +159,30 @@ pub struct SpectrumOutput {
 /// [`measure`] on records the caller no longer needs: each one is windowed and transformed in place,
 /// which saves a copy of the record (128 MB at 2^24 samples). `plan`: the transform's plan when the
 /// caller has made it already (see [`fft::plan`]).
+///
+/// `fits` holds each record's sine fit, the first one's deciding coherence, window and claims. When the
+/// fundamental's bins meet DC or reach Nyquist under the window (its lobe then shares bins with DC or
+/// with its own mirror image, and its level reads off), each record's fitted sine (offset and image
+/// included) is removed in time first: noise, harmonics and spurs are measured on the spectrum of the
+/// residual and the fundamental's power is the fits' A²/2 (see [`EDGE_NOTE`]).
 pub fn measure_consuming(
-    records: Vec<Vec<f64>>,
-    fit: &SineFit,
+    mut records: Vec<Vec<f64>>,
+    fits: &[SineFit],
     sample_rate_hz: f64,
     bits: u32,
     settings: &SpectrumSettings,
     plan: Option<&fft::Plan>,
 ) -> Result<SpectrumOutput> {
     let n = records.first().map_or(0, |r| r.len());
+    let Some(fit) = fits.first().filter(|_| fits.len() == records.len()) else {
+        return Err(Error::new(
+            ErrorKind::BadSetting,
+            "",
+            Location::Whole,
+            "one sine fit per record",
+            format!("{} fits for {} records", fits.len(), records.len()),
+        ));
+    };
     if n < 8 || records.iter().any(|r| r.len() != n) {
         return Err(Error::new(
             ErrorKind::TooFewSamples,
@@ -172,7 +195,12 @@ pub fn measure_consuming(
             ),
         ));
     }
-    let coherence = coherence::decide(fit.cycles, fit.cycles_std, Unwindowed::Record(&records[0]));
+    let coherence = coherence::decide_with(
+        fit.cycles,
+        fit.cycles_std,
+        Unwindowed::Record(&records[0]),
+        settings.harmonics,
+    );
     let (window, window_reason) = choose_window(
         settings.window,
         coherence.coherent,
@@ -181,6 +209,15 @@ pub fn measure_consuming(
         settings.guard_bins,
     );
     let half = tone_halfwidth(window, coherence.coherent, settings.guard_bins);
+    // The fundamental's centre bin and whether its bins meet DC's (0..=half) or reach Nyquist.
+    let centre = (fit.cycles.round().max(0.0) as usize).min(n / 2);
+    let tone_removed = (centre <= 2 * half || centre + half >= n / 2)
+        && fits.iter().all(|f| f.amplitude_codes > 0.0);
+    if tone_removed {
+        for (r, f) in records.iter_mut().zip(fits) {
+            f.subtract_from(r);
+        }
+    }
     // The rectangular window is never materialised: a 2^24-sample record saves 128 MB. A long record's
     // window is built once for it and not cached, so only its first half is made (the same values).
     let (w, long): (std::sync::Arc<[f64]>, bool) = if window == Window::Rectangular {
@@ -222,11 +259,45 @@ pub fn measure_consuming(
     // FFT's buffers at their peak.
     let claims = claim_one_tone(n, fit.cycles, settings.harmonics.max(1), half)
         .map_err(|e| e.to_error(&window.name()))?;
-    let measured = claims.measure(&powers);
+    let mut measured = claims.measure(&powers);
+    // With the tone removed, its bins hold what the fit left: the noise under them, and the tone itself
+    // where the fit missed it. The fundamental is the fits' power, the noise expected under its bins
+    // kept as it is everywhere else.
+    let leftover = tone_removed.then(|| measured.tones[0]);
+    if let Some(left) = leftover {
+        let tone: f64 = fits
+            .iter()
+            .map(|f| 0.5 * f.amplitude_codes * f.amplitude_codes)
+            .sum::<f64>()
+            / count as f64;
+        measured.tones[0] = claim::Measured::of(
+            tone + left.expected_noise,
+            left.weight,
+            measured.noise_per_bin,
+        );
+    }
     let figs = metrics::figures(&claims, &measured, sample_rate_hz, bits);
     let uncertainty = uncertainty::of_spectrum(&claims, &measured, &figs, window, count);
     let mut warnings = Vec::new();
-    leakage::edge_warning(window, n, fit, &claims, &mut warnings);
+    let model = leakage::edge_warning(window, n, fit, &claims, tone_removed, &mut warnings);
+    if let (Some(left), Some(model)) = (leftover, &model) {
+        // The plots show the record's spectrum: the fitted tone's own is added back (the two are
+        // nearly disjoint, so their powers add).
+        powers.iter_mut().zip(model).for_each(|(p, m)| *p += m);
+        if !left.at_floor && left.corrected > LEFTOVER_TONE * figs.fundamental_power {
+            // Every figure in dBc is taken against the fit's tone, so it is named with the rest.
+            let orders: Vec<String> = figs
+                .harmonics
+                .iter()
+                .map(|h| format!("H{}", h.order))
+                .collect();
+            warnings.push(format!(
+                "the fit leaves {:.1} dBc of the tone in the residual: it does not follow the tone, so the fundamental level, SNR, SINAD, ENOB, THD, SFDR, the worst spur and the harmonics ({}) in dBc, taken against the fit's tone or from the residual, are not reliable; check --fin and --fs, or use the four-parameter fit (--fit four)",
+                10.0 * (left.corrected / figs.fundamental_power).log10(),
+                orders.join(", ")
+            ));
+        }
+    }
     if figs.noise_bins < claim::MIN_NOISE_BINS {
         warnings.push(format!(
             "only {} noise bins are left after claiming: the noise figures are poorly determined (use a longer record or fewer harmonics)",
@@ -306,7 +377,10 @@ pub fn measure_consuming(
             ));
         }
     }
-    let leakage = leakage::diagnose(
+    // With the tone removed in time, its window leakage is not in the residual's spectrum: the
+    // diagnosis is kept as a description of the window, with no bias and no warning.
+    let mut leakage_warnings = Vec::new();
+    let mut leakage = leakage::diagnose(
         window,
         half,
         &coherence,
@@ -314,8 +388,16 @@ pub fn measure_consuming(
         n,
         sample_rate_hz,
         fit,
-        &mut warnings,
+        &mut leakage_warnings,
     );
+    if tone_removed {
+        leakage.snr_bias_db = 0.0;
+        leakage.sfdr_bias_db = 0.0;
+        leakage.significant = false;
+        leakage.advice = None;
+    } else {
+        warnings.extend(leakage_warnings);
+    }
     let spectrum = Spectrum {
         window: window.name(),
         window_reason,

@@ -27,6 +27,7 @@ class Analysis:
     full_scale_vpp: Optional[float]
     fit: Optional[Section]
     spectrum: Optional[Section]
+    clipping: Optional[Section]
     warnings: List[str]
     error: Optional[Section]
     def __getattr__(self, name: str) -> Any: ...

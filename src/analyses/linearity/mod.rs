@@ -8,7 +8,10 @@
 //! reported against the signed code k − 2^(N−1), whose lower edge it is. All levels are in LSB on the
 //! ideal input scale, on which code c spans c − 0.5 .. c + 0.5.
 
+mod phases;
 pub mod plot;
+
+pub use phases::{distinct_phases, phase_coverage, required_phases, PhaseCoverage};
 
 use serde::Serialize;
 
@@ -293,6 +296,9 @@ pub struct Linearity {
     pub high_end: EndCode,
     /// The sample-count advice.
     pub advice: SampleAdvice,
+    /// The sampling phases the records hold against those the DNL uncertainty needs; `None` when
+    /// the histogram was given without its records (see [`phase_coverage`]).
+    pub phases: Option<PhaseCoverage>,
     /// Inner codes that got no hits.
     pub missing_codes: Vec<i64>,
     /// Terminal-based (end-point) figures: the line through the first and last transition levels.
@@ -688,6 +694,7 @@ pub fn analyze_histogram(hist: &CodeHistogram, settings: &LinearitySettings) -> 
             sufficient: s >= required,
             achieved_dnl_uncertainty_lsb: achieved_uncertainty(bits, s, z),
         },
+        phases: None,
         missing_codes,
         terminal,
         best_fit,
