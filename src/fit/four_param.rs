@@ -23,7 +23,7 @@ pub struct FourParamOptions {
     pub max_iterations: u32,
     /// A starting frequency in hertz (the FFT peak near it is used); `None` searches the whole band.
     pub hint_hz: Option<f64>,
-    /// Whether [`FitOutput::residual`] is kept (default); without it a long record's fit needs 8 bytes
+    /// Whether the fit's residual is kept (default); without it a long record's fit needs 8 bytes
     /// per sample less, and the figures are the same to the bit.
     pub keep_residual: bool,
 }
