@@ -643,7 +643,7 @@ fn given_fin_against_the_tone(r: &Record, y: &[f64], fit: &SineFit) -> Option<St
     if !miss.is_finite() || !sigma.is_finite() || miss.abs() <= 4.0 * sigma + SAME_CYCLES {
         return None;
     }
-    let si = crate::report::units::si;
+    let si = crate::si::si;
     Some(format!(
         "--fin {} misses the tone a four-parameter fit finds at {} by {:+.4} Hz ({:.1} sigma, {:+.2e} bins): the fin, cycles, phase and fundamental frequency follow the given --fin, and so do the fit figures (amplitude, offset, residual rms, sine-fit SINAD, sine-fit ENOB); correct --fin or use the four-parameter fit (--fit four)",
         si(fit.frequency_hz, "Hz", 9),

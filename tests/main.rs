@@ -10,6 +10,7 @@ mod formats;
 mod formula_injection;
 mod fuzz_props;
 mod imd;
+mod layout;
 mod linearity;
 mod path_traversal;
 mod pipeline;

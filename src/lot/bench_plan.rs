@@ -89,7 +89,7 @@ impl<'de> Deserialize<'de> for Quantity {
                 Ok(Quantity(v as f64))
             }
             fn visit_str<E: serde::de::Error>(self, v: &str) -> std::result::Result<Quantity, E> {
-                crate::report::units::parse_si(v).map(Quantity).ok_or_else(|| {
+                crate::si::parse_si(v).map(Quantity).ok_or_else(|| {
                     E::custom(format!(
                         "expected a number or a string with an SI prefix such as \"100M\", found \"{v}\""
                     ))
