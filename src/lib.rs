@@ -213,12 +213,12 @@ pub use crate::report::{
 
 // Lots: bench plans, runs on one machine or in shards (with a progress observer), the lot's files.
 pub use crate::lot::{
-    lot_fingerprint, lot_progress, merge_shards, read_failures, read_yield, run_fingerprint,
-    run_lot, run_shard, shard_from_env, ArrayTask, BatchOptions, BenchPlan, Condition,
-    ConditionResult, CsvRows, DeviceResult, DroppedCell, FailureRow, ListedRecord, Lot, LotCounts,
-    LotObserver, LotProgress, LotSummary, Plots, RecordSource, Scheduler, Shard, ShardManifest,
-    ShardProgress, ShardState, SummaryRow, YieldRow, FAILURE_COLUMNS, KEPT_ERRORS, LEAD_COLUMNS,
-    SHARD_FORMAT, YIELD_COLUMNS,
+    dropped_note, lot_fingerprint, lot_progress, merge_shards, read_failures, read_yield,
+    run_fingerprint, run_lot, run_shard, shard_from_env, ArrayTask, BatchOptions, BenchPlan,
+    Condition, ConditionResult, CsvRows, DeviceResult, DroppedCell, FailureRow, ListedRecord, Lot,
+    LotCounts, LotObserver, LotProgress, LotSummary, Plots, RecordSource, Scheduler, Shard,
+    ShardManifest, ShardProgress, ShardState, SummaryRow, YieldRow, FAILURE_COLUMNS, KEPT_ERRORS,
+    LEAD_COLUMNS, SHARD_FORMAT, YIELD_COLUMNS,
 };
 
 // Limit tables, verdicts, limit proposals.

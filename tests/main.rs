@@ -12,6 +12,7 @@ mod fuzz_props;
 mod imd;
 mod layout;
 mod linearity;
+mod lost_results;
 mod path_traversal;
 mod pipeline;
 mod plan;

@@ -93,17 +93,21 @@ pub fn run(args: AnalyzeArgs) -> i32 {
     }
     // Traces are kept only when a report will draw them.
     let keep = args.report.is_some();
-    let mut results: Vec<(Analysis, Option<Traces>)> = Vec::new();
+    // Each result with the place of its file in the input (the first averaged file's for an
+    // averaged result), so that the output keeps input order even when a file is named twice.
+    let mut results: Vec<(usize, Analysis, Option<Traces>)> = Vec::new();
     let mut any_error = false;
     // Without --average each record is read, analysed and given up before the next is read, so a
     // list of long records needs the memory of one.
     let mut loaded = Vec::new();
-    for path in &args.files {
+    let mut first_loaded = None;
+    for (place, path) in args.files.iter().enumerate() {
         let ing = match read_record(path, &ingest) {
             Ok(ing) => ing,
             Err(e) => {
                 any_error = true;
                 results.push((
+                    place,
                     Analysis::failed(&path.display().to_string(), &e, Vec::new()),
                     None,
                 ));
@@ -111,6 +115,7 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             }
         };
         if args.average {
+            first_loaded.get_or_insert(place);
             loaded.push(ing);
             continue;
         }
@@ -121,15 +126,16 @@ pub fn run(args: AnalyzeArgs) -> i32 {
                 let mut w = ing.warnings;
                 w.extend(a.warnings);
                 a.warnings = w;
-                results.push((a, keep.then_some(m.traces)));
+                results.push((place, a, keep.then_some(m.traces)));
             }
             Err(e) => {
                 any_error = true;
-                results.push((Analysis::failed(&source, &e, ing.warnings), None));
+                results.push((place, Analysis::failed(&source, &e, ing.warnings), None));
             }
         }
     }
     if !loaded.is_empty() {
+        let place = first_loaded.unwrap_or(0);
         let mut warnings = Vec::new();
         let mut records = Vec::with_capacity(loaded.len());
         for ing in loaded {
@@ -141,23 +147,21 @@ pub fn run(args: AnalyzeArgs) -> i32 {
                 let mut a = m.analysis;
                 warnings.extend(a.warnings);
                 a.warnings = warnings;
-                results.push((a, keep.then_some(m.traces)));
+                results.push((place, a, keep.then_some(m.traces)));
             }
             Err(e) => {
                 any_error = true;
-                results.push((Analysis::failed(&records[0].source, &e, warnings), None));
+                results.push((
+                    place,
+                    Analysis::failed(&records[0].source, &e, warnings),
+                    None,
+                ));
             }
         }
     }
-    // Keep input order: failed reads were pushed first, so restore the files' order.
-    let order = |a: &Analysis| {
-        args.files
-            .iter()
-            .position(|p| p.display().to_string() == a.source)
-            .unwrap_or(usize::MAX)
-    };
-    results.sort_by_key(|(a, _)| order(a));
-    let analyses: Vec<Analysis> = results.iter().map(|(a, _)| a.clone()).collect();
+    // Input order: an averaged result (pushed last) goes where its first file was.
+    results.sort_by_key(|(place, _, _)| *place);
+    let analyses: Vec<Analysis> = results.iter().map(|(_, a, _)| a.clone()).collect();
     if args.json {
         print!("{}", spurline::to_json(&analyses));
     } else {
@@ -173,7 +177,7 @@ pub fn run(args: AnalyzeArgs) -> i32 {
     if let Some(dir) = &args.report {
         let items: Vec<(String, String, &Analysis, Option<&Traces>)> = results
             .iter()
-            .map(|(a, t)| {
+            .map(|(_, a, t)| {
                 let path = args
                     .files
                     .iter()

@@ -84,6 +84,9 @@ fn go(args: &LimitsArgs) -> Result<(), Error> {
         Method::Sigma { k: args.k }
     };
     let data = read_results(&args.results)?;
+    if let Some(note) = spurline::dropped_note(&data.dropped) {
+        eprintln!("warning: {note}");
+    }
     if data.rows.is_empty() {
         return Err(Error::setting(
             "results",

@@ -28,7 +28,11 @@ pub fn run(args: SweepArgs) -> i32 {
 }
 
 fn go(args: &SweepArgs) -> Result<(), Error> {
-    let points = read_points(&args.run)?.points;
+    let input = read_points(&args.run)?;
+    if let Some(note) = spurline::dropped_note(&input.dropped) {
+        eprintln!("warning: {note}");
+    }
+    let points = input.points;
     let s = sweep(&points);
     let out = args.out.clone().unwrap_or_else(|| args.run.join("sweep"));
     write_sweep(&out, &s)?;

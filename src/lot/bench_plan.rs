@@ -490,6 +490,18 @@ pub(crate) fn device_name_ok(s: &str) -> bool {
     safe_name(s) && !s.starts_with('.')
 }
 
+/// True when a discovered folder or file name can be a device of the lot: not empty, no `/`, not
+/// starting with `.` (hidden entries and the temporary files of an interrupted write). Wider than
+/// [`device_name_ok`]: a discovered device whose name is not also a safe name is still analysed,
+/// and its output folder is a safe name made from it (see [`crate::lot::device_folder`]).
+pub(crate) fn discoverable_device(s: &str) -> bool {
+    !s.is_empty() && !s.starts_with('.') && !s.contains('/') && !s.contains('\0')
+}
+
+/// What [`discoverable_device`] asks for, in an error.
+pub(crate) const DISCOVERABLE_DEVICE: &str =
+    "a device name that is one path component: not empty, no '/', not starting with '.'";
+
 /// What [`device_name_ok`] asks for, in an error.
 pub(crate) const DEVICE_NAME: &str =
     "a device name without / \\ or control characters, not empty, \
@@ -792,7 +804,7 @@ impl BenchPlan {
                         let paths: Vec<PathBuf> = (1..=c.average)
                             .map(|i| folder.join(fill(Some(d), c, i)))
                             .collect();
-                        any = any || paths.iter().any(|p| p.is_file());
+                        any = any || paths.iter().any(|p| record_entry(p));
                         files.push(paths);
                     }
                 }
@@ -1065,7 +1077,9 @@ fn discover(folder: &Path, pattern: &str, found: &mut BTreeSet<String>) {
 fn walk(base: &Path, parts: &[&str], device: Option<&str>, found: &mut BTreeSet<String>) {
     let Some((part, rest)) = parts.split_first() else {
         if let Some(d) = device {
-            if base.is_file() {
+            // Anything but a folder counts (a FIFO, a link to a device file): such a record is then
+            // refused when read, as that device's error row, instead of the device vanishing.
+            if record_entry(base) {
                 found.insert(d.to_string());
             }
         }
@@ -1095,7 +1109,7 @@ fn walk(base: &Path, parts: &[&str], device: Option<&str>, found: &mut BTreeSet<
 }
 
 /// The value of `{device}` for which the pattern part `template` spells `name`; every `{device}` in it
-/// takes the same value, which must be a safe name not starting with `.`.
+/// takes the same value, which must be a [`discoverable_device`] name.
 fn match_part(template: &str, name: &str) -> Option<String> {
     let pieces: Vec<&str> = template.split("{device}").collect();
     let k = pieces.len() - 1;
@@ -1106,11 +1120,14 @@ fn match_part(template: &str, name: &str) -> Option<String> {
     let len = (name.len() - fixed) / k;
     let start = pieces[0].len();
     let value = name.get(start..start + len)?;
-    (name.starts_with(pieces[0])
-        && pieces.join(value) == name
-        && !value.starts_with('.')
-        && safe_name(value))
-    .then(|| value.to_string())
+    (name.starts_with(pieces[0]) && pieces.join(value) == name && discoverable_device(value))
+        .then(|| value.to_string())
+}
+
+/// True when `path` names something a record could be read from: it exists (a link counts, even
+/// a dangling one) and is not a folder.
+fn record_entry(path: &Path) -> bool {
+    std::fs::symlink_metadata(path).is_ok_and(|m| !m.is_dir())
 }
 
 /// Natural order: digit runs compare by value, the rest by character; ties by the plain strings.

@@ -54,9 +54,18 @@ const DEVICE_FOLDER_SUFFIX: &str = "~device";
 
 /// The folder of a device in a lot folder: its name, or its name with `~device` appended when the
 /// name is one of the lot's own file names (compared without case, for case-insensitive file
-/// systems) or already ends with `~device`. One-to-one, so two devices never share a folder. The name
-/// is a safe name of the plan (one path component, see [`BenchPlan`](crate::lot::BenchPlan)).
+/// systems) or already ends with `~device`. A discovered device whose folder name is not a safe
+/// device name (surrounding spaces, a tab, `*`, `\`) gets `<file-safe name>~<16 hex digits of a
+/// hash of the name>~device`. One-to-one, so two devices never share a folder, and always one safe
+/// path component.
 pub fn device_folder(device: &str) -> String {
+    if !crate::lot::bench_plan::device_name_ok(device) {
+        return format!(
+            "{}~{:016x}{DEVICE_FOLDER_SUFFIX}",
+            crate::report::file_safe_name(device),
+            fnv1a(device.as_bytes())
+        );
+    }
     let reserved = LOT_FILE_NAMES
         .iter()
         .any(|f| f.eq_ignore_ascii_case(device));
@@ -65,6 +74,13 @@ pub fn device_folder(device: &str) -> String {
     } else {
         device.to_string()
     }
+}
+
+/// 64-bit FNV-1a: a stable hash (the same on every machine and release) for folder names.
+fn fnv1a(bytes: &[u8]) -> u64 {
+    bytes.iter().fold(0xcbf2_9ce4_8422_2325, |h, &b| {
+        (h ^ u64::from(b)).wrapping_mul(0x0000_0100_0000_01b3)
+    })
 }
 
 /// The kinds of plot a device folder may hold per condition, as the file name's suffix.
@@ -152,7 +168,7 @@ pub struct YieldRow {
     pub failed: usize,
     /// Failing only inside guardbands.
     pub failed_guardband: usize,
-    /// Error rows (not tested).
+    /// Error rows (counted in `tested` too where the condition has limits: tested, not passed).
     pub errors: usize,
     /// passed / tested to 4 decimals; empty when nothing was tested.
     #[serde(rename = "yield")]
@@ -171,6 +187,36 @@ pub struct DroppedCell {
     pub column: String,
     /// What it held.
     pub found: String,
+}
+
+impl std::fmt::Display for DroppedCell {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(
+            f,
+            "{}: line {}, column {}: {:?} is not a number",
+            self.path, self.line, self.column, self.found
+        )
+    }
+}
+
+/// One line saying how many figure cells a reader left out as not numbers and which (the first five
+/// named); `None` when it left out none. `compare`, `sweep` and `limits` all report it, so a
+/// hand-edited cell never shrinks a statistic unseen.
+pub fn dropped_note(cells: &[DroppedCell]) -> Option<String> {
+    const NAMED: usize = 5;
+    let (first, more) = cells.split_at(cells.len().min(NAMED));
+    let first = first.first()?;
+    let mut s = format!(
+        "{} figure cell(s) that are not numbers left out: {first}",
+        cells.len()
+    );
+    for c in &cells[1..cells.len().min(NAMED)] {
+        s.push_str(&format!("; {c}"));
+    }
+    if !more.is_empty() {
+        s.push_str(&format!("; and {} more", more.len()));
+    }
+    Some(s)
 }
 
 pub(crate) fn read_error(path: &Path, location: Location, expected: &str, found: String) -> Error {
@@ -232,7 +278,13 @@ impl LotSummary {
             .iter()
             .map(str::to_string)
             .collect();
-        let header_len = rdr.position().byte() as usize;
+        let mut header_len = rdr.position().byte() as usize;
+        // The reader stops between the `\r` and `\n` of a CRLF header (a file saved by a
+        // spreadsheet); the line end belongs to the header, or every row's line is one short.
+        if bytes.get(header_len) == Some(&b'\n') && header_len > 0 && bytes[header_len - 1] == b'\r'
+        {
+            header_len += 1;
+        }
         let col = |name: &str| columns.iter().position(|h| h == name);
         // An analyze report names records where a lot names conditions.
         let (Some(device), Some(condition)) =

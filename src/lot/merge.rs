@@ -12,7 +12,7 @@
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
-use super::bench_plan::{device_name_ok, safe_name, DEVICE_NAME, SAFE_NAME};
+use super::bench_plan::{discoverable_device, safe_name, DISCOVERABLE_DEVICE, SAFE_NAME};
 use super::files::{
     device_folder, plot_stems, PLOT_KINDS, RESULTS_JSON, SHARD_MANIFEST, SUMMARY_CSV, YIELD_CSV,
 };
@@ -241,11 +241,12 @@ fn same_folder(a: &Path, b: &Path) -> bool {
 /// is refused here, before anything is read or written.
 fn check_names(dir: &Path, man: &ShardManifest) -> Result<()> {
     for d in &man.devices {
-        if !device_name_ok(d) {
+        // Every path is built from `device_folder`, never from the name itself.
+        if !discoverable_device(d) {
             return Err(manifest_error(
                 dir,
                 "devices",
-                DEVICE_NAME.into(),
+                DISCOVERABLE_DEVICE.into(),
                 format!("{d:?}"),
             ));
         }

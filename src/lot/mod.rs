@@ -24,8 +24,8 @@ pub mod sweep;
 pub use array_task::{shard_from_env, ArrayTask, Scheduler};
 pub use bench_plan::{BenchPlan, Condition, ListedRecord, Lot, RecordSource};
 pub use files::{
-    read_failures, read_yield, CsvRows, DroppedCell, FailureRow, LotSummary, SummaryRow, YieldRow,
-    FAILURE_COLUMNS, LEAD_COLUMNS, YIELD_COLUMNS,
+    dropped_note, read_failures, read_yield, CsvRows, DroppedCell, FailureRow, LotSummary,
+    SummaryRow, YieldRow, FAILURE_COLUMNS, LEAD_COLUMNS, YIELD_COLUMNS,
 };
 pub use merge::merge_shards;
 pub use output::Plots;

@@ -15,7 +15,8 @@
 //! - `yield.csv`: per condition a row with metric `*` (results that pass every limit of the condition)
 //!   and a row per limited metric, then a lot row `*,*` counting devices (a device passes when each of
 //!   its tested conditions passes): `tested`, `passed`, `failed`, `failed_guardband`, `errors`, and
-//!   `yield` = passed / tested to 4 decimals (empty when nothing was tested). Error rows are not tested.
+//!   `yield` = passed / tested to 4 decimals (empty when nothing was tested). An error row is a tested
+//!   part that did not pass: `tested` counts it (where its condition has limits) beside `errors`.
 //! - `index.html`: one self-contained page with the lot's table (every text escaped).
 
 use std::collections::{BTreeMap, HashMap};
@@ -437,9 +438,18 @@ impl LotWriter {
             let t = &mut self.conditions[i];
             match c.verdict.outcome {
                 Outcome::Error => {
+                    // A part that could not be measured is a tested part that did not pass: counted
+                    // as tested wherever the condition has limits, so an error never raises a yield.
                     any_error = true;
                     t.all.errors += 1;
-                    t.metrics.iter_mut().for_each(|(_, m)| m.errors += 1);
+                    t.metrics.iter_mut().for_each(|(_, m)| {
+                        m.errors += 1;
+                        m.tested += 1;
+                    });
+                    if !t.metrics.is_empty() {
+                        t.all.tested += 1;
+                        any_tested = true;
+                    }
                     continue;
                 }
                 Outcome::Untested => continue,
@@ -469,6 +479,7 @@ impl LotWriter {
         let d = &mut self.devices;
         if any_error {
             d.errors += 1;
+            d.tested += usize::from(any_tested);
         } else if any_tested {
             d.tested += 1;
             if any_fail {

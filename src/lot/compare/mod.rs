@@ -290,6 +290,12 @@ pub fn compare(a: &Run, b: &Run, settings: &CompareSettings) -> Comparison {
     let mut left_out: Vec<String> = Vec::new();
     left_out.extend(a.error_rows.iter().map(|e| format!("run A error row {e}")));
     left_out.extend(b.error_rows.iter().map(|e| format!("run B error row {e}")));
+    for (run, r) in [("A", a), ("B", b)] {
+        if let Some(note) = crate::lot::dropped_note(&r.dropped) {
+            warnings.push(format!("run {run}: {note}"));
+        }
+        left_out.extend(r.dropped.iter().map(|c| format!("run {run} cell {c}")));
+    }
     let conds_a: BTreeSet<&String> = a.values.keys().map(|(_, c)| c).collect();
     let conds_b: BTreeSet<&String> = b.values.keys().map(|(_, c)| c).collect();
     for c in conds_a.difference(&conds_b) {
