@@ -679,8 +679,53 @@ fn run_fit(r: &Record, y: &[f64], settings: &AnalysisSettings, keep: bool) -> Re
                 keep_residual: keep,
                 ..FourParamOptions::default()
             },
-        ),
+        )
+        .map_err(|e| stated_fin_against_the_record(r, y, e)),
     }
+}
+
+/// When no tone is found near the stated input frequency, the setting is more often wrong than the
+/// record: look for the tone over the whole spectrum, and when there is one, the error names the
+/// setting, where the tone is and how far off the setting is (in hertz and bins). Any other error,
+/// or a record with no tone anywhere, is returned as it was.
+fn stated_fin_against_the_record(r: &Record, y: &[f64], e: Error) -> Error {
+    let Some(stated) = r.fin_hint_hz else {
+        return e;
+    };
+    if e.kind != ErrorKind::NoTone {
+        return e;
+    }
+    let Ok(found) = fit::fit_four(y, r.sample_rate_hz, r.bits, FourParamOptions::default()) else {
+        return e;
+    };
+    let si = crate::si::si;
+    let tone = found.fit.frequency_hz;
+    let folded = crate::freq::fold_to_first_zone(stated, r.sample_rate_hz);
+    let bin = r.sample_rate_hz / y.len() as f64;
+    Error::new(
+        ErrorKind::BadSetting,
+        "",
+        Location::Key("fin_hz".into()),
+        format!(
+            "a tone near the stated input frequency {} (--fin, the sidecar's or the bench plan's \
+             fin_hz{})",
+            si(stated, "Hz", 6),
+            if folded != stated {
+                format!(", folded to {}", si(folded, "Hz", 6))
+            } else {
+                String::new()
+            }
+        ),
+        format!(
+            "none there ({}); the record's tone is at {}, {}{} ({:+.1} bins) from the stated \
+             frequency: correct the input frequency setting, or leave it out",
+            e.found,
+            si(tone, "Hz", 6),
+            if tone < folded { "-" } else { "+" },
+            si((tone - folded).abs(), "Hz", 6),
+            (tone - folded) / bin
+        ),
+    )
 }
 
 /// Count per code, lowest code first; empty above 24 bits where a full table would not fit the plots.

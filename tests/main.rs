@@ -19,6 +19,8 @@ mod plan;
 mod reference;
 mod report;
 mod resource_limits;
+mod setting_errors;
+mod sidecar_clobber;
 mod spc;
 mod store;
 mod sweep;

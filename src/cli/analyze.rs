@@ -81,6 +81,22 @@ pub fn run(args: AnalyzeArgs) -> i32 {
         },
         Err(e) => return fail_all(&e),
     };
+    // `analyze --json x.txt > x.json`: the shell emptied the sidecar before this run began. Say so
+    // plainly (the record is still read, without it) rather than leave it to a puzzling error.
+    for path in &args.files {
+        if let Ok(sidecar) = spurline::sidecar_path(path) {
+            if super::is_stdout(&sidecar) {
+                eprintln!(
+                    "spurline: warning: standard output is {}, the metadata sidecar of {}: the \
+                     shell emptied it before this run began; write the output to another name \
+                     (e.g. {}) and restore the sidecar",
+                    sidecar.display(),
+                    path.display(),
+                    path.with_extension("analysis.json").display()
+                );
+            }
+        }
+    }
     let started_at = spurline::utc_now();
     if let Some(s) = &args.store {
         // A bad store is an error before the records are read, not after.

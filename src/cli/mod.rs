@@ -174,6 +174,29 @@ pub(crate) fn run_files<T: Default + serde::Serialize>(
 }
 
 /// Prints an error the same way everywhere and returns the error exit status.
+/// True when standard output is the file `path` (the same file, however named).
+pub(crate) fn is_stdout(path: &std::path::Path) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::fd::AsFd;
+        use std::os::unix::fs::MetadataExt;
+        let Ok(target) = std::fs::metadata(path) else {
+            return false;
+        };
+        let Ok(fd) = std::io::stdout().as_fd().try_clone_to_owned() else {
+            return false;
+        };
+        std::fs::File::from(fd)
+            .metadata()
+            .is_ok_and(|m| m.is_file() && m.dev() == target.dev() && m.ino() == target.ino())
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = path;
+        false
+    }
+}
+
 pub(crate) fn fail(e: &spurline::Error) -> i32 {
     eprintln!("spurline: error: {e}");
     EXIT_ERROR

@@ -25,7 +25,8 @@ pub use delimited::{parse_delimited, parse_delimited_samples};
 pub use npy::{parse_npy, read_npy_header, NpyLayout};
 pub use samples::Samples;
 pub use sidecar::{
-    parse_channel, parse_delimiter, read_sidecar, sidecar_path, write_sidecar, Sidecar,
+    parse_channel, parse_delimiter, read_sidecar, read_sidecar_noting, sidecar_path, write_sidecar,
+    Sidecar, SIDECAR_TAG,
 };
 pub use text::{parse_text, parse_text_samples};
 pub use values::SampleUnit;
@@ -379,12 +380,18 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         )
     })?;
     // Standard input has no sidecar.
-    let (sidecar_shown, sidecar) = if stdin {
-        ("(none for standard input)".to_string(), Sidecar::default())
+    let (sidecar_shown, sidecar, sidecar_note) = if stdin {
+        (
+            "(none for standard input)".to_string(),
+            Sidecar::default(),
+            None,
+        )
     } else {
+        let (sidecar, note) = read_sidecar_noting(path)?;
         (
             sidecar_path(path)?.display().to_string(),
-            read_sidecar(path)?.unwrap_or_default(),
+            sidecar.unwrap_or_default(),
+            note,
         )
     };
     let format = resolve_format(path, &head, settings, &sidecar, &sidecar_shown)?;
@@ -445,7 +452,10 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     if let Some(bits) = meta.bits {
         check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
     } else if !bits_optional {
-        return Err(missing_bits(&shown, &sidecar_shown));
+        return Err(with_note(
+            missing_bits(&shown, &sidecar_shown),
+            &sidecar_note,
+        ));
     }
     // A WAV file states its sample rate; every other format needs one given.
     let rate_in_file = matches!(format, Format::Wav);
@@ -453,7 +463,10 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         crate::record::check_sample_rate(fs, " (give --fs or \"sample_rate_hz\" in the sidecar)")
             .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
     } else if !rate_in_file {
-        return Err(missing_rate(&shown, &sidecar_shown));
+        return Err(with_note(
+            missing_rate(&shown, &sidecar_shown),
+            &sidecar_note,
+        ));
     }
     if let Some(f) = meta.fin_hz {
         positive("fin_hz", f).map_err(|e| e.with_path(origin(cli.fin_hz.is_some())))?;
@@ -464,6 +477,7 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     }
 
     let mut warnings = Vec::new();
+    warnings.extend(sidecar_note);
     warnings.extend(ignored_settings(settings, &format));
     if matches!(format, Format::Text | Format::Csv { .. }) {
         detect::refuse_binary(&bytes, &shown)?;
@@ -644,6 +658,14 @@ fn missing_bits(shown: &str, sidecar_shown: &str) -> Error {
         "none given",
     )
     .with_path(shown)
+}
+
+/// A missing-setting error with the reason the JSON beside the record was not read, when it was not.
+fn with_note(mut e: Error, note: &Option<String>) -> Error {
+    if let Some(n) = note {
+        e.found = format!("{} ({n})", e.found);
+    }
+    e
 }
 
 /// The error for a record read without a sample rate.

@@ -13,6 +13,11 @@ use crate::record::Coding;
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct Sidecar {
+    /// The tag that makes a JSON file a metadata sidecar: [`SIDECAR_TAG`] in every sidecar the tool
+    /// writes. A sidecar without it is still read when it holds only sidecar keys (one written by
+    /// hand or by an earlier release); any other untagged JSON beside a record is not a sidecar.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub sidecar: Option<u32>,
     /// Sample rate in hertz.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub sample_rate_hz: Option<f64>,
@@ -120,21 +125,74 @@ pub fn sidecar_path(record: &Path) -> Result<PathBuf> {
 /// Largest sidecar read: a few keys and a generator note take a few kB.
 const MAX_SIDECAR_BYTES: u64 = 1 << 20;
 
-/// Reads the sidecar of a record; `None` when there is none.
-///
-/// Unknown keys and values of the wrong type are [`ErrorKind::BadMetadata`] at the line and column
-/// where the JSON parser stopped.
+/// The value of the `sidecar` key in a sidecar this release writes (the sidecar's format version).
+pub const SIDECAR_TAG: u32 = 1;
+
+/// Reads the sidecar of a record; `None` when there is none, or when the JSON file beside the record
+/// is not a sidecar (see [`read_sidecar_noting`], which also says why).
 pub fn read_sidecar(record: &Path) -> Result<Option<Sidecar>> {
+    read_sidecar_noting(record).map(|(s, _)| s)
+}
+
+/// Reads the sidecar of a record, with a note when the JSON file beside it is not one.
+///
+/// A file with the `sidecar` tag is read strictly: unknown keys and values of the wrong type are
+/// [`ErrorKind::BadMetadata`] at the line and column where the JSON parser stopped, as is an untagged
+/// object holding only sidecar keys with a value of the wrong type. Any other file (empty, not JSON,
+/// an array such as `analyze --json` prints, an object with keys no sidecar has) is not a sidecar: it
+/// is not read, and the note says what was found instead, so that an analysis output saved beside a
+/// record never stops that record from being analysed.
+pub fn read_sidecar_noting(record: &Path) -> Result<(Option<Sidecar>, Option<String>)> {
     let path = sidecar_path(record)?;
     let shown = path.display().to_string();
     if let Err(e) = std::fs::symlink_metadata(&path) {
         if e.kind() == std::io::ErrorKind::NotFound {
-            return Ok(None);
+            return Ok((None, None));
         }
     }
     let bytes =
         crate::resources::read_small_file(&path, "a readable metadata sidecar", MAX_SIDECAR_BYTES)?;
-    serde_json::from_slice(&bytes).map(Some).map_err(|e| {
+    let not_a_sidecar = |what: String| {
+        Ok((
+            None,
+            Some(format!(
+                "{shown} beside the record is not a metadata sidecar ({what}); it was not read"
+            )),
+        ))
+    };
+    let value: serde_json::Value = match serde_json::from_slice(&bytes) {
+        Ok(v) => v,
+        Err(_) if bytes.iter().all(u8::is_ascii_whitespace) => {
+            return not_a_sidecar("an empty file".into())
+        }
+        Err(e) => return not_a_sidecar(format!("not JSON: {e}")),
+    };
+    let Some(object) = value.as_object() else {
+        let kind = match value {
+            serde_json::Value::Array(_) => "a JSON array, as `analyze --json` prints",
+            _ => "a JSON value that is not an object",
+        };
+        return not_a_sidecar(kind.into());
+    };
+    if !object.contains_key("sidecar") {
+        let foreign: Vec<&str> = object
+            .keys()
+            .map(String::as_str)
+            .filter(|k| !SIDECAR_KEYS.contains(k))
+            .collect();
+        if !foreign.is_empty() {
+            return not_a_sidecar(format!(
+                "no \"sidecar\" tag, and keys no sidecar has: {}",
+                foreign
+                    .iter()
+                    .take(5)
+                    .copied()
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            ));
+        }
+    }
+    serde_json::from_slice(&bytes).map(|s| (Some(s), None)).map_err(|e| {
         let message = e.to_string();
         let suffix = format!(" at line {} column {}", e.line(), e.column());
         let found = message.strip_suffix(&suffix).unwrap_or(&message).to_string();
@@ -142,17 +200,39 @@ pub fn read_sidecar(record: &Path) -> Result<Option<Sidecar>> {
             ErrorKind::BadMetadata,
             shown,
             Location::LineColumn(e.line(), e.column()),
-            "a JSON object with only the keys sample_rate_hz, bits, fin_hz, full_scale_vpp, format, unit, \
-             coding, justify, skip_bytes, channel, column, delimiter, generator",
+            "a JSON object with only the keys sidecar, sample_rate_hz, bits, fin_hz, full_scale_vpp, \
+             format, unit, coding, justify, skip_bytes, channel, column, delimiter, generator",
             found,
         )
     })
 }
 
+/// The keys a sidecar may hold, in declaration order.
+const SIDECAR_KEYS: [&str; 14] = [
+    "sidecar",
+    "sample_rate_hz",
+    "bits",
+    "fin_hz",
+    "full_scale_vpp",
+    "format",
+    "coding",
+    "justify",
+    "skip_bytes",
+    "channel",
+    "column",
+    "delimiter",
+    "unit",
+    "generator",
+];
+
 /// Writes the sidecar of a record as pretty JSON with a final newline (keys in declaration order, so
-/// the same sidecar always gives the same bytes).
+/// the same sidecar always gives the same bytes), tagged with `"sidecar": 1` ([`SIDECAR_TAG`]).
 pub fn write_sidecar(record: &Path, sidecar: &Sidecar) -> Result<()> {
     let path = sidecar_path(record)?;
+    let sidecar = &Sidecar {
+        sidecar: Some(SIDECAR_TAG),
+        ..sidecar.clone()
+    };
     let output_error = |found: String| {
         Error::new(
             ErrorKind::Output,
