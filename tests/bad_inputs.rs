@@ -427,10 +427,26 @@ fn cases() -> Vec<Case> {
         Case {
             name: "--format of a word size that does not exist",
             files: vec![("x.bin", le16(&[0; 32]))],
-            argv: analyze("x.bin", &with_meta(&["--format", "i24le"])),
+            argv: analyze("x.bin", &with_meta(&["--format", "i20le"])),
             kind: "bad_setting",
             file: "",
             at: "'format'",
+        },
+        Case {
+            name: "24-bit words with a partial word at the end",
+            files: vec![("x.bin", le16(&[0; 32]))],
+            argv: analyze("x.bin", &with_meta(&["--format", "i24le"])),
+            kind: "partial_word",
+            file: "x.bin",
+            at: "byte offset 63",
+        },
+        Case {
+            name: "packed 12-bit samples with a partial group at the end",
+            files: vec![("x.bin", le16(&[0; 32]))],
+            argv: analyze("x.bin", &with_meta(&["--format", "p12be"])),
+            kind: "partial_word",
+            file: "x.bin",
+            at: "byte offset 63",
         },
         Case {
             name: "--channel beyond the channel count",
