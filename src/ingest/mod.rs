@@ -9,6 +9,7 @@ mod checks;
 mod delimited;
 mod detect;
 mod npy;
+mod packed;
 mod samples;
 mod sidecar;
 mod text;
@@ -28,7 +29,7 @@ pub use sidecar::{
     parse_channel, parse_delimiter, read_sidecar, read_sidecar_noting, sidecar_path, write_sidecar,
     Sidecar, SIDECAR_TAG,
 };
-pub use text::{parse_text, parse_text_samples};
+pub use text::{parse_text, parse_text_samples, parse_text_words};
 pub use values::SampleUnit;
 pub use wav::{read_wav_header, WavLayout};
 
@@ -41,7 +42,8 @@ use crate::record::{max_code, min_code, Coding, Record};
 use crate::resources;
 
 /// The word formats [`Format::parse_word`] accepts, as listed in errors.
-const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i32le, i32be, u32le, u32be";
+const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i24le, i24be, u24le, u24be, i32le, \
+     i32be, u32le, u32be, or packed p10le, p10be, p12le, p12be, p14le, p14be";
 
 /// Fewest samples when [`IngestSettings::min_samples`] is 0.
 pub const DEFAULT_MIN_SAMPLES: usize = 16;
@@ -74,10 +76,46 @@ impl std::str::FromStr for Justify {
     }
 }
 
+/// Samples of an odd width packed back to back, with no padding, into groups of whole bytes.
+///
+/// A group is the fewest bytes that hold whole samples: 5 bytes for four 10-bit samples, 3 bytes for
+/// two 12-bit samples, 7 bytes for four 14-bit samples. Read as one unsigned integer (little-endian
+/// when `msb_first` is false, big-endian when it is true), a group of S samples of N bits holds sample
+/// j (0-based, in time order) in bits N·j .. N·j+N−1 (little-endian: the first sample in the lowest
+/// bits) or in bits N·(S−1−j) .. N·(S−j)−1 (big-endian: the first sample in the highest bits). That is
+/// the bit stream written least significant bit first, or most significant bit first. For 12 bits:
+/// `p12le` bytes are `s0[7:0]`, `s1[3:0]·s0[11:8]`, `s1[11:4]`; `p12be` bytes are `s0[11:4]`,
+/// `s0[3:0]·s1[11:8]`, `s1[7:0]` (high nibble first).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Packing {
+    /// Bits per sample: 10, 12 or 14.
+    pub bits: u32,
+    /// The first sample in the most significant bits of a big-endian group (`p12be`); else in the
+    /// least significant bits of a little-endian group (`p12le`).
+    pub msb_first: bool,
+}
+
+impl Packing {
+    /// The widths a packing may have.
+    pub const WIDTHS: [u32; 3] = [10, 12, 14];
+
+    /// Bytes in one group: the least common multiple of the width and 8, in bytes.
+    pub fn group_bytes(&self) -> usize {
+        let n = self.bits as usize;
+        n / crate::freq::gcd(n as u64, 8) as usize
+    }
+
+    /// Samples in one group.
+    pub fn group_samples(&self) -> usize {
+        8 * self.group_bytes() / self.bits as usize
+    }
+}
+
 /// How codes are laid out in a raw binary record.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct BinaryLayout {
-    /// Bytes per word: 1, 2 or 4.
+    /// Bytes per word: 1, 2, 3 or 4; for packed samples, the bytes of one group
+    /// ([`Packing::group_bytes`]).
     pub word_bytes: usize,
     /// Signed words ("i" formats); decides the coding when `coding` is `None`.
     pub signed: bool,
@@ -91,8 +129,11 @@ pub struct BinaryLayout {
     pub skip_bytes: u64,
     /// The channel to keep, 0-based.
     pub channel: usize,
-    /// Interleaved channels per frame (at least 1).
+    /// Interleaved channels per frame (at least 1); packed samples are interleaved sample by
+    /// sample.
     pub channels: usize,
+    /// Samples packed back to back across byte boundaries; `None`: one sample per word.
+    pub packing: Option<Packing>,
 }
 
 /// A column of a delimited record.
@@ -156,12 +197,43 @@ impl Format {
         }
     }
 
-    /// Parses a binary word format: "i8", "u8", "i16le", "i16be", "u16le", "u16be", "i32le", "i32be",
-    /// "u32le", "u32be" (i: signed, two's complement by default; u: unsigned, offset binary by default;
-    /// le/be: byte order). The rest of the layout takes its defaults: right-justified, no header, one
+    /// Parses a binary word format: "i8", "u8", "i16le", "i16be", "u16le", "u16be", "i24le", "i24be",
+    /// "u24le", "u24be", "i32le", "i32be", "u32le", "u32be" (i: signed, two's complement by default;
+    /// u: unsigned, offset binary by default; le/be: byte order), or a packing, "p10le", "p10be",
+    /// "p12le", "p12be", "p14le", "p14be" (two's complement by default; le/be: the bit order of
+    /// [`Packing`]). The rest of the layout takes its defaults: right-justified, no header, one
     /// channel.
     pub fn parse_word(s: &str) -> Result<BinaryLayout> {
         let word = s.trim();
+        if let Some(rest) = word.strip_prefix('p') {
+            let (bits, msb_first) = match rest {
+                "10le" => (10, false),
+                "10be" => (10, true),
+                "12le" => (12, false),
+                "12be" => (12, true),
+                "14le" => (14, false),
+                "14be" => (14, true),
+                _ => {
+                    return Err(Error::setting(
+                        "format",
+                        format!("a word format: {}", WORD_NAMES),
+                        format!("{s:?}"),
+                    ))
+                }
+            };
+            let packing = Packing { bits, msb_first };
+            return Ok(BinaryLayout {
+                word_bytes: packing.group_bytes(),
+                signed: true,
+                big_endian: msb_first,
+                coding: None,
+                justify: Justify::Right,
+                skip_bytes: 0,
+                channel: 0,
+                channels: 1,
+                packing: Some(packing),
+            });
+        }
         let (signed, rest) = match word.as_bytes().first() {
             Some(b'i') => (true, &word[1..]),
             Some(b'u') => (false, &word[1..]),
@@ -171,6 +243,8 @@ impl Format {
             "8" => (1, false),
             "16le" => (2, false),
             "16be" => (2, true),
+            "24le" => (3, false),
+            "24be" => (3, true),
             "32le" => (4, false),
             "32be" => (4, true),
             _ => {
@@ -190,6 +264,7 @@ impl Format {
             skip_bytes: 0,
             channel: 0,
             channels: 1,
+            packing: None,
         })
     }
 }
@@ -313,15 +388,24 @@ fn too_large(shown: &str, size: &str, needed: u64, limit: u64) -> Error {
 fn needed_up_front(file_bytes: u64, format: &Format) -> (u64, String) {
     match format {
         Format::Binary(l) => {
-            let frame = (l.word_bytes as u64).saturating_mul(l.channels.max(1) as u64);
-            let samples = file_bytes.saturating_sub(l.skip_bytes) / frame.max(1);
+            let data = file_bytes.saturating_sub(l.skip_bytes);
+            let channels = l.channels.max(1) as u64;
+            let (samples, what) = match l.packing {
+                Some(p) => (
+                    data.saturating_mul(8) / u64::from(p.bits) / channels,
+                    format!("packed {}-bit samples", p.bits),
+                ),
+                None => (
+                    data / (l.word_bytes as u64).saturating_mul(channels).max(1),
+                    format!("{}-byte words", l.word_bytes),
+                ),
+            };
             (
                 file_bytes
                     .saturating_add(samples.saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE)),
                 format!(
-                    "{} holding {samples} samples of {}-byte words",
+                    "{} holding {samples} samples of {what}",
                     resources::bytes_shown(file_bytes),
-                    l.word_bytes
                 ),
             )
         }
@@ -448,7 +532,8 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
 
     // Formats that may hold values (with no code grid), or state their resolution, may go without
     // one; the check that codes have one comes after the read.
-    let bits_optional = !matches!(format, Format::Binary(_));
+    // A packing states its width, which is the resolution unless --bits says fewer.
+    let bits_optional = !matches!(&format, Format::Binary(l) if l.packing.is_none());
     if let Some(bits) = meta.bits {
         check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
     } else if !bits_optional {
@@ -483,8 +568,6 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         detect::refuse_binary(&bytes, &shown)?;
     }
     let unit = settings.unit.or(sidecar.unit);
-    // Only the formats with optional bits reach a read without them.
-    let needed = || meta.bits.unwrap_or(0);
     // Told the samples are codes, the text readers read codes only (and name the line of a fraction).
     let values_allowed = unit != Some(SampleUnit::Codes);
     let mut fraction_line = None;
@@ -496,6 +579,17 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         None => sidecar.parsed_channel(&sidecar_shown)?,
     };
     let samples = match &format {
+        // Raw words in hexadecimal or binary: bit patterns of a stated width, decoded by the coding.
+        Format::Text if text::radix_of(&bytes).is_some() => {
+            let Some(bits) = meta.bits else {
+                return Err(missing_bits(&shown, &sidecar_shown));
+            };
+            let coding = settings
+                .coding
+                .or(sidecar.coding)
+                .unwrap_or(Coding::TwosComplement);
+            Samples::Codes(text::parse_text_words(&bytes, &shown, bits, coding)?)
+        }
         Format::Text if values_allowed => {
             let (s, line) = text::parse_text_located(&bytes, &shown, meta.bits)?;
             fraction_line = line;
@@ -515,7 +609,15 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             column,
             *delimiter,
         )?),
-        Format::Binary(layout) => Samples::Codes(parse_binary(&bytes, &shown, needed(), layout)?),
+        Format::Binary(layout) => {
+            bits_known = meta.bits.or(layout.packing.map(|p| p.bits));
+            Samples::Codes(parse_binary(
+                &bytes,
+                &shown,
+                bits_known.unwrap_or(0),
+                layout,
+            )?)
+        }
         Format::Wav => {
             let read = wav::parse_wav(&bytes, &shown, meta.bits, channel)?;
             warnings.extend(read.warnings);
@@ -791,9 +893,10 @@ fn ignored_settings(s: &IngestSettings, format: &Format) -> Option<String> {
         ("delimiter", s.delimiter.is_some()),
     ];
     let (kind, unused): (&str, Vec<&str>) = match format {
+        // The coding applies to raw words written in hexadecimal or binary.
         Format::Text => (
             "a text record",
-            binary
+            binary[1..]
                 .iter()
                 .chain(&csv)
                 .filter(|x| x.1)
@@ -856,6 +959,10 @@ mod tests {
             ("i16be", 2, true, true),
             ("u16le", 2, false, false),
             ("u16be", 2, false, true),
+            ("i24le", 3, true, false),
+            ("i24be", 3, true, true),
+            ("u24le", 3, false, false),
+            ("u24be", 3, false, true),
             ("i32le", 4, true, false),
             ("i32be", 4, true, true),
             ("u32le", 4, false, false),
@@ -871,8 +978,23 @@ mod tests {
             assert_eq!(l.coding, None);
             assert_eq!(l.justify, Justify::Right);
             assert_eq!((l.skip_bytes, l.channel, l.channels), (0, 0, 1));
+            assert_eq!(l.packing, None);
         }
-        for bad in ["i16", "s16le", "u24le", "i8le", "", "I16LE", "text"] {
+        for (name, bits, msb_first, group) in [
+            ("p10le", 10, false, 5),
+            ("p10be", 10, true, 5),
+            ("p12le", 12, false, 3),
+            ("p12be", 12, true, 3),
+            ("p14le", 14, false, 7),
+            ("p14be", 14, true, 7),
+        ] {
+            let l = Format::parse_word(name).unwrap();
+            assert_eq!(l.packing, Some(Packing { bits, msb_first }), "{name}");
+            assert_eq!((l.word_bytes, l.signed, l.coding), (group, true, None));
+        }
+        for bad in [
+            "i16", "s16le", "u12le", "i8le", "", "I16LE", "text", "p12", "p16le", "p8le",
+        ] {
             let e = Format::parse_word(bad).unwrap_err();
             assert_eq!(e.kind, ErrorKind::BadSetting, "{bad}");
             assert_eq!(e.location, Location::Key("format".into()));
