@@ -139,8 +139,8 @@ pub fn read_sidecar(record: &Path) -> Result<Option<Sidecar>> {
 /// A file with the `sidecar` tag is read strictly: unknown keys and values of the wrong type are
 /// [`ErrorKind::BadMetadata`] at the line and column where the JSON parser stopped, as is an untagged
 /// object holding only sidecar keys with a value of the wrong type. Any other file (empty, not JSON,
-/// an array such as `analyze --json` prints, an object with keys no sidecar has) is not a sidecar: it
-/// is not read, and the note says what was found instead, so that an analysis output saved beside a
+/// an array such as `analyze --json` prints, an object whose keys are mostly ones no sidecar has) is not a
+/// sidecar: it is not read, and the note says what was found instead, so that an analysis output saved beside a
 /// record never stops that record from being analysed.
 pub fn read_sidecar_noting(record: &Path) -> Result<(Option<Sidecar>, Option<String>)> {
     let path = sidecar_path(record)?;
@@ -180,7 +180,9 @@ pub fn read_sidecar_noting(record: &Path) -> Result<(Option<Sidecar>, Option<Str
             .map(String::as_str)
             .filter(|k| !SIDECAR_KEYS.contains(k))
             .collect();
-        if !foreign.is_empty() {
+        // Mostly sidecar keys with a stray one is a sidecar with a typo (read strictly below, so
+        // the error names the key); mostly other keys is some other file.
+        if 2 * foreign.len() > object.len() {
             return not_a_sidecar(format!(
                 "no \"sidecar\" tag, and keys no sidecar has: {}",
                 foreign
@@ -311,6 +313,7 @@ mod tests {
 
     fn full() -> Sidecar {
         Sidecar {
+            sidecar: Some(SIDECAR_TAG),
             sample_rate_hz: Some(125e6),
             bits: Some(14),
             fin_hz: Some(10.1e6),
@@ -345,6 +348,10 @@ mod tests {
         // Keys keep declaration order.
         let pos = |k: &str| text.find(&format!("\"{k}\"")).unwrap();
         assert!(pos("sample_rate_hz") < pos("bits") && pos("bits") < pos("generator"));
+        // The list an untagged sidecar is checked against is every key, in order.
+        let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+        let keys: Vec<&str> = v.as_object().unwrap().keys().map(String::as_str).collect();
+        assert_eq!(keys, SIDECAR_KEYS);
     }
 
     #[test]
@@ -361,9 +368,15 @@ mod tests {
         let text = std::fs::read_to_string(dir.path().join("r.json")).unwrap();
         assert_eq!(
             text,
-            "{\n  \"sample_rate_hz\": 1000000.0,\n  \"bits\": 12,\n  \"column\": 2\n}\n"
+            "{\n  \"sidecar\": 1,\n  \"sample_rate_hz\": 1000000.0,\n  \"bits\": 12,\n  \"column\": 2\n}\n"
         );
-        assert_eq!(read_sidecar(&rec).unwrap(), Some(sc));
+        assert_eq!(
+            read_sidecar(&rec).unwrap(),
+            Some(Sidecar {
+                sidecar: Some(SIDECAR_TAG),
+                ..sc
+            })
+        );
     }
 
     #[test]
@@ -380,7 +393,8 @@ mod tests {
 
     #[test]
     fn unknown_key_is_bad_metadata_at_line_and_column() {
-        let e = read_text("{\n  \"bits\": 12,\n  \"sample_rate\": 1e6\n}\n").unwrap_err();
+        let e = read_text("{\n  \"bits\": 12,\n  \"sample_rate\": 1e6,\n  \"sidecar\": 1\n}\n")
+            .unwrap_err();
         assert_eq!(e.kind, ErrorKind::BadMetadata);
         assert!(e.path.ends_with("r.json"), "{}", e.path);
         // serde_json stops after the key: line 3, column 15 (1-based, at the closing quote).
@@ -411,11 +425,37 @@ mod tests {
         assert!(e.found.contains("unknown variant `gray`"), "{}", e.found);
         let e = read_text("{\"column\": 1.5}").unwrap_err();
         assert_eq!(e.kind, ErrorKind::BadMetadata);
-        // serde_json stops at the 'o' of "not", reading it as a misspelt null.
-        let e = read_text("not json").unwrap_err();
-        assert_eq!(e.location, Location::LineColumn(1, 2));
-        let e = read_text("").unwrap_err();
-        assert_eq!(e.kind, ErrorKind::BadMetadata);
+    }
+
+    fn note_of(json: &str) -> (Option<Sidecar>, Option<String>) {
+        let dir = tempfile::tempdir().unwrap();
+        std::fs::write(dir.path().join("r.json"), json).unwrap();
+        read_sidecar_noting(&dir.path().join("r.bin")).unwrap()
+    }
+
+    #[test]
+    fn json_that_is_no_sidecar_is_noted_not_read() {
+        for (json, says) in [
+            ("not json", "not JSON"),
+            ("", "an empty file"),
+            ("[{\"bits\": 12}]", "a JSON array"),
+            ("12", "not an object"),
+            (
+                "{\"device\": \"d\", \"bits\": 12, \"x\": 1}",
+                "keys no sidecar has: device, x",
+            ),
+        ] {
+            let (sc, note) = note_of(json);
+            assert_eq!(sc, None, "{json}");
+            let note = note.unwrap();
+            assert!(
+                note.contains("is not a metadata sidecar") && note.contains(says),
+                "{note}"
+            );
+        }
+        // A plain sidecar of known keys (hand-written, or from an earlier release) is read.
+        let (sc, note) = note_of("{\"bits\": 12}");
+        assert_eq!((sc.and_then(|s| s.bits), note), (Some(12), None));
     }
 
     #[test]
