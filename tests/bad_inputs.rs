@@ -506,7 +506,9 @@ fn cases() -> Vec<Case> {
         },
         Case {
             name: "sidecar that is not JSON",
-            files: vec![("p.txt", good()), ("p.json", b"not json".to_vec())],
+            // An object that is not JSON (JSON that is no object is not a sidecar at all: see
+            // sidecar_clobber.rs).
+            files: vec![("p.txt", good()), ("p.json", b"{not json}".to_vec())],
             argv: analyze("p.txt", &META),
             kind: "bad_metadata",
             file: "p.json",

@@ -16,8 +16,8 @@ use serde::Serialize;
 use spurline::{analyze, AnalysisSettings, FitChoice};
 use spurline::{max_code, min_code, Coding, ErrorKind, Location, Record};
 use spurline::{
-    parse_binary, parse_delimited, parse_text, read_record, read_sidecar, BinaryLayout, ColumnSel,
-    IngestSettings, Justify, Metadata,
+    parse_binary, parse_delimited, parse_text, read_record, read_sidecar, read_sidecar_noting,
+    BinaryLayout, ColumnSel, IngestSettings, Justify, Metadata,
 };
 use spurline::{SpectrumSettings, Window, WindowChoice};
 use std::path::Path;
@@ -736,8 +736,9 @@ proptest! {
     fn sidecar_arbitrary_bytes_never_panic(bytes in prop::collection::vec(any::<u8>(), 0..200)) {
         let dir = record_with_sidecar("r.bin", &record_bytes("bin"), &bytes);
         let side = dir.path().join("r.json").display().to_string();
-        match read_sidecar(&dir.path().join("r.bin")) {
-            Ok(s) => prop_assert!(s.is_some()),
+        match read_sidecar_noting(&dir.path().join("r.bin")) {
+            // A sidecar, or a note saying why the file is none: never neither, never both.
+            Ok((s, note)) => prop_assert!(s.is_some() != note.is_some()),
             Err(e) => {
                 prop_assert_eq!(e.kind, ErrorKind::BadMetadata);
                 prop_assert!(matches!(e.location, Location::LineColumn(..)), "{:?}", e);

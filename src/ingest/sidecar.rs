@@ -165,9 +165,14 @@ pub fn read_sidecar_noting(record: &Path) -> Result<(Option<Sidecar>, Option<Str
         Err(_) if bytes.iter().all(u8::is_ascii_whitespace) => {
             return not_a_sidecar("an empty file".into())
         }
+        // An object cut short or mistyped is a broken sidecar: read strictly below for the place.
+        Err(_) if bytes.trim_ascii_start().starts_with(b"{") => serde_json::Value::Null,
         Err(e) => return not_a_sidecar(format!("not JSON: {e}")),
     };
     let Some(object) = value.as_object() else {
+        if value.is_null() && bytes.trim_ascii_start().starts_with(b"{") {
+            return strict(&bytes, shown);
+        }
         let kind = match value {
             serde_json::Value::Array(_) => "a JSON array, as `analyze --json` prints",
             _ => "a JSON value that is not an object",
@@ -194,7 +199,12 @@ pub fn read_sidecar_noting(record: &Path) -> Result<(Option<Sidecar>, Option<Str
             ));
         }
     }
-    serde_json::from_slice(&bytes).map(|s| (Some(s), None)).map_err(|e| {
+    strict(&bytes, shown)
+}
+
+/// The sidecar read strictly, or the error at the place the JSON parser stopped.
+fn strict(bytes: &[u8], shown: String) -> Result<(Option<Sidecar>, Option<String>)> {
+    serde_json::from_slice(bytes).map(|s| (Some(s), None)).map_err(|e| {
         let message = e.to_string();
         let suffix = format!(" at line {} column {}", e.line(), e.column());
         let found = message.strip_suffix(&suffix).unwrap_or(&message).to_string();
@@ -437,6 +447,7 @@ mod tests {
     fn json_that_is_no_sidecar_is_noted_not_read() {
         for (json, says) in [
             ("not json", "not JSON"),
+            ("\u{feff}binary", "not JSON"),
             ("", "an empty file"),
             ("[{\"bits\": 12}]", "a JSON array"),
             ("12", "not an object"),
@@ -454,6 +465,9 @@ mod tests {
             );
         }
         // A plain sidecar of known keys (hand-written, or from an earlier release) is read.
+        // An object cut short is a broken sidecar, an error at its place.
+        let e = read_text("{\"bits\": 12,").unwrap_err();
+        assert_eq!(e.location, Location::LineColumn(1, 12));
         let (sc, note) = note_of("{\"bits\": 12}");
         assert_eq!((sc.and_then(|s| s.bits), note), (Some(12), None));
     }
