@@ -292,12 +292,24 @@ fn unquote(f: &[u8]) -> &[u8] {
         .unwrap_or(f)
 }
 
+/// Whether a field is a number (an integer, or a decimal value).
+fn is_number(f: &[u8]) -> bool {
+    matches!(parse_int(f), IntToken::Value(_) | IntToken::TooLarge)
+        || super::text::parse_value(f).is_some()
+}
+
 /// Finds the table: the first row whose every field is a number, and the header just before it
-/// when that row has as many fields and a letter. Everything before is a preamble (settings as
-/// key,value pairs or free text) and is skipped.
+/// when that row has as many fields, one with a letter and none a number. Everything before the
+/// header is a preamble (settings as key,value pairs or free text) and is skipped. With no header,
+/// the lines before the first row of numbers are skipped only when each has a letter, and none holds
+/// a number or has more fields than that row: a row with a bad field, or a header over short rows,
+/// is then read and reported at its line, never dropped as a preamble.
 fn survey(b: &[u8], sep: Separator) -> Survey {
     let mut previous: Option<(usize, Vec<&[u8]>)> = None;
     let mut first_content = None;
+    let mut number_seen = false;
+    let mut widest = 0;
+    let mut worded = true;
     for (k, raw) in b.split(|&c| c == b'\n').enumerate() {
         let l = raw.strip_suffix(b"\r").unwrap_or(raw);
         let t = l.trim_ascii();
@@ -306,14 +318,14 @@ fn survey(b: &[u8], sep: Separator) -> Survey {
         }
         first_content.get_or_insert(k + 1);
         let fields = split_fields(t, sep);
-        let numeric = fields.iter().all(|f| {
-            super::text::parse_value(f).is_some()
-                || matches!(parse_int(f), IntToken::Value(_) | IntToken::TooLarge)
-        });
-        if numeric && !fields.is_empty() {
+        let numbers = fields.iter().filter(|f| is_number(f)).count();
+        if numbers == fields.len() && !fields.is_empty() {
             let header = previous.filter(|(_, h)| {
-                h.len() == fields.len() && h.iter().any(|f| f.iter().any(u8::is_ascii_alphabetic))
+                h.len() == fields.len()
+                    && h.iter().any(|f| f.iter().any(u8::is_ascii_alphabetic))
+                    && !h.iter().any(|f| is_number(f))
             });
+            let fields = fields.len();
             return match header {
                 Some((line, h)) => Survey {
                     start_line: line,
@@ -322,15 +334,23 @@ fn survey(b: &[u8], sep: Separator) -> Survey {
                             .map(|f| String::from_utf8_lossy(f).into_owned())
                             .collect(),
                     ),
-                    fields: fields.len(),
+                    fields,
                 },
-                None => Survey {
+                None if !number_seen && worded && widest <= fields => Survey {
                     start_line: k + 1,
                     header: None,
-                    fields: fields.len(),
+                    fields,
+                },
+                None => Survey {
+                    start_line: first_content.unwrap_or(0),
+                    header: None,
+                    fields,
                 },
             };
         }
+        number_seen |= numbers > 0;
+        worded &= t.iter().any(u8::is_ascii_alphabetic);
+        widest = widest.max(fields.len());
         previous = Some((k + 1, fields));
     }
     Survey {
@@ -629,12 +649,16 @@ fn detect_separator(b: &[u8]) -> Separator {
             .map(|l| l.trim_ascii())
             .filter(|l| !l.is_empty() && l[0] != b'#')
     };
-    let first = content()
-        .find(|l| l[0].is_ascii_digit() || matches!(l[0], b'-' | b'+' | b'.'))
-        .or_else(|| content().next());
-    let Some(line) = first else {
-        return Separator::Byte(b',');
-    };
+    let data = content().find(|l| l[0].is_ascii_digit() || matches!(l[0], b'-' | b'+' | b'.'));
+    // A row of one number has no separator to see: then the first line decides.
+    data.and_then(separator_in)
+        .or_else(|| content().next().and_then(separator_in))
+        .unwrap_or(Separator::Byte(b','))
+}
+
+/// The most frequent of ',', ';' and tab outside quotes (ties in that order), else runs of spaces
+/// when the line has any; `None` when it has none of them.
+fn separator_in(line: &[u8]) -> Option<Separator> {
     let mut counts = [0usize; 3];
     let mut quoted = false;
     for &c in line {
@@ -653,11 +677,11 @@ fn detect_separator(b: &[u8]) -> Separator {
         }
     }
     if counts[best] > 0 {
-        Separator::Byte([b',', b';', b'\t'][best])
+        Some(Separator::Byte([b',', b';', b'\t'][best]))
     } else if line.contains(&b' ') {
-        Separator::Whitespace
+        Some(Separator::Whitespace)
     } else {
-        Separator::Byte(b',')
+        None
     }
 }
 
