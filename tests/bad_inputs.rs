@@ -433,6 +433,14 @@ fn cases() -> Vec<Case> {
             at: "'format'",
         },
         Case {
+            name: "a hexadecimal word wider than the resolution",
+            files: vec![("x.txt", b"0x001\n0x7FF\n0x1000\n".to_vec())],
+            argv: analyze("x.txt", &with_meta(&[])),
+            kind: "code_out_of_range",
+            file: "x.txt",
+            at: "line 3",
+        },
+        Case {
             name: "24-bit words with a partial word at the end",
             files: vec![("x.bin", le16(&[0; 32]))],
             argv: analyze("x.bin", &with_meta(&["--format", "i24le"])),

@@ -28,7 +28,7 @@ pub use samples::Samples;
 pub use sidecar::{
     parse_channel, parse_delimiter, read_sidecar, sidecar_path, write_sidecar, Sidecar,
 };
-pub use text::{parse_text, parse_text_samples};
+pub use text::{parse_text, parse_text_samples, parse_text_words};
 pub use values::SampleUnit;
 pub use wav::{read_wav_header, WavLayout};
 
@@ -565,6 +565,17 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         None => sidecar.parsed_channel(&sidecar_shown)?,
     };
     let samples = match &format {
+        // Raw words in hexadecimal or binary: bit patterns of a stated width, decoded by the coding.
+        Format::Text if text::radix_of(&bytes).is_some() => {
+            let Some(bits) = meta.bits else {
+                return Err(missing_bits(&shown, &sidecar_shown));
+            };
+            let coding = settings
+                .coding
+                .or(sidecar.coding)
+                .unwrap_or(Coding::TwosComplement);
+            Samples::Codes(text::parse_text_words(&bytes, &shown, bits, coding)?)
+        }
         Format::Text if values_allowed => {
             let (s, line) = text::parse_text_located(&bytes, &shown, meta.bits)?;
             fraction_line = line;
@@ -860,9 +871,10 @@ fn ignored_settings(s: &IngestSettings, format: &Format) -> Option<String> {
         ("delimiter", s.delimiter.is_some()),
     ];
     let (kind, unused): (&str, Vec<&str>) = match format {
+        // The coding applies to raw words written in hexadecimal or binary.
         Format::Text => (
             "a text record",
-            binary
+            binary[1..]
                 .iter()
                 .chain(&csv)
                 .filter(|x| x.1)

@@ -17,6 +17,8 @@ and as raw words and packed samples (the byte layouts in the comments, written w
   numpy.unpackbits / numpy.packbits           10-, 12- and 14-bit samples packed back to back as a bit
                                               stream, least significant bit first (p10le, p12le, p14le)
                                               or most significant bit first (p10be, p12be, p14be)
+and as raw words in text (Python's format(): "#x" and "b" with a 0b prefix), as capture tools write them:
+  codes_hex.txt (two's complement), codes_hex_offset.txt (offset binary), codes_bin.txt
 and a manifest (formats.json) listing each file with how to read it and the library versions
 (`compare`: "exact" for bit-identical figures, "relative" for figures within 1e-9 relative, "analogue"
 for a record read without a resolution, whose dB figures and spectral ENOB are compared).
@@ -228,6 +230,17 @@ for n, fields, bits, shift, how in [
             add(name, format=f"p{n}{'be' if msb_first else 'le'}", shift=shift, **how)
         else:
             add(name, format=f"p{n}{'be' if msb_first else 'le'}", bits=bits, shift=shift, **how)
+
+# Raw 12-bit words in text: a header line, then one word per line with its prefix.
+with open(os.path.join(OUT, "codes_hex.txt"), "w") as f:
+    f.write("CH1 (hex)\n" + "".join(f"{format(int(c) & 0xFFF, '#05x')}\n" for c in codes))
+add("codes_hex.txt", format="text", bits=BITS)
+with open(os.path.join(OUT, "codes_hex_offset.txt"), "w") as f:
+    f.write("".join(f"0x{int(c) + 2 ** (BITS - 1):03X}\n" for c in codes))
+add("codes_hex_offset.txt", format="text", bits=BITS, coding="offset_binary")
+with open(os.path.join(OUT, "codes_bin.txt"), "w") as f:
+    f.write("".join(f"0b{format(int(c) & 0xFFF, '012b')}\n" for c in codes))
+add("codes_bin.txt", format="text", bits=BITS)
 
 with open(os.path.join(OUT, "formats.json"), "w") as f:
     json.dump(manifest, f, indent=1)
