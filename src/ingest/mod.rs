@@ -532,8 +532,9 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     } else if !bits_optional {
         return Err(missing_bits(&shown, &sidecar_shown));
     }
-    // A WAV file states its sample rate; every other format needs one given.
-    let rate_in_file = matches!(format, Format::Wav);
+    // A WAV file states its sample rate, a CSV file may have a time column; every other format
+    // needs one given.
+    let rate_in_file = matches!(format, Format::Wav | Format::Csv { .. });
     if let Some(fs) = meta.sample_rate_hz {
         crate::record::check_sample_rate(fs, " (give --fs or \"sample_rate_hz\" in the sidecar)")
             .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
@@ -560,6 +561,7 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
     let mut native = None;
     let mut bits_known = meta.bits;
     let mut file_rate = None;
+    let mut time_axis: Option<delimited::TimeAxis> = None;
     let channel = match settings.channel {
         Some(c) => Some(c),
         None => sidecar.parsed_channel(&sidecar_shown)?,
@@ -582,19 +584,22 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             s
         }
         Format::Text => Samples::Codes(parse_text(&bytes, &shown, meta.bits.unwrap_or(32))?),
-        Format::Csv { column, delimiter } if values_allowed => {
-            let (s, line) =
-                delimited::parse_delimited_located(&bytes, &shown, meta.bits, column, *delimiter)?;
+        Format::Csv { column, delimiter } => {
+            // With no column given, the signal column is chosen among those left besides time and
+            // index columns.
+            let given = settings.column.is_some() || sidecar.column.is_some();
+            let (s, line, axis) = delimited::parse_delimited_auto(
+                &bytes,
+                &shown,
+                meta.bits,
+                given.then_some(column),
+                *delimiter,
+                values_allowed,
+            )?;
             fraction_line = line;
+            time_axis = axis;
             s
         }
-        Format::Csv { column, delimiter } => Samples::Codes(parse_delimited(
-            &bytes,
-            &shown,
-            meta.bits.unwrap_or(32),
-            column,
-            *delimiter,
-        )?),
         Format::Binary(layout) => {
             bits_known = meta.bits.or(layout.packing.map(|p| p.bits));
             Samples::Codes(parse_binary(
@@ -637,6 +642,29 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             )?
         }
     };
+    if let Some(ax) = &time_axis {
+        match (meta.sample_rate_hz, ax.rate_hz) {
+            // Disagreeing by more than half a sample over the record's span is a mismatch.
+            (Some(given), Some(r)) if (ax.span_s * given - ax.steps as f64).abs() > 0.5 => {
+                return Err(Error::setting(
+                    "sample_rate_hz",
+                    format!(
+                        "the sample rate of the time column {:?}: {} Hz ({} steps in {} s)",
+                        ax.column, r, ax.steps, ax.span_s
+                    ),
+                    format!("{given} Hz given"),
+                )
+                .with_path(origin(cli.sample_rate_hz.is_some())));
+            }
+            (Some(_), Some(_)) => {}
+            (None, Some(r)) => file_rate = Some(r),
+            (_, None) => warnings.push(format!(
+                "the time column {:?} gives no sample rate: {}",
+                ax.column,
+                ax.uneven.as_deref().unwrap_or("its steps are not even")
+            )),
+        }
+    }
     let sample_rate_hz = match (meta.sample_rate_hz, file_rate) {
         (Some(given), Some(stated)) => {
             if given != stated {
@@ -649,8 +677,11 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         }
         (Some(given), None) => given,
         (None, Some(stated)) => {
-            crate::record::check_sample_rate(stated, " (the file's header; give --fs)")
-                .map_err(|e| e.with_path(&shown))?;
+            crate::record::check_sample_rate(
+                stated,
+                " (the file's header or time column; give --fs)",
+            )
+            .map_err(|e| e.with_path(&shown))?;
             stated
         }
         (None, None) => return Err(missing_rate(&shown, &sidecar_shown)),
@@ -1266,12 +1297,93 @@ mod tests {
         s.column = Some(ColumnSel::Index(1));
         let r = read_record(&path, &s).unwrap().record;
         assert_eq!(&r.codes[..8], &[0, 1, 2, 3, 4, 5, 6, 0]);
-        // Without a sidecar: column 0 (the header "t" is skipped).
+        // Without a sidecar or --column: "t" counts samples (whole numbers stepping by 1), and two
+        // signal columns are left: the error lists them by name.
         let dir = files(&[("r.csv", csv.as_bytes())]);
+        let e = read_record(&dir.path().join("r.csv"), &cli(1e6, 8)).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (ErrorKind::BadSetting, Location::Line(1))
+        );
+        assert_eq!(e.found, "columns 't' (index), 'a', 'b'");
+        assert!(e.expected.contains("--column"), "{}", e.expected);
+        // With one signal column left, it is chosen.
+        let two: String = "n,code\n".to_string()
+            + &(0..20)
+                .map(|i| format!("{i},{}\n", i % 7))
+                .collect::<String>();
+        let dir = files(&[("r.csv", two.as_bytes())]);
         let r = read_record(&dir.path().join("r.csv"), &cli(1e6, 8))
             .unwrap()
             .record;
-        assert_eq!(r.codes, (0..20).collect::<Vec<i32>>());
+        assert_eq!(&r.codes[..8], &[0, 1, 2, 3, 4, 5, 6, 0]);
+    }
+
+    // Sources: a preamble of settings before a header and a time column in seconds are how bench
+    // instruments commonly write CSV (common practice, no source); the rates are worked by hand.
+    #[test]
+    fn instrument_csv_preamble_time_column_and_rate() {
+        let table = |dt: f64, unit: &str| {
+            format!("Model,X\nSample interval: {dt}\n\nTime {unit},CH1\n")
+                + &(0..32)
+                    .map(|k| format!("{:e},{}\n", k as f64 * dt, (k * 5) % 11 - 5))
+                    .collect::<String>()
+        };
+        let dir = files(&[
+            ("s.csv", table(4e-9, "(s)").as_bytes()),
+            ("us.csv", table(0.5, "[us]").as_bytes()),
+        ]);
+        let mut s = cli(1.0, 8);
+        s.meta.sample_rate_hz = None;
+        // 250 MHz from 4 ns steps; the preamble's lines are skipped, CH1 chosen.
+        let r = read_record(&dir.path().join("s.csv"), &s).unwrap().record;
+        assert!(
+            (r.sample_rate_hz - 250e6).abs() < 1e-3,
+            "{}",
+            r.sample_rate_hz
+        );
+        assert_eq!(&r.codes[..3], &[-5, 0, 5]);
+        // 0.5 us steps: 2 MHz.
+        let r = read_record(&dir.path().join("us.csv"), &s).unwrap().record;
+        assert!(
+            (r.sample_rate_hz - 2e6).abs() < 1e-6,
+            "{}",
+            r.sample_rate_hz
+        );
+        // A rate given that disagrees with the time column is refused; one that agrees is fine.
+        let e = read_record(&dir.path().join("s.csv"), &cli(100e6, 8)).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (
+                ErrorKind::BadSetting,
+                Location::Key("sample_rate_hz".into())
+            )
+        );
+        assert!(
+            e.expected.contains("Time (s)") && e.expected.contains("31 steps"),
+            "{}",
+            e.expected
+        );
+        assert!(read_record(&dir.path().join("s.csv"), &cli(250e6, 8)).is_ok());
+        // Uneven time stamps give no rate: with none given, the rate is asked for, and the warning
+        // names the sample off the grid.
+        let uneven = "Time (s),CH1\n".to_string()
+            + &(0..32)
+                .map(|k| {
+                    let t = if k == 5 { 5.5e-6 } else { k as f64 * 1e-6 };
+                    format!("{t:e},{}\n", (k * 5) % 11 - 5)
+                })
+                .collect::<String>();
+        let dir = files(&[("u.csv", uneven.as_bytes())]);
+        let e = read_record(&dir.path().join("u.csv"), &s).unwrap_err();
+        assert_eq!(e.location, Location::Key("sample_rate_hz".into()));
+        let w = read_record(&dir.path().join("u.csv"), &cli(1e6, 8))
+            .unwrap()
+            .warnings;
+        assert!(
+            w[0].contains("sample 5") && w[0].contains("Time (s)"),
+            "{w:?}"
+        );
     }
 
     #[test]

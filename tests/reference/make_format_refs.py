@@ -19,6 +19,9 @@ and as raw words and packed samples (the byte layouts in the comments, written w
                                               or most significant bit first (p10be, p12be, p14be)
 and as raw words in text (Python's format(): "#x" and "b" with a 0b prefix), as capture tools write them:
   codes_hex.txt (two's complement), codes_hex_offset.txt (offset binary), codes_bin.txt
+and an instrument-style CSV (scope.csv): a preamble of setting lines (key,value pairs and free text), a
+header, a time column in seconds (k / FS, Python's repr) and the volts; read with no --fs (the rate comes
+from the time column) and no --column (the one column left besides time)
 and a manifest (formats.json) listing each file with how to read it and the library versions
 (`compare`: "exact" for bit-identical figures, "relative" for figures within 1e-9 relative, "analogue"
 for a record read without a resolution, whose dB figures and spectral ENOB are compared).
@@ -241,6 +244,14 @@ add("codes_hex_offset.txt", format="text", bits=BITS, coding="offset_binary")
 with open(os.path.join(OUT, "codes_bin.txt"), "w") as f:
     f.write("".join(f"0b{format(int(c) & 0xFFF, '012b')}\n" for c in codes))
 add("codes_bin.txt", format="text", bits=BITS)
+
+# Instrument-style CSV: settings first, then the table.
+with open(os.path.join(OUT, "scope.csv"), "w") as f:
+    f.write("Model,Bench scope 4\nFirmware,2.1\nChannel 1 coupling: DC, 50 ohm\n"
+            f"Sample interval,{repr(1 / FS)}\nRecord length,{N}\n\n")
+    f.write("Time (s),CH1 (V)\n")
+    f.write("".join(f"{repr(k / FS)},{repr(float(v))}\n" for k, v in enumerate(volts)))
+add("scope.csv", format="csv", bits=BITS, full_scale_vpp=1.5, fs_from_file=True, compare="relative")
 
 with open(os.path.join(OUT, "formats.json"), "w") as f:
     json.dump(manifest, f, indent=1)
