@@ -78,7 +78,7 @@ fn bench(c: &mut Criterion) {
         .collect();
     let limits = LimitTable::parse(
         "condition,metric,low,high,unit,guardband\n*,snr_db,70,,dB,0.5\n*,sfdr_dbc,78,,dBc,\n\
-         *,thd_dbc,,-70,dB,\n*,spectrum.enob_bits,11,,bits,\n",
+         *,thd_dbc,,-70,dBc,\n*,spectrum.enob_bits,11,,bits,\n",
         "limits.csv",
         &scope,
     )

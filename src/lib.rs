@@ -133,10 +133,10 @@ pub use crate::record::{
 // Reading a record: from a file (with its sidecar), or from bytes in memory.
 pub use crate::ingest::{
     check_codes, parse_binary, parse_channel, parse_delimited, parse_delimited_samples,
-    parse_delimiter, parse_npy, parse_text, parse_text_samples, read_npy_header, read_record,
-    read_sidecar, read_wav_header, sidecar_path, write_sidecar, BinaryLayout, ColumnSel, Format,
-    IngestSettings, Ingested, Justify, Metadata, NpyLayout, SampleUnit, Samples, Sidecar,
-    WavLayout, DEFAULT_MIN_SAMPLES, STDIN_PATH,
+    parse_delimiter, parse_npy, parse_text, parse_text_samples, parse_text_words, read_npy_header,
+    read_record, read_sidecar, read_wav_header, sidecar_path, write_sidecar, BinaryLayout,
+    ColumnSel, Format, IngestSettings, Ingested, Justify, Metadata, NpyLayout, Packing, SampleUnit,
+    Samples, Sidecar, WavLayout, DEFAULT_MIN_SAMPLES, STDIN_PATH,
 };
 
 // Ceilings that keep a run inside the machine: record memory, worker threads, small-file reads.

@@ -4,7 +4,7 @@
 //! thread count, yields, shards merged into the unsharded report byte for byte (and the merge's
 //! refusals), a run killed midway, and limit proposals and Cpk against values stored from numpy/scipy.
 
-use crate::tolerances::{NUMPY_REL, PROPOSAL_ROUNDING};
+use crate::tolerances::{NUMPY_REL, PROPOSAL_ROUNDING, ROUNDING};
 use assert_cmd::Command;
 use spurline::Format;
 use spurline::WindowChoice;
@@ -664,6 +664,148 @@ fn verdicts_and_guardbands() {
     assert_eq!(v.checks.len(), 3);
     assert_eq!(v.outcome, Outcome::Fail);
     assert_eq!(v.checks[2].margin, Some(-0.5));
+}
+
+#[test]
+fn a_guardband_in_sigmas_of_the_records_own_uncertainty() {
+    let scope = fixture_scope();
+    let t = LimitTable::parse(
+        "condition,metric,low,high,unit,guardband,guard_sigmas\n\
+         *,snr_db,60,,dB,,2\n\
+         *,spectrum.fundamental_dbfs,-2,0,dBFS,0.25,1\n",
+        "l.csv",
+        &scope,
+    )
+    .unwrap();
+    assert_eq!(t.limits[0].guard_sigmas, 2.0);
+    // The table writes the column back.
+    let again = LimitTable::parse(&t.to_csv(), "l.csv", &scope).unwrap();
+    assert_eq!(again.limits, t.limits);
+    let judge = |snr: f64, snr_sigma: Option<f64>| {
+        t.judge("fin_10M", |m| match m {
+            "spectrum.snr_db" => Some(snr),
+            "spectrum.uncertainty.snr_db" => snr_sigma,
+            "spectrum.fundamental_dbfs" => Some(-1.0),
+            "spectrum.uncertainty.fundamental_dbfs" => Some(0.01),
+            _ => None,
+        })
+    };
+    // SNR 60.3 ± 0.2 dB passes the plain limit 60 by 0.3 dB but not by 2σ = 0.4 dB.
+    let v = judge(60.3, Some(0.2));
+    assert_eq!(v.outcome, Outcome::FailGuardband, "{}", v.reason);
+    let c = &v.checks[0];
+    assert_eq!(c.outcome, CheckOutcome::Guardband);
+    assert_eq!(c.sigma, Some(0.2));
+    // The guardband applied to this record, in dB, as failures.csv writes it.
+    assert!((c.guardband - 0.4).abs() < ROUNDING, "{}", c.guardband);
+    assert!(
+        v.reason
+            .contains("spectrum.snr_db 60.3 dB is within 2σ of the low limit 60 dB"),
+        "{}",
+        v.reason
+    );
+    assert!(v.reason.contains("σ = 0.2 dB"), "{}", v.reason);
+    // The same value with a smaller σ clears the guardband: 0.3 dB ≥ 2 × 0.1 dB.
+    assert_eq!(judge(60.3, Some(0.1)).outcome, Outcome::Pass);
+    // Outside the stated limit it fails outright, whatever σ.
+    assert_eq!(judge(59.9, Some(0.01)).outcome, Outcome::Fail);
+    // A record that states no σ cannot show it clears a sigma guardband.
+    let v = judge(65.0, None);
+    assert_eq!(v.outcome, Outcome::FailGuardband);
+    assert!(v.reason.contains("states no uncertainty"), "{}", v.reason);
+    // The fixed and the sigma guardbands add: -0.3 dBFS is 0.3 from the high limit 0, which is
+    // more than 0.25 but less than 0.25 + 1 × 0.1.
+    let v = t.judge("fin_10M", |m| match m {
+        "spectrum.snr_db" => Some(70.0),
+        "spectrum.uncertainty.snr_db" => Some(0.1),
+        "spectrum.fundamental_dbfs" => Some(-0.3),
+        "spectrum.uncertainty.fundamental_dbfs" => Some(0.1),
+        _ => None,
+    });
+    assert_eq!(v.outcome, Outcome::FailGuardband, "{}", v.reason);
+    assert!(
+        v.reason
+            .contains("within 1σ of the high limit 0 dBFS (with the 0.25 dBFS guardband)"),
+        "{}",
+        v.reason
+    );
+    // guard_sigmas must be ≥ 0, and only on a metric that carries an uncertainty.
+    for (body, found) in [
+        ("*,snr_db,60,,dB,-1\n", "-1"),
+        ("*,bits,10,,bits,1\n", "guard_sigmas 1"),
+    ] {
+        let e = LimitTable::parse(
+            &format!("condition,metric,low,high,unit,guard_sigmas\n{body}"),
+            "l.csv",
+            &scope,
+        )
+        .unwrap_err();
+        assert_eq!(e.kind, ErrorKind::BadLimits);
+        assert_eq!(e.location, Location::Row(2));
+        assert!(e.found.contains(found), "{e}");
+    }
+}
+
+#[test]
+fn a_sigma_guardband_fails_a_real_record_that_passes_the_plain_limit() {
+    let lot = make_lot();
+    let p = lot.path();
+    // The measured SNR and its stated σ of one device, from a run without limits.
+    let o = run_batch(p, &p.join("measured"), &[]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let (head, rows) = read_csv(&p.join("measured/summary.csv"));
+    let d01 = rows
+        .iter()
+        .find(|r| r[0] == "d01" && r[1] == "fin_10M")
+        .unwrap();
+    let snr: f64 = cell(&head, d01, "spectrum.snr_db").parse().unwrap();
+    let sigma: f64 = cell(&head, d01, "spectrum.uncertainty.snr_db")
+        .parse()
+        .unwrap();
+    assert!(sigma > 0.0);
+    // A low limit one σ under the measured value: clear of it, but not by 2σ.
+    let low = snr - sigma;
+    for (guard, verdict) in [("", "pass"), ("2", "fail_guardband")] {
+        let limits = p.join(format!("limits{guard}.csv"));
+        std::fs::write(
+            &limits,
+            format!(
+                "condition,metric,low,high,unit,guard_sigmas\nfin_10M,snr_db,{low},,dB,{guard}\n"
+            ),
+        )
+        .unwrap();
+        let out = p.join(format!("out{guard}"));
+        run_batch(p, &out, &["--limits", limits.to_str().unwrap()]);
+        let (head, rows) = read_csv(&out.join("summary.csv"));
+        let row = rows
+            .iter()
+            .find(|r| r[0] == "d01" && r[1] == "fin_10M")
+            .unwrap();
+        assert_eq!(
+            cell(&head, row, "verdict"),
+            verdict,
+            "guard_sigmas {guard:?}"
+        );
+        if verdict == "fail_guardband" {
+            assert!(
+                cell(&head, row, "reason").contains("is within 2σ of the low limit"),
+                "{}",
+                cell(&head, row, "reason")
+            );
+            let (fh, fr) = read_csv(&out.join("failures.csv"));
+            let f = fr
+                .iter()
+                .find(|r| r[0] == "d01" && r[1] == "fin_10M")
+                .unwrap();
+            let g: f64 = cell(&fh, f, "guardband").parse().unwrap();
+            // The record's own 2σ (both files write numbers in shortest round-trip form).
+            assert!(
+                (g - 2.0 * sigma).abs() <= ROUNDING * sigma,
+                "{g} vs {sigma}"
+            );
+            assert_eq!(cell(&fh, f, "outcome"), "guardband");
+        }
+    }
 }
 
 // ───────────────────────────── a lot end to end ─────────────────────────────

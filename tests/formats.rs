@@ -4,7 +4,10 @@
 //!
 //! Sources: the files themselves (numpy's .npy writer, numpy.lib.format; Python's float repr for the
 //! decimal values; Python's wave module and scipy.io.wavfile for WAV, struct-packed WAVE_FORMAT_EXTENSIBLE
-//! and RF64 headers, which scipy.io.wavfile reads back); the expected codes are the text record the same script wrote. Offset binary for
+//! and RF64 headers, which scipy.io.wavfile reads back; 24-bit words sliced from numpy's 32-bit
+//! integers and packed samples cut from a bit stream by numpy.packbits, as the script documents; raw
+//! words in hexadecimal and binary text by Python's format()); the
+//! expected codes are the text record the same script wrote. Offset binary for
 //! unsigned dtypes (code + 2^(N-1)) and ±1.0 as full scale for float samples are common practice, no
 //! source.
 
@@ -122,6 +125,14 @@ fn every_reference_file_gives_the_text_record_codes_and_figures() {
         if let Some(c) = f["channel"].as_str() {
             s.channel = Some(spurline::parse_channel(c).unwrap());
         }
+        // Raw words and packed samples name their layout (a .bin file is never guessed).
+        let format = f["format"].as_str().unwrap();
+        if !["npy", "wav", "text", "csv"].contains(&format) {
+            s.format = Some(format.parse().unwrap());
+            s.justify = f["justify"].as_str().map(|j| j.parse().unwrap());
+        }
+        // Of raw words and packed samples, and of words in hexadecimal text.
+        s.coding = f["coding"].as_str().map(|c| c.parse().unwrap());
         // A WAV file states its sample rate: none is given.
         if f["fs_from_file"].as_bool() == Some(true) {
             s.meta.sample_rate_hz = None;

@@ -340,7 +340,7 @@ proptest! {
 
 fn layout() -> impl Strategy<Value = BinaryLayout> {
     (
-        prop::sample::select(vec![1usize, 2, 4]),
+        prop::sample::select(vec![1usize, 2, 3, 4]),
         any::<bool>(),
         any::<bool>(),
         prop::option::of(prop_oneof![
@@ -362,6 +362,7 @@ fn layout() -> impl Strategy<Value = BinaryLayout> {
                     skip_bytes,
                     channel,
                     channels,
+                    packing: None,
                 })
             },
         )
@@ -373,7 +374,7 @@ fn wild_layout() -> impl Strategy<Value = BinaryLayout> {
         layout(),
         prop_oneof![
             8 => Just(None),
-            1 => prop::sample::select(vec![0usize, 3, 8]).prop_map(Some),
+            1 => prop::sample::select(vec![0usize, 5, 8]).prop_map(Some),
         ],
         prop_oneof![
             8 => Just(None),
@@ -443,6 +444,8 @@ fn word_bytes(raw: u32, l: &BinaryLayout) -> Vec<u8> {
         (1, _) => vec![raw as u8],
         (2, false) => (raw as u16).to_le_bytes().to_vec(),
         (2, true) => (raw as u16).to_be_bytes().to_vec(),
+        (3, false) => raw.to_le_bytes()[..3].to_vec(),
+        (3, true) => raw.to_be_bytes()[1..].to_vec(),
         (_, false) => raw.to_le_bytes().to_vec(),
         (_, true) => raw.to_be_bytes().to_vec(),
     }
@@ -510,6 +513,84 @@ proptest! {
                 prop_assert_eq!(e.location.clone(), Location::Byte(bytes.len() as u64 - 1));
                 check_error(&e, "rt.bin", &bytes);
             }
+        }
+    }
+}
+
+/// Writes N-bit fields as a bit stream, one bit at a time (the slow reference for packed samples):
+/// least significant bit first into the low bits of each byte, or most significant bit first into the
+/// high bits. Sources: the layout documented on `spurline::Packing`; bit streams in either order are
+/// common practice, no source.
+fn bit_stream(fields: &[u32], n: u32, msb_first: bool) -> Vec<u8> {
+    let mut out = vec![0u8; (fields.len() * n as usize).div_ceil(8)];
+    let mut at = 0usize;
+    for &f in fields {
+        for b in 0..n {
+            let bit = if msb_first {
+                (f >> (n - 1 - b)) & 1
+            } else {
+                (f >> b) & 1
+            };
+            let shift = if msb_first { 7 - at % 8 } else { at % 8 };
+            out[at / 8] |= (bit as u8) << shift;
+            at += 1;
+        }
+    }
+    out
+}
+
+proptest! {
+    #![proptest_config(config(256))]
+
+    #[test]
+    fn packed_samples_round_trip_and_never_panic(
+        n in prop::sample::select(vec![10u32, 12, 14]),
+        msb_first in any::<bool>(),
+        offset in any::<bool>(),
+        fewer in 0u32..4,
+        channels in 1usize..4,
+        seed in any::<u64>(),
+        groups in 1usize..20,
+        extra in 0usize..8,
+    ) {
+        let mut rng = ChaCha8Rng::seed_from_u64(seed);
+        let p = spurline::Packing { bits: n, msb_first };
+        let word = format!("p{n}{}", if msb_first { "be" } else { "le" });
+        let mut l = spurline::Format::parse_word(&word).unwrap();
+        l.coding = Some(if offset { Coding::OffsetBinary } else { Coding::TwosComplement });
+        l.channels = channels;
+        l.channel = rng.gen_range(0..channels);
+        let bits = n - fewer;
+        let total = groups * p.group_samples() * channels;
+        let codes: Vec<i64> = (0..total).map(|_| rng.gen_range(min_code(bits)..=max_code(bits))).collect();
+        // Right-justified: offset binary as code + 2^(bits-1), two's complement sign-extended to n bits.
+        let fields: Vec<u32> = codes
+            .iter()
+            .map(|&c| if offset { (c + (1 << (bits - 1))) as u32 } else { (c as u32) & ((1 << n) - 1) })
+            .collect();
+        let bytes = bit_stream(&fields, n, msb_first);
+        prop_assert_eq!(bytes.len() % p.group_bytes(), 0);
+        let want: Vec<i32> = codes.iter().skip(l.channel).step_by(channels).map(|&c| c as i32).collect();
+        prop_assert_eq!(parse_binary(&bytes, "p.bin", bits, &l).unwrap(), want);
+        // Bytes past the last whole group: a partial word at the first of them.
+        let mut longer = bytes.clone();
+        longer.extend((0..extra).map(|_| rng.gen::<u8>()));
+        match parse_binary(&longer, "p.bin", bits, &l) {
+            Ok(_) => prop_assert_eq!(extra % p.group_bytes(), 0),
+            Err(e) => {
+                check_error(&e, "p.bin", &longer);
+                if extra % p.group_bytes() != 0 {
+                    prop_assert_eq!(e.kind, ErrorKind::PartialWord);
+                    let whole = longer.len() / p.group_bytes() * p.group_bytes();
+                    prop_assert_eq!(e.location, Location::Byte(whole as u64));
+                }
+            }
+        }
+        // Random bytes never panic and give codes in range or a located error.
+        let noise: Vec<u8> = (0..rng.gen_range(0..40)).map(|_| rng.gen()).collect();
+        match parse_binary(&noise, "p.bin", bits, &l) {
+            Ok(codes) => prop_assert!(codes.iter().all(|&c| (min_code(bits)..=max_code(bits)).contains(&i64::from(c)))),
+            Err(e) => check_error(&e, "p.bin", &noise),
         }
     }
 }

@@ -4,7 +4,7 @@
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use spurline::{BinaryLayout, Justify};
+use spurline::{BinaryLayout, Justify, Packing};
 use spurline::Coding;
 
 #[allow(dead_code)]
@@ -41,8 +41,13 @@ fuzz_target!(|data: &[u8]| {
             usize::from(*c) % channels.min(256)
         },
         channels,
+        // Packed samples when the top bit of `d` is set.
+        packing: (d & 0x80 != 0).then(|| Packing {
+            bits: [10, 12, 14, 12][usize::from((d >> 5) & 3)],
+            msb_first: a & 0x40 != 0,
+        }),
     };
-    let bits = u32::from(d % 34);
+    let bits = u32::from((d & 0x7f) % 34);
     match spurline::parse_binary(rest, "fuzz.bin", bits, &layout) {
         Ok(codes) => assert!(!codes.is_empty()),
         Err(e) => invariants::check_error(&e, "fuzz.bin", rest),

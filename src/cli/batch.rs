@@ -32,7 +32,8 @@ use std::path::{Path, PathBuf};
 pub struct BatchArgs {
     /// The bench plan (TOML): converter, analysis settings, conditions, where the records are.
     pub plan: PathBuf,
-    /// Limit table (CSV with the columns condition, metric, low, high, unit and optionally guardband).
+    /// Limit table (CSV with the columns condition, metric, low, high, unit and optionally guardband
+    /// and guard_sigmas, a guardband in standard uncertainties of each record's own measurement).
     #[arg(long)]
     pub limits: Option<PathBuf>,
     /// Output folder [default: reports/<plan file name without extension>].

@@ -206,9 +206,11 @@ pub struct ReadArgs {
     /// scale). Decided from the data when absent: integers are codes, decimal fractions volts.
     #[arg(long, value_parser = ["codes", "volts", "full-scale"])]
     pub unit: Option<String>,
-    /// Record format: text, csv, npy, wav, or a binary word layout i8, u8, i16le, i16be, u16le,
-    /// u16be, i32le, i32be, u32le, u32be (signed words hold two's complement, unsigned offset binary,
-    /// unless --coding). Detected from the file's first bytes (npy, wav) or extension when absent.
+    /// Record format: text, csv, npy, wav, a binary word layout i8, u8, i16le, i16be, u16le, u16be,
+    /// i24le, i24be, u24le, u24be, i32le, i32be, u32le, u32be (signed words hold two's complement,
+    /// unsigned offset binary, unless --coding), or packed samples p10le, p10be, p12le, p12be, p14le,
+    /// p14be (two's complement unless --coding; --bits defaults to the packing's width). Detected
+    /// from the file's first bytes (npy, wav) or extension when absent.
     #[arg(long)]
     pub format: Option<String>,
     /// Code format in binary words: twos or offset.

@@ -1,5 +1,6 @@
-//! Raw binary records: 8-, 16- or 32-bit words in either byte order, two's complement or offset binary,
-//! N significant bits right- or left-justified, an optional header to skip and interleaved channels.
+//! Raw binary records: 8-, 16-, 24- or 32-bit words in either byte order (or packed samples, decoded in
+//! `packed.rs`), two's complement or offset binary, N significant bits right- or left-justified, an
+//! optional header to skip and interleaved channels.
 
 use super::checks::{check_bits, no_samples, range_text};
 use super::{BinaryLayout, Justify};
@@ -8,16 +9,16 @@ use crate::record::Coding;
 
 /// Decodes one word into a signed, centred N-bit code.
 #[derive(Debug, Clone, Copy)]
-struct Decoder {
-    word_bits: u32,
-    bits: u32,
-    coding: Coding,
-    justify: Justify,
+pub(super) struct Decoder {
+    pub(super) word_bits: u32,
+    pub(super) bits: u32,
+    pub(super) coding: Coding,
+    pub(super) justify: Justify,
 }
 
 /// Sign-extends the low `width` bits of `raw` (1 <= width <= 32).
 #[inline]
-fn sign_extend(raw: u32, width: u32) -> i64 {
+pub(super) fn sign_extend(raw: u32, width: u32) -> i64 {
     let shift = 64 - width;
     ((i64::from(raw)) << shift) >> shift
 }
@@ -25,7 +26,7 @@ fn sign_extend(raw: u32, width: u32) -> i64 {
 impl Decoder {
     /// The code for a word, or None when the word holds no valid N-bit code.
     #[inline(always)]
-    fn decode(&self, raw: u32) -> Option<i64> {
+    pub(super) fn decode(&self, raw: u32) -> Option<i64> {
         let pad = self.word_bits - self.bits;
         let half = 1i64 << (self.bits - 1);
         match (self.justify, self.coding) {
@@ -54,7 +55,7 @@ impl Decoder {
     }
 
     /// What a valid word looks like, for the error message.
-    fn expected(&self) -> String {
+    pub(super) fn expected(&self) -> String {
         let (n, w) = (self.bits, self.word_bits);
         match self.coding {
             Coding::TwosComplement => format!(
@@ -70,19 +71,22 @@ impl Decoder {
     }
 }
 
-/// Reads one word of 1, 2 or 4 bytes.
+/// Reads one word of 1, 2, 3 or 4 bytes.
 #[inline(always)]
 fn read_word(b: &[u8], big_endian: bool) -> u32 {
     match (b.len(), big_endian) {
         (1, _) => u32::from(b[0]),
         (2, false) => u32::from(u16::from_le_bytes([b[0], b[1]])),
         (2, true) => u32::from(u16::from_be_bytes([b[0], b[1]])),
+        (3, false) => u32::from_le_bytes([b[0], b[1], b[2], 0]),
+        (3, true) => u32::from_be_bytes([0, b[0], b[1], b[2]]),
         (_, false) => u32::from_le_bytes([b[0], b[1], b[2], b[3]]),
         (_, true) => u32::from_be_bytes([b[0], b[1], b[2], b[3]]),
     }
 }
 
-/// Parses raw binary words into N-bit signed codes, one channel of `layout.channels`.
+/// Parses raw binary words (or packed samples, when `layout.packing` is set) into N-bit signed
+/// codes, one channel of `layout.channels`.
 ///
 /// After `skip_bytes` of header the data must be a whole number of frames (`channels` words of
 /// `word_bytes` each), else [`ErrorKind::PartialWord`] at the byte offset of the trailing partial word
@@ -91,6 +95,10 @@ fn read_word(b: &[u8], big_endian: bool) -> u32 {
 /// must be below 2^N; right-justified two's complement must have the bits above N either a copy of the
 /// sign bit or all zero (the N-bit field then carries the sign). Other words are
 /// [`ErrorKind::CodeOutOfRange`] at their byte offset.
+///
+/// Packed samples (see [`super::Packing`]) are decoded as words of the packing's width, with the same
+/// coding and justification rules; the data must be a whole number of groups (else a partial word at
+/// the offset of the trailing partial group) and of frames of `channels` samples.
 pub fn parse_binary(
     bytes: &[u8],
     path: &str,
@@ -99,17 +107,35 @@ pub fn parse_binary(
 ) -> Result<Vec<i32>> {
     check_bits(bits).map_err(|e| e.with_path(path))?;
     let w = layout.word_bytes;
-    if !matches!(w, 1 | 2 | 4) {
-        return Err(
-            Error::setting("format", "words of 1, 2 or 4 bytes", format!("{w} bytes"))
-                .with_path(path),
-        );
-    }
-    let word_bits = 8 * w as u32;
+    let word_bits = match layout.packing {
+        Some(p) if super::Packing::WIDTHS.contains(&p.bits) => p.bits,
+        Some(p) => {
+            return Err(Error::setting(
+                "format",
+                "packed samples of 10, 12 or 14 bits",
+                format!("{} bits", p.bits),
+            )
+            .with_path(path))
+        }
+        None if matches!(w, 1..=4) => 8 * w as u32,
+        None => {
+            return Err(Error::setting(
+                "format",
+                "words of 1, 2, 3 or 4 bytes",
+                format!("{w} bytes"),
+            )
+            .with_path(path))
+        }
+    };
     if bits > word_bits {
+        let what = if layout.packing.is_some() {
+            "packed samples"
+        } else {
+            "words"
+        };
         return Err(Error::setting(
             "bits",
-            format!("at most {word_bits} bits in {word_bits}-bit words"),
+            format!("at most {word_bits} bits in {word_bits}-bit {what}"),
             bits.to_string(),
         )
         .with_path(path));
@@ -142,6 +168,19 @@ pub fn parse_binary(
     } else {
         format!(" after the {skip} header bytes")
     };
+    let decoder = Decoder {
+        word_bits,
+        bits,
+        coding: layout.coding.unwrap_or(if layout.signed {
+            Coding::TwosComplement
+        } else {
+            Coding::OffsetBinary
+        }),
+        justify: layout.justify,
+    };
+    if let Some(p) = layout.packing {
+        return super::packed::parse_packed(data, skip, &after_header, path, &decoder, p, layout);
+    }
     let words_end = data.len() / w * w;
     if words_end != data.len() {
         return Err(Error::new(
@@ -178,16 +217,6 @@ pub fn parse_binary(
             format!("{} bytes", data.len()),
         ));
     }
-    let decoder = Decoder {
-        word_bits,
-        bits,
-        coding: layout.coding.unwrap_or(if layout.signed {
-            Coding::TwosComplement
-        } else {
-            Coding::OffsetBinary
-        }),
-        justify: layout.justify,
-    };
     let first = layout.channel * w;
     let mut codes = Vec::with_capacity(data.len() / frame);
     // One loop per word size and byte order, so that neither is decided again for every sample.
@@ -195,6 +224,8 @@ pub fn parse_binary(
         (1, _) => decode_frames::<1, false>(data, frame, first, &decoder, &mut codes),
         (2, false) => decode_frames::<2, false>(data, frame, first, &decoder, &mut codes),
         (2, true) => decode_frames::<2, true>(data, frame, first, &decoder, &mut codes),
+        (3, false) => decode_frames::<3, false>(data, frame, first, &decoder, &mut codes),
+        (3, true) => decode_frames::<3, true>(data, frame, first, &decoder, &mut codes),
         (_, false) => decode_frames::<4, false>(data, frame, first, &decoder, &mut codes),
         (_, true) => decode_frames::<4, true>(data, frame, first, &decoder, &mut codes),
     };
@@ -367,6 +398,74 @@ mod tests {
             parse_binary(&le, "r.bin", 24, &layout("i32le")).unwrap(),
             v24
         );
+    }
+
+    #[test]
+    fn twenty_four_bit_words() {
+        // 3-byte words: -2^23, 2^23 - 1, -5 (0xFFFFFB), 0x123456.
+        let vals = [-(1i32 << 23), (1 << 23) - 1, -5, 0x123456];
+        let le: Vec<u8> = vals
+            .iter()
+            .flat_map(|v| v.to_le_bytes()[..3].to_vec())
+            .collect();
+        let be: Vec<u8> = vals
+            .iter()
+            .flat_map(|v| v.to_be_bytes()[1..].to_vec())
+            .collect();
+        assert_eq!(&le[9..], &[0x56, 0x34, 0x12]);
+        assert_eq!(
+            parse_binary(&le, "r.bin", 24, &layout("i24le")).unwrap(),
+            vals
+        );
+        assert_eq!(
+            parse_binary(&be, "r.bin", 24, &layout("i24be")).unwrap(),
+            vals
+        );
+        // u24: offset binary, word - 2^23.
+        let words = [0u32, 1 << 23, (1 << 24) - 1];
+        let le: Vec<u8> = words
+            .iter()
+            .flat_map(|v| v.to_le_bytes()[..3].to_vec())
+            .collect();
+        let be: Vec<u8> = words
+            .iter()
+            .flat_map(|v| v.to_be_bytes()[1..].to_vec())
+            .collect();
+        let want = vec![-(1 << 23), 0, (1 << 23) - 1];
+        assert_eq!(
+            parse_binary(&le, "r.bin", 24, &layout("u24le")).unwrap(),
+            want
+        );
+        assert_eq!(
+            parse_binary(&be, "r.bin", 24, &layout("u24be")).unwrap(),
+            want
+        );
+        // 20-bit codes: 0x080000 has zeros above bit 19, so it is -2^19; 0x100000 is out of range,
+        // refused at its byte offset 3.
+        let words = [0x080000u32, 0x100000];
+        let le: Vec<u8> = words
+            .iter()
+            .flat_map(|v| v.to_le_bytes()[..3].to_vec())
+            .collect();
+        let e = parse_binary(&le, "r.bin", 20, &layout("i24le")).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (ErrorKind::CodeOutOfRange, Location::Byte(3))
+        );
+        assert_eq!(e.found, "word 0x100000 (1048576)");
+        assert_eq!(
+            parse_binary(&le[..3], "r.bin", 20, &layout("i24le")).unwrap(),
+            vec![-(1 << 19)]
+        );
+        // A partial word: 7 bytes are two words and one byte, at offset 6.
+        let e = parse_binary(&[0u8; 7], "r.bin", 24, &layout("i24be")).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (ErrorKind::PartialWord, Location::Byte(6))
+        );
+        assert_eq!(e.expected, "a multiple of 3 bytes");
+        let e = parse_binary(&[0u8; 6], "r.bin", 25, &layout("i24le")).unwrap_err();
+        assert_eq!(e.expected, "at most 24 bits in 24-bit words");
     }
 
     #[test]
@@ -595,8 +694,8 @@ mod tests {
             assert_eq!(e.location, Location::Key("bits".into()));
         }
         let mut l = layout("i16le");
-        l.word_bytes = 3;
-        let e = parse_binary(&[0; 6], "r.bin", 12, &l).unwrap_err();
+        l.word_bytes = 5;
+        let e = parse_binary(&[0; 10], "r.bin", 12, &l).unwrap_err();
         assert_eq!(e.location, Location::Key("format".into()));
         let mut l = layout("i16le");
         l.channel = 2;

@@ -1,5 +1,6 @@
-//! Delimited records (CSV and kin): one column of integer codes picked by header name or 0-based index,
-//! with the delimiter given or detected from the first line that is not a comment.
+//! Delimited records (CSV and kin): one column of integer codes (or values) picked by header name or
+//! 0-based index, with the delimiter given or detected; an instrument's preamble of setting lines is
+//! skipped, and a time column is recognised and gives the sample rate.
 
 use super::checks::{check_bits, no_samples, parse_int, range_text, show_token, to_code, IntToken};
 use super::samples::Samples;
@@ -91,6 +92,7 @@ fn parse_columns(
         None => detect_separator(b),
     };
     let whitespace = sep == Separator::Whitespace;
+    let start_line = survey(b, sep).start_line;
     // The reader sees only content lines, '\n'-terminated (tabs turned to spaces when fields are
     // separated by whitespace); `lines` maps them back to the file's 1-based line numbers. The csv
     // reader's own record positions count from where it started reading, before any skipped comment
@@ -100,7 +102,7 @@ fn parse_columns(
     for (k, raw) in b.split(|&c| c == b'\n').enumerate() {
         let l = raw.strip_suffix(b"\r").unwrap_or(raw);
         let t = l.trim_ascii();
-        if t.is_empty() || t[0] == b'#' {
+        if t.is_empty() || t[0] == b'#' || k + 1 < start_line {
             continue;
         }
         lines.push(k + 1);
@@ -243,6 +245,352 @@ fn parse_columns(
     Ok((codes, numbers, fraction))
 }
 
+/// Where the table of a delimited file starts, past an instrument's preamble.
+#[derive(Debug, Clone, PartialEq)]
+struct Survey {
+    /// The 1-based file line of the header row, else of the first row of numbers; lines before it
+    /// are skipped. 0 when the file has no row of numbers (the reader then names what it finds).
+    start_line: usize,
+    /// The header's fields, when the row before the first row of numbers is one.
+    header: Option<Vec<String>>,
+    /// Fields in the first row of numbers.
+    fields: usize,
+}
+
+/// A row's fields split by the separator, trimmed and unquoted (enough to tell numbers from words;
+/// the csv reader reads the table itself).
+fn split_fields(line: &[u8], sep: Separator) -> Vec<&[u8]> {
+    match sep {
+        Separator::Byte(d) => {
+            // Separators inside quotes do not split.
+            let mut fields = Vec::new();
+            let (mut quoted, mut from) = (false, 0);
+            for (i, &c) in line.iter().enumerate() {
+                if c == b'"' {
+                    quoted = !quoted;
+                } else if c == d && !quoted {
+                    fields.push(unquote(&line[from..i]));
+                    from = i + 1;
+                }
+            }
+            fields.push(unquote(&line[from..]));
+            fields
+        }
+        Separator::Whitespace => line
+            .split(|&c| c == b' ' || c == b'\t')
+            .filter(|f| !f.is_empty())
+            .map(unquote)
+            .collect(),
+    }
+}
+
+/// A field trimmed, without its enclosing quotes.
+fn unquote(f: &[u8]) -> &[u8] {
+    let f = f.trim_ascii();
+    f.strip_prefix(b"\"")
+        .and_then(|g| g.strip_suffix(b"\""))
+        .unwrap_or(f)
+}
+
+/// Whether a field is a number (an integer, or a decimal value).
+fn is_number(f: &[u8]) -> bool {
+    matches!(parse_int(f), IntToken::Value(_) | IntToken::TooLarge)
+        || super::text::parse_value(f).is_some()
+}
+
+/// Finds the table: the first row whose every field is a number, and the header just before it
+/// when that row has as many fields, one with a letter and none a number. Everything before the
+/// header is a preamble (settings as key,value pairs or free text) and is skipped. With no header,
+/// the lines before the first row of numbers are skipped only when each has a letter, and none holds
+/// a number or has more fields than that row: a row with a bad field, or a header over short rows,
+/// is then read and reported at its line, never dropped as a preamble.
+fn survey(b: &[u8], sep: Separator) -> Survey {
+    let mut previous: Option<(usize, Vec<&[u8]>)> = None;
+    let mut first_content = None;
+    let mut number_seen = false;
+    let mut widest = 0;
+    let mut worded = true;
+    for (k, raw) in b.split(|&c| c == b'\n').enumerate() {
+        let l = raw.strip_suffix(b"\r").unwrap_or(raw);
+        let t = l.trim_ascii();
+        if t.is_empty() || t[0] == b'#' {
+            continue;
+        }
+        first_content.get_or_insert(k + 1);
+        let fields = split_fields(t, sep);
+        let numbers = fields.iter().filter(|f| is_number(f)).count();
+        if numbers == fields.len() && !fields.is_empty() {
+            let header = previous.filter(|(_, h)| {
+                h.len() == fields.len()
+                    && h.iter().any(|f| f.iter().any(u8::is_ascii_alphabetic))
+                    && !h.iter().any(|f| is_number(f))
+            });
+            let fields = fields.len();
+            return match header {
+                Some((line, h)) => Survey {
+                    start_line: line,
+                    header: Some(
+                        h.iter()
+                            .map(|f| String::from_utf8_lossy(f).into_owned())
+                            .collect(),
+                    ),
+                    fields,
+                },
+                None if !number_seen && worded && widest <= fields => Survey {
+                    start_line: k + 1,
+                    header: None,
+                    fields,
+                },
+                None => Survey {
+                    start_line: first_content.unwrap_or(0),
+                    header: None,
+                    fields,
+                },
+            };
+        }
+        number_seen |= numbers > 0;
+        worded &= t.iter().any(u8::is_ascii_alphabetic);
+        widest = widest.max(fields.len());
+        previous = Some((k + 1, fields));
+    }
+    Survey {
+        start_line: first_content.unwrap_or(0),
+        header: None,
+        fields: 0,
+    }
+}
+
+/// A time axis read from a record's time column.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) struct TimeAxis {
+    /// The column as the header names it (or its 0-based index).
+    pub(crate) column: String,
+    /// 1 / the mean step, in hertz; `None` when the steps are not even (see `uneven`).
+    pub(crate) rate_hz: Option<f64>,
+    /// The span in seconds from the first time to the last, and the number of steps in it.
+    pub(crate) span_s: f64,
+    /// Steps from the first sample to the last.
+    pub(crate) steps: usize,
+    /// Why no rate was taken: the first sample off the even grid, and by how much.
+    pub(crate) uneven: Option<String>,
+}
+
+/// A sample off the even grid of a time column by more than this fraction of a step makes the
+/// column uneven: instruments print time stamps rounded to a few digits, which moves each by well
+/// under a tenth of a step; a dropped or repeated sample moves the rest by a whole step.
+const TIME_GRID_STEPS: f64 = 0.1;
+
+/// Seconds per unit of a time column, from the unit in its header: `(s)`, `[ms]`, `(us)`, `(µs)`,
+/// `(ns)`, `(ps)`; seconds when none is given.
+fn time_unit(name: &str) -> f64 {
+    let lower = name.to_ascii_lowercase();
+    let unit = lower
+        .rsplit(['(', '['])
+        .next()
+        .filter(|_| lower.contains('(') || lower.contains('['))
+        .map(|u| u.trim_end_matches([')', ']']).trim().to_string());
+    match unit.as_deref() {
+        Some("ms") => 1e-3,
+        Some("us" | "µs" | "μs") => 1e-6,
+        Some("ns") => 1e-9,
+        Some("ps") => 1e-12,
+        _ => 1.0,
+    }
+}
+
+/// Whether a header names a time column: "time", "t", "seconds", "timestamp", with or without a unit.
+fn is_time_name(name: &str) -> bool {
+    let lower = name.to_ascii_lowercase();
+    let base = lower.split(['(', '[']).next().unwrap_or("").trim();
+    matches!(
+        base,
+        "t" | "time" | "times" | "seconds" | "timestamp" | "time stamp"
+    ) || base.starts_with("time ")
+}
+
+/// Whether a header names a sample-index column.
+fn is_index_name(name: &str) -> bool {
+    let lower = name.to_ascii_lowercase();
+    let base = lower.split(['(', '[']).next().unwrap_or("").trim();
+    matches!(
+        base,
+        "index" | "idx" | "n" | "sample" | "samples" | "sample #" | "no." | "point" | "#"
+    )
+}
+
+/// The time axis of values `t` (in seconds): even steps give the rate.
+fn time_axis(column: String, t: &[f64]) -> TimeAxis {
+    let steps = t.len().saturating_sub(1);
+    let span_s = if steps > 0 { t[steps] - t[0] } else { 0.0 };
+    let step = span_s / steps.max(1) as f64;
+    let mut uneven = None;
+    if !(step > 0.0 && step.is_finite()) {
+        uneven = Some(format!(
+            "its time does not increase (first {}, last {})",
+            t[0], t[steps]
+        ));
+    } else if let Some(k) =
+        (0..t.len()).find(|&k| ((t[k] - t[0]) - k as f64 * step).abs() > TIME_GRID_STEPS * step)
+    {
+        uneven = Some(format!(
+            "sample {k} (0-based) is {:.2} steps off the even grid",
+            ((t[k] - t[0]) - k as f64 * step) / step
+        ));
+    }
+    TimeAxis {
+        column,
+        rate_hz: uneven.is_none().then(|| 1.0 / step),
+        span_s,
+        steps,
+        uneven,
+    }
+}
+
+/// Reads the signal column of a delimited record as [`parse_delimited_located`] does, choosing it
+/// when `column` is `None`, and reads the time column if there is one.
+///
+/// The table starts after any preamble (see `survey`). A time column is one whose header names
+/// time (`Time (s)`, `t`, `time [us]`: the unit in the header scales it), or, in a table with no
+/// such header, a column of non-integer values that increases by a constant step. A column named
+/// as a sample index (`index`, `n`, `sample`), or of integers stepping by exactly 1, is an index.
+/// With no column given: a table of one column is that column; otherwise the columns that are
+/// neither time nor index are the candidates, and exactly one must be left, else
+/// [`ErrorKind::BadSetting`] on `column` listing the columns by name (or index).
+pub(crate) fn parse_delimited_auto(
+    bytes: &[u8],
+    path: &str,
+    bits: Option<u32>,
+    column: Option<&ColumnSel>,
+    delimiter: Option<u8>,
+    values_allowed: bool,
+) -> Result<(Samples, Option<usize>, Option<TimeAxis>)> {
+    let b = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let sep = match delimiter {
+        Some(d) => given_separator(d).map_err(|e| e.with_path(path))?,
+        None => detect_separator(b),
+    };
+    let sv = survey(b, sep);
+    let names: Vec<String> = match &sv.header {
+        Some(h) => h.clone(),
+        None => (0..sv.fields).map(|i| format!("column {i}")).collect(),
+    };
+    let values_of = |i: usize| -> Option<Vec<f64>> {
+        parse_columns(bytes, path, 32, &ColumnSel::Index(i), delimiter, true)
+            .ok()
+            .map(|(_, v, _)| v)
+    };
+    // Time and index columns: by name when the header names them, else by their steps (only when
+    // a column must be chosen among several).
+    let mut time: Option<(usize, f64)> = None;
+    let mut index = Vec::new();
+    if sv.header.is_some() {
+        for (i, n) in names.iter().enumerate() {
+            if is_time_name(n) && time.is_none() {
+                time = Some((i, time_unit(n)));
+            } else if is_index_name(n) {
+                index.push(i);
+            }
+        }
+    }
+    // Whole numbers stepping by exactly 1 count samples, whatever the header says: taking them as
+    // seconds would give a rate of 1 Hz.
+    let counts_samples = |v: &[f64]| {
+        let axis = time_axis(String::new(), v);
+        axis.rate_hz == Some(1.0) && v.iter().all(|x| x.fract() == 0.0)
+    };
+    let mut time_values = None;
+    if let Some((i, unit)) = time {
+        match values_of(i) {
+            Some(v) if counts_samples(&v) => {
+                time = None;
+                index.push(i);
+            }
+            Some(v) => time_values = Some((i, v.iter().map(|x| x * unit).collect::<Vec<f64>>())),
+            None => time = None,
+        }
+    }
+    let choose = column.is_none() && sv.fields > 1;
+    if choose && time.is_none() {
+        for i in 0..sv.fields {
+            if index.contains(&i) {
+                continue;
+            }
+            let Some(v) = values_of(i) else { continue };
+            if counts_samples(&v) {
+                index.push(i);
+            } else if time.is_none()
+                && v.iter().any(|x| x.fract() != 0.0)
+                && time_axis(String::new(), &v).rate_hz.is_some()
+            {
+                time = Some((i, 1.0));
+                time_values = Some((i, v));
+            }
+        }
+    }
+    let chosen = match column {
+        Some(c) => c.clone(),
+        None if sv.fields <= 1 => ColumnSel::Index(0),
+        None => {
+            let left: Vec<usize> = (0..sv.fields)
+                .filter(|i| Some(*i) != time.map(|t| t.0) && !index.contains(i))
+                .collect();
+            if left.len() != 1 {
+                let listed = names
+                    .iter()
+                    .enumerate()
+                    .map(|(i, n)| {
+                        let role = if Some(i) == time.map(|t| t.0) {
+                            " (time)"
+                        } else if index.contains(&i) {
+                            " (index)"
+                        } else {
+                            ""
+                        };
+                        format!("{}{role}", show_token(n.as_bytes()))
+                    })
+                    .collect::<Vec<_>>()
+                    .join(", ");
+                return Err(Error::new(
+                    ErrorKind::BadSetting,
+                    path,
+                    Location::Line(sv.start_line),
+                    format!(
+                        "one signal column besides time and index columns, or --column NAME|INDEX \
+                         to choose ({} left)",
+                        left.len()
+                    ),
+                    format!("columns {listed}"),
+                ));
+            }
+            ColumnSel::Index(left[0])
+        }
+    };
+    let (samples, fraction) = if values_allowed {
+        parse_delimited_located(bytes, path, bits, &chosen, delimiter)?
+    } else {
+        (
+            Samples::Codes(parse_delimited(
+                bytes,
+                path,
+                bits.unwrap_or(32),
+                &chosen,
+                delimiter,
+            )?),
+            None,
+        )
+    };
+    // The time column, unless it is the signal itself.
+    let signal = match &chosen {
+        ColumnSel::Index(i) => Some(*i),
+        ColumnSel::Name(n) => names.iter().position(|x| x == n),
+    };
+    let axis = match time_values {
+        Some((i, t)) if Some(i) != signal => Some(time_axis(names[i].clone(), &t)),
+        _ => None,
+    };
+    Ok((samples, fraction, axis))
+}
+
 /// One row's fields, with the empty fields of whitespace separation dropped.
 struct Row<'a> {
     rec: &'a csv::ByteRecord,
@@ -292,15 +640,25 @@ fn given_separator(d: u8) -> Result<Separator> {
     })
 }
 
-/// Detects the separator from the first line that is neither blank nor a comment.
+/// Detects the separator from the first line that starts like a row of numbers (a digit, sign or
+/// point), else the first line that is neither blank nor a comment (an instrument's preamble of
+/// settings may be free text or use another separator than its data).
 fn detect_separator(b: &[u8]) -> Separator {
-    let first = b
-        .split(|&c| c == b'\n')
-        .map(|l| l.trim_ascii())
-        .find(|l| !l.is_empty() && l[0] != b'#');
-    let Some(line) = first else {
-        return Separator::Byte(b',');
+    let content = || {
+        b.split(|&c| c == b'\n')
+            .map(|l| l.trim_ascii())
+            .filter(|l| !l.is_empty() && l[0] != b'#')
     };
+    let data = content().find(|l| l[0].is_ascii_digit() || matches!(l[0], b'-' | b'+' | b'.'));
+    // A row of one number has no separator to see: then the first line decides.
+    data.and_then(separator_in)
+        .or_else(|| content().next().and_then(separator_in))
+        .unwrap_or(Separator::Byte(b','))
+}
+
+/// The most frequent of ',', ';' and tab outside quotes (ties in that order), else runs of spaces
+/// when the line has any; `None` when it has none of them.
+fn separator_in(line: &[u8]) -> Option<Separator> {
     let mut counts = [0usize; 3];
     let mut quoted = false;
     for &c in line {
@@ -319,11 +677,11 @@ fn detect_separator(b: &[u8]) -> Separator {
         }
     }
     if counts[best] > 0 {
-        Separator::Byte([b',', b';', b'\t'][best])
+        Some(Separator::Byte([b',', b';', b'\t'][best]))
     } else if line.contains(&b' ') {
-        Separator::Whitespace
+        Some(Separator::Whitespace)
     } else {
-        Separator::Byte(b',')
+        None
     }
 }
 

@@ -9,6 +9,7 @@ mod checks;
 mod delimited;
 mod detect;
 mod npy;
+mod packed;
 mod samples;
 mod sidecar;
 mod text;
@@ -27,7 +28,7 @@ pub use samples::Samples;
 pub use sidecar::{
     parse_channel, parse_delimiter, read_sidecar, sidecar_path, write_sidecar, Sidecar,
 };
-pub use text::{parse_text, parse_text_samples};
+pub use text::{parse_text, parse_text_samples, parse_text_words};
 pub use values::SampleUnit;
 pub use wav::{read_wav_header, WavLayout};
 
@@ -40,7 +41,8 @@ use crate::record::{max_code, min_code, Coding, Record};
 use crate::resources;
 
 /// The word formats [`Format::parse_word`] accepts, as listed in errors.
-const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i32le, i32be, u32le, u32be";
+const WORD_NAMES: &str = "i8, u8, i16le, i16be, u16le, u16be, i24le, i24be, u24le, u24be, i32le, \
+     i32be, u32le, u32be, or packed p10le, p10be, p12le, p12be, p14le, p14be";
 
 /// Fewest samples when [`IngestSettings::min_samples`] is 0.
 pub const DEFAULT_MIN_SAMPLES: usize = 16;
@@ -73,10 +75,46 @@ impl std::str::FromStr for Justify {
     }
 }
 
+/// Samples of an odd width packed back to back, with no padding, into groups of whole bytes.
+///
+/// A group is the fewest bytes that hold whole samples: 5 bytes for four 10-bit samples, 3 bytes for
+/// two 12-bit samples, 7 bytes for four 14-bit samples. Read as one unsigned integer (little-endian
+/// when `msb_first` is false, big-endian when it is true), a group of S samples of N bits holds sample
+/// j (0-based, in time order) in bits N·j .. N·j+N−1 (little-endian: the first sample in the lowest
+/// bits) or in bits N·(S−1−j) .. N·(S−j)−1 (big-endian: the first sample in the highest bits). That is
+/// the bit stream written least significant bit first, or most significant bit first. For 12 bits:
+/// `p12le` bytes are `s0[7:0]`, `s1[3:0]·s0[11:8]`, `s1[11:4]`; `p12be` bytes are `s0[11:4]`,
+/// `s0[3:0]·s1[11:8]`, `s1[7:0]` (high nibble first).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Packing {
+    /// Bits per sample: 10, 12 or 14.
+    pub bits: u32,
+    /// The first sample in the most significant bits of a big-endian group (`p12be`); else in the
+    /// least significant bits of a little-endian group (`p12le`).
+    pub msb_first: bool,
+}
+
+impl Packing {
+    /// The widths a packing may have.
+    pub const WIDTHS: [u32; 3] = [10, 12, 14];
+
+    /// Bytes in one group: the least common multiple of the width and 8, in bytes.
+    pub fn group_bytes(&self) -> usize {
+        let n = self.bits as usize;
+        n / crate::freq::gcd(n as u64, 8) as usize
+    }
+
+    /// Samples in one group.
+    pub fn group_samples(&self) -> usize {
+        8 * self.group_bytes() / self.bits as usize
+    }
+}
+
 /// How codes are laid out in a raw binary record.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct BinaryLayout {
-    /// Bytes per word: 1, 2 or 4.
+    /// Bytes per word: 1, 2, 3 or 4; for packed samples, the bytes of one group
+    /// ([`Packing::group_bytes`]).
     pub word_bytes: usize,
     /// Signed words ("i" formats); decides the coding when `coding` is `None`.
     pub signed: bool,
@@ -90,8 +128,11 @@ pub struct BinaryLayout {
     pub skip_bytes: u64,
     /// The channel to keep, 0-based.
     pub channel: usize,
-    /// Interleaved channels per frame (at least 1).
+    /// Interleaved channels per frame (at least 1); packed samples are interleaved sample by
+    /// sample.
     pub channels: usize,
+    /// Samples packed back to back across byte boundaries; `None`: one sample per word.
+    pub packing: Option<Packing>,
 }
 
 /// A column of a delimited record.
@@ -155,12 +196,43 @@ impl Format {
         }
     }
 
-    /// Parses a binary word format: "i8", "u8", "i16le", "i16be", "u16le", "u16be", "i32le", "i32be",
-    /// "u32le", "u32be" (i: signed, two's complement by default; u: unsigned, offset binary by default;
-    /// le/be: byte order). The rest of the layout takes its defaults: right-justified, no header, one
+    /// Parses a binary word format: "i8", "u8", "i16le", "i16be", "u16le", "u16be", "i24le", "i24be",
+    /// "u24le", "u24be", "i32le", "i32be", "u32le", "u32be" (i: signed, two's complement by default;
+    /// u: unsigned, offset binary by default; le/be: byte order), or a packing, "p10le", "p10be",
+    /// "p12le", "p12be", "p14le", "p14be" (two's complement by default; le/be: the bit order of
+    /// [`Packing`]). The rest of the layout takes its defaults: right-justified, no header, one
     /// channel.
     pub fn parse_word(s: &str) -> Result<BinaryLayout> {
         let word = s.trim();
+        if let Some(rest) = word.strip_prefix('p') {
+            let (bits, msb_first) = match rest {
+                "10le" => (10, false),
+                "10be" => (10, true),
+                "12le" => (12, false),
+                "12be" => (12, true),
+                "14le" => (14, false),
+                "14be" => (14, true),
+                _ => {
+                    return Err(Error::setting(
+                        "format",
+                        format!("a word format: {}", WORD_NAMES),
+                        format!("{s:?}"),
+                    ))
+                }
+            };
+            let packing = Packing { bits, msb_first };
+            return Ok(BinaryLayout {
+                word_bytes: packing.group_bytes(),
+                signed: true,
+                big_endian: msb_first,
+                coding: None,
+                justify: Justify::Right,
+                skip_bytes: 0,
+                channel: 0,
+                channels: 1,
+                packing: Some(packing),
+            });
+        }
         let (signed, rest) = match word.as_bytes().first() {
             Some(b'i') => (true, &word[1..]),
             Some(b'u') => (false, &word[1..]),
@@ -170,6 +242,8 @@ impl Format {
             "8" => (1, false),
             "16le" => (2, false),
             "16be" => (2, true),
+            "24le" => (3, false),
+            "24be" => (3, true),
             "32le" => (4, false),
             "32be" => (4, true),
             _ => {
@@ -189,6 +263,7 @@ impl Format {
             skip_bytes: 0,
             channel: 0,
             channels: 1,
+            packing: None,
         })
     }
 }
@@ -312,15 +387,24 @@ fn too_large(shown: &str, size: &str, needed: u64, limit: u64) -> Error {
 fn needed_up_front(file_bytes: u64, format: &Format) -> (u64, String) {
     match format {
         Format::Binary(l) => {
-            let frame = (l.word_bytes as u64).saturating_mul(l.channels.max(1) as u64);
-            let samples = file_bytes.saturating_sub(l.skip_bytes) / frame.max(1);
+            let data = file_bytes.saturating_sub(l.skip_bytes);
+            let channels = l.channels.max(1) as u64;
+            let (samples, what) = match l.packing {
+                Some(p) => (
+                    data.saturating_mul(8) / u64::from(p.bits) / channels,
+                    format!("packed {}-bit samples", p.bits),
+                ),
+                None => (
+                    data / (l.word_bytes as u64).saturating_mul(channels).max(1),
+                    format!("{}-byte words", l.word_bytes),
+                ),
+            };
             (
                 file_bytes
                     .saturating_add(samples.saturating_mul(resources::ANALYSIS_BYTES_PER_SAMPLE)),
                 format!(
-                    "{} holding {samples} samples of {}-byte words",
+                    "{} holding {samples} samples of {what}",
                     resources::bytes_shown(file_bytes),
-                    l.word_bytes
                 ),
             )
         }
@@ -441,14 +525,16 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
 
     // Formats that may hold values (with no code grid), or state their resolution, may go without
     // one; the check that codes have one comes after the read.
-    let bits_optional = !matches!(format, Format::Binary(_));
+    // A packing states its width, which is the resolution unless --bits says fewer.
+    let bits_optional = !matches!(&format, Format::Binary(l) if l.packing.is_none());
     if let Some(bits) = meta.bits {
         check_bits(bits).map_err(|e| e.with_path(origin(cli.bits.is_some())))?;
     } else if !bits_optional {
         return Err(missing_bits(&shown, &sidecar_shown));
     }
-    // A WAV file states its sample rate; every other format needs one given.
-    let rate_in_file = matches!(format, Format::Wav);
+    // A WAV file states its sample rate, a CSV file may have a time column; every other format
+    // needs one given.
+    let rate_in_file = matches!(format, Format::Wav | Format::Csv { .. });
     if let Some(fs) = meta.sample_rate_hz {
         crate::record::check_sample_rate(fs, " (give --fs or \"sample_rate_hz\" in the sidecar)")
             .map_err(|e| e.with_path(origin(cli.sample_rate_hz.is_some())))?;
@@ -469,39 +555,60 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         detect::refuse_binary(&bytes, &shown)?;
     }
     let unit = settings.unit.or(sidecar.unit);
-    // Only the formats with optional bits reach a read without them.
-    let needed = || meta.bits.unwrap_or(0);
     // Told the samples are codes, the text readers read codes only (and name the line of a fraction).
     let values_allowed = unit != Some(SampleUnit::Codes);
     let mut fraction_line = None;
     let mut native = None;
     let mut bits_known = meta.bits;
     let mut file_rate = None;
+    let mut time_axis: Option<delimited::TimeAxis> = None;
     let channel = match settings.channel {
         Some(c) => Some(c),
         None => sidecar.parsed_channel(&sidecar_shown)?,
     };
     let samples = match &format {
+        // Raw words in hexadecimal or binary: bit patterns of a stated width, decoded by the coding.
+        Format::Text if text::radix_of(&bytes).is_some() => {
+            let Some(bits) = meta.bits else {
+                return Err(missing_bits(&shown, &sidecar_shown));
+            };
+            let coding = settings
+                .coding
+                .or(sidecar.coding)
+                .unwrap_or(Coding::TwosComplement);
+            Samples::Codes(text::parse_text_words(&bytes, &shown, bits, coding)?)
+        }
         Format::Text if values_allowed => {
             let (s, line) = text::parse_text_located(&bytes, &shown, meta.bits)?;
             fraction_line = line;
             s
         }
         Format::Text => Samples::Codes(parse_text(&bytes, &shown, meta.bits.unwrap_or(32))?),
-        Format::Csv { column, delimiter } if values_allowed => {
-            let (s, line) =
-                delimited::parse_delimited_located(&bytes, &shown, meta.bits, column, *delimiter)?;
+        Format::Csv { column, delimiter } => {
+            // With no column given, the signal column is chosen among those left besides time and
+            // index columns.
+            let given = settings.column.is_some() || sidecar.column.is_some();
+            let (s, line, axis) = delimited::parse_delimited_auto(
+                &bytes,
+                &shown,
+                meta.bits,
+                given.then_some(column),
+                *delimiter,
+                values_allowed,
+            )?;
             fraction_line = line;
+            time_axis = axis;
             s
         }
-        Format::Csv { column, delimiter } => Samples::Codes(parse_delimited(
-            &bytes,
-            &shown,
-            meta.bits.unwrap_or(32),
-            column,
-            *delimiter,
-        )?),
-        Format::Binary(layout) => Samples::Codes(parse_binary(&bytes, &shown, needed(), layout)?),
+        Format::Binary(layout) => {
+            bits_known = meta.bits.or(layout.packing.map(|p| p.bits));
+            Samples::Codes(parse_binary(
+                &bytes,
+                &shown,
+                bits_known.unwrap_or(0),
+                layout,
+            )?)
+        }
         Format::Wav => {
             let read = wav::parse_wav(&bytes, &shown, meta.bits, channel)?;
             warnings.extend(read.warnings);
@@ -535,6 +642,29 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
             )?
         }
     };
+    if let Some(ax) = &time_axis {
+        match (meta.sample_rate_hz, ax.rate_hz) {
+            // Disagreeing by more than half a sample over the record's span is a mismatch.
+            (Some(given), Some(r)) if (ax.span_s * given - ax.steps as f64).abs() > 0.5 => {
+                return Err(Error::setting(
+                    "sample_rate_hz",
+                    format!(
+                        "the sample rate of the time column {:?}: {} Hz ({} steps in {} s)",
+                        ax.column, r, ax.steps, ax.span_s
+                    ),
+                    format!("{given} Hz given"),
+                )
+                .with_path(origin(cli.sample_rate_hz.is_some())));
+            }
+            (Some(_), Some(_)) => {}
+            (None, Some(r)) => file_rate = Some(r),
+            (_, None) => warnings.push(format!(
+                "the time column {:?} gives no sample rate: {}",
+                ax.column,
+                ax.uneven.as_deref().unwrap_or("its steps are not even")
+            )),
+        }
+    }
     let sample_rate_hz = match (meta.sample_rate_hz, file_rate) {
         (Some(given), Some(stated)) => {
             if given != stated {
@@ -547,8 +677,11 @@ pub fn read_record(path: &Path, settings: &IngestSettings) -> Result<Ingested> {
         }
         (Some(given), None) => given,
         (None, Some(stated)) => {
-            crate::record::check_sample_rate(stated, " (the file's header; give --fs)")
-                .map_err(|e| e.with_path(&shown))?;
+            crate::record::check_sample_rate(
+                stated,
+                " (the file's header or time column; give --fs)",
+            )
+            .map_err(|e| e.with_path(&shown))?;
             stated
         }
         (None, None) => return Err(missing_rate(&shown, &sidecar_shown)),
@@ -769,9 +902,10 @@ fn ignored_settings(s: &IngestSettings, format: &Format) -> Option<String> {
         ("delimiter", s.delimiter.is_some()),
     ];
     let (kind, unused): (&str, Vec<&str>) = match format {
+        // The coding applies to raw words written in hexadecimal or binary.
         Format::Text => (
             "a text record",
-            binary
+            binary[1..]
                 .iter()
                 .chain(&csv)
                 .filter(|x| x.1)
@@ -834,6 +968,10 @@ mod tests {
             ("i16be", 2, true, true),
             ("u16le", 2, false, false),
             ("u16be", 2, false, true),
+            ("i24le", 3, true, false),
+            ("i24be", 3, true, true),
+            ("u24le", 3, false, false),
+            ("u24be", 3, false, true),
             ("i32le", 4, true, false),
             ("i32be", 4, true, true),
             ("u32le", 4, false, false),
@@ -849,8 +987,23 @@ mod tests {
             assert_eq!(l.coding, None);
             assert_eq!(l.justify, Justify::Right);
             assert_eq!((l.skip_bytes, l.channel, l.channels), (0, 0, 1));
+            assert_eq!(l.packing, None);
         }
-        for bad in ["i16", "s16le", "u24le", "i8le", "", "I16LE", "text"] {
+        for (name, bits, msb_first, group) in [
+            ("p10le", 10, false, 5),
+            ("p10be", 10, true, 5),
+            ("p12le", 12, false, 3),
+            ("p12be", 12, true, 3),
+            ("p14le", 14, false, 7),
+            ("p14be", 14, true, 7),
+        ] {
+            let l = Format::parse_word(name).unwrap();
+            assert_eq!(l.packing, Some(Packing { bits, msb_first }), "{name}");
+            assert_eq!((l.word_bytes, l.signed, l.coding), (group, true, None));
+        }
+        for bad in [
+            "i16", "s16le", "u12le", "i8le", "", "I16LE", "text", "p12", "p16le", "p8le",
+        ] {
             let e = Format::parse_word(bad).unwrap_err();
             assert_eq!(e.kind, ErrorKind::BadSetting, "{bad}");
             assert_eq!(e.location, Location::Key("format".into()));
@@ -1144,12 +1297,93 @@ mod tests {
         s.column = Some(ColumnSel::Index(1));
         let r = read_record(&path, &s).unwrap().record;
         assert_eq!(&r.codes[..8], &[0, 1, 2, 3, 4, 5, 6, 0]);
-        // Without a sidecar: column 0 (the header "t" is skipped).
+        // Without a sidecar or --column: "t" counts samples (whole numbers stepping by 1), and two
+        // signal columns are left: the error lists them by name.
         let dir = files(&[("r.csv", csv.as_bytes())]);
+        let e = read_record(&dir.path().join("r.csv"), &cli(1e6, 8)).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (ErrorKind::BadSetting, Location::Line(1))
+        );
+        assert_eq!(e.found, "columns 't' (index), 'a', 'b'");
+        assert!(e.expected.contains("--column"), "{}", e.expected);
+        // With one signal column left, it is chosen.
+        let two: String = "n,code\n".to_string()
+            + &(0..20)
+                .map(|i| format!("{i},{}\n", i % 7))
+                .collect::<String>();
+        let dir = files(&[("r.csv", two.as_bytes())]);
         let r = read_record(&dir.path().join("r.csv"), &cli(1e6, 8))
             .unwrap()
             .record;
-        assert_eq!(r.codes, (0..20).collect::<Vec<i32>>());
+        assert_eq!(&r.codes[..8], &[0, 1, 2, 3, 4, 5, 6, 0]);
+    }
+
+    // Sources: a preamble of settings before a header and a time column in seconds are how bench
+    // instruments commonly write CSV (common practice, no source); the rates are worked by hand.
+    #[test]
+    fn instrument_csv_preamble_time_column_and_rate() {
+        let table = |dt: f64, unit: &str| {
+            format!("Model,X\nSample interval: {dt}\n\nTime {unit},CH1\n")
+                + &(0..32)
+                    .map(|k| format!("{:e},{}\n", k as f64 * dt, (k * 5) % 11 - 5))
+                    .collect::<String>()
+        };
+        let dir = files(&[
+            ("s.csv", table(4e-9, "(s)").as_bytes()),
+            ("us.csv", table(0.5, "[us]").as_bytes()),
+        ]);
+        let mut s = cli(1.0, 8);
+        s.meta.sample_rate_hz = None;
+        // 250 MHz from 4 ns steps; the preamble's lines are skipped, CH1 chosen.
+        let r = read_record(&dir.path().join("s.csv"), &s).unwrap().record;
+        assert!(
+            (r.sample_rate_hz - 250e6).abs() < 1e-3,
+            "{}",
+            r.sample_rate_hz
+        );
+        assert_eq!(&r.codes[..3], &[-5, 0, 5]);
+        // 0.5 us steps: 2 MHz.
+        let r = read_record(&dir.path().join("us.csv"), &s).unwrap().record;
+        assert!(
+            (r.sample_rate_hz - 2e6).abs() < 1e-6,
+            "{}",
+            r.sample_rate_hz
+        );
+        // A rate given that disagrees with the time column is refused; one that agrees is fine.
+        let e = read_record(&dir.path().join("s.csv"), &cli(100e6, 8)).unwrap_err();
+        assert_eq!(
+            (e.kind, e.location),
+            (
+                ErrorKind::BadSetting,
+                Location::Key("sample_rate_hz".into())
+            )
+        );
+        assert!(
+            e.expected.contains("Time (s)") && e.expected.contains("31 steps"),
+            "{}",
+            e.expected
+        );
+        assert!(read_record(&dir.path().join("s.csv"), &cli(250e6, 8)).is_ok());
+        // Uneven time stamps give no rate: with none given, the rate is asked for, and the warning
+        // names the sample off the grid.
+        let uneven = "Time (s),CH1\n".to_string()
+            + &(0..32)
+                .map(|k| {
+                    let t = if k == 5 { 5.5e-6 } else { k as f64 * 1e-6 };
+                    format!("{t:e},{}\n", (k * 5) % 11 - 5)
+                })
+                .collect::<String>();
+        let dir = files(&[("u.csv", uneven.as_bytes())]);
+        let e = read_record(&dir.path().join("u.csv"), &s).unwrap_err();
+        assert_eq!(e.location, Location::Key("sample_rate_hz".into()));
+        let w = read_record(&dir.path().join("u.csv"), &cli(1e6, 8))
+            .unwrap()
+            .warnings;
+        assert!(
+            w[0].contains("sample 5") && w[0].contains("Time (s)"),
+            "{w:?}"
+        );
     }
 
     #[test]

@@ -365,7 +365,7 @@ mod tests {
         assert_eq!(sc.parsed_channel("s.json").unwrap(), Some((1, 4)));
         assert_eq!(sc.parsed_delimiter("s.json").unwrap(), Some(b';'));
         let bad = Sidecar {
-            format: Some("i24le".into()),
+            format: Some("i20le".into()),
             channel: Some("5/4".into()),
             delimiter: Some(";;".into()),
             ..Sidecar::default()

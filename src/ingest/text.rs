@@ -1,11 +1,13 @@
 //! Text records: one signed integer code per line (or one value, such as a voltage, per line), with
 //! blank lines, `#` comments and one optional header line. Codes take a single pass over the bytes with
 //! no allocation per line, so that 2^20 codes parse in a few milliseconds; a file holding a decimal
-//! fraction or an exponent is read again as values.
+//! fraction or an exponent is read again as values. Raw words written in hexadecimal (`0x1F3`) or
+//! binary (`0b0101...`), as capture tools write them, are read by their own pass.
 
 use super::checks::{check_bits, no_samples, show_token, to_code, INT_LIMIT};
 use super::samples::Samples;
 use crate::error::{Error, ErrorKind, Location, Result};
+use crate::record::Coding;
 
 /// Whitespace allowed around a code ('\r' covers CRLF line ends).
 #[inline]
@@ -20,9 +22,15 @@ fn is_space(b: u8) -> bool {
 /// is neither blank nor a comment is a header when it is not an integer and contains a letter; any other
 /// non-integer line is a [`ErrorKind::NotInteger`] error naming its 1-based line. Codes outside
 /// `-2^(N-1)..=2^(N-1)-1` are [`ErrorKind::CodeOutOfRange`]; no code at all is [`ErrorKind::Empty`].
+///
+/// A text whose first code starts with `0x` or `0b` holds raw N-bit words instead (see
+/// [`parse_text_words`]), read as two's complement here.
 pub fn parse_text(bytes: &[u8], path: &str, bits: u32) -> Result<Vec<i32>> {
     check_bits(bits).map_err(|e| e.with_path(path))?;
     let b = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    if radix_of(b).is_some() {
+        return parse_text_words(bytes, path, bits, Coding::TwosComplement);
+    }
     if b.len() >= PARALLEL_MIN_BYTES {
         if let Some(codes) = parse_halves(b, path, bits) {
             return Ok(codes);
@@ -264,6 +272,188 @@ fn parse_text_values(bytes: &[u8], path: &str) -> Result<(Vec<f64>, Option<usize
     Ok((values, fraction))
 }
 
+/// The radix of a raw word written with a prefix.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Radix {
+    /// `0x` or `0X`, digits 0-9, a-f, A-F.
+    Hex,
+    /// `0b` or `0B`, digits 0 and 1.
+    Binary,
+}
+
+impl Radix {
+    fn name(self) -> &'static str {
+        match self {
+            Radix::Hex => "hexadecimal",
+            Radix::Binary => "binary",
+        }
+    }
+
+    fn base(self) -> u32 {
+        match self {
+            Radix::Hex => 16,
+            Radix::Binary => 2,
+        }
+    }
+}
+
+/// The radix a token's prefix names, and its digits.
+fn prefixed(token: &[u8]) -> Option<(Radix, &[u8])> {
+    match token {
+        [b'0', b'x' | b'X', rest @ ..] => Some((Radix::Hex, rest)),
+        [b'0', b'b' | b'B', rest @ ..] => Some((Radix::Binary, rest)),
+        _ => None,
+    }
+}
+
+/// Each line's token without its comment, trimmed, with its 1-based line number; blank and comment
+/// lines left out.
+fn tokens(b: &[u8]) -> impl Iterator<Item = (usize, &[u8])> {
+    b.split(|&c| c == b'\n').enumerate().filter_map(|(k, raw)| {
+        let content = raw
+            .iter()
+            .position(|&c| c == b'#')
+            .map_or(raw, |p| &raw[..p]);
+        let token = trim(content);
+        (!token.is_empty()).then_some((k + 1, token))
+    })
+}
+
+/// The radix of the text's first code, when it is written with a `0x` or `0b` prefix (the first
+/// line that is neither blank nor a comment, or the one after it when that line is a header).
+pub(crate) fn radix_of(b: &[u8]) -> Option<Radix> {
+    let mut lines = tokens(b.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(b));
+    let (_, first) = lines.next()?;
+    if let Some((r, _)) = prefixed(first) {
+        return Some(r);
+    }
+    // A header has a letter; a decimal code or value has none.
+    if !first.iter().any(u8::is_ascii_alphabetic) {
+        return None;
+    }
+    lines.next().and_then(|(_, t)| prefixed(t)).map(|(r, _)| r)
+}
+
+/// Parses a text record of raw N-bit words written in hexadecimal (`0x1F3`) or binary
+/// (`0b0101_1100`), one per line, with the rules of [`parse_text`] for blank lines, comments and one
+/// header line.
+///
+/// The radix is chosen by the prefix of each word, and a file holds one radix: the first word's.
+/// A word in another radix, or a decimal number, is [`ErrorKind::NotInteger`] at its line (a capture
+/// tool writes one radix; a mixture is more likely two files run together than a record). Digits may
+/// be separated by `_`; no sign is allowed (a word is a bit pattern). Each word must fit in N bits
+/// (below 2^N, else [`ErrorKind::CodeOutOfRange`] at its line) and is decoded by `coding`: two's
+/// complement (`0xFFF` is -1 at 12 bits) or offset binary (`0x800` is 0 at 12 bits).
+pub fn parse_text_words(bytes: &[u8], path: &str, bits: u32, coding: Coding) -> Result<Vec<i32>> {
+    check_bits(bits).map_err(|e| e.with_path(path))?;
+    let b = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
+    let mut codes = Vec::with_capacity(b.len() / 6 + 1);
+    // The radix and the line of the first word.
+    let mut first: Option<(Radix, usize)> = None;
+    let mut header = false;
+    let top = if bits == 32 {
+        u64::from(u32::MAX)
+    } else {
+        (1u64 << bits) - 1
+    };
+    let half = 1i64 << (bits - 1);
+    for (line, token) in tokens(b) {
+        let Some((radix, digits)) = prefixed(token) else {
+            if first.is_none() && !header && token.iter().any(u8::is_ascii_alphabetic) {
+                header = true;
+                continue;
+            }
+            let expected = match first {
+                Some((r, at)) => format!(
+                    "a {} word (0{} prefix) like the first word, at line {at}: one radix per file",
+                    r.name(),
+                    if r == Radix::Hex { 'x' } else { 'b' }
+                ),
+                None => "a raw word in hexadecimal (0x1F3) or binary (0b0101)".to_string(),
+            };
+            return Err(Error::new(
+                ErrorKind::NotInteger,
+                path,
+                Location::Line(line),
+                expected,
+                show_token(token),
+            ));
+        };
+        let (want, at) = *first.get_or_insert((radix, line));
+        if radix != want {
+            return Err(Error::new(
+                ErrorKind::NotInteger,
+                path,
+                Location::Line(line),
+                format!(
+                    "a {} word like the first word, at line {at}: one radix per file",
+                    want.name()
+                ),
+                format!("{} ({} word)", show_token(token), radix.name()),
+            ));
+        }
+        let mut value: u64 = 0;
+        let mut any = false;
+        let mut bad = digits.is_empty() || digits[0] == b'_' || digits[digits.len() - 1] == b'_';
+        for &c in digits {
+            if c == b'_' {
+                continue;
+            }
+            match char::from(c).to_digit(radix.base()) {
+                Some(d) => {
+                    any = true;
+                    if value <= top {
+                        value = value * u64::from(radix.base()) + u64::from(d);
+                    }
+                }
+                None => bad = true,
+            }
+        }
+        if bad || !any {
+            return Err(Error::new(
+                ErrorKind::NotInteger,
+                path,
+                Location::Line(line),
+                match radix {
+                    Radix::Hex => "a hexadecimal word: 0x, then digits 0-9 and a-f (no sign)",
+                    Radix::Binary => "a binary word: 0b, then digits 0 and 1 (no sign)",
+                },
+                show_token(token),
+            ));
+        }
+        if value > top {
+            return Err(Error::new(
+                ErrorKind::CodeOutOfRange,
+                path,
+                Location::Line(line),
+                match radix {
+                    Radix::Hex => format!("a {bits}-bit word, 0x0..=0x{top:X}"),
+                    Radix::Binary => {
+                        format!("a {bits}-bit word, at most {bits} binary digits of 1")
+                    }
+                },
+                show_token(token),
+            ));
+        }
+        let code = match coding {
+            Coding::OffsetBinary => value as i64 - half,
+            Coding::TwosComplement if value as i64 >= half => value as i64 - 2 * half,
+            Coding::TwosComplement => value as i64,
+        };
+        // Within the N-bit range by construction, N <= 32.
+        codes.push(code as i32);
+    }
+    if codes.is_empty() {
+        let found = if header {
+            "a header line and no words"
+        } else {
+            "no words"
+        };
+        return Err(no_samples(path, found));
+    }
+    Ok(codes)
+}
+
 /// The slice without leading and trailing whitespace.
 fn trim(s: &[u8]) -> &[u8] {
     let start = s.iter().position(|&c| !is_space(c)).unwrap_or(s.len());
@@ -284,6 +474,92 @@ mod tests {
 
     fn parse(s: &str, bits: u32) -> Result<Vec<i32>> {
         parse_text(s.as_bytes(), "r.txt", bits)
+    }
+
+    // Sources for the raw words: the 0x and 0b prefixes are common practice, no source; two's
+    // complement and offset binary of a 12-bit word are worked by hand.
+    #[test]
+    fn hexadecimal_and_binary_words() {
+        let hex = "# capture\nch1\n0x7FF\n0xfff\n0X800\n0x000 # mid\n\n0x1f3\n";
+        assert_eq!(
+            parse_text(hex.as_bytes(), "r.txt", 12).unwrap(),
+            vec![2047, -1, -2048, 0, 0x1F3]
+        );
+        assert_eq!(
+            parse_text_words(hex.as_bytes(), "r.txt", 12, Coding::OffsetBinary).unwrap(),
+            vec![-1, 2047, 0, -2048, 0x1F3 - 2048]
+        );
+        let bin = "0b0000_0000_0101\r\n0B111111111111\r\n";
+        assert_eq!(
+            parse_text(bin.as_bytes(), "r.txt", 12).unwrap(),
+            vec![5, -1]
+        );
+        assert_eq!(radix_of(b"code\n0b1\n"), Some(Radix::Binary));
+        assert_eq!(radix_of(b"12\n0x1\n"), None);
+        // 32-bit words.
+        assert_eq!(
+            parse_text(b"0xFFFFFFFF\n0x80000000\n", "r.txt", 32).unwrap(),
+            vec![-1, i32::MIN]
+        );
+    }
+
+    #[test]
+    fn bad_words_name_their_line() {
+        let e = |s: &str| parse_text(s.as_bytes(), "r.txt", 12).unwrap_err();
+        // Wider than 12 bits.
+        let x = e("0x001\n0x1000\n");
+        assert_eq!(
+            (x.kind, x.location),
+            (ErrorKind::CodeOutOfRange, Location::Line(2))
+        );
+        assert_eq!(x.expected, "a 12-bit word, 0x0..=0xFFF");
+        assert_eq!(x.found, "'0x1000'");
+        let x = e("0b1\n0b1000000000000\n");
+        assert_eq!(
+            (x.kind, x.location),
+            (ErrorKind::CodeOutOfRange, Location::Line(2))
+        );
+        // A digit outside the radix, an empty word, a sign.
+        for (text, line) in [
+            ("0x1\n0x1G\n", 2),
+            ("0b1\n0b102\n", 2),
+            ("0x\n", 1),
+            ("0x1\n-0x1\n", 2),
+        ] {
+            let x = e(text);
+            assert_eq!(
+                (x.kind, x.location),
+                (ErrorKind::NotInteger, Location::Line(line)),
+                "{text}"
+            );
+        }
+        // Mixed radices and a decimal code among words: refused at the line, naming the first word's.
+        let x = e("# c\n0x1\n0b1\n");
+        assert_eq!(
+            (x.kind, x.location),
+            (ErrorKind::NotInteger, Location::Line(3))
+        );
+        assert!(
+            x.expected.contains("hexadecimal") && x.expected.contains("line 2"),
+            "{}",
+            x.expected
+        );
+        assert_eq!(x.found, "'0b1' (binary word)");
+        let x = e("0b1\n17\n");
+        assert_eq!(
+            (x.kind, x.location),
+            (ErrorKind::NotInteger, Location::Line(2))
+        );
+        assert!(x.expected.contains("one radix per file"), "{}", x.expected);
+        // A header and no words.
+        let x = parse_text_words(b"ch1\n", "r.txt", 12, Coding::TwosComplement).unwrap_err();
+        assert_eq!(x.kind, ErrorKind::Empty);
+        // Hexadecimal after decimal codes is a bad line of a decimal record.
+        let x = e("1\n0x2\n");
+        assert_eq!(
+            (x.kind, x.location),
+            (ErrorKind::NotInteger, Location::Line(2))
+        );
     }
 
     #[test]

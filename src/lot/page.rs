@@ -49,6 +49,8 @@ struct Limited {
     limit: Limit,
     /// The metric's column in the summary rows.
     column: Option<usize>,
+    /// The column of its one-sigma uncertainty, when the limit has a guardband in sigmas.
+    sigma_column: Option<usize>,
     values: Vec<(f64, Band)>,
     /// Results judged under the condition that had no value for the metric.
     no_value: usize,
@@ -117,6 +119,12 @@ impl LotPage {
                                 .map(|l| Limited {
                                     limit: l.clone(),
                                     column: columns.iter().position(|k| *k == l.metric),
+                                    sigma_column: figures::get(&l.metric)
+                                        .filter(|_| l.guard_sigmas > 0.0)
+                                        .and_then(|c| {
+                                            c.figure.uncertainty_key(c.order.unwrap_or(0))
+                                        })
+                                        .and_then(|u| columns.iter().position(|k| *k == u)),
                                     values: Vec::new(),
                                     no_value: 0,
                                 })
@@ -172,14 +180,17 @@ impl LotPage {
             .from_reader(summary_row);
         let record = reader.records().next().and_then(|r| r.ok());
         for l in &mut c.limited {
-            let value = l
-                .column
-                .and_then(|k| record.as_ref().and_then(|r| r.get(k)))
-                .and_then(|cell| cell.parse::<f64>().ok())
-                .filter(|v| v.is_finite());
+            let number = |column: Option<usize>| {
+                column
+                    .and_then(|k| record.as_ref().and_then(|r| r.get(k)))
+                    .and_then(|cell| cell.parse::<f64>().ok())
+                    .filter(|v| v.is_finite())
+            };
+            let value = number(l.column);
+            let sigma = number(l.sigma_column);
             match value {
                 Some(v) => {
-                    let band = match l.limit.check(Some(v)).outcome {
+                    let band = match l.limit.check(Some(v), sigma).outcome {
                         CheckOutcome::Pass => Band::Inside,
                         CheckOutcome::Guardband => Band::Guardband,
                         CheckOutcome::Fail | CheckOutcome::NoValue => Band::Outside,
@@ -325,6 +336,15 @@ impl LotPage {
                     Band::Guardband => (n.0, n.1 + 1, n.2),
                     Band::Outside => (n.0, n.1, n.2 + 1),
                 });
+                let sigmas = if l.limit.guard_sigmas > 0.0 {
+                    format!(
+                        "; each result's guardband also holds {} σ of its own uncertainty \
+                         (dashed: the fixed part)",
+                        crate::report::svg::trim_number(l.limit.guard_sigmas, 3)
+                    )
+                } else {
+                    String::new()
+                };
                 let missing = if l.no_value > 0 {
                     format!(", {} without a value", l.no_value)
                 } else {
@@ -333,10 +353,11 @@ impl LotPage {
                 let _ = writeln!(
                     b,
                     "<figure class=\"dist\" data-metric=\"{}\">\n{body}\n<figcaption>{} results: {inside} \
-                     inside, {guard} in a guardband, {outside} outside{}</figcaption>\n</figure>",
+                     inside, {guard} in a guardband, {outside} outside{}{}</figcaption>\n</figure>",
                     escape(&l.limit.metric),
                     l.values.len(),
-                    escape(&missing)
+                    escape(&missing),
+                    escape(&sigmas)
                 );
             }
             b.push_str("</div>\n");

@@ -12,6 +12,16 @@ and as WAV files (the sample rate in the header; no --fs given when read):
   wave (Python's standard library)            PCM 8, 16, 24 and 32 bits, mono and stereo
   scipy.io.wavfile.write                      IEEE float 32 and 64 bits (±1.0 full scale), PCM 16
   struct.pack by the layouts in the comments  WAVE_FORMAT_EXTENSIBLE (24 valid bits in 32), RF64
+and as raw words and packed samples (the byte layouts in the comments, written with numpy):
+  ndarray.astype + byte slicing               24-bit words i24le, i24be, u24le, u24be
+  numpy.unpackbits / numpy.packbits           10-, 12- and 14-bit samples packed back to back as a bit
+                                              stream, least significant bit first (p10le, p12le, p14le)
+                                              or most significant bit first (p10be, p12be, p14be)
+and as raw words in text (Python's format(): "#x" and "b" with a 0b prefix), as capture tools write them:
+  codes_hex.txt (two's complement), codes_hex_offset.txt (offset binary), codes_bin.txt
+and an instrument-style CSV (scope.csv): a preamble of setting lines (key,value pairs and free text), a
+header, a time column in seconds (k / FS, Python's repr) and the volts; read with no --fs (the rate comes
+from the time column) and no --column (the one column left besides time)
 and a manifest (formats.json) listing each file with how to read it and the library versions
 (`compare`: "exact" for bit-identical figures, "relative" for figures within 1e-9 relative, "analogue"
 for a record read without a resolution, whose dB figures and spectral ENOB are compared).
@@ -166,6 +176,82 @@ ds64 = b"ds64" + struct.pack("<IQQQI", 28, riff_size, len(data), N, 0)
 with open(os.path.join(OUT, "rf64_pcm16.wav"), "wb") as f:
     f.write(b"RF64" + struct.pack("<I", 0xFFFFFFFF) + b"WAVE" + ds64 + rest)
 add("rf64_pcm16.wav", format="wav", bits=BITS, fs_from_file=True)
+
+# 24-bit words. numpy has no 24-bit dtype: each value is written as a 32-bit integer and one byte is
+# dropped, the most significant (the last of a little-endian word, the first of a big-endian one).
+# i24: the 12-bit codes right-justified and sign-extended to 24 bits; u24: offset binary
+# (code + 2^23 after a left shift by 12) read left-justified.
+def words24(values, big):
+    b = values.astype(">i4" if big else "<i4").view(np.uint8).reshape(-1, 4)
+    return (b[:, 1:] if big else b[:, :3]).tobytes()
+
+
+with open(os.path.join(OUT, "codes_i24le.bin"), "wb") as f:
+    f.write(words24(codes, big=False))
+add("codes_i24le.bin", format="i24le", bits=BITS)
+with open(os.path.join(OUT, "codes_i24be.bin"), "wb") as f:
+    f.write(words24(codes, big=True))
+add("codes_i24be.bin", format="i24be", bits=BITS)
+u24 = (codes << 12) + 2 ** 23
+with open(os.path.join(OUT, "codes_u24le.bin"), "wb") as f:
+    f.write(words24(u24, big=False))
+add("codes_u24le.bin", format="u24le", bits=BITS, justify="left")
+with open(os.path.join(OUT, "codes_u24be.bin"), "wb") as f:
+    f.write(words24(u24, big=True))
+add("codes_u24be.bin", format="u24be", bits=BITS, justify="left")
+
+
+# Packed samples: each sample's N-bit field (two's complement, or offset binary code + 2^(N-1)) is
+# written as N bits, the fields back to back with no padding, and the bit stream is cut into bytes by
+# numpy.packbits: bitorder "little" puts the stream's first bit in bit 0 of the first byte, each field
+# least significant bit first (p..le); bitorder "big" puts it in bit 7, each field most significant bit
+# first (p..be). 1024 samples fill whole groups of every width (2 or 4 samples).
+def packed(fields, n, msb_first):
+    f = np.asarray(fields, dtype=np.uint64)
+    order = "big" if msb_first else "little"
+    # The N low bits of each field, in the stream's order.
+    bits = np.unpackbits(f.astype(">u8").view(np.uint8).reshape(-1, 8), axis=1, bitorder="big")[:, 64 - n:]
+    if not msb_first:
+        bits = bits[:, ::-1]
+    return np.packbits(bits.reshape(-1), bitorder=order).tobytes()
+
+
+for n, fields, bits, shift, how in [
+    # 12-bit codes in 12-bit fields, two's complement.
+    (12, codes & 0xFFF, BITS, 0, {}),
+    # 10-bit: the codes shifted down by 2 (read at 10 bits), offset binary.
+    (10, (codes >> 2) + 2 ** 9, 10, 2, {"coding": "offset_binary"}),
+    # 14-bit: the 12-bit codes right-justified, sign-extended to 14 bits (read at 12 bits).
+    (14, codes & 0x3FFF, BITS, 0, {}),
+]:
+    for msb_first in [False, True]:
+        name = f"codes_p{n}{'be' if msb_first else 'le'}.bin"
+        with open(os.path.join(OUT, name), "wb") as f:
+            f.write(packed(fields, n, msb_first))
+        # The 12-bit packing is read without a resolution given: the packing's width is the default.
+        if n == 12:
+            add(name, format=f"p{n}{'be' if msb_first else 'le'}", shift=shift, **how)
+        else:
+            add(name, format=f"p{n}{'be' if msb_first else 'le'}", bits=bits, shift=shift, **how)
+
+# Raw 12-bit words in text: a header line, then one word per line with its prefix.
+with open(os.path.join(OUT, "codes_hex.txt"), "w") as f:
+    f.write("CH1 (hex)\n" + "".join(f"{format(int(c) & 0xFFF, '#05x')}\n" for c in codes))
+add("codes_hex.txt", format="text", bits=BITS)
+with open(os.path.join(OUT, "codes_hex_offset.txt"), "w") as f:
+    f.write("".join(f"0x{int(c) + 2 ** (BITS - 1):03X}\n" for c in codes))
+add("codes_hex_offset.txt", format="text", bits=BITS, coding="offset_binary")
+with open(os.path.join(OUT, "codes_bin.txt"), "w") as f:
+    f.write("".join(f"0b{format(int(c) & 0xFFF, '012b')}\n" for c in codes))
+add("codes_bin.txt", format="text", bits=BITS)
+
+# Instrument-style CSV: settings first, then the table.
+with open(os.path.join(OUT, "scope.csv"), "w") as f:
+    f.write("Model,Bench scope 4\nFirmware,2.1\nChannel 1 coupling: DC, 50 ohm\n"
+            f"Sample interval,{repr(1 / FS)}\nRecord length,{N}\n\n")
+    f.write("Time (s),CH1 (V)\n")
+    f.write("".join(f"{repr(k / FS)},{repr(float(v))}\n" for k, v in enumerate(volts)))
+add("scope.csv", format="csv", bits=BITS, full_scale_vpp=1.5, fs_from_file=True, compare="relative")
 
 with open(os.path.join(OUT, "formats.json"), "w") as f:
     json.dump(manifest, f, indent=1)

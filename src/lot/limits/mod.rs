@@ -4,7 +4,7 @@
 //!
 //! # Limit table
 //! A CSV file with a header row naming the columns `condition`, `metric`, `low`, `high`, `unit` and,
-//! optionally, `guardband` (any order, names compared without regard to case). Lines starting with `#`
+//! optionally, `guardband` and `guard_sigmas` (any order, names compared without regard to case). Lines starting with `#`
 //! and blank rows (also rows of empty cells, as spreadsheets export them) are skipped; a UTF-8 byte-order
 //! mark is ignored; `;` is the delimiter when the header has a `;` and no `,`. Row numbers in errors are
 //! the file's line numbers (the header is row 1 when it is the first line).
@@ -21,10 +21,17 @@
 //! - `guardband`: a margin ≥ 0 in the metric's unit (empty: 0); the test limits are low + guardband and
 //!   high − guardband, so a value between a stated limit and its tightened limit fails "only inside the
 //!   guardband".
+//! - `guard_sigmas`: a guardband k ≥ 0 in standard uncertainties of each record's own measurement
+//!   (empty: 0), on a metric that carries an uncertainty (`spectrum.uncertainty.snr_db` for
+//!   `spectrum.snr_db`). A record passes only when it clears the stated limit by `guardband + k·σ`,
+//!   σ being the one-sigma uncertainty that record states for the figure; so a figure measured from a
+//!   short or noisy record needs more margin than the same value measured well. A record that states
+//!   no σ for the figure cannot show it clears the guardband and fails inside it.
 //!
 //! # Verdicts
 //! Each limit gives one [`Check`]: `fail` outside the stated limits, `guardband` inside them but outside
-//! the tightened ones, `no_value` when the result has no value for the metric (a figure that could not
+//! the tightened ones (its `guardband` is the one applied to that record, k·σ included; its reason
+//! says "within 2σ of the low limit" for a sigma guardband), `no_value` when the result has no value for the metric (a figure that could not
 //! be computed cannot be shown to pass, so it counts as a failure), else `pass`. A result's
 //! [`Verdict`] is `fail` when any check fails or has no value, `fail_guardband` when the only failures
 //! are inside guardbands, `pass` when every check passes, `untested` when no limit applies and `error`

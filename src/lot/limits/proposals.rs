@@ -307,6 +307,7 @@ pub fn proposal_table(proposals: &[Proposal], path: &str) -> LimitTable {
             low: p.low.map(|v| round_outward(v, false)),
             high: p.high.map(|v| round_outward(v, true)),
             guardband: round_outward(p.guardband, true),
+            guard_sigmas: 0.0,
         })
         .collect();
     LimitTable {

@@ -120,6 +120,10 @@ pub struct Limit {
     pub high: Option<f64>,
     /// Guardband (≥ 0) that tightens both limits, in the metric's unit.
     pub guardband: f64,
+    /// Guardband (≥ 0) in standard uncertainties of the record's own measurement of the metric:
+    /// `guard_sigmas · σ` is added to `guardband` record by record (σ from the result's
+    /// `uncertainty` object, [`crate::figures::Figure::uncertainty_key`]).
+    pub guard_sigmas: f64,
 }
 
 /// The conditions a limit table may name, each with the metrics its results carry.
@@ -134,7 +138,8 @@ pub struct LimitTable {
     pub limits: Vec<Limit>,
 }
 
-const LIMIT_COLUMNS: &str = "condition, metric, low, high, unit and optionally guardband";
+const LIMIT_COLUMNS: &str =
+    "condition, metric, low, high, unit and optionally guardband and guard_sigmas";
 
 impl LimitTable {
     /// Reads and resolves a limit table file.
@@ -223,7 +228,15 @@ impl LimitTable {
         };
         for (i, name) in header.iter().enumerate() {
             let lower = name.to_ascii_lowercase();
-            let known = ["condition", "metric", "low", "high", "unit", "guardband"];
+            let known = [
+                "condition",
+                "metric",
+                "low",
+                "high",
+                "unit",
+                "guardband",
+                "guard_sigmas",
+            ];
             let Some(k) = known.iter().find(|k| **k == lower) else {
                 return Err(at(
                     header_row,
@@ -365,6 +378,25 @@ impl LimitTable {
                     format_value(guardband),
                 ));
             }
+            let guard_sigmas = number("guard_sigmas")?.unwrap_or(0.0);
+            if guard_sigmas < 0.0 {
+                return Err(at(
+                    row,
+                    "a guard_sigmas of 0 or more".into(),
+                    format_value(guard_sigmas),
+                ));
+            }
+            if guard_sigmas > 0.0 && !has_uncertainty(&metric.name) {
+                return Err(at(
+                    row,
+                    format!(
+                        "guard_sigmas only on a metric that carries an uncertainty ({} carries \
+                         none; use guardband)",
+                        metric.name
+                    ),
+                    format!("guard_sigmas {}", format_value(guard_sigmas)),
+                ));
+            }
             if low.is_none() && high.is_none() {
                 return Err(at(
                     row,
@@ -417,6 +449,7 @@ impl LimitTable {
                 low,
                 high,
                 guardband,
+                guard_sigmas,
             });
         }
         if limits.is_empty() {
@@ -451,14 +484,18 @@ impl LimitTable {
         out
     }
 
-    /// The table as CSV that [`LimitTable::parse`] reads back: the `guardband` column only when some
-    /// row has one; numbers in Rust's shortest round-trip form.
+    /// The table as CSV that [`LimitTable::parse`] reads back: the `guardband` and `guard_sigmas`
+    /// columns only when some row has one; numbers in Rust's shortest round-trip form.
     pub fn to_csv(&self) -> String {
         let guard = self.limits.iter().any(|l| l.guardband != 0.0);
+        let sigmas = self.limits.iter().any(|l| l.guard_sigmas != 0.0);
         let mut w = crate::report::csv::CsvOut::memory();
         let mut header = vec!["condition", "metric", "low", "high", "unit"];
         if guard {
             header.push("guardband");
+        }
+        if sigmas {
+            header.push("guard_sigmas");
         }
         let num = |v: Option<f64>| v.map(|x| x.to_string()).unwrap_or_default();
         w.push(&header);
@@ -473,10 +510,24 @@ impl LimitTable {
             if guard {
                 rec.push(num(Some(l.guardband)));
             }
+            if sigmas {
+                rec.push(num(Some(l.guard_sigmas)));
+            }
             w.push(&rec);
         }
         w.into_text()
     }
+}
+
+/// The key of the one-sigma uncertainty a result carries for a metric (`spectrum.snr_db` →
+/// `spectrum.uncertainty.snr_db`), from the figure table; `None` when the figure carries none.
+pub(crate) fn uncertainty_key(metric: &str) -> Option<String> {
+    let c = figures::get(metric)?;
+    c.figure.uncertainty_key(c.order.unwrap_or(0))
+}
+
+fn has_uncertainty(metric: &str) -> bool {
+    uncertainty_key(metric).is_some()
 }
 
 /// Line numbers of CSV records from their byte offsets, counted on from the previous record.

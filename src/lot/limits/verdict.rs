@@ -67,8 +67,14 @@ pub struct Check {
     pub low: Option<f64>,
     /// High limit.
     pub high: Option<f64>,
-    /// Guardband.
+    /// The guardband applied to this result, in the metric's unit: the limit's fixed guardband plus
+    /// `guard_sigmas · sigma` (the fixed one alone when the record states no σ).
     pub guardband: f64,
+    /// The limit's guardband in standard uncertainties of the record's own measurement (0: none).
+    pub guard_sigmas: f64,
+    /// The record's one-sigma standard uncertainty of the value, when it states one (read only for a
+    /// limit with `guard_sigmas`).
+    pub sigma: Option<f64>,
     /// The result's value.
     pub value: Option<f64>,
     /// The stated limit nearest the value (the one violated when it fails).
@@ -80,8 +86,13 @@ pub struct Check {
 }
 
 impl Limit {
-    /// Applies the limit to a value.
-    pub fn check(&self, value: Option<f64>) -> Check {
+    /// Applies the limit to a value whose one-sigma standard uncertainty is `sigma` (used only when
+    /// the limit has `guard_sigmas`). With a sigma guardband the value passes only when it clears the
+    /// limit by `guardband + guard_sigmas · sigma`; a value inside the stated limits whose record
+    /// states no σ cannot be shown to clear it and falls inside the guardband.
+    pub fn check(&self, value: Option<f64>, sigma: Option<f64>) -> Check {
+        let sigma = sigma.filter(|s| self.guard_sigmas > 0.0 && s.is_finite() && *s >= 0.0);
+        let guardband = self.guardband + sigma.map_or(0.0, |s| self.guard_sigmas * s);
         let sides = [
             self.low.map(|l| (Bound::Low, l, value.map(|v| v - l))),
             self.high.map(|h| (Bound::High, h, value.map(|v| h - v))),
@@ -99,7 +110,8 @@ impl Limit {
         let outcome = match margin {
             None => CheckOutcome::NoValue,
             Some(m) if m < 0.0 => CheckOutcome::Fail,
-            Some(m) if m < self.guardband => CheckOutcome::Guardband,
+            Some(m) if m < guardband => CheckOutcome::Guardband,
+            Some(_) if self.guard_sigmas > 0.0 && sigma.is_none() => CheckOutcome::Guardband,
             Some(_) => CheckOutcome::Pass,
         };
         Check {
@@ -108,7 +120,9 @@ impl Limit {
             unit: self.unit,
             low: self.low,
             high: self.high,
-            guardband: self.guardband,
+            guardband,
+            guard_sigmas: self.guard_sigmas,
+            sigma,
             value,
             bound: nearest.map(|n| n.0),
             margin,
@@ -266,6 +280,44 @@ fn say(c: &Check) -> String {
     };
     match (c.outcome, c.value, c.bound) {
         (CheckOutcome::NoValue, _, _) => format!("{} has no value", c.metric),
+        (CheckOutcome::Guardband, Some(v), Some(b)) if c.guard_sigmas > 0.0 => {
+            let fixed = c.guardband - c.sigma.map_or(0.0, |s| c.guard_sigmas * s);
+            let plus = if fixed > 0.0 {
+                format!(" (with the {} {} guardband)", format_value(fixed), c.unit)
+            } else {
+                String::new()
+            };
+            match c.sigma {
+                Some(s) => format!(
+                    "{} {} {} is within {}σ of the {} limit {} {}{plus}: σ = {} {} from the \
+                     record, margin {} {} < {} {}",
+                    c.metric,
+                    format_value(v),
+                    c.unit,
+                    format_value(c.guard_sigmas),
+                    b.as_str(),
+                    format_value(limit(b).unwrap_or(0.0)),
+                    c.unit,
+                    format_value(s),
+                    c.unit,
+                    format_value(c.margin.unwrap_or(0.0)),
+                    c.unit,
+                    format_value(c.guardband),
+                    c.unit
+                ),
+                None => format!(
+                    "{} {} {} passes the {} limit {} {} but the record states no uncertainty \
+                     to clear its {}σ guardband{plus}",
+                    c.metric,
+                    format_value(v),
+                    c.unit,
+                    b.as_str(),
+                    format_value(limit(b).unwrap_or(0.0)),
+                    c.unit,
+                    format_value(c.guard_sigmas),
+                ),
+            }
+        }
         (CheckOutcome::Guardband, Some(v), Some(b)) => format!(
             "{} {} {} is within the {} {} guardband of {} {} {}",
             c.metric,
@@ -292,13 +344,21 @@ fn say(c: &Check) -> String {
 }
 
 impl LimitTable {
-    /// The verdict on one result under a condition; `value` gives the result's value of a metric by
-    /// its full name.
+    /// The verdict on one result under a condition; `value` gives the result's value of a flattened
+    /// key by its full name: a metric, and for a limit with `guard_sigmas` the metric's uncertainty
+    /// (`spectrum.uncertainty.snr_db` for `spectrum.snr_db`).
     pub fn judge(&self, condition: &str, value: impl Fn(&str) -> Option<f64>) -> Verdict {
         let checks = self
             .for_condition(condition)
             .into_iter()
-            .map(|l| l.check(value(&l.metric)))
+            .map(|l| {
+                let sigma = if l.guard_sigmas > 0.0 {
+                    super::table::uncertainty_key(&l.metric).and_then(|k| value(&k))
+                } else {
+                    None
+                };
+                l.check(value(&l.metric), sigma)
+            })
             .collect();
         Verdict::from_checks(checks)
     }
