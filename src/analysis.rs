@@ -484,9 +484,9 @@ fn measure_records(
     ) {
         Ok(spec) => Some(spec),
         // A tone among the DC bins (a few cycles in the record, not coherent) cannot be told from DC
-        // by any window, but the sine fit finds it: the fit figures stand, the spectral ones are
-        // withheld with the reason.
-        Err(e) if e.kind == ErrorKind::ToneAtEdge => {
+        // by any window, and a short windowed record can leave no noise bins; the sine fit finds
+        // the tone either way: the fit figures stand, the spectral ones are withheld with the reason.
+        Err(e) if matches!(e.kind, ErrorKind::ToneAtEdge | ErrorKind::NoNoiseBins) => {
             warnings.push(format!(
                 "spectral figures withheld (fundamental level, SNR, SINAD, THD, SFDR, spectral and full-scale ENOB, noise floor, NSD, harmonics, worst spur): the spectrum needs {}, and found {}; the sine-fit figures are reported, with sine-fit SINAD and ENOB counting distortion as noise",
                 e.expected, e.found

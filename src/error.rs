@@ -59,6 +59,9 @@ pub enum ErrorKind {
     DegenerateFit,
     /// A tone so close to DC that the window's DC span swallows it.
     ToneAtEdge,
+    /// DC, the tone and its harmonics claim every bin of the spectrum (a short record under a
+    /// window): no noise is left to measure the spectral figures against.
+    NoNoiseBins,
     /// A histogram-test sine that does not overdrive both ends of the range.
     NotOverdriven,
     /// A bench plan that does not parse or names something that does not exist.

@@ -521,3 +521,66 @@ fn three_parameter_fit_slightly_off_names_the_phase() {
         fit.phase_rad
     );
 }
+
+/// A short non-coherent record (64 samples, 12.3 cycles) under a window: DC, the tone and ten
+/// harmonics claim every bin, and the record was refused as if it held no tone ("a tone at least 10 dB
+/// above the noise ..., found SNR undefined"). The sine fit is right, so it is now reported and the
+/// spectral figures are withheld with the real cause and the fixes; one fix, a coherent input analysed
+/// unwindowed, then gives the spectrum with its SNR right.
+#[test]
+fn short_windowed_record_keeps_its_fit_and_says_why_the_spectrum_is_withheld() {
+    let samples = 64;
+    let s = SynthSettings {
+        bits: 12,
+        sample_rate_hz: 1e6,
+        samples,
+        amplitude_dbfs: -1.0,
+        frequency: SynthFrequency::Hz(12.3 * 1e6 / samples as f64),
+        noise_rms_codes: 0.5,
+        ..SynthSettings::default()
+    };
+    let a = run(&s, &AnalysisSettings::default(), None);
+    assert!(
+        a.spectrum.is_none(),
+        "{}",
+        spurline::to_json(std::slice::from_ref(&a))
+    );
+    let w = a
+        .warnings
+        .iter()
+        .find(|w| w.contains("spectral figures withheld"))
+        .unwrap_or_else(|| panic!("{:?}", a.warnings));
+    for part in [
+        "noise bins",
+        "window each line claims",
+        "H2..H10",
+        "64-sample record",
+        "samples or more",
+        "coherent input analysed unwindowed",
+        "--harmonics",
+        "--guard-bins",
+    ] {
+        assert!(w.contains(part), "{part}: {w}");
+    }
+    assert!(!w.contains("10 dB above"), "{w}");
+    // The sine fit's SINAD is the handbook's SNR (no distortion), within its stated uncertainty.
+    let fit = a.fit.as_ref().unwrap();
+    let truth = handbook_snr_db(-1.0, 0.5);
+    let sinad = fit.sinad_db.unwrap();
+    assert!(
+        (sinad - truth).abs() <= 4.0 * fit.uncertainty.sinad_db.unwrap() + HANDBOOK_DB,
+        "sine-fit SINAD {sinad} vs {truth}"
+    );
+    // The coherent input the warning names (13 cycles) is analysed unwindowed, a bin per line.
+    let coherent = SynthSettings {
+        frequency: SynthFrequency::Hz(13.0 * 1e6 / samples as f64),
+        ..s
+    };
+    let a = run(&coherent, &AnalysisSettings::default(), None);
+    let sp = a.spectrum.as_ref().expect("noise bins are left");
+    let snr = sp.snr_db.unwrap();
+    assert!(
+        (snr - truth).abs() <= 4.0 * sp.uncertainty.snr_db.unwrap() + HANDBOOK_DB,
+        "SNR {snr} vs {truth}"
+    );
+}

@@ -304,6 +304,15 @@ pub fn measure_consuming(
             figs.noise_bins
         ));
     }
+    if figs.noise_bins == 0 {
+        return Err(no_noise_bins(
+            n,
+            window,
+            coherence.coherent,
+            half,
+            settings.harmonics.max(1),
+        ));
+    }
     if figs.snr_db.is_none_or(|s| s < 10.0) {
         return Err(Error::new(
             ErrorKind::NoTone,
@@ -432,6 +441,37 @@ pub fn measure_consuming(
         owner: claims.owner,
         warnings,
     })
+}
+
+/// The error for a spectrum whose lines claim every bin: DC's bins, the tone's and each harmonic's
+/// (±`half` bins each under `window`) cover all N/2 + 1 bins, so no noise is left to measure. It says
+/// why and what to change: a record long enough that the lines take at most half the bins,
+/// an unwindowed coherent record (one bin per line), fewer harmonics or guard bins.
+fn no_noise_bins(n: usize, window: Window, coherent: bool, half: usize, harmonics: u32) -> Error {
+    let lines = harmonics as usize;
+    let claimed = (half + 1) + lines * (2 * half + 1);
+    let longer = (4 * claimed).next_power_of_two();
+    let coherent_fix = if coherent {
+        "no window (--window rectangular) for this coherent record"
+    } else {
+        "a coherent input analysed unwindowed (one bin per line)"
+    };
+    let orders = if harmonics >= 2 {
+        format!(", the tone and H2..H{harmonics}")
+    } else {
+        " and the tone".to_string()
+    };
+    Error::new(
+        ErrorKind::NoNoiseBins,
+        "",
+        Location::Whole,
+        "noise bins left after DC, the tone and its harmonics are claimed (the spectral figures are measured against them)",
+        format!(
+            "none: under the {} window each line claims ±{half} bins, and DC{orders} cover all {} bins of this {n}-sample record; use a record of {longer} samples or more, {coherent_fix}, fewer harmonics (--harmonics) or fewer guard bins (--guard-bins)",
+            window.name(),
+            n / 2 + 1,
+        ),
+    )
 }
 
 #[cfg(test)]
