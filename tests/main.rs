@@ -13,6 +13,7 @@ mod imd;
 mod layout;
 mod linearity;
 mod lost_results;
+mod lot_page;
 mod path_traversal;
 mod pipeline;
 mod plan;
