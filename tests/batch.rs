@@ -924,7 +924,10 @@ fn a_corrupt_record_becomes_an_error_row_and_the_lot_goes_on() {
         assert!(!name.starts_with('.'), "left over: {name}");
     }
     let html = std::fs::read_to_string(out.join("index.html")).unwrap();
-    assert!(html.starts_with("<!DOCTYPE html>") && html.contains("<td>fail_guardband</td>"));
+    assert!(
+        html.starts_with("<!DOCTYPE html>")
+            && html.contains("<td class=\"t status\">fail_guardband</td>")
+    );
     assert!(!html.contains("<script"));
 }
 
@@ -1055,7 +1058,8 @@ fn outputs_are_byte_identical_for_any_thread_count() {
     );
     let (fa, fb) = (files_under(&a), files_under(&b));
     assert_eq!(fa, fb);
-    assert_eq!(fa.len(), 4 + 4 * 2);
+    // The lot files (with the limits as applied) and each device's two files.
+    assert_eq!(fa.len(), 5 + 4 * 2);
     for f in &fa {
         assert_eq!(
             std::fs::read(a.join(f)).unwrap(),
@@ -1460,10 +1464,24 @@ fn a_killed_run_keeps_complete_summaries_and_device_folders() {
     read_csv(&out.join("failures.csv"));
     let html = std::fs::read_to_string(out.join("index.html")).unwrap();
     assert!(html.ends_with("</html>\n"));
-    assert!(html.matches("<tr class=").count() <= rows.len());
+    // The table of every result lists no result the summary does not have yet.
+    let table = html
+        .split("<tbody id=\"all\">")
+        .nth(1)
+        .unwrap()
+        .split("</tbody>")
+        .next()
+        .unwrap();
+    assert!(table.matches("<tr class=").count() <= rows.len());
     // Nothing else at the top but device folders and, if the kill came mid-write, temporary files
     // under hidden names of the form .<output>.<pid>-<n>.tmp.
-    let outputs = ["summary.csv", "failures.csv", "yield.csv", "index.html"];
+    let outputs = [
+        "summary.csv",
+        "failures.csv",
+        "yield.csv",
+        "index.html",
+        "limits.csv",
+    ];
     for e in std::fs::read_dir(&out).unwrap() {
         let e = e.unwrap();
         let name = e.file_name().to_string_lossy().to_string();

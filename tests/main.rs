@@ -12,6 +12,7 @@ mod fuzz_props;
 mod imd;
 mod layout;
 mod linearity;
+mod lot_page;
 mod path_traversal;
 mod pipeline;
 mod plan;

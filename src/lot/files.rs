@@ -28,6 +28,8 @@ pub const FAILURES_CSV: &str = "failures.csv";
 pub const YIELD_CSV: &str = "yield.csv";
 /// The lot's page.
 pub const INDEX_HTML: &str = "index.html";
+/// The limits a lot was judged by, as applied (written when a limit table was given).
+pub const LIMITS_CSV: &str = "limits.csv";
 /// A device's result records and verdicts, in its folder.
 pub const RESULTS_JSON: &str = "results.json";
 /// File name of the shard manifest in a shard's output folder.
@@ -37,8 +39,9 @@ pub const SHARD_START_NOTE: &str = "shard-start.json";
 
 /// The names a lot folder keeps for its own files. A device folder never takes one of them (see
 /// [`device_folder`]), and `merge` copies nothing under them from a device folder.
-pub const LOT_FILE_NAMES: [&str; 7] = [
+pub const LOT_FILE_NAMES: [&str; 8] = [
     SUMMARY_CSV,
+    LIMITS_CSV,
     FAILURES_CSV,
     YIELD_CSV,
     INDEX_HTML,

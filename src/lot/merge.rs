@@ -14,13 +14,15 @@ use std::path::{Path, PathBuf};
 
 use super::bench_plan::{device_name_ok, safe_name, DEVICE_NAME, SAFE_NAME};
 use super::files::{
-    device_folder, plot_stems, PLOT_KINDS, RESULTS_JSON, SHARD_MANIFEST, SUMMARY_CSV, YIELD_CSV,
+    device_folder, plot_stems, LIMITS_CSV, PLOT_KINDS, RESULTS_JSON, SHARD_MANIFEST, SUMMARY_CSV,
+    YIELD_CSV,
 };
 use super::output::{read_lot_rows, remove_shard_manifest, write_atomic, LotRows, LotWriter};
 use super::result::LotCounts;
 use super::shard::{lot_fingerprint, manifest_error, ShardManifest};
 use super::status;
 use crate::error::{Error, ErrorKind, Location, Result};
+use crate::lot::limits::{Catalogue, LimitTable};
 use crate::report::output_error;
 
 /// Every folder's manifest. A folder without one (an unfinished shard, or no shard at all) makes an
@@ -483,7 +485,22 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
     }
 
     let first = &manifests[0];
-    let mut writer = LotWriter::with_counts(out, &first.title, rows[0].header.clone(), counts)?;
+    // The limits the shards were judged by (one table: the fingerprints agree), for the page.
+    let limits = match &first.limits {
+        Some(_) => Some(read_lot_limits(
+            &shards[by_shard[0]],
+            &first.conditions,
+            &rows[0].header,
+        )?),
+        None => None,
+    };
+    let mut writer = LotWriter::with_counts(
+        out,
+        &first.title,
+        rows[0].header.clone(),
+        counts,
+        limits.as_ref(),
+    )?;
     remove_shard_manifest(out)?;
     // The lot files list no device before its folder is complete, as in a batch run.
     writer.write(0)?;
@@ -509,4 +526,20 @@ pub fn merge_shards(out: &Path, shards: &[PathBuf]) -> Result<LotCounts> {
     }
     writer.write(order.len())?;
     Ok(lot)
+}
+
+/// Reads the limits a shard was judged by (its `limits.csv`), resolved against the conditions and the
+/// metrics of its summary header.
+fn read_lot_limits(dir: &Path, conditions: &[String], header: &[u8]) -> Result<LimitTable> {
+    let columns: Vec<String> = String::from_utf8_lossy(header)
+        .trim_end()
+        .split(',')
+        .map(str::to_string)
+        .collect();
+    let catalogue = Catalogue::from_columns(&columns);
+    let scope: Vec<(String, Catalogue)> = conditions
+        .iter()
+        .map(|c| (c.clone(), catalogue.clone()))
+        .collect();
+    LimitTable::read(&dir.join(LIMITS_CSV), &scope)
 }

@@ -14,6 +14,7 @@ mod files;
 pub mod limits;
 mod merge;
 mod output;
+mod page;
 mod result;
 mod run;
 mod shard;

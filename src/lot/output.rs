@@ -16,7 +16,10 @@
 //!   and a row per limited metric, then a lot row `*,*` counting devices (a device passes when each of
 //!   its tested conditions passes): `tested`, `passed`, `failed`, `failed_guardband`, `errors`, and
 //!   `yield` = passed / tested to 4 decimals (empty when nothing was tested). Error rows are not tested.
-//! - `index.html`: one self-contained page with the lot's table (every text escaped).
+//! - `limits.csv`: the limit table as applied (full metric names), when one was given; a merge of
+//!   shards reads it back for the page.
+//! - `index.html`: one self-contained page (every text escaped, see [`super::page`]): yield, the
+//!   distribution of each limited metric with its limits, failing results, every result's row.
 
 use std::collections::{BTreeMap, HashMap};
 use std::fmt::Write as _;
@@ -26,8 +29,8 @@ use serde::Serialize;
 
 use super::files::{
     device_folder, plot_stems, read_bytes, read_error, read_failures, read_yield, LotSummary,
-    FAILURE_COLUMNS, INDEX_HTML, LEAD_COLUMNS, SHARD_MANIFEST, SUMMARY_CSV, YIELD_COLUMNS,
-    YIELD_CSV,
+    FAILURE_COLUMNS, INDEX_HTML, LEAD_COLUMNS, LIMITS_CSV, SHARD_MANIFEST, SUMMARY_CSV,
+    YIELD_COLUMNS, YIELD_CSV,
 };
 use super::result::{DeviceResult, Lines};
 use crate::error::{Error, ErrorKind, Location, Result};
@@ -169,32 +172,28 @@ pub(crate) fn failure_lines(device: &str, condition: &str, verdict: &Verdict) ->
 /// Escapes text for HTML (the report stage's escaping).
 pub use crate::report::escape as escape_html;
 
-/// Percent-encodes a path segment for a link.
-fn url_segment(s: &str) -> String {
-    let mut out = String::new();
-    for b in s.bytes() {
-        if b.is_ascii_alphanumeric() || b"-_.~".contains(&b) {
-            out.push(b as char);
-        } else {
-            let _ = write!(out, "%{b:02X}");
-        }
-    }
-    out
-}
+use super::page::{self, url_segment, LotPage, YieldLine, TBODY_CLOSE, TBODY_OPEN};
 
-/// The index page's table row of one result.
+/// The index page's table row of one result: the device (linked to its folder's summary), the
+/// condition, the verdict and its reason, the headline figures, and links to the plots written for it
+/// (`plots`: the kinds in its folder as `<stem>-<kind>.svg`). The row's id is its anchor
+/// ([`page::row_anchor`]), which the failing results link to.
 pub(crate) fn index_row(
     device: &str,
     condition: &str,
+    stem: &str,
     verdict: &Verdict,
     flat: &HashMap<String, String>,
+    plots: &[&str],
 ) -> String {
     let mut s = String::new();
+    let folder = url_segment(&device_folder(device));
     let _ = write!(
         s,
-        "<tr class=\"{}\"><td><a href=\"{}/summary.csv\">{}</a></td><td>{}</td><td>{}</td><td>{}</td>",
+        "<tr class=\"{}\" id=\"{}\"><td class=\"t\"><a href=\"{folder}/summary.csv\">{}</a></td>\
+         <td class=\"t\">{}</td><td class=\"t status\">{}</td><td class=\"t notes\">{}</td>",
         verdict.outcome.as_str(),
-        url_segment(&device_folder(device)),
+        escape_html(&page::row_anchor(device, stem)),
         escape_html(device),
         escape_html(condition),
         verdict.outcome.as_str(),
@@ -206,10 +205,31 @@ pub(crate) fn index_row(
             .and_then(|v| v.parse::<f64>().ok())
             .map(|v| format!("{v:.2}"))
             .unwrap_or_default();
-        let _ = write!(s, "<td class=\"num\">{v}</td>");
+        let _ = write!(s, "<td>{v}</td>");
     }
-    s.push_str("</tr>\n");
+    s.push_str("<td class=\"t\">");
+    for (i, kind) in plots.iter().enumerate() {
+        let _ = write!(
+            s,
+            "{}<a href=\"{folder}/{}-{kind}.svg\">{kind}</a>",
+            if i > 0 { " · " } else { "" },
+            url_segment(stem)
+        );
+    }
+    s.push_str("</td></tr>\n");
     s
+}
+
+/// The column names of a summary header line.
+fn header_columns(header: &[u8]) -> Vec<String> {
+    ::csv::ReaderBuilder::new()
+        .has_headers(false)
+        .from_reader(header)
+        .records()
+        .next()
+        .and_then(|r| r.ok())
+        .map(|r| r.iter().map(str::to_string).collect())
+        .unwrap_or_default()
 }
 
 /// Atomic writes (temporary file in the same folder, then rename), shared with the report stage.
@@ -338,10 +358,6 @@ struct ConditionTally {
     metrics: Vec<(String, Tally)>,
 }
 
-/// Where the index page's rows start and end (the merge of shards reads them back).
-const TBODY_OPEN: &str = "<tbody>\n";
-const TBODY_CLOSE: &str = "</tbody>\n";
-
 /// The lot files, kept as finished lines so that rewriting them costs only the write.
 pub(crate) struct LotWriter {
     out: PathBuf,
@@ -354,6 +370,7 @@ pub(crate) struct LotWriter {
     devices: Tally,
     results: usize,
     outcomes: BTreeMap<&'static str, usize>,
+    page: LotPage,
 }
 
 impl LotWriter {
@@ -383,19 +400,25 @@ impl LotWriter {
                 .collect(),
             devices: Tally::default(),
         };
-        LotWriter::with_counts(out, title, header, counts)
+        LotWriter::with_counts(out, title, header, counts, limits)
     }
 
     /// A writer for lot files put together from finished rows (a merge of shards): the yield counts
-    /// are given whole, the rows are added with [`LotWriter::add_rows`].
+    /// are given whole, the rows are added with [`LotWriter::add_rows`]; `limits` are the limits the
+    /// rows were judged by (the lot's `limits.csv`).
     pub(crate) fn with_counts(
         out: &Path,
         title: &str,
         header: Vec<u8>,
         counts: YieldCounts,
+        limits: Option<&LimitTable>,
     ) -> Result<LotWriter> {
         create_dir(out)?;
+        let names: Vec<String> = counts.conditions.iter().map(|c| c.name.clone()).collect();
+        let columns = header_columns(&header);
+        let page = LotPage::new(&names, &columns, limits);
         Ok(LotWriter {
+            page,
             out: out.to_path_buf(),
             title: title.to_string(),
             header,
@@ -410,7 +433,16 @@ impl LotWriter {
     }
 
     /// One result's finished lines.
-    fn add_lines(&mut self, lines: &Lines, outcome: Outcome) {
+    fn add_lines(
+        &mut self,
+        device: &str,
+        condition: usize,
+        lines: &Lines,
+        outcome: Outcome,
+        reason: &str,
+    ) {
+        self.page
+            .add(condition, device, &lines.summary, outcome, reason);
         self.summary.extend_from_slice(&lines.summary);
         self.failures.extend_from_slice(&lines.failures);
         self.index_rows.push_str(&lines.index);
@@ -422,7 +454,11 @@ impl LotWriter {
     /// whole with [`LotWriter::with_counts`]).
     pub(crate) fn add_rows<'a>(&mut self, rows: impl IntoIterator<Item = &'a ReadResult>) {
         for r in rows {
-            self.add_lines(&r.lines, r.outcome);
+            let condition = self
+                .page
+                .condition_index(&r.condition)
+                .unwrap_or(usize::MAX);
+            self.add_lines(&r.device, condition, &r.lines, r.outcome, &r.reason);
         }
     }
 
@@ -433,7 +469,13 @@ impl LotWriter {
         let mut any_guard = false;
         let mut any_tested = false;
         for (i, c) in device.conditions.iter().enumerate() {
-            self.add_lines(&c.lines, c.verdict.outcome);
+            self.add_lines(
+                &device.device,
+                i,
+                &c.lines,
+                c.verdict.outcome,
+                &c.verdict.reason,
+            );
             let t = &mut self.conditions[i];
             match c.verdict.outcome {
                 Outcome::Error => {
@@ -494,25 +536,51 @@ impl LotWriter {
     }
 
     fn index_html(&self, devices: usize) -> String {
-        let title = escape_html(&self.title);
-        let mut counts = String::new();
+        let mut counts = format!(
+            "{devices} device{} · {} result{}",
+            if devices == 1 { "" } else { "s" },
+            self.results,
+            if self.results == 1 { "" } else { "s" }
+        );
         for (k, v) in &self.outcomes {
-            let _ = write!(counts, ", {v} {k}");
+            let _ = write!(counts, " · {v} {}", k.replace('_', " "));
         }
-        let mut heads = String::new();
-        for f in crate::figures::headline() {
-            let _ = write!(heads, "<th>{} {}</th>", escape_html(f.label), f.unit);
+        let d = &self.devices;
+        if d.tested > 0 {
+            let _ = write!(
+                counts,
+                " · device yield {:.1} % ({} of {})",
+                100.0 * d.passed as f64 / d.tested as f64,
+                d.passed,
+                d.tested
+            );
         }
-        format!(
-            "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>{title}</title>\n\
-             <style>\nbody{{font-family:sans-serif;margin:1.5em}}table{{border-collapse:collapse}}\
-             td,th{{border:1px solid #bbb;padding:2px 6px}}td.num{{text-align:right}}\
-             tr.fail td,tr.error td{{background:#fdd}}tr.fail_guardband td{{background:#ffd}}\n</style>\n\
-             </head>\n<body>\n<h1>{title}</h1>\n<p>{devices} devices, {} results{counts}.</p>\n\
-             <p><a href=\"summary.csv\">summary.csv</a> · <a href=\"failures.csv\">failures.csv</a> · \
-             <a href=\"yield.csv\">yield.csv</a></p>\n<table>\n<thead><tr><th>device</th><th>condition</th>\
-             <th>verdict</th><th>reason</th>{heads}</tr></thead>\n{TBODY_OPEN}{}{TBODY_CLOSE}</table>\n</body>\n</html>\n",
-            self.results, self.index_rows
+        let mut yields = Vec::new();
+        let line = |condition: &str, metric: Option<&str>, t: &Tally| YieldLine {
+            condition: condition.to_string(),
+            metric: metric.map(str::to_string),
+            tested: t.tested,
+            passed: t.passed,
+            failed: t.failed,
+            guardband: t.guardband,
+            errors: t.errors,
+        };
+        for c in &self.conditions {
+            yields.push(line(&c.name, None, &c.all));
+            for (m, t) in &c.metrics {
+                yields.push(line(&c.name, Some(m), t));
+            }
+        }
+        if self.conditions.iter().any(|c| !c.metrics.is_empty()) {
+            yields.push(line("every condition", Some("devices"), &self.devices));
+        } else {
+            yields.clear();
+        }
+        self.page.render(
+            &self.title,
+            &escape_html(&counts),
+            &yields,
+            &self.index_rows,
         )
     }
 
@@ -525,6 +593,9 @@ impl LotWriter {
         failures.extend_from_slice(&self.failures);
         write_atomic(&self.out.join(super::files::FAILURES_CSV), &failures)?;
         write_atomic(&self.out.join(YIELD_CSV), &self.yield_csv())?;
+        if let Some(limits) = self.page.limits_csv() {
+            write_atomic(&self.out.join(LIMITS_CSV), limits.as_bytes())?;
+        }
         write_atomic(
             &self.out.join(INDEX_HTML),
             self.index_html(devices).as_bytes(),

@@ -226,10 +226,20 @@ fn run_one(
             flat.get(m).and_then(|v| v.parse::<f64>().ok())
         }),
     };
+    // The condition's plot stem in the device folder, as `write_device_outputs` names the files.
+    let names: Vec<&str> = plan.conditions.iter().map(|c| c.name.as_str()).collect();
+    let stems = super::files::plot_stems(&names);
+    let at = plan.conditions.iter().position(|c| std::ptr::eq(c, cond));
+    let stem = at.map_or(cond.name.as_str(), |i| stems[i].as_str());
+    // The plots the device folder gets for this result (see `write_device_outputs`), for the row's links.
+    let plotted = match &traces {
+        Some(t) if plots.wants(verdict.outcome) => crate::report::plot_kinds(&analysis, t),
+        _ => Vec::new(),
+    };
     let lines = Lines {
         summary: columns.row(device, &cond.name, &verdict, &flat),
         failures: output::failure_lines(device, &cond.name, &verdict),
-        index: output::index_row(device, &cond.name, &verdict, &flat),
+        index: output::index_row(device, &cond.name, stem, &verdict, &flat, &plotted),
     };
     ConditionResult {
         condition: cond.name.clone(),

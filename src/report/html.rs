@@ -127,6 +127,7 @@ th, td { padding: 5px 7px; border-bottom: 1px solid var(--line); text-align: rig
          font-variant-numeric: tabular-nums; vertical-align: top; white-space: nowrap; }
 th { background: #e3dccb; font-weight: 600; vertical-align: bottom; }
 th span.u { display: block; font-weight: 400; font-size: 11.5px; color: #5d636b; }
+td span.u { font-size: 11.5px; color: #5d636b; margin-left: 6px; }
 th.t, td.t { text-align: left; }
 td.notes { text-align: left; min-width: 18ch; max-width: 44ch; font-size: 12.5px;
            white-space: normal; }
@@ -149,6 +150,23 @@ section.record ul.msgs { margin: 4px 0 10px; padding-left: 18px; }
 .plots svg, .plots img { display: block; width: 100%; max-width: 1000px; height: auto; }
 .plots figcaption { font-size: 12px; color: #5d636b; }
 footer { padding: 0 28px 24px; color: #5d636b; font-size: 12px; }
+main h2 { margin: 26px 0 8px; font-size: 18px; color: var(--head); }
+main h3 { margin: 16px 0 6px; font-size: 15px; }
+p.note, p.files { margin: 4px 0 10px; color: #5d636b; font-size: 12.5px; }
+tr.fail_guardband td, tr.untested td { background: var(--warn); }
+tr.fail_guardband td:first-child { box-shadow: inset 4px 0 0 var(--warn-edge); }
+tr.error td { background: var(--fail); }
+tr.error td:first-child { box-shadow: inset 4px 0 0 var(--fail-edge); }
+tr.whole td { font-weight: 600; border-top: 2px solid var(--line); }
+span.bar { display: inline-block; width: 120px; height: 10px; background: var(--fail);
+           vertical-align: middle; }
+span.bar span { display: block; height: 100%; background: var(--teal); }
+.dists { display: flex; flex-wrap: wrap; gap: 14px; }
+.dists figure { margin: 0; background: var(--paper); padding: 6px; }
+.dists svg { display: block; width: 520px; max-width: 100%; height: auto; }
+.dists figcaption { font-size: 12px; color: #5d636b; }
+ul.failing { background: var(--paper); padding: 8px 8px 8px 28px; columns: 2 36em; }
+ul.failing li { margin: 2px 0; break-inside: avoid; }
 "#;
 
 /// The page shell every page of the tool shares: the run page's style, a header with the title and

@@ -13,7 +13,7 @@ pub mod svg;
 pub mod text;
 pub mod units;
 mod write;
-pub(crate) use write::{output_error, unique_name, write_plots_as};
+pub(crate) use write::{output_error, plot_kinds, unique_name, write_plots_as};
 
 pub use html::escape;
 pub use svg::PlotOptions;

@@ -99,19 +99,34 @@ fn render_plots(
     o: &PlotOptions,
 ) -> Result<Vec<(&'static str, String)>> {
     let mut out = Vec::new();
-    if a.error.is_some() {
-        return Ok(out);
-    }
-    if a.spectrum.is_some() && !t.powers.is_empty() {
-        out.push(("spectrum", spectrum_svg(record_name, a, t, o)?));
-    }
-    if a.fit.is_some() && !t.residual.is_empty() {
-        out.push(("residual", residual_svg(record_name, a, t, o)?));
-    }
-    if a.fit.is_some() && t.has_histogram() {
-        out.push(("histogram", histogram_svg(record_name, a, t, o)?));
+    for kind in plot_kinds(a, t) {
+        let svg = match kind {
+            "spectrum" => spectrum_svg(record_name, a, t, o)?,
+            "residual" => residual_svg(record_name, a, t, o)?,
+            _ => histogram_svg(record_name, a, t, o)?,
+        };
+        out.push((kind, svg));
     }
     Ok(out)
+}
+
+/// The plots a record with these traces gets (`spectrum`, `residual`, `histogram`, in that order):
+/// those whose data it has; none for a failed record. The file of each is `<stem>-<kind>.svg`.
+pub(crate) fn plot_kinds(a: &Analysis, t: &Traces) -> Vec<&'static str> {
+    let mut out = Vec::new();
+    if a.error.is_some() {
+        return out;
+    }
+    if a.spectrum.is_some() && !t.powers.is_empty() {
+        out.push("spectrum");
+    }
+    if a.fit.is_some() && !t.residual.is_empty() {
+        out.push("residual");
+    }
+    if a.fit.is_some() && t.has_histogram() {
+        out.push("histogram");
+    }
+    out
 }
 
 /// Writes `<record>-spectrum.svg`, `<record>-residual.svg` and `<record>-histogram.svg` into

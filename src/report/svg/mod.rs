@@ -7,6 +7,7 @@
 //! give byte-identical SVG.
 
 pub mod control;
+pub mod distribution;
 pub mod histogram;
 pub mod marked;
 #[cfg(test)]
@@ -15,6 +16,7 @@ pub mod residual;
 pub mod spectrum;
 
 pub use control::{control_chart_svg, ChartPoint};
+pub use distribution::{distribution_svg, Band, LimitLines};
 pub use histogram::histogram_svg;
 pub use residual::residual_svg;
 pub use spectrum::spectrum_svg;
