@@ -734,4 +734,14 @@ fn the_demo_records_both_revisions_and_charts_them() {
     assert!(b["rules"].as_array().unwrap().iter().any(|r| r == "WE1"));
     let page = std::fs::read_to_string(out.join("trend/index.html")).unwrap();
     assert!(page.contains("<svg") && page.contains("rev-b"));
+    // The trend page wears the run page's shell (one style for every page: the same <style> block),
+    // and the chart whose rule fired is the row marked as failing.
+    let style = |html: &str| {
+        let a = html.find("<style>").unwrap();
+        let b = html.find("</style>").unwrap();
+        html[a..b].to_string()
+    };
+    let run_page = std::fs::read_to_string(out.join("index.html")).unwrap();
+    assert_eq!(style(&page), style(&run_page));
+    assert!(page.contains("<tr class=\"fail\"><td class=\"t\">fin_47M</td>"));
 }

@@ -346,17 +346,10 @@ fn num(v: Option<f64>) -> String {
         .map_or(String::new(), |x| format!("{x}"))
 }
 
-/// A text cell that a spreadsheet would read as a formula is written with a leading apostrophe.
-fn guard(text: &str) -> String {
-    if text.starts_with(['=', '+', '-', '@', '\t', '\r']) {
-        format!("'{text}")
-    } else {
-        text.to_string()
-    }
-}
-
 /// The trend as CSV ([`TREND_COLUMNS`]).
 pub fn trend_csv(t: &Trend) -> String {
+    // Text cells by the one CSV-cell rule of every file the tool writes (src/report/csv.rs).
+    use crate::report::csv::safe_cell;
     let mut w = ::csv::Writer::from_writer(Vec::new());
     let _ = w.write_record(TREND_COLUMNS);
     for c in &t.charts {
@@ -367,11 +360,11 @@ pub fn trend_csv(t: &Trend) -> String {
         for p in &c.points {
             let rules: Vec<&str> = p.rules.iter().map(|r| r.name()).collect();
             let _ = w.write_record([
-                guard(&c.condition),
+                safe_cell(&c.condition).into_owned(),
                 c.metric.clone(),
                 c.unit.clone(),
                 chart.to_string(),
-                guard(&p.lot),
+                safe_cell(&p.lot).into_owned(),
                 p.ended_at.clone(),
                 p.n.to_string(),
                 num(Some(p.mean)),
@@ -405,20 +398,10 @@ fn f3(v: Option<f64>) -> String {
 /// chart inlined.
 pub fn trend_html(t: &Trend, svgs: &[String]) -> String {
     let mut h = String::new();
-    let _ = write!(
-        h,
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\"><title>spurline trend</title><style>\
-body{{font-family:sans-serif;margin:0;background:#F6F3EC;color:#3A3F47}}header{{background:#23395B;color:#FCFBF8;padding:14px 24px}}\
-main{{padding:16px 24px}}table{{border-collapse:collapse;font-size:13px}}td,th{{padding:3px 8px;border-bottom:1px solid #DCD8CF;text-align:right}}\
-th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.fired td.v{{color:#A4243B;font-weight:bold}}\
-.plots{{display:flex;flex-wrap:wrap;gap:10px}}figure{{margin:0}}</style></head><body>\n\
-<header><h1>Trend over {} lots</h1><p>control limits from the first {} lots · rules: Western Electric 1–4, Nelson 2, 3, 4, 7, 8</p></header><main>\n",
-        t.lots, t.baseline
-    );
     let _ = writeln!(
         h,
-        "<table><tr><th class=\"l\">condition</th><th class=\"l\">metric</th><th>unit</th><th>lots</th><th>centre</th><th>LCL</th><th>UCL</th>\
-<th>latest mean</th><th>latest Cpk</th><th>Cpk interval</th><th class=\"l\">rules fired</th></tr>"
+        "<div class=\"wide\"><table><tr><th class=\"t\">condition</th><th class=\"t\">metric</th><th>unit</th><th>lots</th><th>centre</th><th>LCL</th><th>UCL</th>\
+<th>latest mean</th><th>latest Cpk</th><th>Cpk interval</th><th class=\"t\">rules fired</th></tr>"
     );
     for c in &t.charts {
         let last = c.points.last();
@@ -430,8 +413,8 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.fired td.v{{color:#A4243B
         let cpk = last.and_then(|p| p.cpk);
         let _ = writeln!(
             h,
-            "<tr class=\"{}\"><td class=\"l\">{}</td><td class=\"l\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"l v\">{}</td></tr>",
-            if fired.is_empty() { "" } else { "fired" },
+            "<tr{}><td class=\"t\">{}</td><td class=\"t\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td class=\"notes{}\">{}</td></tr>",
+            if fired.is_empty() { "" } else { " class=\"fail\"" },
             escape(&c.condition),
             escape(&c.label),
             escape(&c.unit),
@@ -442,10 +425,11 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.fired td.v{{color:#A4243B
             f3(last.map(|p| p.mean)),
             f3(cpk.map(|c| c.cpk)),
             cpk.map_or("–".to_string(), |c| format!("{:.3} – {:.3}", c.low, c.high)),
+            if fired.is_empty() { "" } else { " bad" },
             escape(&fired.join(", "))
         );
     }
-    let _ = writeln!(h, "</table>");
+    let _ = writeln!(h, "</table></div>");
     // The charts number their lots 1..N, oldest first: which lot is which, from the chart with the
     // most lots (every chart, when every lot measured every metric).
     let lots: Vec<(&str, &str)> =
@@ -478,8 +462,16 @@ th{{background:#E8E2D4}}td.l,th.l{{text-align:left}}tr.fired td.v{{color:#A4243B
         // Our own SVG (plotters escapes its text), inlined.
         let _ = writeln!(h, "<figure>{svg}</figure>");
     }
-    let _ = writeln!(h, "</div></main></body></html>");
-    h
+    let _ = writeln!(h, "</div>");
+    // The run page's shell: one style for every page of the tool.
+    crate::report::html::page(
+        &format!("Trend over {} lots", t.lots),
+        &format!(
+            "control limits from the first {} lots · rules: Western Electric 1–4, Nelson 2, 3, 4, 7, 8",
+            t.baseline
+        ),
+        &h,
+    )
 }
 
 /// Writes `trend.csv`, `trend.json`, `index.html` and one SVG per chart under `charts/` into `out`.
