@@ -108,7 +108,7 @@ fn every_discovered_device_appears_even_with_an_odd_name_or_a_fifo_record() {
     assert!(out.join("index.html").is_file() && out.join("index.html~device").is_dir());
     assert!(std::fs::read_to_string(out.join("index.html"))
         .unwrap()
-        .contains("<table>"));
+        .contains("<table"));
 
     // Shards of the same lot merge into the same report, odd names included.
     let s1 = p.join("s1");
