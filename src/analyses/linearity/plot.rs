@@ -12,7 +12,9 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 use super::{Extremes, Linearity};
 use crate::error::{Error, ErrorKind, Location, Result};
 use crate::report::html::{escape, inline_svg, page};
-use crate::report::svg::{nice_ticks, palette, rgb, style_mesh, tick_label, trim_number, TickAxis, FONT};
+use crate::report::svg::{
+    nice_ticks, palette, rgb, style_mesh, tick_label, trim_number, TickAxis, FONT,
+};
 
 /// Plot size in pixels.
 const SIZE: (u32, u32) = (960, 420);
@@ -56,8 +58,10 @@ pub(crate) fn reduce(
     }
     let span = x_range.1 - x_range.0;
     let mut out: Vec<(f64, f64)> = Vec::with_capacity(2 * columns);
-    let mut current: Option<(usize, (f64, f64), (f64, f64))> = None;
-    let flush = |c: (usize, (f64, f64), (f64, f64)), out: &mut Vec<(f64, f64)>| {
+    // The current column: its index, its lowest point, its highest point.
+    type Column = (usize, (f64, f64), (f64, f64));
+    let mut current: Option<Column> = None;
+    let flush = |c: Column, out: &mut Vec<(f64, f64)>| {
         let (_, lo, hi) = c;
         if lo.0 <= hi.0 {
             out.push(lo);
