@@ -799,7 +799,12 @@ struct PlainColumn {
 /// row a full row of numbers, no quotes). `None` when anything else is met (a quote, a short row,
 /// an empty field, a word, a number too large): the caller then reads the file with the general
 /// reader, which gives the same numbers or names the line and what is wrong with it.
-fn plain_table(b: &[u8], sep: Separator, sv: &Survey, wanted: &[usize]) -> Option<Vec<PlainColumn>> {
+fn plain_table(
+    b: &[u8],
+    sep: Separator,
+    sv: &Survey,
+    wanted: &[usize],
+) -> Option<Vec<PlainColumn>> {
     if sv.start_line == 0 || wanted.is_empty() {
         return None;
     }
@@ -1070,10 +1075,21 @@ mod tests {
         let rows = 120_000;
         for k in 0..rows {
             // The second column has its first fraction far into the second half.
-            let v = if k < 100_000 { format!("{}", k % 7) } else { format!("{}.5", k % 7) };
-            long.push_str(&format!("{:?},{v},{}\n", k as f64 * 1e-6, (k % 11) as i32 - 5));
+            let v = if k < 100_000 {
+                format!("{}", k % 7)
+            } else {
+                format!("{}.5", k % 7)
+            };
+            long.push_str(&format!(
+                "{:?},{v},{}\n",
+                k as f64 * 1e-6,
+                (k % 11) as i32 - 5
+            ));
         }
-        assert!(long.len() >= PARALLEL_MIN_BYTES, "long enough for two halves");
+        assert!(
+            long.len() >= PARALLEL_MIN_BYTES,
+            "long enough for two halves"
+        );
         let tables = [
             "Time (s),CH1 (V)\n0.0,0.25\n1e-6,-0.5\n2e-6,0.125\n".to_string(),
             "# comment\nn,code\n0,12\n1,-7\n\n2,3\n".to_string(),
@@ -1100,10 +1116,18 @@ mod tests {
         let sv = survey(b, Separator::Byte(b','));
         let p = plain_table(b, Separator::Byte(b','), &sv, &[1]).unwrap();
         assert_eq!(p[0].fraction, Some(4 + 100_000 + 1));
-        for odd in ["a,b\n\"1\",2\n3,4\n", "a,b\n1,2\n3\n", "a,b\n1,2\n3,\n", "a,b\n1,2\n3,x\n"] {
+        for odd in [
+            "a,b\n\"1\",2\n3,4\n",
+            "a,b\n1,2\n3\n",
+            "a,b\n1,2\n3,\n",
+            "a,b\n1,2\n3,x\n",
+        ] {
             let b = odd.as_bytes();
             let sv = survey(b, Separator::Byte(b','));
-            assert!(plain_table(b, Separator::Byte(b','), &sv, &[0, 1]).is_none(), "{odd:?}");
+            assert!(
+                plain_table(b, Separator::Byte(b','), &sv, &[0, 1]).is_none(),
+                "{odd:?}"
+            );
         }
     }
 }
