@@ -671,7 +671,7 @@ fn plain_samples(
             None,
         ));
     }
-    values_allowed.then(|| (Samples::Values(c.numbers), c.fraction))
+    values_allowed.then_some((Samples::Values(c.numbers), c.fraction))
 }
 
 /// One row's fields, with the empty fields of whitespace separation dropped.
@@ -1080,11 +1080,7 @@ mod tests {
             } else {
                 format!("{}.5", k % 7)
             };
-            long.push_str(&format!(
-                "{:?},{v},{}\n",
-                k as f64 * 1e-6,
-                (k % 11) as i32 - 5
-            ));
+            long.push_str(&format!("{:?},{v},{}\n", k as f64 * 1e-6, (k % 11) - 5));
         }
         assert!(
             long.len() >= PARALLEL_MIN_BYTES,
