@@ -301,7 +301,11 @@ fn interleave_refuses_bad_channel_counts() {
 /// `None` (with a loud SKIPPED line) without chromium, a failure when CI is set (.ci/run installs it).
 fn dom_in_browser(page: &Path) -> Option<String> {
     let (dom, console) = crate::pages::browser_dom(page)?;
-    assert!(console.is_empty(), "{}: console {console:?}", page.display());
+    assert!(
+        console.is_empty(),
+        "{}: console {console:?}",
+        page.display()
+    );
     Some(dom)
 }
 
