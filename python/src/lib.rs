@@ -849,8 +849,17 @@ fn ingest_settings(
     Ok(settings())
 }
 
+/// A record read for Python: its codes (int32; empty for a record of values), its values (float64 on
+/// the codes' scale, for a record of values only) and its metadata as JSON.
+type ReadRecord<'py> = (
+    Bound<'py, PyArray1<i32>>,
+    Option<Bound<'py, PyArray1<f64>>>,
+    String,
+);
+
 /// Reads a record file (and its sidecar) with the command line's reading options: the codes as an
-/// int32 array, and the metadata and warnings as a dict.
+/// int32 array (or the values as float64, for a record of voltages or floats), and the metadata and
+/// warnings as a dict.
 #[pyfunction]
 #[pyo3(signature = (path, *, fs=None, bits=None, fin=None, full_scale_vpp=None, format=None,
     coding=None, justify=None, skip_bytes=None, channel=None, column=None, delimiter=None))]
@@ -869,7 +878,7 @@ fn read<'py>(
     channel: Option<&str>,
     column: Option<Bound<'py, PyAny>>,
     delimiter: Option<&str>,
-) -> PyResult<(Bound<'py, PyArray1<i32>>, String)> {
+) -> PyResult<ReadRecord<'py>> {
     let settings = ingest_settings(
         fs,
         bits,
@@ -896,7 +905,10 @@ fn read<'py>(
         "fin_hz": r.fin_hint_hz,
         "warnings": ing.warnings,
     });
-    Ok((r.codes.into_pyarray(py), meta.to_string()))
+    // A record of values (volts, floats) has no codes: its samples go back as float64 on the codes'
+    // scale, never as an empty code array.
+    let values = r.values.map(|v| v.scaled.into_pyarray(py));
+    Ok((r.codes.into_pyarray(py), values, meta.to_string()))
 }
 
 /// Reads and analyses record files in parallel, as `spurline analyze FILES --json` does each (or

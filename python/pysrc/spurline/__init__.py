@@ -208,7 +208,11 @@ class Analysis:
 
 @dataclass
 class Record:
-    """A record read from a file: its codes (signed, centred on mid-scale, int32) and metadata."""
+    """A record read from a file: its codes (signed, centred on mid-scale, int32) and metadata.
+
+    A record of values (voltages or floats: a float ``.npy`` or WAV, decimal text or CSV) has no
+    codes: ``codes`` is empty and ``values`` holds its samples as float64 on the codes' scale (the
+    full-scale range spans 2^bits, 0 V is mid-scale), as the analysis uses them."""
 
     codes: np.ndarray
     sample_rate_hz: float
@@ -217,9 +221,10 @@ class Record:
     full_scale_vpp: Optional[float] = None
     fin_hz: Optional[float] = None
     warnings: List[str] = field(default_factory=list)
+    values: Optional[np.ndarray] = None
 
     def __len__(self) -> int:
-        return len(self.codes)
+        return len(self.codes) if self.values is None else len(self.values)
 
 
 ArrayLike = Any
@@ -232,10 +237,11 @@ def read(path: PathLike, **options: Any) -> Record:
     ``coding`` (twos, offset), ``justify`` (right, left), ``skip_bytes``, ``channel`` ("K/M"),
     ``column`` (index or header name), ``delimiter``. Raises ``SpurlineError`` naming the file and the
     line or byte offset."""
-    codes, meta = _native.read(os.fspath(path), **options)
+    codes, values, meta = _native.read(os.fspath(path), **options)
     m = json.loads(meta)
     return Record(
         codes=codes,
+        values=values,
         sample_rate_hz=m["sample_rate_hz"],
         bits=m["bits"],
         source=m["source"],
@@ -288,6 +294,14 @@ def _describe(items: List[Any], fs, bits, full_scale_vpp, fin, source, what):
         fin = first.fin_hz if fin is None else fin
     for i, r in enumerate(items):
         if isinstance(r, Record):
+            if r.values is not None:
+                # Its samples are off any code grid: rounding them to codes here would add noise the
+                # command line does not, so the file is analysed as the command line reads it.
+                raise SpurlineError(
+                    f"{r.source}: expected a record of codes, found a record of values (no code "
+                    "grid); analyse the file with analyze_files([path], ...), which reads it as "
+                    "the command line does"
+                )
             arrays.append(_as_array(r.codes, r.source))
             sources.append(r.source)
             warnings.append(list(r.warnings))

@@ -59,6 +59,7 @@ class Record:
     full_scale_vpp: Optional[float]
     fin_hz: Optional[float]
     warnings: List[str]
+    values: Optional[npt.NDArray[np.float64]]
     def __init__(
         self,
         codes: npt.NDArray[np.int32],
@@ -68,6 +69,7 @@ class Record:
         full_scale_vpp: Optional[float] = ...,
         fin_hz: Optional[float] = ...,
         warnings: List[str] = ...,
+        values: Optional[npt.NDArray[np.float64]] = ...,
     ) -> None: ...
     def __len__(self) -> int: ...
 
