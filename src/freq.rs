@@ -33,17 +33,14 @@ pub fn nearest_coherent(
     target_hz: f64,
     prime: bool,
 ) -> Result<CoherentChoice> {
-    if !(sample_rate_hz.is_finite() && sample_rate_hz > 0.0) {
-        return Err(Error::setting(
-            "sample_rate_hz",
-            "a positive finite sample rate in Hz",
-            sample_rate_hz.to_string(),
-        ));
-    }
-    if samples < 4 {
+    crate::record::check_sample_rate(sample_rate_hz, "")?;
+    if !(4..=crate::plan::MAX_PLAN_SAMPLES).contains(&samples) {
         return Err(Error::setting(
             "samples",
-            "at least 4 samples",
+            format!(
+                "a record length in 4..={} samples (2^40)",
+                crate::plan::MAX_PLAN_SAMPLES
+            ),
             samples.to_string(),
         ));
     }

@@ -161,7 +161,12 @@ pub fn plan_histogram(
     let length = if samples as u64 >= required_phases {
         samples
     } else {
-        (required_phases as usize).next_power_of_two()
+        // Above 2^63 no power of two exists; the coherent choice below refuses lengths past
+        // MAX_PLAN_SAMPLES with the range.
+        usize::try_from(required_phases)
+            .ok()
+            .and_then(usize::checked_next_power_of_two)
+            .unwrap_or(usize::MAX)
     };
     let tone = nearest_coherent(fs, length, target_hz, false)?;
     Ok(HistogramPlan {
@@ -175,6 +180,11 @@ pub fn plan_histogram(
         records: required_samples.div_ceil(length as u64),
     })
 }
+
+/// Longest record a plan accepts (2^40 samples, a tebisample: far beyond any capture memory).
+/// Below it every cycle count J < N/2 and every bin h·J is a whole number an `f64` holds exactly,
+/// so the planned frequencies are exact; above 2^53 they would silently round.
+pub const MAX_PLAN_SAMPLES: usize = 1 << 40;
 
 /// Highest harmonic order a plan accepts.
 pub const MAX_PLAN_HARMONIC: u32 = 100;

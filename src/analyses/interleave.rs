@@ -43,6 +43,10 @@ use std::f64::consts::{PI, TAU};
 /// Fewest samples per channel sub-record.
 pub const MIN_CHANNEL_SAMPLES: usize = 16;
 
+/// Most interleaved channels an analysis accepts: beyond the largest interleaved converters built
+/// (tens to a few hundred sub-converters), and small enough that channel arithmetic cannot overflow.
+pub const MAX_CHANNELS: usize = 4096;
+
 /// Settings of the interleaving analysis.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct InterleaveSettings {
@@ -195,13 +199,14 @@ pub fn analyze_interleaved_traced(
     let n = record.len();
     let m = settings.channels;
     let path = record.source.as_str();
-    if m < 2 {
+    if !(2..=MAX_CHANNELS).contains(&m) {
         return Err(Error::setting(
             "channels",
-            "at least 2 interleaved channels",
+            format!("a count of interleaved channels in 2..={MAX_CHANNELS}"),
             m.to_string(),
         ));
     }
+    crate::spectrum::rule::check_guard_bins(settings.guard_bins)?;
     if n / m < MIN_CHANNEL_SAMPLES {
         return Err(Error::new(
             ErrorKind::TooFewSamples,

@@ -21,8 +21,8 @@ pub struct PlanArgs {
     /// Sample rate in hertz (SI prefixes allowed: 100M).
     #[arg(long, value_parser = si_value)]
     pub fs: f64,
-    /// Record length N in samples. May be left out with --resolution: then N is the shortest power
-    /// of two that reaches it.
+    /// Record length N in samples, 4..=2^40. May be left out with --resolution: then N is the
+    /// shortest power of two that reaches it.
     #[arg(long)]
     pub n: Option<usize>,
     /// Target input frequencies in hertz: --fin 10M,21M or --fin 10M 21M.
@@ -142,6 +142,22 @@ fn go(args: &PlanArgs) -> Result<String, Error> {
             "none given",
         )
     })?;
+    // Checked here as well as in the library so that the message names the option the user typed.
+    if !(4..=spurline::MAX_PLAN_SAMPLES).contains(&samples) {
+        let (key, why) = if args.n.is_some() {
+            ("n", String::new())
+        } else {
+            ("resolution", " (the N that --resolution needs)".to_string())
+        };
+        return Err(Error::setting(
+            key,
+            format!(
+                "a record length in 4..={} samples (2^40){why}",
+                spurline::MAX_PLAN_SAMPLES
+            ),
+            samples.to_string(),
+        ));
+    }
     let ctx = Context {
         fs: args.fs,
         samples,

@@ -18,7 +18,7 @@ pub use crate::dft::window::*;
 pub use coherence::Coherence;
 pub use leakage::LeakageDiagnosis;
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
-pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice};
+pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice, MAX_GUARD_BINS};
 pub use uncertainty::{LevelUncertainty, PerHarmonic, SpectrumUncertainty};
 
 use crate::error::{Error, ErrorKind, Location, Result};
@@ -173,6 +173,7 @@ pub fn measure_consuming(
     settings: &SpectrumSettings,
     plan: Option<&fft::Plan>,
 ) -> Result<SpectrumOutput> {
+    rule::check_guard_bins(settings.guard_bins)?;
     let n = records.first().map_or(0, |r| r.len());
     let Some(fit) = fits.first().filter(|_| fits.len() == records.len()) else {
         return Err(Error::new(
