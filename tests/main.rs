@@ -15,6 +15,7 @@ mod linearity;
 mod lost_results;
 mod lot_page;
 mod numeric_bounds;
+mod pages;
 mod path_traversal;
 mod pipeline;
 mod plan;
