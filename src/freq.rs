@@ -18,6 +18,11 @@ pub struct CoherentChoice {
     pub bin_width_hz: f64,
 }
 
+/// Longest record a plan accepts (2^40 samples, a tebisample: far beyond any capture memory).
+/// Below it every cycle count J < N/2 and every bin h·J is a whole number an `f64` holds exactly,
+/// so the planned frequencies are exact; above 2^53 they would silently round.
+pub const MAX_PLAN_SAMPLES: usize = 1 << 40;
+
 /// Chooses the cycle count J nearest to target·N/fs that is odd and coprime with N (and prime when
 /// `prime` is set), with 0 < J < N/2.
 ///
@@ -34,13 +39,10 @@ pub fn nearest_coherent(
     prime: bool,
 ) -> Result<CoherentChoice> {
     crate::record::check_sample_rate(sample_rate_hz, "")?;
-    if !(4..=crate::plan::MAX_PLAN_SAMPLES).contains(&samples) {
+    if !(4..=MAX_PLAN_SAMPLES).contains(&samples) {
         return Err(Error::setting(
             "samples",
-            format!(
-                "a record length in 4..={} samples (2^40)",
-                crate::plan::MAX_PLAN_SAMPLES
-            ),
+            format!("a record length in 4..={} samples (2^40)", MAX_PLAN_SAMPLES),
             samples.to_string(),
         ));
     }

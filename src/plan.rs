@@ -10,6 +10,7 @@
 use serde::Serialize;
 
 use crate::error::{Error, Result};
+pub use crate::freq::MAX_PLAN_SAMPLES;
 use crate::freq::{fold_bin, fold_to_first_zone, is_prime, nearest_coherent, CoherentChoice};
 
 /// Where a harmonic of the input lands in the first Nyquist zone.
@@ -180,11 +181,6 @@ pub fn plan_histogram(
         records: required_samples.div_ceil(length as u64),
     })
 }
-
-/// Longest record a plan accepts (2^40 samples, a tebisample: far beyond any capture memory).
-/// Below it every cycle count J < N/2 and every bin h·J is a whole number an `f64` holds exactly,
-/// so the planned frequencies are exact; above 2^53 they would silently round.
-pub const MAX_PLAN_SAMPLES: usize = 1 << 40;
 
 /// Highest harmonic order a plan accepts.
 pub const MAX_PLAN_HARMONIC: u32 = 100;

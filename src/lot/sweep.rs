@@ -314,7 +314,8 @@ fn key(v: f64, step: f64) -> i64 {
     (v / step).round() as i64
 }
 
-/// The most common key (the lowest on a tie).
+/// The most common key (the lowest on a tie; keys from hand-editable cells may be i64::MIN, so the
+/// tie-break reverses the order rather than negating).
 fn most_common(keys: impl Iterator<Item = i64>) -> Option<i64> {
     let mut count: BTreeMap<i64, usize> = BTreeMap::new();
     for k in keys {
@@ -322,7 +323,7 @@ fn most_common(keys: impl Iterator<Item = i64>) -> Option<i64> {
     }
     count
         .iter()
-        .max_by_key(|(k, c)| (**c, -**k))
+        .max_by_key(|(k, c)| (**c, std::cmp::Reverse(**k)))
         .map(|(k, _)| *k)
 }
 
