@@ -2,7 +2,7 @@
 
 mod cli;
 
-use clap::Parser;
+use clap::FromArgMatches;
 
 // mimalloc keeps freed pages for reuse: the large per-record buffers then cost no page faults, which
 // was a quarter of the analysis time of a 2^20-sample record with the system allocator.
@@ -17,6 +17,8 @@ fn main() {
     unsafe {
         libc::signal(libc::SIGPIPE, libc::SIG_DFL);
     }
-    let args = cli::Cli::parse();
+    // The command line with every subcommand's examples and exit status at the end of its help.
+    let matches = cli::command().get_matches();
+    let args = cli::Cli::from_arg_matches(&matches).unwrap_or_else(|e| e.exit());
     std::process::exit(cli::run(args));
 }

@@ -355,3 +355,39 @@ fn analyzes_a_csv_column_by_name() {
     );
     assert_eq!(by_csv[0]["samples"], 4096);
 }
+
+/// The binary's help of every subcommand ends with worked examples and then its exit status
+/// (common practice for command-line tools, no source).
+#[test]
+fn every_subcommand_help_ends_with_examples_and_exit_status() {
+    let top = spurline().arg("--help").output().unwrap();
+    let top = String::from_utf8_lossy(&top.stdout).to_string();
+    let commands: Vec<String> = top
+        .split("Commands:\n")
+        .nth(1)
+        .expect("a commands list")
+        .lines()
+        .take_while(|l| l.starts_with("  "))
+        .filter_map(|l| l.split_whitespace().next().map(str::to_string))
+        .filter(|n| n != "help")
+        .collect();
+    assert!(commands.len() >= 16, "{commands:?}");
+    for c in &commands {
+        let out = spurline().args([c.as_str(), "--help"]).output().unwrap();
+        assert!(out.status.success(), "{c}");
+        let help = String::from_utf8_lossy(&out.stdout).to_string();
+        let last = help
+            .trim_end()
+            .lines()
+            .last()
+            .unwrap_or_default()
+            .to_string();
+        assert!(last.starts_with("Exit status: 0 "), "{c}: {last}");
+        let examples = help.split("\nExamples:\n").nth(1).unwrap_or_default();
+        let n = examples
+            .lines()
+            .filter(|l| l.starts_with("  spurline "))
+            .count();
+        assert!((2..=3).contains(&n), "{c}: {n} examples");
+    }
+}

@@ -14,6 +14,7 @@ mod layout;
 mod linearity;
 mod lost_results;
 mod lot_page;
+mod pages;
 mod path_traversal;
 mod pipeline;
 mod plan;

@@ -14,11 +14,7 @@ use std::path::{Path, PathBuf};
 /// Arguments of `batch`.
 #[derive(Debug, Args)]
 #[command(
-    after_help = "Exit status: 0 every result analysed and every limit passed (or no limit table), \
-                  1 some limit failed (guardband failures included), 2 an error: a bad plan or limit \
-                  table, an output that cannot be written, or a record that could not be read or \
-                  analysed (the lot still runs to the end and that result is an error row).\n\n\
-                  With --shard K/M the run takes device i of the lot (in lot order, from 0) when \
+    after_help = "With --shard K/M the run takes device i of the lot (in lot order, from 0) when \
                   i mod M = K - 1, writes the lot files for those devices and a manifest shard.json; \
                   `spurline merge` combines the M shard folders into the report of an unsharded run.\n\n\
                   --shard auto reads the job-array task's index from SLURM_ARRAY_TASK_ID (with \

@@ -19,7 +19,7 @@ use std::path::PathBuf;
                   Metrics where only one direction is bad get one limit: a low one for SNR, SINAD, SFDR \
                   and ENOB, a high one for THD, harmonic and spur levels, the noise floor and the fit \
                   residual (--two-sided gives both). The shape is reported when it is clearly not normal: at least 8 values and \
-                  a Jarque-Bera p-value below 0.01. Exit status: 0 done, 2 an error."
+                  a Jarque-Bera p-value below 0.01."
 )]
 pub struct LimitsArgs {
     /// Results of a characterisation run: a batch output folder, its summary.csv, or results.json files.

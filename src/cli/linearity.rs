@@ -16,9 +16,7 @@ use std::path::PathBuf;
 #[derive(Debug, Args)]
 #[command(
     after_help = "The sine must overdrive the converter: both end codes must absorb the sine's tails. \
-                  Overdrive only within the device's absolute maximum input ratings.\n\
-                  Exit status: 0 done, 2 an error (unreadable record, a sine that does not overdrive \
-                  the range, bad settings)."
+                  Overdrive only within the device's absolute maximum input ratings."
 )]
 pub struct LinearityArgs {
     /// Record files of the same converter and input (text, CSV or raw binary; a JSON sidecar next to

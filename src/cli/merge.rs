@@ -15,16 +15,11 @@ use std::path::PathBuf;
                   summary.csv, failures.csv, yield.csv and index.html are written, byte for byte those \
                   of an unsharded run. A shard missing or not finished is named, with the command \
                   that runs it again.\n\n\
-                  Exit status: 0 every result passed (or no limit table), 1 some limit failed, 2 an \
-                  error: a shard missing, not finished, given twice or of another run, a device in \
-                  two shards, an unreadable shard, an output that cannot be written, or error rows \
-                  in the lot.\n\n\
                   With --status, every folder given (OUT included) is a shard folder or a folder \
                   holding shard folders; nothing is written. It prints each shard as finished \
                   (shard.json), started (a start note, with the devices in its summary so far) or not \
                   started, the devices done, and a last line `unfinished shards: K,...` when some \
-                  are. Exit status: 0 every shard finished, 1 some shard not finished, 2 an error \
-                  (no shard found, shards of different runs, a manifest that does not parse)."
+                  are."
 )]
 pub struct MergeArgs {
     /// Output folder of the merged lot report (with --status: a folder to read, like the others).

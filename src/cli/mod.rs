@@ -5,6 +5,7 @@ mod batch;
 mod compare;
 mod demo;
 mod demo_lot;
+mod help;
 mod imd;
 mod interleave;
 mod limits;
@@ -85,6 +86,8 @@ pub enum Command {
     /// baseline, run rules, Cpk per lot; exit status 1 when a rule fires.
     Trend(trend::TrendArgs),
 }
+
+pub use help::command;
 
 /// Runs a parsed command line and returns the exit status.
 pub fn run(cli: Cli) -> i32 {

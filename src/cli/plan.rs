@@ -16,7 +16,6 @@ const MAX_TARGETS: usize = 100_000;
 
 /// Arguments of `plan`.
 #[derive(Debug, Args)]
-#[command(after_help = "Exit status: 0 planned, 2 an error (bad settings, no coherent choice).")]
 pub struct PlanArgs {
     /// Sample rate in hertz (SI prefixes allowed: 100M).
     #[arg(long, value_parser = si_value)]

@@ -8,10 +8,6 @@ use std::path::{Path, PathBuf};
 
 /// Arguments of `record`.
 #[derive(Debug, Args)]
-#[command(
-    after_help = "Exit status: 0 recorded, 1 the lot is already in the store (same fingerprint: \
-                  nothing written), 2 an error (nothing written)."
-)]
 pub struct RecordArgs {
     /// The lot folder written by `batch` (or `merge`).
     pub lot_dir: PathBuf,

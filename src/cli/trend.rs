@@ -9,8 +9,7 @@ use std::path::PathBuf;
 /// Arguments of `trend`.
 #[derive(Debug, Args)]
 #[command(
-    after_help = "Exit status: 0 no run rule fired, 1 some run rule fired on some chart, 2 an error.\n\n\
-                  Rules (flagged at the lot that completes the pattern): WE1 one lot beyond 3σ, WE2 2 of 3 \
+    after_help = "Rules (flagged at the lot that completes the pattern): WE1 one lot beyond 3σ, WE2 2 of 3 \
                   beyond 2σ on one side, WE3 4 of 5 beyond 1σ on one side, WE4 8 in a row on one side \
                   (Western Electric handbook, 1956); N2 9 in a row on one side, N3 6 in a row rising \
                   or falling, N4 14 in a row alternating, N7 15 in a row within 1σ, N8 8 in a row \

@@ -4,8 +4,10 @@
 
 use crate::error::{Error, ErrorKind, Location, Result};
 use crate::figures::{self, flatten, Figure};
-use crate::lot::compare::plots::series_svg;
 use crate::lot::files::{DroppedCell, LotSummary};
+use crate::report::html::{escape, inline_svg, page};
+use crate::report::svg::sweep::{jitter_curve, sweep_svg, BandPoint, SweepPlot};
+use crate::report::units::si;
 use crate::report::{output_error, write_atomic};
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -19,6 +21,9 @@ pub const SWEPT: [&Figure; 4] = [
     &figures::SFDR,
     &figures::ENOB,
 ];
+
+/// The name the lot mean's points and summary go by.
+const LOT_MEAN: &str = "lot mean";
 
 /// One device's (or the lot mean's) figures under one condition.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -270,8 +275,10 @@ fn to_csv<T: serde::Serialize>(rows: &[T]) -> String {
 
 /// Writes a sweep into `out` (created when missing): `sweep.csv` (every point), `sweep_summary.csv`
 /// (per device: ERBW, jitter, SNR floor and the number of amplitude points), `sweep.json` (the whole
-/// sweep), and the lot mean's plots against input frequency (`sinad-`, `snr-`, `sfdr-` and
-/// `enob-vs-frequency.svg`) and, when the conditions vary the amplitude, `snr-vs-amplitude.svg`.
+/// sweep), the plots against input frequency at the most common amplitude (`sinad-`, `snr-`, `sfdr-`
+/// and `enob-vs-frequency.svg`: each device a thin line, the lot mean ± one standard deviation as a
+/// band, the ERBW marked on SINAD and ENOB, the fitted jitter curve over SNR) and, when the conditions
+/// vary the amplitude, `snr-vs-amplitude.svg`; and `index.html`, the page that shows them.
 /// Errors: outputs that cannot be written.
 pub fn write_sweep(out: &Path, s: &Sweep) -> Result<()> {
     std::fs::create_dir_all(out).map_err(|e| output_error(out, "a writable folder", e))?;
@@ -292,48 +299,258 @@ pub fn write_sweep(out: &Path, s: &Sweep) -> Result<()> {
     let mut json = serde_json::to_string_pretty(&s).expect("plain data serialises");
     json.push('\n');
     write_atomic(&out.join("sweep.json"), json.as_bytes())?;
-    let lot: Vec<&SweepPoint> = s.points.iter().filter(|p| p.device == "lot mean").collect();
+    let plots = sweep_plots(s)?;
+    for (name, _, svg) in &plots {
+        write_atomic(&out.join(format!("{name}.svg")), svg.as_bytes())?;
+    }
+    write_atomic(&out.join("index.html"), sweep_page(s, &plots).as_bytes())?;
+    Ok(())
+}
+
+/// The key a value is grouped by: rounded to `step`.
+fn key(v: f64, step: f64) -> i64 {
+    (v / step).round() as i64
+}
+
+/// The most common key (the lowest on a tie).
+fn most_common(keys: impl Iterator<Item = i64>) -> Option<i64> {
+    let mut count: BTreeMap<i64, usize> = BTreeMap::new();
+    for k in keys {
+        *count.entry(k).or_default() += 1;
+    }
+    count
+        .iter()
+        .max_by_key(|(k, c)| (**c, -**k))
+        .map(|(k, _)| *k)
+}
+
+/// Mean and sample standard deviation (0 for one value).
+fn mean_sd(v: &[f64]) -> (f64, f64) {
+    let n = v.len() as f64;
+    let mean = v.iter().sum::<f64>() / n;
+    let sd = if v.len() > 1 {
+        (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt()
+    } else {
+        0.0
+    };
+    (mean, sd)
+}
+
+/// The lot's band over (group, x, y) triples: per group, the mean x, the mean y and the spread of y
+/// across the devices; by rising x.
+fn band_of(points: &[(String, f64, f64)]) -> Vec<BandPoint> {
+    let mut groups: BTreeMap<&str, (Vec<f64>, Vec<f64>)> = BTreeMap::new();
+    for (g, x, y) in points {
+        let e = groups.entry(g.as_str()).or_default();
+        e.0.push(*x);
+        e.1.push(*y);
+    }
+    let mut band: Vec<BandPoint> = groups
+        .values()
+        .map(|(xs, ys)| {
+            let (mean, spread) = mean_sd(ys);
+            BandPoint {
+                x: mean_sd(xs).0,
+                mean,
+                spread,
+                devices: ys.len(),
+            }
+        })
+        .collect();
+    band.sort_by(|a, b| a.x.total_cmp(&b.x));
+    band
+}
+
+/// Each device's (x, y) points by rising x.
+fn device_lines(points: &[(String, f64, f64)]) -> Vec<Vec<(f64, f64)>> {
+    let mut lines: BTreeMap<&str, Vec<(f64, f64)>> = BTreeMap::new();
+    for (d, x, y) in points {
+        lines.entry(d.as_str()).or_default().push((*x, *y));
+    }
+    lines
+        .into_values()
+        .map(|mut l| {
+            l.sort_by(|a, b| a.0.total_cmp(&b.0));
+            l
+        })
+        .collect()
+}
+
+/// The least vertical span of a sweep plot: 12 dB for a figure in decibels and 2 bits for ENOB
+/// (6.02 dB per bit, handbook formula), so 0.2 bit (1.2 dB) of scatter fills at most a tenth of the
+/// frame instead of reading as a trend.
+fn min_span(f: &Figure) -> f64 {
+    if std::ptr::eq(f, &figures::ENOB) {
+        2.0
+    } else {
+        12.0
+    }
+}
+
+/// A sweep's plots: (file stem, caption, SVG), the figures against input frequency at the reference
+/// amplitude, then SNR against amplitude when the conditions vary it. The lot's ERBW and jitter are
+/// fitted to the band's means, the points drawn.
+fn sweep_plots(s: &Sweep) -> Result<Vec<(String, String, String)>> {
+    let devices: Vec<&SweepPoint> = s.points.iter().filter(|p| p.device != LOT_MEAN).collect();
+    let ref_amp = most_common(devices.iter().map(|p| key(p.amplitude_dbfs, 0.1)));
+    let at_ref: Vec<&&SweepPoint> = devices
+        .iter()
+        .filter(|p| Some(key(p.amplitude_dbfs, 0.1)) == ref_amp)
+        .collect();
     type Get = fn(&SweepPoint) -> Option<f64>;
-    let axis = |f: &Figure| format!("{} ({})", f.label, f.unit);
     let plotted: [(&str, &Figure, Get); 4] = [
         ("sinad", &figures::SINAD, |p| p.sinad_db),
         ("snr", &figures::SNR, |p| p.snr_db),
         ("sfdr", &figures::SFDR, |p| p.sfdr_dbc),
         ("enob", &figures::ENOB, |p| p.enob_bits),
     ];
+    let amp_text = ref_amp.map_or(String::new(), |k| {
+        format!(" at {:.1} dBFS", k as f64 / 10.0)
+    });
+    let mut out = Vec::new();
+    let mut erbw_hz = None;
     for (name, figure, get) in plotted {
-        let unit = axis(figure);
-        let pts: Vec<(f64, f64)> = lot
-            .iter()
-            .filter_map(|p| Some((p.fin_hz, get(p)?)))
-            .collect();
-        let svg = series_svg(
-            &format!("{unit} against input frequency"),
-            "input frequency (MHz)",
-            &unit,
-            &[("lot mean", &pts)],
-            1e6,
-        )?;
-        write_atomic(
-            &out.join(format!("{name}-vs-frequency.svg")),
-            svg.as_bytes(),
-        )?;
+        let triples = |group: fn(&SweepPoint) -> String| -> Vec<(String, f64, f64)> {
+            at_ref
+                .iter()
+                .filter_map(|p| Some((group(p), p.fin_hz, get(p)?)))
+                .collect()
+        };
+        let band = band_of(&triples(|p| p.condition.clone()));
+        let lines = device_lines(&triples(|p| p.device.clone()));
+        let means: Vec<(f64, f64)> = band.iter().map(|b| (b.x, b.mean)).collect();
+        let mut plot = SweepPlot {
+            title: format!("{} against input frequency{amp_text}", figure.label),
+            y_desc: format!("{} ({})", figure.label, figure.unit),
+            frequency_axis: true,
+            min_span: min_span(figure),
+            devices: lines,
+            band,
+            curve: None,
+            marker: None,
+        };
+        let mut caption = format!(
+            "{}: thin lines, each device; band, the lot mean ± one standard deviation across \
+             devices at each condition; dark line, the lot mean.",
+            figure.label
+        );
+        if name == "sinad" {
+            erbw_hz = erbw(&means);
+        }
+        if name == "sinad" || name == "enob" {
+            if let Some(f) = erbw_hz {
+                plot.marker = Some((format!("ERBW {}", si(f, "Hz", 4)), f));
+                caption.push_str(
+                    " Dashed vertical: the ERBW, where the lot mean SINAD is 3 dB below its value \
+                     at the lowest frequency.",
+                );
+            }
+        }
+        if name == "snr" {
+            if let Some((sigma, a)) = jitter_fit(&means) {
+                let hi = means.iter().map(|m| m.0).fold(0.0, f64::max) * 1.06;
+                plot.curve = Some((
+                    format!("jitter fit, σ = {}", si(sigma, "s", 3)),
+                    jitter_curve(sigma, a, hi / 200.0, hi),
+                ));
+                caption.push_str(
+                    " Dashed curve: the jitter-limited SNR −10·log10(a + (2π·f·σ)²) fitted to the \
+                     lot mean.",
+                );
+            }
+        }
+        out.push((format!("{name}-vs-frequency"), caption, sweep_svg(&plot)?));
     }
-    if let Some(m) = s
-        .summaries
-        .first()
-        .filter(|m| !m.snr_vs_amplitude.is_empty())
-    {
-        let svg = series_svg(
-            &format!("{} against input amplitude", figures::SNR.label),
-            &format!("input amplitude ({})", figures::FIT_AMPLITUDE_DBFS.unit),
-            &axis(&figures::SNR),
-            &[("lot mean", &m.snr_vs_amplitude)],
-            1.0,
-        )?;
-        write_atomic(&out.join("snr-vs-amplitude.svg"), svg.as_bytes())?;
+    // SNR against amplitude, at the most common input frequency (rounded to 1 kHz).
+    let ref_f = most_common(devices.iter().map(|p| key(p.fin_hz, 1e3)));
+    let amp: Vec<(String, f64, f64)> = devices
+        .iter()
+        .filter(|p| Some(key(p.fin_hz, 1e3)) == ref_f)
+        .filter_map(|p| Some((p.device.clone(), p.amplitude_dbfs, p.snr_db?)))
+        .collect();
+    let by_amp: Vec<(String, f64, f64)> = amp
+        .iter()
+        .map(|(_, x, y)| (format!("{:08}", key(*x, 0.1) + 100_000), *x, *y))
+        .collect();
+    let band = band_of(&by_amp);
+    if band.len() >= 2 {
+        let plot = SweepPlot {
+            title: format!(
+                "{} against input amplitude at {}",
+                figures::SNR.label,
+                si(ref_f.unwrap_or(0) as f64 * 1e3, "Hz", 4)
+            ),
+            y_desc: format!("{} ({})", figures::SNR.label, figures::SNR.unit),
+            frequency_axis: false,
+            min_span: min_span(&figures::SNR),
+            devices: device_lines(&amp),
+            band,
+            curve: None,
+            marker: None,
+        };
+        out.push((
+            "snr-vs-amplitude".to_string(),
+            "SNR against input amplitude (dynamic range): thin lines, each device; band, the lot \
+             mean ± one standard deviation."
+                .to_string(),
+            sweep_svg(&plot)?,
+        ));
     }
-    Ok(())
+    Ok(out)
+}
+
+/// The sweep's page in the shared page shell: the summary per device (the lot mean first), then
+/// each plot inline with its caption.
+fn sweep_page(s: &Sweep, plots: &[(String, String, String)]) -> String {
+    use std::fmt::Write as _;
+    let devices = s.summaries.len().saturating_sub(1);
+    let conditions: std::collections::BTreeSet<&str> =
+        s.points.iter().map(|p| p.condition.as_str()).collect();
+    let mut body = String::from(
+        "<h2>Summary</h2>\n<p class=\"note\">ERBW: the input frequency where SINAD is 3 dB below its \
+         value at the lowest frequency. Jitter: σ of the fit 10^(−SNR/10) = a + (2π·f·σ)²; SNR floor: \
+         −10·log10(a). A dash: fewer than three frequencies, a fit whose slope is not positive, or \
+         SINAD that never falls 3 dB.</p>\n<div class=\"wide\">\n<table id=\"sweep\">\n<thead><tr>\
+         <th class=\"t\">device</th><th>points</th><th>ERBW</th><th>jitter rms</th><th>SNR floor</th>\
+         <th>amplitude points</th></tr></thead>\n<tbody>\n",
+    );
+    for (i, m) in s.summaries.iter().enumerate() {
+        let class = if i == 0 { " class=\"whole\"" } else { "" };
+        let _ = writeln!(
+            body,
+            "<tr{class}><td class=\"t\">{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+            escape(&m.device),
+            m.frequency_points,
+            m.erbw_hz.map_or("beyond range".into(), |f| si(f, "Hz", 4)),
+            m.jitter_rms_s.map_or("—".into(), |j| si(j, "s", 3)),
+            m.snr_floor_db.map_or("—".into(), |v| format!("{v:.2} dB")),
+            m.snr_vs_amplitude.len(),
+        );
+    }
+    body.push_str("</tbody>\n</table>\n</div>\n<h2>Plots</h2>\n<div class=\"plots\">\n");
+    for (name, caption, svg) in plots {
+        let file = format!("{name}.svg");
+        let _ = writeln!(
+            body,
+            "<figure id=\"{name}\">{}<figcaption>{} <a href=\"{file}\">{file}</a></figcaption></figure>",
+            inline_svg(&file, svg),
+            escape(caption),
+        );
+    }
+    body.push_str(
+        "</div>\n<p class=\"files\">Files: <a href=\"sweep.csv\">sweep.csv</a> (every point), \
+         <a href=\"sweep_summary.csv\">sweep_summary.csv</a>, <a href=\"sweep.json\">sweep.json</a>.</p>\n",
+    );
+    page(
+        "Sweep",
+        &format!(
+            "{devices} device{} · {} condition{}",
+            if devices == 1 { "" } else { "s" },
+            conditions.len(),
+            if conditions.len() == 1 { "" } else { "s" }
+        ),
+        &body,
+    )
 }
 
 #[cfg(test)]

@@ -14,6 +14,7 @@ pub mod marked;
 pub(crate) mod plot_tests;
 pub mod residual;
 pub mod spectrum;
+pub mod sweep;
 
 pub use control::{control_chart_svg, ChartPoint};
 pub use distribution::{distribution_svg, Band, LimitLines};
