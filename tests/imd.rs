@@ -297,37 +297,16 @@ fn interleave_refuses_bad_channel_counts() {
     assert_eq!(json_of(&out)[0]["error"]["kind"], "bad_setting");
 }
 
-/// Loads a page in headless chromium and returns the DOM it built; `None` (with a loud SKIPPED line)
-/// without chromium, a failure when CI is set (.ci/run installs it).
+/// Loads a page in headless chromium and returns the DOM it built, failing on any console message;
+/// `None` (with a loud SKIPPED line) without chromium, a failure when CI is set (.ci/run installs it).
 fn dom_in_browser(page: &Path) -> Option<String> {
-    use crate::report::{find_chromium, spawn_chromium, wait_or_kill};
-    let Some(exe) = find_chromium() else {
-        assert!(
-            std::env::var_os("CI").is_none(),
-            "chromium is not on PATH, and CI is set: the page was not checked in a browser"
-        );
-        use std::io::Write as _;
-        let _ = writeln!(
-            std::io::stderr(),
-            "SKIPPED the browser check of {}: chromium is not installed",
-            page.display()
-        );
-        return None;
-    };
-    let dir = tempfile::tempdir().unwrap();
-    let dom_file = dir.path().join("dom.html");
-    let mut dom = spawn_chromium(
-        &exe,
-        &dir.path().join("profile"),
-        &["--dump-dom".to_string()],
-        &format!("file://{}", page.display()),
-        &dom_file,
-    );
+    let (dom, console) = crate::pages::browser_dom(page)?;
     assert!(
-        wait_or_kill(&mut dom, std::time::Duration::from_secs(60)),
-        "chromium failed or timed out"
+        console.is_empty(),
+        "{}: console {console:?}",
+        page.display()
     );
-    Some(std::fs::read_to_string(&dom_file).unwrap())
+    Some(dom)
 }
 
 /// `imd --report` and `interleave --report` write a page in the run page's shell with each record's

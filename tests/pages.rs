@@ -226,3 +226,54 @@ fn linearity_writes_its_page_with_plain_ticks() {
         assert!(console.is_empty(), "console: {console:?}");
     }
 }
+
+/// `compare` on the demo's two board revisions: the terminal's verdict column says better or worse
+/// in words (rev-b was given less jitter, so SNR at 47 MHz is better; and a larger third harmonic, so
+/// SFDR is worse: src/cli/demo_lot.rs), and the comparison page builds in the browser with no
+/// console message.
+#[test]
+fn compare_says_better_or_worse_and_its_page_renders() {
+    let dir = tempfile::tempdir().unwrap();
+    let demo = spurline()
+        .args(["demo", "--out"])
+        .arg(dir.path())
+        .output()
+        .unwrap();
+    assert!(demo.status.success());
+    let o = spurline()
+        .arg("compare")
+        .arg(dir.path().join("lot-rev-a/results"))
+        .arg(dir.path().join("lot-rev-b/results"))
+        .arg("--out")
+        .arg(dir.path().join("cmp"))
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let stdout = String::from_utf8_lossy(&o.stdout);
+    let head = stdout
+        .lines()
+        .find(|l| l.starts_with("condition"))
+        .expect("table header");
+    // A character position: the header's "B − A" holds a multi-byte minus.
+    let at = head[..head.find("verdict").expect("verdict column")]
+        .chars()
+        .count();
+    let verdict = |cond: &str, metric: &str| -> String {
+        let line = stdout
+            .lines()
+            .find(|l| {
+                let mut w = l.split_whitespace();
+                w.next() == Some(cond) && w.next() == Some(metric)
+            })
+            .unwrap_or_else(|| panic!("no row {cond} {metric}:\n{stdout}"));
+        let rest: String = line.chars().skip(at).collect();
+        rest.split("  ").next().unwrap().trim().to_string()
+    };
+    assert_eq!(verdict("fin_47M", "spectrum.snr_db"), "better");
+    assert_eq!(verdict("fin_05M", "spectrum.sfdr_dbc"), "worse");
+    let page = dir.path().join("cmp/comparison.html");
+    if let Some((dom, console)) = browser_dom(&page) {
+        assert!(dom.matches("<svg").count() >= 10);
+        assert!(console.is_empty(), "console: {console:?}");
+    }
+}

@@ -50,10 +50,20 @@ fn quartiles(v: &[f64]) -> Option<(f64, f64, f64)> {
     Some((q(0.25), q(0.5), q(0.75)))
 }
 
+/// Ticks and a range for values `lo..hi` padded as [`range_of`] pads them.
+fn value_axis(lo: f64, hi: f64, target: usize) -> crate::report::svg::TickAxis {
+    crate::report::svg::TickAxis::new(lo, hi, crate::report::svg::nice_ticks(lo, hi, target))
+}
+
 /// Two distributions side by side: every value as a point (spread sideways by a fixed rule), with a
-/// box from the first to the third quartile and a line at the median.
+/// box from the first to the third quartile and a line at the median, each column named A or B
+/// under it.
 pub fn distributions_svg(title: &str, unit: &str, a: &[f64], b: &[f64]) -> Result<String> {
+    use crate::report::svg::{style_mesh, trim_number, TickAxis, Ticks};
+    use plotters::style::text_anchor::{HPos, Pos, VPos};
     let (lo, hi) = range_of(a.iter().chain(b).copied());
+    let y_axis = value_axis(lo, hi, 6);
+    let y_dec = y_axis.ticks.decimals;
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (360, 300)).into_drawing_area();
@@ -63,27 +73,20 @@ pub fn distributions_svg(title: &str, unit: &str, a: &[f64], b: &[f64]) -> Resul
             .margin(8)
             .x_label_area_size(28)
             .y_label_area_size(56)
-            .build_cartesian_2d(0.0..2.0, lo..hi)
+            .build_cartesian_2d(TickAxis::new(0.0, 2.0, Ticks::default()), y_axis)
             .map_err(err)?;
-        chart
-            .configure_mesh()
-            .disable_x_mesh()
-            .x_labels(3)
-            .x_label_formatter(&|x: &f64| {
-                if (x - 0.5).abs() < 0.01 {
-                    "A".to_string()
-                } else if (x - 1.5).abs() < 0.01 {
-                    "B".to_string()
-                } else {
-                    String::new()
-                }
-            })
-            .y_desc(unit)
-            .light_line_style(rgb(palette::GRID_MINOR))
-            .bold_line_style(rgb(palette::GRID))
-            .draw()
-            .map_err(err)?;
-        for (centre, values, colour) in [(0.5, a, COLOUR_A), (1.5, b, COLOUR_B)] {
+        {
+            let yl = |v: &f64| trim_number(*v, y_dec);
+            let xl = |_: &f64| String::new();
+            let mut m = chart.configure_mesh();
+            m.disable_x_mesh()
+                .y_desc(unit)
+                .x_label_formatter(&xl)
+                .y_label_formatter(&yl);
+            style_mesh(&mut m);
+            m.draw().map_err(err)?;
+        }
+        for (name, centre, values, colour) in [("A", 0.5, a, COLOUR_A), ("B", 1.5, b, COLOUR_B)] {
             if let Some((q1, med, q3)) = quartiles(values) {
                 chart
                     .draw_series(std::iter::once(Rectangle::new(
@@ -105,6 +108,18 @@ pub fn distributions_svg(title: &str, unit: &str, a: &[f64], b: &[f64]) -> Resul
                     Circle::new((centre + dx, v), 3, rgb(colour).filled())
                 }))
                 .map_err(err)?;
+            // The run's letter under its column, in its colour.
+            let (px, py) = chart.backend_coord(&(centre, lo));
+            let colour = rgb(colour);
+            let style = TextStyle::from((FONT, 14).into_font().style(FontStyle::Bold))
+                .color(&colour)
+                .pos(Pos::new(HPos::Center, VPos::Top));
+            root.draw(&Text::new(
+                format!("{name} (n = {})", values.len()),
+                (px, py + 6),
+                style,
+            ))
+            .map_err(err)?;
         }
         root.present().map_err(err)?;
     }
@@ -128,7 +143,8 @@ pub fn versus_frequency_svg(
 }
 
 /// Named series of (x, y) points, one line each (x divided by `x_scale` for the axis): the first in the
-/// run-A colour, the second in the run-B colour, further ones in a muted colour.
+/// run-A colour, the second in the run-B colour, further ones in a muted colour. The legend is a row
+/// under the frame, so it never covers a point.
 pub fn series_svg(
     title: &str,
     x_desc: &str,
@@ -136,6 +152,8 @@ pub fn series_svg(
     series: &[(&str, &[(f64, f64)])],
     x_scale: f64,
 ) -> Result<String> {
+    use crate::report::svg::{style_mesh, trim_number};
+    use plotters::style::text_anchor::{HPos, Pos, VPos};
     let (x0, x1) = range_of(
         series
             .iter()
@@ -143,50 +161,61 @@ pub fn series_svg(
             .map(|p| p.0 / x_scale),
     );
     let (y0, y1) = range_of(series.iter().flat_map(|s| s.1.iter()).map(|p| p.1));
+    let (xa, ya) = (value_axis(x0, x1, 7), value_axis(y0, y1, 6));
+    let (x_dec, y_dec) = (xa.ticks.decimals, ya.ticks.decimals);
+    let size = (480u32, 320u32);
+    let ink = rgb(palette::INK);
     let mut svg = String::new();
     {
-        let root = SVGBackend::with_string(&mut svg, (480, 300)).into_drawing_area();
+        let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
         root.fill(&rgb(palette::BACKGROUND)).map_err(err)?;
-        let mut chart = ChartBuilder::on(&root)
-            .caption(title, (FONT, 14).into_font().color(&rgb(palette::INK)))
+        let (plot, legend) = root.split_vertically(size.1 - 26);
+        let mut chart = ChartBuilder::on(&plot)
+            .caption(title, (FONT, 14).into_font().color(&ink))
             .margin(8)
             .x_label_area_size(34)
             .y_label_area_size(56)
-            .build_cartesian_2d(x0..x1, y0..y1)
+            .build_cartesian_2d(xa, ya)
             .map_err(err)?;
-        chart
-            .configure_mesh()
-            .x_desc(x_desc)
-            .y_desc(unit)
-            .light_line_style(rgb(palette::GRID_MINOR))
-            .bold_line_style(rgb(palette::GRID))
-            .draw()
-            .map_err(err)?;
+        {
+            let xl = |v: &f64| trim_number(*v, x_dec);
+            let yl = |v: &f64| trim_number(*v, y_dec);
+            let mut m = chart.configure_mesh();
+            m.x_desc(x_desc)
+                .y_desc(unit)
+                .x_label_formatter(&xl)
+                .y_label_formatter(&yl);
+            style_mesh(&mut m);
+            m.draw().map_err(err)?;
+        }
+        let text = TextStyle::from((FONT, 12).into_font())
+            .color(&ink)
+            .pos(Pos::new(HPos::Left, VPos::Center));
+        let mut lx = 66i32;
         for (i, (name, points)) in series.iter().enumerate() {
             let colour = [COLOUR_A, COLOUR_B]
                 .get(i)
                 .copied()
                 .unwrap_or(palette::PANEL_EDGE);
-            let name = name.to_string();
             let mut pts: Vec<(f64, f64)> = points.iter().map(|p| (p.0 / x_scale, p.1)).collect();
             pts.sort_by(|p, q| p.0.total_cmp(&q.0));
             chart
                 .draw_series(LineSeries::new(pts.clone(), rgb(colour).stroke_width(2)))
-                .map_err(err)?
-                .label(name)
-                .legend(move |(x, y)| {
-                    PathElement::new(vec![(x, y), (x + 16, y)], rgb(colour).stroke_width(2))
-                });
+                .map_err(err)?;
             chart
                 .draw_series(pts.iter().map(|&p| Circle::new(p, 4, rgb(colour).filled())))
                 .map_err(err)?;
+            legend
+                .draw(&PathElement::new(
+                    vec![(lx, 12), (lx + 18, 12)],
+                    rgb(colour).stroke_width(2),
+                ))
+                .map_err(err)?;
+            legend
+                .draw(&Text::new(name.to_string(), (lx + 24, 12), text.clone()))
+                .map_err(err)?;
+            lx += 24 + 7 * name.chars().count() as i32 + 18;
         }
-        chart
-            .configure_series_labels()
-            .background_style(rgb(palette::PANEL))
-            .border_style(rgb(palette::PANEL_EDGE))
-            .draw()
-            .map_err(err)?;
         root.present().map_err(err)?;
     }
     Ok(svg)
@@ -446,6 +475,57 @@ mod tests {
         let m = analyze(&rec, &settings).unwrap();
         // One point per bin, so the trace's peak is the peak bin itself.
         OverlayTrace::of(name.into(), &m.analysis, &m.traces, 4096).unwrap()
+    }
+
+    /// (x, y, text) of every text of an SVG.
+    fn placed_texts(svg: &str) -> Vec<(f64, f64, String)> {
+        let doc = roxmltree::Document::parse(svg).expect("well-formed SVG");
+        doc.descendants()
+            .filter(|n| n.has_tag_name("text"))
+            .map(|n| {
+                (
+                    n.attribute("x").unwrap().parse().unwrap(),
+                    n.attribute("y").unwrap().parse().unwrap(),
+                    n.text().unwrap_or("").trim().to_string(),
+                )
+            })
+            .collect()
+    }
+
+    /// Each distribution's column is named A or B (with its count) under the frame, and no tick reads
+    /// with a needless ".0".
+    #[test]
+    fn distribution_columns_are_named_a_and_b() {
+        let svg =
+            distributions_svg("SNR", "dB", &[70.0, 70.5, 71.0], &[69.0, 69.5, 70.0, 70.2]).unwrap();
+        let texts = placed_texts(&svg);
+        let a = texts.iter().find(|t| t.2 == "A (n = 3)").expect("A named");
+        let b = texts.iter().find(|t| t.2 == "B (n = 4)").expect("B named");
+        assert!(a.0 < b.0 && (a.1 - b.1).abs() < 1.0, "{a:?} {b:?}");
+        assert!(!texts.iter().any(|t| t.2.ends_with(".0")), "{texts:?}");
+    }
+
+    /// The legend of a plot against frequency sits under the frame: below every point drawn.
+    #[test]
+    fn series_legend_is_under_the_data() {
+        let a = [(5e6, 70.0), (20e6, 69.0), (45e6, 67.0)];
+        let b = [(5e6, 70.2), (20e6, 69.8), (45e6, 69.5)];
+        let svg = versus_frequency_svg("SNR", "dB", &a, &b).unwrap();
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let lowest_point = doc
+            .descendants()
+            .filter(|n| n.has_tag_name("circle"))
+            .map(|n| n.attribute("cy").unwrap().parse::<f64>().unwrap())
+            .fold(f64::MIN, f64::max);
+        let texts = placed_texts(&svg);
+        for name in ["A", "B"] {
+            let t = texts.iter().find(|t| t.2 == name).expect("legend entry");
+            assert!(
+                t.1 > lowest_point + 20.0,
+                "{name} at {} over data at {lowest_point}",
+                t.1
+            );
+        }
     }
 
     /// A windowed −1 dBFS tone reads −1 dBFS on the overlay whatever the window: bin-centred its peak
