@@ -23,7 +23,10 @@ pub struct PlanArgs {
     /// Record length N in samples, 4..=2^40. May be left out with --resolution: then N is the
     /// shortest power of two that reaches it.
     #[arg(long)]
-    pub n: Option<usize>,
+    pub samples: Option<usize>,
+    /// The old name of --samples (warns).
+    #[arg(long = "n", hide = true, conflicts_with = "samples")]
+    pub n_old: Option<usize>,
     /// Target input frequencies in hertz: --fin 10M,21M or --fin 10M 21M.
     #[arg(long, value_parser = si_value, value_delimiter = ',', num_args = 1..)]
     pub fin: Vec<f64>,
@@ -107,7 +110,8 @@ enum Plans {
 }
 
 /// Runs `plan`.
-pub fn run(args: PlanArgs) -> i32 {
+pub fn run(mut args: PlanArgs) -> i32 {
+    args.samples = super::renamed(args.samples.take(), args.n_old.take(), "--n", "--samples");
     match go(&args) {
         Ok(text) => {
             print!("{text}");
@@ -134,10 +138,10 @@ fn go(args: &PlanArgs) -> Result<String, Error> {
             n => Some(n),
         },
     };
-    let samples = args.n.or(for_resolution).ok_or_else(|| {
+    let samples = args.samples.or(for_resolution).ok_or_else(|| {
         Error::setting(
-            "n",
-            "a record length: give --n, or --resolution for the N that reaches it",
+            "samples",
+            "a record length: give --samples, or --resolution for the N that reaches it",
             "none given",
         )
     })?;

@@ -2,6 +2,8 @@
 //! 0-based index, with the delimiter given or detected; an instrument's preamble of setting lines is
 //! skipped, and a time column is recognised and gives the sample rate.
 
+use std::borrow::Cow;
+
 use super::checks::{check_bits, no_samples, parse_int, range_text, show_token, to_code, IntToken};
 use super::samples::Samples;
 use super::ColumnSel;
@@ -474,10 +476,45 @@ pub(crate) fn parse_delimited_auto(
         Some(h) => h.clone(),
         None => (0..sv.fields).map(|i| format!("column {i}")).collect(),
     };
-    let values_of = |i: usize| -> Option<Vec<f64>> {
+    // The columns this read needs: the one given (or every column when one must be chosen), and
+    // any time column its header names. They are read in one pass when the table is plain; the
+    // general reader (one pass a column) reads the rest and names the line of any problem.
+    let given_index = match column {
+        Some(ColumnSel::Index(i)) => Some(*i),
+        Some(ColumnSel::Name(n)) => sv
+            .header
+            .as_ref()
+            .and_then(|h| h.iter().position(|x| x == n)),
+        None => None,
+    };
+    let named_time = sv
+        .header
+        .as_ref()
+        .and_then(|h| h.iter().position(|n| is_time_name(n)));
+    let mut wanted: Vec<usize> = match (column, given_index) {
+        (None, _) => (0..sv.fields.max(1)).collect(),
+        (Some(_), Some(i)) => vec![i],
+        (Some(_), None) => Vec::new(),
+    };
+    wanted.extend(named_time);
+    wanted.sort_unstable();
+    wanted.dedup();
+    let mut plain = if column.is_some() && given_index.is_none() {
+        None
+    } else {
+        plain_table(b, sep, &sv, &wanted)
+    };
+    let plain_column = |i: usize| {
+        let p = plain.as_ref()?;
+        wanted.iter().position(|&w| w == i).map(|k| &p[k])
+    };
+    let values_of = |i: usize| -> Option<Cow<'_, [f64]>> {
+        if plain.is_some() {
+            return plain_column(i).map(|c| Cow::Borrowed(&c.numbers[..]));
+        }
         parse_columns(bytes, path, 32, &ColumnSel::Index(i), delimiter, true)
             .ok()
-            .map(|(_, v, _)| v)
+            .map(|(_, v, _)| Cow::Owned(v))
     };
     // Time and index columns: by name when the header names them, else by their steps (only when
     // a column must be chosen among several).
@@ -523,7 +560,7 @@ pub(crate) fn parse_delimited_auto(
                 && time_axis(String::new(), &v).rate_hz.is_some()
             {
                 time = Some((i, 1.0));
-                time_values = Some((i, v));
+                time_values = Some((i, v.into_owned()));
             }
         }
     }
@@ -565,7 +602,28 @@ pub(crate) fn parse_delimited_auto(
             ColumnSel::Index(left[0])
         }
     };
-    let (samples, fraction) = if values_allowed {
+    let chosen_index = match &chosen {
+        ColumnSel::Index(i) => Some(*i),
+        ColumnSel::Name(_) => given_index,
+    };
+    // The chosen column is moved out of the table, not copied.
+    let from_plain = chosen_index
+        .and_then(|i| wanted.iter().position(|&w| w == i))
+        .and_then(|k| {
+            let p = plain.as_mut()?;
+            let c = std::mem::replace(
+                &mut p[k],
+                PlainColumn {
+                    numbers: Vec::new(),
+                    integers: true,
+                    fraction: None,
+                },
+            );
+            plain_samples(c, bits, values_allowed)
+        });
+    let (samples, fraction) = if let Some(s) = from_plain {
+        s
+    } else if values_allowed {
         parse_delimited_located(bytes, path, bits, &chosen, delimiter)?
     } else {
         (
@@ -589,6 +647,31 @@ pub(crate) fn parse_delimited_auto(
         _ => None,
     };
     Ok((samples, fraction, axis))
+}
+
+/// The samples of a column read by [`plain_table`], as the general reader reads them: codes when
+/// every field was an integer within the range of `bits` (the 32-bit range when `None`), else values
+/// (when allowed) with the line of the first fraction. `None` when the general reader must read the
+/// column to name a problem (a code out of range, values where codes are required).
+fn plain_samples(
+    c: PlainColumn,
+    bits: Option<u32>,
+    values_allowed: bool,
+) -> Option<(Samples, Option<usize>)> {
+    if c.integers {
+        let bits = bits.unwrap_or(32);
+        check_bits(bits).ok()?;
+        let (lo, hi) = (crate::record::min_code(bits), crate::record::max_code(bits));
+        let (lo, hi) = (lo as f64, hi as f64);
+        if c.numbers.iter().any(|&v| v < lo || v > hi) {
+            return None;
+        }
+        return Some((
+            Samples::Codes(c.numbers.iter().map(|&v| v as i32).collect()),
+            None,
+        ));
+    }
+    values_allowed.then_some((Samples::Values(c.numbers), c.fraction))
 }
 
 /// One row's fields, with the empty fields of whitespace separation dropped.
@@ -698,6 +781,137 @@ fn csv_error(e: &csv::Error, path: &str, lines: &[usize]) -> Error {
         "a readable delimited row",
         e.to_string(),
     )
+}
+
+/// Tables at least this long are read in two halves at once (on two threads when the pool has them).
+const PARALLEL_MIN_BYTES: usize = 1 << 20;
+
+/// Columns of a table read in one pass by [`plain_table`]: each column's numbers, whether every one
+/// was written as an integer, and the 1-based line of the first with a fraction.
+struct PlainColumn {
+    numbers: Vec<f64>,
+    integers: bool,
+    fraction: Option<usize>,
+}
+
+/// The columns `wanted` (0-based, ascending) of the table that starts at `sv.start_line`, in one pass
+/// over the bytes with no copy of them: the fast path for the plain tables instruments write (every
+/// row a full row of numbers, no quotes). `None` when anything else is met (a quote, a short row,
+/// an empty field, a word, a number too large): the caller then reads the file with the general
+/// reader, which gives the same numbers or names the line and what is wrong with it.
+fn plain_table(
+    b: &[u8],
+    sep: Separator,
+    sv: &Survey,
+    wanted: &[usize],
+) -> Option<Vec<PlainColumn>> {
+    if sv.start_line == 0 || wanted.is_empty() {
+        return None;
+    }
+    // The byte offset of the table's first line (after the header when there is one).
+    let skip = sv.start_line - 1 + usize::from(sv.header.is_some());
+    let mut from = 0;
+    for _ in 0..skip {
+        from += b[from..].iter().position(|&c| c == b'\n')? + 1;
+    }
+    let body = &b[from..];
+    let first_line = skip + 1;
+    if body.len() < PARALLEL_MIN_BYTES {
+        return plain_rows(body, sep, wanted, first_line).map(|(c, _)| c);
+    }
+    let mid = body.len() / 2;
+    let cut = mid + body[mid..].iter().position(|&c| c == b'\n')? + 1;
+    let (lo, hi) = body.split_at(cut);
+    let lines_lo = lo.iter().filter(|&&c| c == b'\n').count();
+    let (first, second) = rayon::join(
+        || plain_rows(lo, sep, wanted, first_line),
+        || plain_rows(hi, sep, wanted, first_line + lines_lo),
+    );
+    let (mut cols, _) = first?;
+    let (more, _) = second?;
+    for (c, m) in cols.iter_mut().zip(more) {
+        c.numbers.extend_from_slice(&m.numbers);
+        c.integers &= m.integers;
+        c.fraction = c.fraction.or(m.fraction);
+    }
+    Some(cols)
+}
+
+/// The rows of `body` (its first line is file line `first_line`) as [`plain_table`] reads them, and
+/// the number of lines.
+fn plain_rows(
+    body: &[u8],
+    sep: Separator,
+    wanted: &[usize],
+    first_line: usize,
+) -> Option<(Vec<PlainColumn>, usize)> {
+    // The shortest row of numbers is a digit and a separator a column.
+    let room = body.len() / (2 * wanted.last()? + 2) + 1;
+    let mut cols: Vec<PlainColumn> = wanted
+        .iter()
+        .map(|_| PlainColumn {
+            numbers: Vec::with_capacity(room),
+            integers: true,
+            fraction: None,
+        })
+        .collect();
+    let mut lines = 0;
+    for (k, raw) in body.split(|&c| c == b'\n').enumerate() {
+        lines = k + 1;
+        let t = raw.trim_ascii();
+        if t.is_empty() || t[0] == b'#' {
+            continue;
+        }
+        if t.contains(&b'"') {
+            return None;
+        }
+        let mut next = 0;
+        let mut field_at = |i: usize, f: &[u8]| -> Option<()> {
+            if next < wanted.len() && wanted[next] == i {
+                let c = &mut cols[next];
+                next += 1;
+                let v = match parse_int(f) {
+                    IntToken::Value(v) => v as f64,
+                    IntToken::TooLarge => return None,
+                    IntToken::NotInteger => {
+                        let v = super::text::parse_value(f)?;
+                        c.integers = false;
+                        if c.fraction.is_none() && v.fract() != 0.0 {
+                            c.fraction = Some(first_line + k);
+                        }
+                        v
+                    }
+                };
+                c.numbers.push(v);
+            }
+            Some(())
+        };
+        match sep {
+            Separator::Byte(d) => {
+                for (i, f) in t.split(|&c| c == d).enumerate() {
+                    let f = f.trim_ascii();
+                    if f.is_empty() {
+                        return None;
+                    }
+                    field_at(i, f)?;
+                }
+            }
+            Separator::Whitespace => {
+                for (i, f) in t
+                    .split(|&c| c == b' ' || c == b'\t')
+                    .filter(|f| !f.is_empty())
+                    .enumerate()
+                {
+                    field_at(i, f)?;
+                }
+            }
+        }
+        // A row without every wanted column is the general reader's to report.
+        if next < wanted.len() {
+            return None;
+        }
+    }
+    Some((cols, lines))
 }
 
 #[cfg(test)]
@@ -851,5 +1065,65 @@ mod tests {
         let e = by_index("1.5,2\n", 0, None).unwrap_err();
         assert_eq!(e.kind, ErrorKind::NotInteger);
         assert_eq!(e.location, Location::Line(1));
+    }
+    /// The one-pass reader of plain tables gives what the general reader gives, column by column,
+    /// including the line of the first fraction, on small tables and on tables long enough to be read
+    /// in two halves; tables it does not take (quotes, short rows) go to the general reader.
+    #[test]
+    fn plain_tables_read_as_the_general_reader_reads_them() {
+        let mut long = String::from("Model,Bench\nSample interval,1e-6\n\nTime (s),CH1 (V),CH2\n");
+        let rows = 120_000;
+        for k in 0..rows {
+            // The second column has its first fraction far into the second half.
+            let v = if k < 100_000 {
+                format!("{}", k % 7)
+            } else {
+                format!("{}.5", k % 7)
+            };
+            long.push_str(&format!("{:?},{v},{}\n", k as f64 * 1e-6, (k % 11) - 5));
+        }
+        assert!(
+            long.len() >= PARALLEL_MIN_BYTES,
+            "long enough for two halves"
+        );
+        let tables = [
+            "Time (s),CH1 (V)\n0.0,0.25\n1e-6,-0.5\n2e-6,0.125\n".to_string(),
+            "# comment\nn,code\n0,12\n1,-7\n\n2,3\n".to_string(),
+            "1 2\n3\t4\n5   6\n".to_string(),
+            long,
+        ];
+        for t in &tables {
+            let b = t.as_bytes();
+            let sep = detect_separator(b);
+            let sv = survey(b, sep);
+            let wanted: Vec<usize> = (0..sv.fields).collect();
+            let plain = plain_table(b, sep, &sv, &wanted).expect("a plain table");
+            for (i, col) in plain.iter().enumerate() {
+                let (_, general, fraction) =
+                    parse_columns(b, "r.csv", 32, &ColumnSel::Index(i), None, true).unwrap();
+                assert_eq!(col.numbers, general, "column {i} of {:?}", &t[..20]);
+                assert_eq!(col.fraction, fraction, "column {i}");
+                let ints = parse_columns(b, "r.csv", 32, &ColumnSel::Index(i), None, false).is_ok();
+                assert_eq!(col.integers, ints, "column {i}");
+            }
+        }
+        // The long table's second column: its first fraction is on file line 4 + 100_000 + 1.
+        let b = tables[3].as_bytes();
+        let sv = survey(b, Separator::Byte(b','));
+        let p = plain_table(b, Separator::Byte(b','), &sv, &[1]).unwrap();
+        assert_eq!(p[0].fraction, Some(4 + 100_000 + 1));
+        for odd in [
+            "a,b\n\"1\",2\n3,4\n",
+            "a,b\n1,2\n3\n",
+            "a,b\n1,2\n3,\n",
+            "a,b\n1,2\n3,x\n",
+        ] {
+            let b = odd.as_bytes();
+            let sv = survey(b, Separator::Byte(b','));
+            assert!(
+                plain_table(b, Separator::Byte(b','), &sv, &[0, 1]).is_none(),
+                "{odd:?}"
+            );
+        }
     }
 }
