@@ -147,8 +147,8 @@ fn go(args: &PlanArgs) -> Result<String, Error> {
     })?;
     // Checked here as well as in the library so that the message names the option the user typed.
     if !(4..=spurline::MAX_PLAN_SAMPLES).contains(&samples) {
-        let (key, why) = if args.n.is_some() {
-            ("n", String::new())
+        let (key, why) = if args.samples.is_some() {
+            ("samples", String::new())
         } else {
             ("resolution", " (the N that --resolution needs)".to_string())
         };
