@@ -46,7 +46,7 @@ fins=(5.1M 21.3M 37.7M 44.9M 12.7M 29.9M 2.3M 47.1M)
   while [ $# -ge 3 ]; do
     d=$(printf "d%06d" "$1"); mkdir -p "$dir/records/$d"
     "$bin" synth --bits 14 --fs 100M --samples "$samples" --layout i16le --amplitude-dbfs -1 \
-      --coherent-near "$3" --noise-rms "1.$(( $1 % 10 ))" --harmonic 3:-84 --seed $(( $1 * 16 + $2 )) \
+      --coherent-near "$3" --noise-rms "1.$(( $1 % 10 ))" --add-harmonic 3:-84 --seed $(( $1 * 16 + $2 )) \
       --output "$dir/records/$d/c$2.bin" >/dev/null
     rm -f "$dir/records/$d/c$2.json"
     shift 3

@@ -18,6 +18,11 @@ pub struct CoherentChoice {
     pub bin_width_hz: f64,
 }
 
+/// Longest record a plan accepts (2^40 samples, a tebisample: far beyond any capture memory).
+/// Below it every cycle count J < N/2 and every bin h·J is a whole number an `f64` holds exactly,
+/// so the planned frequencies are exact; above 2^53 they would silently round.
+pub const MAX_PLAN_SAMPLES: usize = 1 << 40;
+
 /// Chooses the cycle count J nearest to target·N/fs that is odd and coprime with N (and prime when
 /// `prime` is set), with 0 < J < N/2.
 ///
@@ -33,17 +38,11 @@ pub fn nearest_coherent(
     target_hz: f64,
     prime: bool,
 ) -> Result<CoherentChoice> {
-    if !(sample_rate_hz.is_finite() && sample_rate_hz > 0.0) {
-        return Err(Error::setting(
-            "sample_rate_hz",
-            "a positive finite sample rate in Hz",
-            sample_rate_hz.to_string(),
-        ));
-    }
-    if samples < 4 {
+    crate::record::check_sample_rate(sample_rate_hz, "")?;
+    if !(4..=MAX_PLAN_SAMPLES).contains(&samples) {
         return Err(Error::setting(
             "samples",
-            "at least 4 samples",
+            format!("a record length in 4..={} samples (2^40)", MAX_PLAN_SAMPLES),
             samples.to_string(),
         ));
     }

@@ -158,7 +158,7 @@ pub use crate::fit::{
 pub use crate::spectrum::{
     ideal_snr_db, Coherence, HarmonicFigure, LeakageDiagnosis, LevelUncertainty, PerHarmonic,
     Spectrum, SpectrumSettings, SpectrumUncertainty, Spur, Window, WindowChoice, WindowFigures,
-    KAISER_BETA_MAX,
+    KAISER_BETA_MAX, MAX_GUARD_BINS,
 };
 
 // The other analyses of a record: two tones, interleaving, code-density linearity.
@@ -169,6 +169,7 @@ pub use crate::analyses::imd::{
 pub use crate::analyses::interleave::{
     analyze_interleaved, analyze_interleaved_traced, ChannelEstimate, InterleaveResult,
     InterleaveSettings, InterleaveSpectrum, InterleaveSpur, InterleaveSpurKind, Interleaved,
+    MAX_CHANNELS,
 };
 pub use crate::analyses::linearity::{
     analyze_histogram, distinct_phases, phase_coverage, plot::write_plots as write_linearity_plots,
@@ -182,7 +183,7 @@ pub use crate::freq::{fold_to_first_zone, nearest_coherent, CoherentChoice};
 pub use crate::plan::{
     harmonic_places, imd_products, plan_histogram, plan_tone, plan_two_tone,
     samples_for_resolution, HarmonicPlace, HistogramPlan, ImdProduct, Placement, TonePlan,
-    TwoTonePlan, MAX_PLAN_HARMONIC,
+    TwoTonePlan, MAX_PLAN_HARMONIC, MAX_PLAN_SAMPLES,
 };
 
 // Simulated converters, for demos and tests.

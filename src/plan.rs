@@ -10,6 +10,7 @@
 use serde::Serialize;
 
 use crate::error::{Error, Result};
+pub use crate::freq::MAX_PLAN_SAMPLES;
 use crate::freq::{fold_bin, fold_to_first_zone, is_prime, nearest_coherent, CoherentChoice};
 
 /// Where a harmonic of the input lands in the first Nyquist zone.
@@ -161,7 +162,12 @@ pub fn plan_histogram(
     let length = if samples as u64 >= required_phases {
         samples
     } else {
-        (required_phases as usize).next_power_of_two()
+        // Above 2^63 no power of two exists; the coherent choice below refuses lengths past
+        // MAX_PLAN_SAMPLES with the range.
+        usize::try_from(required_phases)
+            .ok()
+            .and_then(usize::checked_next_power_of_two)
+            .unwrap_or(usize::MAX)
     };
     let tone = nearest_coherent(fs, length, target_hz, false)?;
     Ok(HistogramPlan {

@@ -258,21 +258,28 @@ pub enum NoTest {
     TooFew,
     /// Both sides (or all differences) have zero spread: the t statistic is undefined.
     ZeroVariance,
+    /// The values are so large (a hand-edited cell of 1e308) that their mean or spread overflows a
+    /// 64-bit float: the statistic cannot be formed.
+    Overflow,
 }
 
-fn finish(difference: f64, se: f64, df: f64, confidence: f64) -> TTest {
-    let t = StudentsT::new(0.0, 1.0, df).expect("df > 0 and finite");
+fn finish(difference: f64, se: f64, df: f64, confidence: f64) -> Result<TTest, NoTest> {
+    if !(difference.is_finite() && se.is_finite() && se > 0.0) {
+        return Err(NoTest::Overflow);
+    }
+    // Welch's df is a ratio of fourth powers: it overflows (or turns NaN) for huge values.
+    let t = StudentsT::new(0.0, 1.0, df).map_err(|_| NoTest::Overflow)?;
     let statistic = difference / se;
     let p_value = (2.0 * t.cdf(-statistic.abs())).min(1.0);
     let q = t.inverse_cdf(0.5 + confidence / 2.0);
-    TTest {
+    Ok(TTest {
         difference,
         statistic,
         df,
         p_value,
         ci_low: difference - q * se,
         ci_high: difference + q * se,
-    }
+    })
 }
 
 /// Welch's unequal-variance t test of B against A (same as scipy.stats.ttest_ind(b, a,
@@ -285,11 +292,14 @@ pub fn welch(a: &[f64], b: &[f64], confidence: f64) -> Result<TTest, NoTest> {
     let va = sa.std.unwrap_or(0.0).powi(2) / sa.n as f64;
     let vb = sb.std.unwrap_or(0.0).powi(2) / sb.n as f64;
     let se2 = va + vb;
+    if !se2.is_finite() {
+        return Err(NoTest::Overflow);
+    }
     if se2 <= 0.0 {
         return Err(NoTest::ZeroVariance);
     }
     let df = se2 * se2 / (va * va / (sa.n - 1) as f64 + vb * vb / (sb.n - 1) as f64);
-    Ok(finish(sb.mean - sa.mean, se2.sqrt(), df, confidence))
+    finish(sb.mean - sa.mean, se2.sqrt(), df, confidence)
 }
 
 /// Paired t test of B against A, pair by pair (same as scipy.stats.ttest_rel(b, a)).
@@ -305,15 +315,18 @@ pub fn paired(a: &[f64], b: &[f64], confidence: f64) -> Result<TTest, NoTest> {
         _ => return Err(NoTest::TooFew),
     };
     let sd = s.std.unwrap_or(0.0);
+    if !(sd.is_finite() && s.mean.is_finite()) {
+        return Err(NoTest::Overflow);
+    }
     if sd <= 0.0 {
         return Err(NoTest::ZeroVariance);
     }
-    Ok(finish(
+    finish(
         s.mean,
         sd / (s.n as f64).sqrt(),
         (s.n - 1) as f64,
         confidence,
-    ))
+    )
 }
 
 #[cfg(test)]

@@ -36,7 +36,14 @@ fn analyzes_text_record_with_sidecar() {
     let p = synth(
         dir.path(),
         "a.txt",
-        &["--bits", "12", "--noise-rms", "0.5", "--harmonic", "3:-75"],
+        &[
+            "--bits",
+            "12",
+            "--noise-rms",
+            "0.5",
+            "--add-harmonic",
+            "3:-75",
+        ],
     );
     let out = spurline()
         .arg("analyze")
@@ -390,4 +397,35 @@ fn every_subcommand_help_ends_with_examples_and_exit_status() {
             .count();
         assert!((2..=3).contains(&n), "{c}: {n} examples");
     }
+}
+
+/// The renamed options of `synth` and `analyze` (`--harmonic` → `--add-harmonic`, `--report` →
+/// `--out`) still work under their old names, give the same output, and warn.
+#[test]
+fn old_option_names_still_work_and_warn() {
+    let dir = tempfile::tempdir().unwrap();
+    let new = synth(dir.path(), "new.txt", &["--add-harmonic", "3:-70"]);
+    let old = dir.path().join("old.txt");
+    let out = spurline()
+        .args(["synth", "--output"])
+        .arg(&old)
+        .args(["--harmonic", "3:-70"])
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("--harmonic is now --add-harmonic"), "{err}");
+    assert_eq!(std::fs::read(&new).unwrap(), std::fs::read(&old).unwrap());
+    let report = dir.path().join("rep");
+    let out = spurline()
+        .arg("analyze")
+        .arg(&new)
+        .arg("--report")
+        .arg(&report)
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("--report is now --out"), "{err}");
+    assert!(report.join("index.html").is_file());
 }

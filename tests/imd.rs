@@ -244,6 +244,10 @@ fn interleave_json_names_spurs_and_channel_errors() {
     // Channel estimates: the least-squares noise of a channel's offset and relative gain is under
     // 0.01 codes and 1e-6 with 8192 samples of quantisation noise (σ/√L, σ·√(2/L)/A; from memory).
     let est = r["channel_estimates"].as_array().unwrap();
+    // Channels are numbered from 1, as `--channel K/M` counts them: channel 1 holds samples 0, 2, ...
+    // (the +o offset above), channel 2 samples 1, 3, ...
+    let numbers: Vec<u64> = est.iter().map(|e| e["channel"].as_u64().unwrap()).collect();
+    assert_eq!(numbers, [1, 2]);
     for (e, sign) in est.iter().zip([1.0, -1.0]) {
         assert!((e["offset_codes"].as_f64().unwrap() - sign * o).abs() < CHANNEL_OFFSET_CODES);
         assert!((e["gain_error"].as_f64().unwrap() - sign * g / 2.0).abs() < CHANNEL_GAIN);
@@ -309,7 +313,7 @@ fn dom_in_browser(page: &Path) -> Option<String> {
     Some(dom)
 }
 
-/// `imd --report` and `interleave --report` write a page in the run page's shell with each record's
+/// `imd --out` and `interleave --out` write a page in the run page's shell with each record's
 /// marked spectrum inline and as a file; a bad record is a failed row and the rest go on; the page
 /// renders in a browser as our SVG with no script.
 #[test]
@@ -323,7 +327,7 @@ fn imd_and_interleave_write_their_pages() {
         .arg("imd")
         .arg(&good)
         .arg(&bad)
-        .args(["--fs", "100M", "--bits", "18", "--report"])
+        .args(["--fs", "100M", "--bits", "18", "--out"])
         .arg(&out)
         .output()
         .unwrap();
@@ -368,15 +372,7 @@ fn imd_and_interleave_write_their_pages() {
     let st = spurline()
         .arg("interleave")
         .arg(&p)
-        .args([
-            "--channels",
-            "2",
-            "--fs",
-            "100M",
-            "--bits",
-            "16",
-            "--report",
-        ])
+        .args(["--channels", "2", "--fs", "100M", "--bits", "16", "--out"])
         .arg(&out2)
         .output()
         .unwrap();
@@ -408,4 +404,41 @@ fn imd_and_interleave_write_their_pages() {
         assert!(dom.matches("<polyline").count() >= 1);
         assert!(!dom.to_ascii_lowercase().contains("<script"));
     }
+}
+
+/// `interleave --channel K/M` would analyse one channel's samples as if they were the whole
+/// interleaved record: it is refused with a message naming the option, not answered with a
+/// meaningless fit.
+#[test]
+fn interleave_refuses_one_channel_of_the_record() {
+    let dir = tempfile::tempdir().unwrap();
+    let p = write_codes(dir.path(), "r.txt", &two_tone_codes(0.0, 0.0));
+    let out = spurline()
+        .arg("interleave")
+        .arg(&p)
+        .args([
+            "--channels",
+            "4",
+            "--channel",
+            "2/4",
+            "--fs",
+            "100M",
+            "--bits",
+            "16",
+        ])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("channel") && err.contains("2/4"), "{err}");
+    assert!(out.stdout.is_empty());
+}
+
+/// `imd` has no --fit option, so its help does not mention one.
+#[test]
+fn imd_help_names_only_its_own_options() {
+    let out = spurline().args(["imd", "--help"]).output().unwrap();
+    let help = String::from_utf8_lossy(&out.stdout);
+    assert!(out.status.success());
+    assert!(!help.contains("--fit"), "{help}");
 }

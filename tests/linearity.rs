@@ -217,7 +217,7 @@ fn plots_are_svg_with_missing_codes_marked() {
         ],
     );
     let plots = dir.path().join("plots");
-    let out = linearity(&[&p], &["--plot", plots.to_str().unwrap()]);
+    let out = linearity(&[&p], &["--out", plots.to_str().unwrap()]);
     assert!(
         out.status.success(),
         "{}",

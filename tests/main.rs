@@ -14,6 +14,7 @@ mod layout;
 mod linearity;
 mod lost_results;
 mod lot_page;
+mod numeric_bounds;
 mod pages;
 mod path_traversal;
 mod pipeline;

@@ -161,7 +161,7 @@ fn svg_texts(svg: &str) -> Vec<String> {
         .collect()
 }
 
-/// `linearity --plot DIR` writes the page with the figures table and both plots inline. The plots
+/// `linearity --out DIR` writes the page with the figures table and both plots inline. The plots
 /// are in the report's style (its background colour, its tick labels): codes are labelled as whole
 /// numbers and no tick reads "-0.0" or "500.0"; a missing code is ringed and counted in the legend.
 /// The browser builds the page with no console message.
@@ -173,7 +173,7 @@ fn linearity_writes_its_page_with_plain_ticks() {
     let o = spurline()
         .arg("linearity")
         .arg(&record)
-        .args(["--fs", "100M", "--bits", "12", "--plot"])
+        .args(["--fs", "100M", "--bits", "12", "--out"])
         .arg(&out)
         .output()
         .unwrap();

@@ -42,12 +42,20 @@ fn worked_example_44_mhz() {
     // Hand arithmetic (common practice, no source):
     // 44e6·2048/100e6 = 901.12 → J = 901, odd and coprime with 2048; 901·100e6/2048 = 43 994 140.625 Hz.
     // 901 = 17·53 is not prime; the nearest prime is 907 (887 is 14.12 bins away, 907 is 5.88).
-    let text = plan(&["--fs", "100M", "--n", "2048", "--fin", "44M"]);
+    let text = plan(&["--fs", "100M", "--samples", "2048", "--fin", "44M"]);
     assert!(text.contains("J = 901 cycles"), "{text}");
     assert!(text.contains("43994140.625 Hz"), "{text}");
     assert!(text.contains("not prime (17·53)"), "{text}");
     assert!(text.contains("48828.125 Hz"), "{text}");
-    let prime = plan(&["--fs", "100M", "--n", "2048", "--fin", "44M", "--prime"]);
+    let prime = plan(&[
+        "--fs",
+        "100M",
+        "--samples",
+        "2048",
+        "--fin",
+        "44M",
+        "--prime",
+    ]);
     assert!(prime.contains("J = 907 cycles"), "{prime}");
     assert!(
         prime.contains(&format!("{} Hz", 907.0 * 100e6 / 2048.0)),
@@ -60,7 +68,7 @@ fn csv_has_stable_columns_with_units() {
     let text = plan(&[
         "--fs",
         "100M",
-        "--n",
+        "--samples",
         "2048",
         "--fin",
         "44M,10M",
@@ -110,7 +118,7 @@ fn csv_has_stable_columns_with_units() {
     let ranged = plan(&[
         "--fs",
         "100M",
-        "--n",
+        "--samples",
         "2048",
         "--range",
         "1M:41M:10M",
@@ -129,7 +137,7 @@ fn csv_has_stable_columns_with_units() {
     let again = plan(&[
         "--fs",
         "100M",
-        "--n",
+        "--samples",
         "2048",
         "--fin",
         "44M,10M",
@@ -147,7 +155,7 @@ fn collisions_are_reported_in_csv() {
     let text = plan(&[
         "--fs",
         "1024",
-        "--n",
+        "--samples",
         "1024",
         "--fin",
         "341",
@@ -175,7 +183,7 @@ fn two_tone_products_in_csv() {
     let text = plan(&[
         "--fs",
         "100M",
-        "--n",
+        "--samples",
         "1024",
         "--two-tone",
         "5M,6M",
@@ -213,7 +221,7 @@ fn two_tone_products_in_csv() {
     let paired = plan(&[
         "--fs",
         "100M",
-        "--n",
+        "--samples",
         "1024",
         "--fin",
         "5M",
@@ -225,7 +233,7 @@ fn two_tone_products_in_csv() {
     ]);
     assert_eq!(paired, text);
     // Text output names the products.
-    let shown = plan(&["--fs", "100M", "--n", "1024", "--two-tone", "5M,6M"]);
+    let shown = plan(&["--fs", "100M", "--samples", "1024", "--two-tone", "5M,6M"]);
     assert!(
         shown.contains("IM3 2f1-f2") && shown.contains("IM2 f2-f1"),
         "{shown}"
@@ -253,7 +261,7 @@ fn record_length_for_a_resolution() {
     let short = plan(&[
         "--fs",
         "100M",
-        "--n",
+        "--samples",
         "4096",
         "--resolution",
         "10k",
@@ -269,28 +277,42 @@ fn record_length_for_a_resolution() {
 #[test]
 fn bad_settings_exit_2_without_panic() {
     let cases: [&[&str]; 8] = [
-        &["--fs", "100M", "--n", "2048", "--fin", "60M"],
+        &["--fs", "100M", "--samples", "2048", "--fin", "60M"],
         &["--fs", "100M", "--fin", "1M"],
-        &["--fs", "100M", "--n", "2048"],
-        &["--fs", "100M", "--n", "2048", "--range", "5M:1M:1M"],
+        &["--fs", "100M", "--samples", "2048"],
+        &["--fs", "100M", "--samples", "2048", "--range", "5M:1M:1M"],
         &[
-            "--fs", "100M", "--n", "2048", "--fin", "1M,2M", "--fin2", "3M",
+            "--fs",
+            "100M",
+            "--samples",
+            "2048",
+            "--fin",
+            "1M,2M",
+            "--fin2",
+            "3M",
         ],
         &[
             "--fs",
             "100M",
-            "--n",
+            "--samples",
             "2048",
             "--fin",
             "1M",
             "--two-tone",
             "2M,3M",
         ],
-        &["--fs", "100M", "--n", "2048", "--two-tone", "5M,5.01M"],
         &[
             "--fs",
             "100M",
-            "--n",
+            "--samples",
+            "2048",
+            "--two-tone",
+            "5M,5.01M",
+        ],
+        &[
+            "--fs",
+            "100M",
+            "--samples",
             "2048",
             "--fin",
             "1M",
@@ -305,4 +327,27 @@ fn bad_settings_exit_2_without_panic() {
         assert!(!stderr.contains("panicked"), "{args:?}: {stderr}");
         assert!(stderr.contains("expected"), "{args:?}: {stderr}");
     }
+}
+
+/// `plan --n` is the old spelling of `--samples` (one name for a record length across commands): it
+/// still works, gives the same plan, and warns that it was renamed.
+#[test]
+fn old_record_length_option_still_works_and_warns() {
+    let new = plan(&["--fs", "100M", "--samples", "2048", "--fin", "44M"]);
+    let out = spurline()
+        .arg("plan")
+        .args(["--fs", "100M", "--n", "2048", "--fin", "44M"])
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    assert_eq!(String::from_utf8_lossy(&out.stdout), new);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("--n is now --samples"), "{err}");
+    // The old name is hidden from the help; the new one is there.
+    let help = spurline().args(["plan", "--help"]).output().unwrap();
+    let help = String::from_utf8_lossy(&help.stdout);
+    assert!(
+        help.contains("--samples") && !help.contains("--n <"),
+        "{help}"
+    );
 }

@@ -1,6 +1,6 @@
 //! The report stage: the SVG plots (well-formed, labelled, markers where the figures put them,
 //! deterministic, small for long records), the CSV and JSON summaries (field for field the same),
-//! escaping of names, atomic writes, the `analyze --report` and `demo` wiring, and the page rendered by
+//! escaping of names, atomic writes, the `analyze --out` and `demo` wiring, and the page rendered by
 //! a real browser (headless chromium, skipped where it is not installed).
 
 use assert_cmd::Command;
@@ -352,7 +352,7 @@ fn analyze_writes_a_report_of_the_records_it_analysed() {
         .arg(bench.join("low.txt"))
         .arg(bench.join("high.txt"))
         .arg(bench.join("missing.txt"))
-        .arg("--report")
+        .arg("--out")
         .arg(&out)
         .arg("--log-frequency")
         .output()

@@ -648,7 +648,7 @@ fn an_analyze_report_is_recorded_with_records_as_conditions() {
             spurline()
                 .arg("analyze")
                 .args(&files)
-                .arg("--report")
+                .arg("--out")
                 .arg(&report)
                 .args(["--store", url, "--json"])
                 .output()

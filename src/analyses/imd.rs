@@ -382,6 +382,7 @@ pub fn analyze_two_tone_traced(
     record: &Record,
     settings: &ImdSettings,
 ) -> Result<(ImdResult, Vec<f64>)> {
+    crate::spectrum::rule::check_guard_bins(settings.guard_bins)?;
     let n = record.len();
     let min = if settings.min_samples == 0 {
         64

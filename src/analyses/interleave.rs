@@ -24,6 +24,8 @@
 //! means: offset = C_m − mean C (codes); gain error = A_m / mean A − 1; timing error =
 //! (φ_m − mean φ)/(2π·f) seconds, positive when the channel samples late. Phase differences are taken in
 //! (−π, π], so a timing error of half an input period or more cannot be told from a smaller one.
+//! The formulas index channels m = 0..M−1; results number them m + 1, counted from 1 as `--channel
+//! K/M` does, so that channel K of a result is the record `--channel K/M` reads.
 
 use crate::analysis::RecordResult;
 use crate::dft::fft::power_spectrum;
@@ -42,6 +44,10 @@ use std::f64::consts::{PI, TAU};
 
 /// Fewest samples per channel sub-record.
 pub const MIN_CHANNEL_SAMPLES: usize = 16;
+
+/// Most interleaved channels an analysis accepts: beyond the largest interleaved converters built
+/// (tens to a few hundred sub-converters), and small enough that channel arithmetic cannot overflow.
+pub const MAX_CHANNELS: usize = 4096;
 
 /// Settings of the interleaving analysis.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -68,7 +74,8 @@ impl InterleaveSettings {
 /// One channel's fitted sine and its mismatch relative to the channel means.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct ChannelEstimate {
-    /// Channel index m (sample n belongs to channel n mod M), from 0.
+    /// Channel number, counted from 1 as in `--channel K/M`: sample n (from 0) belongs to channel
+    /// n mod M + 1.
     pub channel: usize,
     /// Samples in its sub-record.
     pub samples: usize,
@@ -157,7 +164,7 @@ pub struct Interleaved {
     pub channels: usize,
     /// The four-parameter fit of the whole record.
     pub fit: Option<SineFit>,
-    /// Per-channel estimates, channel 0 first.
+    /// Per-channel estimates, channel 1 first.
     pub channel_estimates: Vec<ChannelEstimate>,
     /// The spectral figures.
     pub spectrum: Option<InterleaveSpectrum>,
@@ -195,13 +202,14 @@ pub fn analyze_interleaved_traced(
     let n = record.len();
     let m = settings.channels;
     let path = record.source.as_str();
-    if m < 2 {
+    if !(2..=MAX_CHANNELS).contains(&m) {
         return Err(Error::setting(
             "channels",
-            "at least 2 interleaved channels",
+            format!("a count of interleaved channels in 2..={MAX_CHANNELS}"),
             m.to_string(),
         ));
     }
+    crate::spectrum::rule::check_guard_bins(settings.guard_bins)?;
     if n / m < MIN_CHANNEL_SAMPLES {
         return Err(Error::new(
             ErrorKind::TooFewSamples,
@@ -260,7 +268,7 @@ pub fn analyze_interleaved_traced(
                 ErrorKind::DegenerateFit,
                 path,
                 Location::Whole,
-                format!("a solvable three-parameter fit of channel {ch}"),
+                format!("a solvable three-parameter fit of channel {}", ch + 1),
                 "a singular system",
             )
         })?;
@@ -293,7 +301,7 @@ pub fn analyze_interleaved_traced(
         .iter()
         .enumerate()
         .map(|(ch, &(len, a, b, c, rms))| ChannelEstimate {
-            channel: ch,
+            channel: ch + 1,
             samples: len,
             amplitude_codes: z[ch].norm(),
             phase_rad: phase_at_zero(a, b, f, centre),
@@ -306,7 +314,7 @@ pub fn analyze_interleaved_traced(
         .collect();
     if dphi.iter().any(|d| d.abs() > PI / 2.0) {
         warnings.push(
-            "a channel's phase differs from channel 0 by more than a quarter turn: its timing error may be ambiguous by whole input periods"
+            "a channel's phase differs from channel 1 by more than a quarter turn: its timing error may be ambiguous by whole input periods"
                 .to_string(),
         );
     }

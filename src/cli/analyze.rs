@@ -1,5 +1,5 @@
 //! `spurline analyze`: read records, analyse each (or average them), print a table or JSON, and with
-//! `--report DIR` write a report (page, summaries, plots) of the records analysed.
+//! `--out DIR` write a report (page, summaries, plots) of the records analysed.
 
 use super::{AnalysisArgs, ReadArgs, EXIT_ERROR, EXIT_OK};
 use clap::Args;
@@ -25,15 +25,18 @@ pub struct AnalyzeArgs {
     pub json: bool,
     /// Also write a report into DIR: index.html, summary.csv, results.json, and per device (the record
     /// file's folder name) its summaries and each record's spectrum, residual and histogram plots.
-    #[arg(long, value_name = "DIR")]
-    pub report: Option<PathBuf>,
+    #[arg(long, value_name = "DIR", group = "report_dir")]
+    pub out: Option<PathBuf>,
+    /// The old name of --out (warns).
+    #[arg(long = "report", value_name = "DIR", hide = true, group = "report_dir")]
+    pub report_old: Option<PathBuf>,
     /// Draw the report's spectra on a log frequency axis.
-    #[arg(long, requires = "report")]
+    #[arg(long, requires = "report_dir")]
     pub log_frequency: bool,
     /// Record the report into this results store (a SQLite file, created when missing, or a
     /// PostgreSQL URL): each record file's folder is a device, its name a condition. One
     /// transaction; the same report recorded twice is refused (exit status at least 1).
-    #[arg(long, requires = "report")]
+    #[arg(long, requires = "report_dir")]
     pub store: Option<String>,
     /// The lot's name in the store [default: the report folder's name].
     #[arg(long, requires = "store")]
@@ -56,7 +59,9 @@ fn names_of(path: &Path) -> (String, String) {
 }
 
 /// Runs `analyze`.
-pub fn run(args: AnalyzeArgs) -> i32 {
+pub fn run(mut args: AnalyzeArgs) -> i32 {
+    args.out = super::renamed(args.out.take(), args.report_old.take(), "--report", "--out");
+    let args = args;
     // A bad option fails every record; with --json the array still has one object per record.
     let fail_all = |e: &spurline::Error| {
         if args.json {
@@ -76,7 +81,7 @@ pub fn run(args: AnalyzeArgs) -> i32 {
     let settings = match args.analysis.settings() {
         // The residual is kept only for a report's plot.
         Ok(s) => spurline::AnalysisSettings {
-            keep_residual: args.report.is_some(),
+            keep_residual: args.out.is_some(),
             ..s
         },
         Err(e) => return fail_all(&e),
@@ -108,7 +113,7 @@ pub fn run(args: AnalyzeArgs) -> i32 {
         }
     }
     // Traces are kept only when a report will draw them.
-    let keep = args.report.is_some();
+    let keep = args.out.is_some();
     // Each result with the place of its file in the input (the first averaged file's for an
     // averaged result), so that the output keeps input order even when a file is named twice.
     let mut results: Vec<(usize, Analysis, Option<Traces>)> = Vec::new();
@@ -190,7 +195,7 @@ pub fn run(args: AnalyzeArgs) -> i32 {
             eprintln!("spurline: error: {}", e.message);
         }
     }
-    if let Some(dir) = &args.report {
+    if let Some(dir) = &args.out {
         let items: Vec<(String, String, &Analysis, Option<&Traces>)> = results
             .iter()
             .map(|(_, a, t)| {

@@ -11,7 +11,7 @@ const EXAMPLES: &[(&str, &[&str], &str)] = &[
         "analyze",
         &[
             "spurline analyze capture.txt --fs 100M --bits 12   # one record, figures as a table",
-            "spurline analyze scope.bin --format i16le --bits 12 --fs 250M --report out/scope   # page and plots",
+            "spurline analyze scope.bin --format i16le --bits 12 --fs 250M --out out/scope   # page and plots",
             "spurline analyze r1.txt r2.txt r3.txt --fs 100M --bits 16 --average --json",
         ],
         "0 every record analysed, 1 with --store: the report is already in the store (nothing \
@@ -21,7 +21,7 @@ const EXAMPLES: &[(&str, &[&str], &str)] = &[
         "imd",
         &[
             "spurline imd twotone.txt --fs 100M --bits 14   # IM2, IM3 and two-tone SFDR",
-            "spurline imd twotone.txt --fs 100M --bits 14 --report out/imd   # page, products marked by order",
+            "spurline imd twotone.txt --fs 100M --bits 14 --out out/imd   # page, products marked by order",
             "spurline imd a.txt b.txt --fs 100M --bits 14 --window blackman-harris-7 --json",
         ],
         "0 every record analysed, 2 an error (the other records are still analysed)",
@@ -30,7 +30,7 @@ const EXAMPLES: &[(&str, &[&str], &str)] = &[
         "interleave",
         &[
             "spurline interleave tiadc.bin --format i16le --fs 1G --bits 12 --channels 4",
-            "spurline interleave tiadc.txt --fs 1G --bits 12 --channels 2 --report out/tiadc   # page with the spurs marked",
+            "spurline interleave tiadc.txt --fs 1G --bits 12 --channels 2 --out out/tiadc   # page with the spurs marked",
         ],
         "0 every record analysed, 2 an error (the other records are still analysed)",
     ),
@@ -53,7 +53,7 @@ const EXAMPLES: &[(&str, &[&str], &str)] = &[
     (
         "synth",
         &[
-            "spurline synth -o sim.txt --bits 14 --coherent-near 21M --noise-rms 0.8 --harmonic 3:-82",
+            "spurline synth -o sim.txt --bits 14 --coherent-near 21M --noise-rms 0.8 --add-harmonic 3:-82",
             "spurline synth -o big.bin --bits 16 --samples 16777216 --fin 10.1234567M --layout i16le",
         ],
         "0 written, 2 an error (bad settings, an output that cannot be written)",
@@ -74,8 +74,8 @@ const EXAMPLES: &[(&str, &[&str], &str)] = &[
     (
         "plan",
         &[
-            "spurline plan --fs 100M --n 8192 --fin 10M --fin 20M --harmonics 7",
-            "spurline plan --fs 100M --n 8192 --two-tone 5M,6M   # where IM products land",
+            "spurline plan --fs 100M --samples 8192 --fin 10M --fin 20M --harmonics 7",
+            "spurline plan --fs 100M --samples 8192 --two-tone 5M,6M   # where IM products land",
         ],
         "0 planned, 2 an error (bad settings, no coherent choice)",
     ),
@@ -83,7 +83,7 @@ const EXAMPLES: &[(&str, &[&str], &str)] = &[
         "linearity",
         &[
             "spurline linearity hist1.bin hist2.bin --format u16le --bits 10 --fs 1M",
-            "spurline linearity hist.bin --format u16le --bits 10 --fs 1M --dnl-uncertainty 0.1 --plot out/",
+            "spurline linearity hist.bin --format u16le --bits 10 --fs 1M --dnl-uncertainty 0.1 --out out/",
         ],
         "0 done, 2 an error (unreadable record, a sine that does not overdrive the range, bad \
          settings)",

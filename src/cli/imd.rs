@@ -32,11 +32,20 @@ pub struct ImdArgs {
     /// Folder for the report: index.html and one two-tone spectrum per record, the IM products
     /// marked by order.
     #[arg(long, value_name = "DIR")]
-    pub report: Option<PathBuf>,
+    pub out: Option<PathBuf>,
+    /// The old name of --out (warns).
+    #[arg(
+        long = "report",
+        value_name = "DIR",
+        hide = true,
+        conflicts_with = "out"
+    )]
+    pub report_old: Option<PathBuf>,
 }
 
 /// Runs `imd`.
-pub fn run(args: ImdArgs) -> i32 {
+pub fn run(mut args: ImdArgs) -> i32 {
+    args.out = super::renamed(args.out.take(), args.report_old.take(), "--report", "--out");
     let ingest = match args.read.settings() {
         Ok(s) => s,
         Err(e) => return super::fail(&e),
@@ -57,7 +66,7 @@ pub fn run(args: ImdArgs) -> i32 {
         args.json,
         |record| analyze_two_tone_traced(record, &settings),
         spurline::render_two_tone,
-        args.report.as_deref().map(|dir| {
+        args.out.as_deref().map(|dir| {
             let write: super::ReportWriter<spurline::TwoTone> = &|d, items| {
                 spurline::write_two_tone_report(d, items, &spurline::PlotOptions::default())
             };

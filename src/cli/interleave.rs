@@ -32,15 +32,37 @@ pub struct InterleaveArgs {
     /// Folder for the report: index.html and one spectrum per record, the offset spurs and the
     /// gain/timing images marked.
     #[arg(long, value_name = "DIR")]
-    pub report: Option<PathBuf>,
+    pub out: Option<PathBuf>,
+    /// The old name of --out (warns).
+    #[arg(
+        long = "report",
+        value_name = "DIR",
+        hide = true,
+        conflicts_with = "out"
+    )]
+    pub report_old: Option<PathBuf>,
 }
 
 /// Runs `interleave`.
-pub fn run(args: InterleaveArgs) -> i32 {
+pub fn run(mut args: InterleaveArgs) -> i32 {
+    args.out = super::renamed(args.out.take(), args.report_old.take(), "--report", "--out");
     let ingest = match args.read.settings() {
         Ok(s) => s,
         Err(e) => return super::fail(&e),
     };
+    // One channel of the record holds none of the mismatch between channels: its fit would be of a
+    // different record (sample n of channel k) and its figures meaningless.
+    if let Some(c) = &args.read.channel {
+        return super::fail(&spurline::Error::setting(
+            "channel",
+            format!(
+                "no --channel: interleave reads every channel's samples (n mod {} + 1 is the \
+                 channel), and --channels gives their count",
+                args.channels
+            ),
+            c.clone(),
+        ));
+    }
     let window = match args.window.parse() {
         Ok(w) => w,
         Err(e) => return super::fail(&e),
@@ -56,7 +78,7 @@ pub fn run(args: InterleaveArgs) -> i32 {
         args.json,
         |record| analyze_interleaved_traced(record, &settings),
         spurline::render_interleaved,
-        args.report.as_deref().map(|dir| {
+        args.out.as_deref().map(|dir| {
             let write: super::ReportWriter<spurline::Interleaved> = &|d, items| {
                 spurline::write_interleave_report(d, items, &spurline::PlotOptions::default())
             };

@@ -36,11 +36,15 @@ pub struct LinearityArgs {
     pub dnl_uncertainty: f64,
     /// Write dnl.svg and inl.svg (DNL and INL against code) into this folder.
     #[arg(long, value_name = "DIR")]
-    pub plot: Option<PathBuf>,
+    pub out: Option<PathBuf>,
+    /// The old name of --out (warns).
+    #[arg(long = "plot", value_name = "DIR", hide = true, conflicts_with = "out")]
+    pub plot_old: Option<PathBuf>,
 }
 
 /// Runs `linearity`.
-pub fn run(args: LinearityArgs) -> i32 {
+pub fn run(mut args: LinearityArgs) -> i32 {
+    args.out = super::renamed(args.out.take(), args.plot_old.take(), "--plot", "--out");
     match go(&args) {
         Ok(text) => {
             print!("{text}");
@@ -108,7 +112,7 @@ fn go(args: &LinearityArgs) -> Result<String, Vec<Error>> {
     } else {
         render(&result)
     };
-    if let Some(dir) = &args.plot {
+    if let Some(dir) = &args.out {
         let paths = write_linearity_plots(&result, dir).map_err(|e| vec![e])?;
         if !args.json {
             let shown: Vec<String> = paths.iter().map(|p| p.display().to_string()).collect();

@@ -200,6 +200,23 @@ pub(crate) fn is_stdout(path: &std::path::Path) -> bool {
     }
 }
 
+/// The value of an option given under its new name or its old one (a hidden alias kept so that
+/// scripts keep working); the old name is warned about on stderr.
+pub(crate) fn renamed<T>(
+    new: Option<T>,
+    old: Option<T>,
+    old_flag: &str,
+    new_flag: &str,
+) -> Option<T> {
+    if old.is_some() {
+        eprintln!(
+            "spurline: warning: {old_flag} is now {new_flag}; the old name still works but will be \
+             removed"
+        );
+    }
+    new.or(old)
+}
+
 pub(crate) fn fail(e: &spurline::Error) -> i32 {
     eprintln!("spurline: error: {e}");
     EXIT_ERROR
@@ -221,7 +238,7 @@ pub struct ReadArgs {
     /// Converter resolution N in bits (1..=32). Overrides the sidecar.
     #[arg(long)]
     pub bits: Option<u32>,
-    /// Expected input frequency in hertz: guides the four-parameter fit, required by --fit three.
+    /// Expected input frequency in hertz: where the fit starts looking for the tone.
     #[arg(long, value_parser = si_value)]
     pub fin: Option<f64>,
     /// Full-scale range in volts peak-to-peak: scales a record of volts to full scale (dBFS); for a
@@ -331,7 +348,7 @@ impl ReadArgs {
 /// Options of the analysis itself.
 #[derive(Debug, Clone, Args)]
 pub struct AnalysisArgs {
-    /// Sine fit: four (the frequency is found) or three (at --fin).
+    /// Sine fit: four (the frequency is found) or three (at --fin, which it then needs).
     #[arg(long, default_value = "four", value_parser = ["four", "three"])]
     pub fit: String,
     /// Window: auto, or one of rectangular, hann, blackman-harris-4, blackman-harris-7, hft90d,

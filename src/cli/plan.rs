@@ -20,10 +20,13 @@ pub struct PlanArgs {
     /// Sample rate in hertz (SI prefixes allowed: 100M).
     #[arg(long, value_parser = si_value)]
     pub fs: f64,
-    /// Record length N in samples. May be left out with --resolution: then N is the shortest power
-    /// of two that reaches it.
+    /// Record length N in samples, 4..=2^40. May be left out with --resolution: then N is the
+    /// shortest power of two that reaches it.
     #[arg(long)]
-    pub n: Option<usize>,
+    pub samples: Option<usize>,
+    /// The old name of --samples (warns).
+    #[arg(long = "n", hide = true, conflicts_with = "samples")]
+    pub n_old: Option<usize>,
     /// Target input frequencies in hertz: --fin 10M,21M or --fin 10M 21M.
     #[arg(long, value_parser = si_value, value_delimiter = ',', num_args = 1..)]
     pub fin: Vec<f64>,
@@ -107,7 +110,8 @@ enum Plans {
 }
 
 /// Runs `plan`.
-pub fn run(args: PlanArgs) -> i32 {
+pub fn run(mut args: PlanArgs) -> i32 {
+    args.samples = super::renamed(args.samples.take(), args.n_old.take(), "--n", "--samples");
     match go(&args) {
         Ok(text) => {
             print!("{text}");
@@ -134,13 +138,29 @@ fn go(args: &PlanArgs) -> Result<String, Error> {
             n => Some(n),
         },
     };
-    let samples = args.n.or(for_resolution).ok_or_else(|| {
+    let samples = args.samples.or(for_resolution).ok_or_else(|| {
         Error::setting(
-            "n",
-            "a record length: give --n, or --resolution for the N that reaches it",
+            "samples",
+            "a record length: give --samples, or --resolution for the N that reaches it",
             "none given",
         )
     })?;
+    // Checked here as well as in the library so that the message names the option the user typed.
+    if !(4..=spurline::MAX_PLAN_SAMPLES).contains(&samples) {
+        let (key, why) = if args.samples.is_some() {
+            ("samples", String::new())
+        } else {
+            ("resolution", " (the N that --resolution needs)".to_string())
+        };
+        return Err(Error::setting(
+            key,
+            format!(
+                "a record length in 4..={} samples (2^40){why}",
+                spurline::MAX_PLAN_SAMPLES
+            ),
+            samples.to_string(),
+        ));
+    }
     let ctx = Context {
         fs: args.fs,
         samples,

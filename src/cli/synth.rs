@@ -40,9 +40,12 @@ pub struct SynthArgs {
     /// White Gaussian noise before quantisation, codes rms.
     #[arg(long, default_value_t = 0.0)]
     pub noise_rms: f64,
-    /// A harmonic ORDER:DBC, e.g. 3:-80 (repeatable).
-    #[arg(long = "harmonic", value_parser = pair, allow_hyphen_values = true)]
+    /// Add a harmonic ORDER:DBC, e.g. 3:-80 (repeatable).
+    #[arg(long = "add-harmonic", value_parser = pair, allow_hyphen_values = true)]
     pub harmonics: Vec<(f64, f64)>,
+    /// The old name of --add-harmonic (warns).
+    #[arg(long = "harmonic", value_parser = pair, allow_hyphen_values = true, hide = true)]
+    pub harmonics_old: Vec<(f64, f64)>,
     /// A non-harmonic spur HZ:DBC, e.g. 7.3M:-95.
     #[arg(long, value_parser = pair, allow_hyphen_values = true)]
     pub spur: Option<(f64, f64)>,
@@ -75,7 +78,12 @@ fn pair(s: &str) -> Result<(f64, f64), String> {
 }
 
 /// Runs `synth`.
-pub fn run(args: SynthArgs) -> i32 {
+pub fn run(mut args: SynthArgs) -> i32 {
+    if !args.harmonics_old.is_empty() {
+        super::renamed(None, Some(()), "--harmonic", "--add-harmonic");
+        let old = std::mem::take(&mut args.harmonics_old);
+        args.harmonics.extend(old);
+    }
     match go(&args) {
         Ok(msg) => {
             println!("{msg}");
@@ -95,7 +103,7 @@ fn go(args: &SynthArgs) -> Result<String, Error> {
     for &(order, dbc) in &args.harmonics {
         if order < 2.0 || order.fract() != 0.0 || order > 1000.0 {
             return Err(Error::setting(
-                "harmonic",
+                "add-harmonic",
                 "an integer order 2..=1000",
                 order.to_string(),
             ));

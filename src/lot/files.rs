@@ -246,7 +246,7 @@ pub(crate) fn read_bytes(path: &Path, what: &str) -> Result<Vec<u8>> {
 
 /// A lot's (or a device's) `summary.csv`, read whole and parsed row by row ([`LotSummary::rows`]).
 /// Only `device` and `condition` columns are required, so that summaries put together by hand read
-/// too; the batch's other lead columns are optional. The summary of an `analyze --report` folder
+/// too; the batch's other lead columns are optional. The summary of an `analyze --out` folder
 /// (`device`, `record`) reads as a lot whose conditions are its record names.
 #[derive(Debug)]
 pub struct LotSummary {

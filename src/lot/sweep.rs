@@ -163,7 +163,9 @@ pub fn jitter_fit(points: &[(f64, f64)]) -> Option<(f64, f64)> {
 }
 
 fn summarize(device: &str, pts: &[&SweepPoint]) -> SweepSummary {
-    // The frequency sweep is taken at the most common amplitude (rounded to 0.1 dB).
+    // The frequency sweep is taken at the most common amplitude (rounded to 0.1 dB). Keys come from
+    // hand-editable cells: the casts saturate and ties go to the lowest key without negating it, so
+    // an absurd cell (-1e308) cannot overflow.
     let mut by_amp: BTreeMap<i64, usize> = BTreeMap::new();
     for p in pts {
         *by_amp
@@ -172,7 +174,7 @@ fn summarize(device: &str, pts: &[&SweepPoint]) -> SweepSummary {
     }
     let ref_amp = by_amp
         .iter()
-        .max_by_key(|(k, c)| (**c, -**k))
+        .max_by_key(|(k, c)| (**c, std::cmp::Reverse(**k)))
         .map(|(k, _)| *k)
         .unwrap_or(0);
     let at_ref: Vec<&&SweepPoint> = pts
@@ -195,7 +197,7 @@ fn summarize(device: &str, pts: &[&SweepPoint]) -> SweepSummary {
     }
     let ref_f = by_f
         .iter()
-        .max_by_key(|(k, c)| (**c, -**k))
+        .max_by_key(|(k, c)| (**c, std::cmp::Reverse(**k)))
         .map(|(k, _)| *k)
         .unwrap_or(0);
     let mut amp: Vec<(f64, f64)> = pts
@@ -312,7 +314,8 @@ fn key(v: f64, step: f64) -> i64 {
     (v / step).round() as i64
 }
 
-/// The most common key (the lowest on a tie).
+/// The most common key (the lowest on a tie; keys from hand-editable cells may be i64::MIN, so the
+/// tie-break reverses the order rather than negating).
 fn most_common(keys: impl Iterator<Item = i64>) -> Option<i64> {
     let mut count: BTreeMap<i64, usize> = BTreeMap::new();
     for k in keys {
@@ -320,7 +323,7 @@ fn most_common(keys: impl Iterator<Item = i64>) -> Option<i64> {
     }
     count
         .iter()
-        .max_by_key(|(k, c)| (**c, -**k))
+        .max_by_key(|(k, c)| (**c, std::cmp::Reverse(**k)))
         .map(|(k, _)| *k)
 }
 

@@ -18,7 +18,7 @@ pub use crate::dft::window::*;
 pub use coherence::Coherence;
 pub use leakage::LeakageDiagnosis;
 pub use metrics::{HarmonicFigure, Spur, DB_PER_BIT, SINE_CREST_DB};
-pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice};
+pub use rule::{choose_window, ideal_snr_db, tone_halfwidth, WindowChoice, MAX_GUARD_BINS};
 pub use uncertainty::{LevelUncertainty, PerHarmonic, SpectrumUncertainty};
 
 use crate::error::{Error, ErrorKind, Location, Result};
@@ -173,6 +173,7 @@ pub fn measure_consuming(
     settings: &SpectrumSettings,
     plan: Option<&fft::Plan>,
 ) -> Result<SpectrumOutput> {
+    rule::check_guard_bins(settings.guard_bins)?;
     let n = records.first().map_or(0, |r| r.len());
     let Some(fit) = fits.first().filter(|_| fits.len() == records.len()) else {
         return Err(Error::new(
@@ -344,37 +345,7 @@ pub fn measure_consuming(
             masked.join(", ")
         ));
     }
-    // A harmonic that folds within a bin of DC or of the fundamental is the same line and cannot be
-    // told apart by any window; one that lands a bin or more away is hidden only by the window's lobe,
-    // and leaving it out makes the distortion figures read better than the converter.
-    let lobed: Vec<String> = claims
-        .lines
-        .iter()
-        .enumerate()
-        .filter_map(|(i, l)| {
-            let by = l.masked_by?;
-            let owner_bin = match by {
-                Owner::Dc => 0.0,
-                Owner::Tone(t) => claims.tones[t as usize].bin,
-                Owner::Line(j) => claims.lines[j as usize].bin,
-                Owner::Noise => return None,
-            };
-            ((l.bin - owner_bin).abs() >= 1.0).then(|| {
-                format!(
-                    "H{} at bin {:.1} under the {}'s lobe",
-                    i + 2,
-                    l.bin,
-                    claims.name_of(by)
-                )
-            })
-        })
-        .collect();
-    if !lobed.is_empty() {
-        warnings.push(format!(
-            "{}: not measured, so THD, SFDR, SINAD and ENOB leave it out and are bounds (better than the converter may be); analyse a coherent record unwindowed, or use a window with a narrower main lobe (--window hann)",
-            lobed.join(", ")
-        ));
-    }
+    lobe_warnings(&claims, &measured, &mut warnings);
     if coherence.coherent {
         let j = coherence.cycles.round() as u64;
         let g = crate::freq::gcd(j, n as u64);
@@ -441,6 +412,116 @@ pub fn measure_consuming(
         owner: claims.owner,
         warnings,
     })
+}
+
+/// Lines closer than this (bins) are one line: an exact fold (a coherent record's harmonic on DC,
+/// on the fundamental or on another harmonic), whose powers add and are measured as one.
+const SAME_LINE_BINS: f64 = 1e-6;
+
+/// Warnings for harmonics that share bins with another line without landing exactly on it (a
+/// window's lobe, or a non-coherent fold within a bin). A masked harmonic is not measured, and its
+/// power sits in the bins of the line that masks it (whose level then includes it) and, where its
+/// lobe reaches past that line's bins, in the noise; two unmasked lines whose lobes meet each lose
+/// part of their lobe to the other. Exact folds are one line by definition and are only listed as
+/// masked. Every figure such a line can move is named, with the cause and the fix.
+fn lobe_warnings(
+    claims: &claim::Claims,
+    measured: &claim::Measurement,
+    warnings: &mut Vec<String>,
+) {
+    let half = claims.tone_halfwidth;
+    let last = claims.owner.len() - 1;
+    let label = |o: Owner| match o {
+        Owner::Dc => "DC".to_string(),
+        Owner::Tone(_) => "the fundamental".to_string(),
+        Owner::Line(j) => format!("H{}", j as u32 + 2),
+        Owner::Noise => "noise".to_string(),
+    };
+    let bin_of = |o: Owner| match o {
+        Owner::Dc => 0.0,
+        Owner::Tone(t) => claims.tones[t as usize].bin,
+        Owner::Line(j) => claims.lines[j as usize].bin,
+        Owner::Noise => f64::NAN,
+    };
+    let at_floor = |j: usize| measured.lines[j].is_none_or(|m| m.at_floor);
+    let mut named: Vec<String> = Vec::new();
+    let mut causes: Vec<String> = Vec::new();
+    let (mut fundamental, mut noise) = (false, false);
+    let name = |s: String, named: &mut Vec<String>| {
+        if !named.contains(&s) {
+            named.push(s);
+        }
+    };
+    for (i, l) in claims.lines.iter().enumerate() {
+        let me = Owner::Line(i as u16);
+        if let Some(by) = l.masked_by {
+            if by == Owner::Noise || (l.bin - bin_of(by)).abs() < SAME_LINE_BINS {
+                continue;
+            }
+            let span = l.centre.saturating_sub(half)..=(l.centre + half).min(last);
+            let spills = span.clone().any(|k| claims.owner[k] == Owner::Noise);
+            causes.push(format!(
+                "H{} at bin {:.1} under the {}'s lobe",
+                i + 2,
+                l.bin,
+                claims.name_of(by)
+            ));
+            name(format!("H{}", i + 2), &mut named);
+            match by {
+                Owner::Line(_) => name(label(by), &mut named),
+                Owner::Tone(_) => fundamental = true,
+                _ => {}
+            }
+            noise |= spills;
+            continue;
+        }
+        // An unmasked line whose lobe meets an earlier claim's bins: each holds part of the other.
+        let span = l.centre.saturating_sub(half)..=(l.centre + half).min(last);
+        let mut met: Option<Owner> = None;
+        for k in span {
+            let o = claims.owner[k];
+            if o != me && o != Owner::Noise {
+                met = Some(o);
+                break;
+            }
+        }
+        let Some(other) = met else { continue };
+        let other_floor = match other {
+            Owner::Line(j) => at_floor(j as usize),
+            _ => false,
+        };
+        if at_floor(i) && other_floor {
+            continue;
+        }
+        causes.push(format!(
+            "H{} at bin {:.1} shares bins with {} (bin {:.1})",
+            i + 2,
+            l.bin,
+            label(other),
+            bin_of(other)
+        ));
+        name(format!("H{}", i + 2), &mut named);
+        match other {
+            Owner::Line(_) => name(label(other), &mut named),
+            Owner::Tone(_) => fundamental = true,
+            _ => {}
+        }
+    }
+    if causes.is_empty() {
+        return;
+    }
+    let mut figures = named.join(", ");
+    if fundamental {
+        figures.push_str(", the fundamental level and the fit figures");
+    }
+    figures.push_str(", THD, SFDR, the worst spur, SINAD and ENOB");
+    if noise {
+        figures.push_str(", SNR, the noise floor and NSD");
+    }
+    warnings.push(format!(
+        "{}: these lines are not told apart by the window, so {figures} are bounds or mix the lines (better or worse than the converter); analyse a coherent record unwindowed, or use a window with a narrower main lobe (--window hann)",
+        causes.join(", ")
+    ));
 }
 
 /// The error for a spectrum whose lines claim every bin: DC's bins, the tone's and each harmonic's

@@ -49,6 +49,25 @@ pub const AUTO_LADDER: [Window; 3] = [
     Window::BlackmanHarris7,
 ];
 
+/// Most guard bins a tone may get on each side (`--guard-bins`, key `guard_bins`). No window needs
+/// more than a handful beyond its main lobe; 1000 on each side of every tone and harmonic would claim
+/// most of any record shorter than 2^16 samples, so a larger value is a slip, not a choice.
+pub const MAX_GUARD_BINS: usize = 1000;
+
+/// Checks a guard-bin count against 0..=[`MAX_GUARD_BINS`].
+///
+/// Errors: [`crate::error::ErrorKind::BadSetting`] on key `guard_bins`, naming the range.
+pub fn check_guard_bins(guard: Option<usize>) -> crate::error::Result<()> {
+    match guard {
+        Some(g) if g > MAX_GUARD_BINS => Err(crate::error::Error::setting(
+            "guard_bins",
+            format!("a guard-bin count in 0..={MAX_GUARD_BINS}"),
+            g.to_string(),
+        )),
+        _ => Ok(()),
+    }
+}
+
 /// Half-width of the bins given to each tone (main lobe plus guard bins) for a window.
 pub fn tone_halfwidth(window: Window, coherent: bool, guard: Option<usize>) -> usize {
     let null = window.null_halfwidth_bins();
@@ -58,7 +77,8 @@ pub fn tone_halfwidth(window: Window, coherent: bool, guard: Option<usize>) -> u
         (true, Some(a)) => a.len() - 1,
         _ => null.ceil() as usize,
     };
-    lobe + guard
+    // Saturating: callers check the guard first, but a half-width must never wrap.
+    lobe.saturating_add(guard)
 }
 
 /// Ideal quantisation SNR of an N-bit converter for a sine at `amplitude_dbfs`: 6.02N + 1.76 dB + level.

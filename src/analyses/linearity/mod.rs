@@ -393,6 +393,9 @@ pub fn normal_quantile(p: f64) -> Option<f64> {
     Some(0.5 * (lo + hi))
 }
 
+/// Smallest DNL uncertainty the sample-count advice plans for, LSB.
+const MIN_DNL_UNCERTAINTY_LSB: f64 = 0.001;
+
 fn check_advice_settings(settings: &LinearitySettings) -> Result<f64> {
     let c = settings.confidence;
     let z = if c.is_finite() && c > 0.0 && c < 1.0 {
@@ -408,10 +411,12 @@ fn check_advice_settings(settings: &LinearitySettings) -> Result<f64> {
         )
     })?;
     let b = settings.dnl_uncertainty_lsb;
-    if !(b.is_finite() && b > 0.0 && b <= 10.0) {
+    // Below 0.001 LSB the sample count (π·2^(N−1)·Z²/β²) passes 10^15 at 20 bits: no test takes
+    // that many, and the counts would leave the integers a u64 holds.
+    if !(b.is_finite() && (MIN_DNL_UNCERTAINTY_LSB..=10.0).contains(&b)) {
         return Err(Error::setting(
             "dnl_uncertainty_lsb",
-            "a DNL uncertainty in (0, 10] LSB",
+            format!("a DNL uncertainty in {MIN_DNL_UNCERTAINTY_LSB}..=10 LSB"),
             b.to_string(),
         ));
     }

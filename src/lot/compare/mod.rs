@@ -666,6 +666,13 @@ fn judge(
             ),
             false,
         ),
+        Err(NoTest::Overflow) => (
+            Change::NoTest,
+            "no test: the values are too large for the statistics (their mean or spread overflows \
+             a 64-bit float); check the summaries for hand-edited cells"
+                .to_string(),
+            false,
+        ),
         Err(NoTest::ZeroVariance) => {
             let (ma, mb) = (mean(a), mean(b));
             if ma == mb {
