@@ -4,10 +4,8 @@
 //! page, failing rows linked to their device's plots, and the page as a real browser builds it.
 
 use crate::batch::{make_lot, run_batch};
-use crate::report::{find_chromium, wait_or_kill};
 use std::collections::BTreeSet;
 use std::path::Path;
-use std::time::Duration;
 
 /// Every value of `attr="..."` in the page.
 fn attributes<'a>(page: &'a str, attr: &str) -> Vec<&'a str> {
@@ -209,50 +207,10 @@ fn the_lot_page_shows_yield_distributions_and_links_that_resolve() {
     );
 
     // The page as a browser builds it: every distribution drawn, no console message.
-    let Some(exe) = find_chromium() else {
-        assert!(
-            std::env::var_os("CI").is_none(),
-            "chromium is not on PATH, and CI is set: the lot page was not checked in a browser"
-        );
-        use std::io::Write as _;
-        let _ = writeln!(
-            std::io::stderr(),
-            "SKIPPED the lot page in a browser: chromium is not installed"
-        );
+    let Some((dom, console)) = crate::pages::browser_dom(&out.join("index.html")) else {
         return;
     };
-    let dom_file = p.join("dom.html");
-    let log_file = p.join("chromium.log");
-    let mut child = std::process::Command::new(exe)
-        .args([
-            "--headless",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--disable-background-networking",
-            "--disable-component-update",
-            "--disable-sync",
-            "--no-first-run",
-            "--enable-logging=stderr",
-            "--v=0",
-            "--dump-dom",
-        ])
-        .arg(format!("--user-data-dir={}", p.join("profile").display()))
-        .arg(format!("file://{}", out.join("index.html").display()))
-        .stdin(std::process::Stdio::null())
-        .stdout(std::fs::File::create(&dom_file).unwrap())
-        .stderr(std::fs::File::create(&log_file).unwrap())
-        .spawn()
-        .expect("chromium starts");
-    assert!(
-        wait_or_kill(&mut child, Duration::from_secs(60)),
-        "chromium failed"
-    );
-    let dom = std::fs::read_to_string(&dom_file).unwrap();
     assert!(dom.contains("<table id=\"yields\">") && dom.contains("<table id=\"lot\">"));
     assert_eq!(dom.matches("<svg").count(), per_metric.len());
-    let log = std::fs::read_to_string(&log_file).unwrap();
-    assert!(
-        !log.lines().any(|l| l.contains("CONSOLE")),
-        "console messages: {log}"
-    );
+    assert!(console.is_empty(), "console messages: {console:?}");
 }
